@@ -1,0 +1,26 @@
+"""The one exception type for user mistakes.
+
+Anything the user can fix (a wrong key, a bad unit, a mesh that does not match the case) is
+raised as :class:`InputError`; the command line prints it as one line and exits with status 2.
+Every other exception is a bug in femcav and keeps its traceback.
+"""
+
+from __future__ import annotations
+
+
+class InputError(Exception):
+    """A mistake in the user's input, located by source (a file) and field (a key path)."""
+
+    def __init__(self, message: str, *, source: str | None = None, field: str | None = None):
+        super().__init__(message)
+        self.message = message
+        self.source = source
+        self.field = field
+
+    def located(self, *, source: str | None = None, field: str | None = None) -> "InputError":
+        """The same error with a source or field filled in where it was still unknown."""
+        return InputError(self.message, source=self.source or source, field=self.field or field)
+
+    def __str__(self) -> str:
+        where = ": ".join(part for part in (self.source, self.field) if part)
+        return f"{where}: {self.message}" if where else self.message

@@ -1,0 +1,124 @@
+"""The discrete space: lowest-order Nédélec edge elements on the model's mesh, with the
+essential walls of the chosen field form removed and the coefficients of the form evaluated
+at the quadrature points."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.csgraph import connected_components
+
+from ..errors import InputError
+from ..model import FORMS, Model
+from ..walls import essential_kind
+
+
+@dataclass(frozen=True)
+class EdgeSpace:
+    """Everything assembly and post-processing need to know about the discretisation.
+
+    ``stiffness_coef`` and ``mass_coef`` hold the coefficients of the form at the quadrature
+    points (n_elements, n_points): 1/mu_r and eps_r in the E form, 1/eps_r and mu_r in the H
+    form. ``free`` are the edge DOFs that remain after the essential walls; ``free_nodes`` the
+    nodes of the matching scalar (gradient) space.
+    """
+
+    model: Model
+    form: str
+    mesh: object                 # skfem.MeshTet
+    basis: object                # skfem.Basis on ElementTetN1 (the lowest-order Nédélec)
+    free: np.ndarray
+    free_nodes: np.ndarray
+    stiffness_coef: np.ndarray
+    mass_coef: np.ndarray
+    facet_wall: dict[int, str]   # boundary facet index -> wall name ("" for unnamed)
+
+    @property
+    def n_dofs(self) -> int:
+        return int(self.free.size)
+
+
+def build_space(model: Model, form: str = "E") -> EdgeSpace:
+    from skfem import Basis, ElementTetN1, MeshTet
+
+    if form not in FORMS:
+        raise InputError(f"unknown field form {form!r}; allowed: {', '.join(FORMS)}",
+                         field="solve.form")
+    tm = model.mesh
+    mesh = MeshTet(np.ascontiguousarray(tm.points.T), np.ascontiguousarray(tm.tets.T))
+    uniform = all(m.is_uniform for m in model.materials.values())
+    basis = Basis(mesh, ElementTetN1(), intorder=2 if uniform else 4)
+
+    facet_wall = _name_boundary_facets(model, mesh)
+    essential = essential_kind(form)
+    essential_facets = np.array([f for f, name in facet_wall.items()
+                                 if model.wall_kind(name) == essential], dtype=np.int64)
+    fixed = (basis.get_dofs(facets=essential_facets).all() if essential_facets.size
+             else np.zeros(0, dtype=np.int64))
+    free = np.setdiff1d(np.arange(basis.N), fixed)
+    fixed_nodes = np.unique(mesh.facets[:, essential_facets]) if essential_facets.size else []
+    free_nodes = _ground(mesh, np.setdiff1d(np.arange(mesh.nvertices), fixed_nodes))
+
+    eps, mu = _coefficients(model, basis)
+    stiffness_coef, mass_coef = (1.0 / mu, eps) if form == "E" else (1.0 / eps, mu)
+    return EdgeSpace(model=model, form=form, mesh=mesh, basis=basis, free=free,
+                     free_nodes=free_nodes, stiffness_coef=stiffness_coef, mass_coef=mass_coef,
+                     facet_wall=facet_wall)
+
+
+def _name_boundary_facets(model: Model, mesh) -> dict[int, str]:
+    """Wall name of every boundary facet; "" for a facet no surface group names."""
+    boundary = mesh.boundary_facets()
+    index = {tuple(mesh.facets[:, f]): int(f) for f in boundary}
+    names = {v: k for k, v in model.mesh.wall_names.items()}
+    facet_wall = {int(f): "" for f in boundary}
+    on_boundary: dict[str, int] = {}
+    for tri, tag in zip(np.sort(model.mesh.faces, axis=1), model.mesh.face_tag):
+        facet = index.get(tuple(tri))
+        if facet is not None:
+            facet_wall[facet] = names[int(tag)]
+            on_boundary[names[int(tag)]] = on_boundary.get(names[int(tag)], 0) + 1
+    for name in model.walls:
+        if name not in on_boundary:
+            raise InputError(f"the surface {name!r} is inside the mesh, not on its boundary; "
+                             "a wall condition needs a boundary surface", field=f"walls.{name}")
+    return facet_wall
+
+
+def _ground(mesh, nodes: np.ndarray) -> np.ndarray:
+    """Drop one node of every connected piece that no essential wall touches.
+
+    A constant potential has no gradient, so without an essential wall the scalar space has
+    one null vector per piece; removing one node per such piece leaves the range of the
+    discrete gradient unchanged and makes G^T M G invertible.
+    """
+    n = mesh.nvertices
+    t = mesh.t
+    rows = np.repeat(t, t.shape[0], axis=0).ravel()
+    cols = np.tile(t, (t.shape[0], 1)).ravel()
+    graph = sp.coo_matrix((np.ones(rows.size), (rows, cols)), shape=(n, n))
+    _, label = connected_components(graph, directed=False)
+    keep = np.ones(n, dtype=bool)
+    is_free = np.zeros(n, dtype=bool)
+    is_free[nodes] = True
+    for piece in np.unique(label):
+        members = np.flatnonzero(label == piece)
+        if np.all(is_free[members]):
+            keep[members[0]] = False
+    return nodes[keep[nodes]]
+
+
+def _coefficients(model: Model, basis) -> tuple[np.ndarray, np.ndarray]:
+    """eps_r and mu_r at the quadrature points, shape (n_elements, n_points)."""
+    x = basis.mapping.F(basis.X)  # (3, n_elements, n_points)
+    eps = np.empty(x.shape[1:])
+    mu = np.empty(x.shape[1:])
+    tm = model.mesh
+    for name, region_id in tm.region_names.items():
+        material = model.materials[name]
+        rows = tm.tet_region == region_id
+        eps[rows] = material.eps_at(x[0][rows], x[1][rows], x[2][rows])
+        mu[rows] = material.mu_r
+    return eps, mu

@@ -1,0 +1,45 @@
+"""The tagged tetrahedral mesh: the plain data object between geometry and model."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+
+@dataclass(frozen=True)
+class TaggedMesh:
+    """A tetrahedral mesh in metres with named volume regions and named surface patches.
+
+    ``tet_region[i]`` is the region id of tetrahedron ``i``; ``region_names`` maps names to
+    ids. ``faces`` are the triangles of named surfaces (walls) with ids in ``face_tag``,
+    named by ``wall_names``. Faces on the boundary that carry no name are not listed.
+    """
+
+    points: np.ndarray          # (n_points, 3) float, metres
+    tets: np.ndarray            # (n_tets, 4) int
+    tet_region: np.ndarray      # (n_tets,) int
+    region_names: dict[str, int]
+    faces: np.ndarray           # (n_faces, 3) int
+    face_tag: np.ndarray        # (n_faces,) int
+    wall_names: dict[str, int]
+    source: str = "<memory>"
+    notes: tuple[str, ...] = field(default=())
+
+    @property
+    def n_tets(self) -> int:
+        return int(self.tets.shape[0])
+
+    def region_of_tets(self) -> np.ndarray:
+        """Region names per tetrahedron (array of str)."""
+        names = {v: k for k, v in self.region_names.items()}
+        return np.array([names[i] for i in self.tet_region])
+
+    def tet_volumes(self) -> np.ndarray:
+        p = self.points[self.tets]
+        return np.einsum("ij,ij->i", np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]),
+                         p[:, 3] - p[:, 0]) / 6.0
+
+    def bounding_size(self) -> float:
+        """The largest extent of the mesh along x, y or z, metres."""
+        return float(np.max(self.points.max(axis=0) - self.points.min(axis=0)))

@@ -1,0 +1,57 @@
+"""The model: a tagged mesh with a material on every region and a kind on every wall."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from .errors import InputError
+from .geometry.mesh import TaggedMesh
+from .materials import Material
+from .walls import DEFAULT_KIND, KINDS, Wall
+
+FORMS = ("E", "H")
+
+
+@dataclass(frozen=True)
+class Model:
+    mesh: TaggedMesh
+    materials: dict[str, Material]
+    walls: dict[str, Wall] = field(default_factory=dict)
+
+    def wall_kind(self, wall_name: str) -> str:
+        return self.walls.get(wall_name, Wall(DEFAULT_KIND)).kind
+
+
+def make_model(mesh: TaggedMesh, materials: dict[str, Material], walls: dict[str, Wall],
+               *, source: str | None = None) -> Model:
+    """Check that case and mesh name the same regions and existing walls, then pair them."""
+    missing = sorted(set(materials) - set(mesh.region_names))
+    if missing:
+        raise InputError(f"the mesh has no region {', '.join(map(repr, missing))}; its regions "
+                         f"are {_listing(mesh.region_names)}", source=source,
+                         field=f"regions.{missing[0]}")
+    unset = sorted(set(mesh.region_names) - set(materials))
+    if unset:
+        raise InputError(f"the mesh region(s) {', '.join(map(repr, unset))} have no material; "
+                         f"add [regions.{unset[0]}] with eps_r", source=source, field="regions")
+    unknown_walls = sorted(set(walls) - set(mesh.wall_names))
+    if unknown_walls:
+        raise InputError(f"the mesh has no surface named {unknown_walls[0]!r}; its named "
+                         f"surfaces are {_listing(mesh.wall_names)}", source=source,
+                         field=f"walls.{unknown_walls[0]}")
+    for name, wall in walls.items():
+        if wall.kind not in KINDS:
+            raise InputError(f"unknown wall kind {wall.kind!r}; allowed: {', '.join(KINDS)}",
+                             source=source, field=f"walls.{name}.kind")
+    for name, material in materials.items():
+        region_id = mesh.region_names[name]
+        points = mesh.points[mesh.tets[mesh.tet_region == region_id].reshape(-1)]
+        try:
+            material.check(points, field=f"regions.{name}")
+        except InputError as exc:
+            raise exc.located(source=source) from None
+    return Model(mesh=mesh, materials=dict(materials), walls=dict(walls))
+
+
+def _listing(names) -> str:
+    return ", ".join(repr(n) for n in sorted(names)) or "(none)"

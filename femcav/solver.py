@@ -1,0 +1,109 @@
+"""From a model to a checked list of modes: space, assembly, deflated eigen solve, checks."""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.constants import c as C0
+
+from .eigen import shift_invert
+from .eigen.factorization import get_factorizer
+from .eigen.interface import EigenRequest
+from .errors import InputError
+from .fem.assembly import assemble, restrict
+from .fem.gradient import GradientProjector, discrete_gradient
+from .fem.space import EdgeSpace, build_space
+from .model import Model
+from .post.checks import ModeChecks, check_modes
+from .progress import SILENT, Progress
+
+# An eigenvalue below this fraction of the lowest-mode scale (π/L)²/(ε_max μ_max) is a static
+# field, not a resonance: on domains with holes or floating conductors a few curl-free
+# fields are not gradients of a potential that vanishes on the walls, so deflation keeps them.
+STATIC_FRACTION = 1e-6
+
+
+@dataclass(frozen=True)
+class Mode:
+    index: int              # 1-based, in frequency order
+    frequency_hz: float
+    k0_squared: float       # 1/m²
+    checks: ModeChecks
+    dofs: np.ndarray        # over all edges of the mesh, M-normalised
+
+
+@dataclass(frozen=True)
+class SolveResult:
+    modes: list[Mode]
+    space: EdgeSpace
+    dofs: int
+    elements: int
+    static_fields_dropped: int
+    timings: dict[str, float]
+    eigen_stats: dict = field(default_factory=dict)
+    request: EigenRequest | None = None
+
+    @property
+    def passed(self) -> bool:
+        return all(m.checks.passed for m in self.modes)
+
+
+def frequency_to_k0_squared(f_hz: float) -> float:
+    return (2 * math.pi * f_hz / C0) ** 2
+
+
+def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, form: str = "E",
+                factorization: str = "superlu", progress: Progress = SILENT) -> SolveResult:
+    if not isinstance(modes, int) or modes < 1:
+        raise InputError(f"the number of modes must be a whole number >= 1, got {modes!r}",
+                         field="solve.modes")
+    if near_hz is not None and not near_hz > 0:
+        raise InputError(f"the target frequency must be positive, got {near_hz!r} Hz",
+                         field="solve.near")
+    timings = {}
+    t0 = time.perf_counter()
+    space = build_space(model, form)
+    K_all, M_all = assemble(space)
+    K, M = restrict(K_all, space.free), restrict(M_all, space.free)
+    G = discrete_gradient(space.mesh)[space.free][:, space.free_nodes]
+    timings["assembly_s"] = time.perf_counter() - t0
+    progress.step(f"assembled {form} form: {space.n_dofs} DOFs, {space.mesh.nelements} "
+                  f"tetrahedra, {space.free_nodes.size} gradient DOFs")
+    if space.n_dofs < modes + 2:
+        raise InputError(f"the mesh has only {space.n_dofs} free DOFs, too few for {modes} "
+                         "modes; refine the mesh", field="solve.modes")
+
+    factorize = get_factorizer(factorization)
+    t0 = time.perf_counter()
+    projector = GradientProjector(M, G, factorize)
+    # In either form mass_coef.max() / stiffness_coef.min() is eps_max * mu_max.
+    scale = ((math.pi / model.mesh.bounding_size()) ** 2
+             / (space.mass_coef.max() / space.stiffness_coef.min()))
+    request = EigenRequest(count=modes,
+                           target=None if near_hz is None else frequency_to_k0_squared(near_hz))
+    pairs = shift_invert.solve(K, M, projector, request, factorize, lowest_scale=scale,
+                               progress=progress)
+    timings["eigen_s"] = time.perf_counter() - t0
+
+    static = pairs.values < STATIC_FRACTION * scale
+    values, vectors = pairs.values[~static], pairs.vectors[:, ~static]
+    if request.target is None:
+        keep = np.arange(min(modes, values.size))
+    else:
+        distance = np.abs(np.sqrt(np.maximum(values, 0)) - math.sqrt(request.target))
+        keep = np.sort(np.argsort(distance, kind="stable")[:modes])
+    values, vectors = values[keep], vectors[:, keep]
+    checks = check_modes(K, M, projector, values, vectors)
+
+    full = np.zeros((K_all.shape[0], values.size))
+    full[space.free] = vectors
+    result_modes = [Mode(index=i + 1, frequency_hz=C0 * math.sqrt(max(v, 0.0)) / (2 * math.pi),
+                         k0_squared=float(v), checks=ch, dofs=full[:, i])
+                    for i, (v, ch) in enumerate(zip(values, checks))]
+    progress.step(f"eigen solve done: {len(result_modes)} modes in {timings['eigen_s']:.2f} s")
+    return SolveResult(modes=result_modes, space=space, dofs=space.n_dofs,
+                       elements=int(space.mesh.nelements), static_fields_dropped=int(static.sum()),
+                       timings=timings, eigen_stats=pairs.stats, request=request)
