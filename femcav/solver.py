@@ -45,6 +45,7 @@ class SolveResult:
     timings: dict[str, float]
     eigen_stats: dict = field(default_factory=dict)
     request: EigenRequest | None = None
+    near_hz: float | None = None
 
     @property
     def passed(self) -> bool:
@@ -106,4 +107,5 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     progress.step(f"eigen solve done: {len(result_modes)} modes in {timings['eigen_s']:.2f} s")
     return SolveResult(modes=result_modes, space=space, dofs=space.n_dofs,
                        elements=int(space.mesh.nelements), static_fields_dropped=int(static.sum()),
-                       timings=timings, eigen_stats=pairs.stats, request=request)
+                       timings=timings, eigen_stats=pairs.stats, request=request,
+                       near_hz=near_hz)

@@ -24,7 +24,8 @@ def nested_dissection(A) -> np.ndarray:
     graph.setdiag(0)
     graph.eliminate_zeros()
     graph.sort_indices()
-    perm, _ = pymetis.nested_dissection(xadj=graph.indptr, adjncy=graph.indices)
+    adjacency = pymetis.CSRAdjacency(adj_starts=graph.indptr, adjacent=graph.indices)
+    perm, _ = pymetis.nested_dissection(adjacency=adjacency)
     return np.asarray(perm, dtype=np.int64)
 
 

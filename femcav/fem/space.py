@@ -121,4 +121,7 @@ def _coefficients(model: Model, basis) -> tuple[np.ndarray, np.ndarray]:
         rows = tm.tet_region == region_id
         eps[rows] = material.eps_at(x[0][rows], x[1][rows], x[2][rows])
         mu[rows] = material.mu_r
+        if not np.all(np.isfinite(eps[rows]) & (eps[rows] > 0)):
+            raise InputError("eps_r must be positive and finite everywhere in the region; "
+                             "it is not at some quadrature points", field=f"regions.{name}.eps_r")
     return eps, mu

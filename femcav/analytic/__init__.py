@@ -1,0 +1,1 @@
+"""Closed-form and independently computed reference spectra, used by tests and benchmarks."""

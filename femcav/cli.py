@@ -1,0 +1,78 @@
+"""The femcav command line."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from . import __version__
+from .errors import InputError
+
+EXIT_INPUT_ERROR = 2
+EXIT_CHECKS_FAILED = 3
+
+
+def _parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="femcav",
+        description="Resonant modes of closed microwave cavities by finite elements.",
+        epilog="Exit status: 0 success, 2 a mistake in the input, 3 a mode failed its checks.")
+    parser.add_argument("--version", action="version", version=f"femcav {__version__}")
+    commands = parser.add_subparsers(dest="command", metavar="COMMAND", title="commands")
+    solve = commands.add_parser(
+        "solve", help="find the resonant modes of a case file and write the result files",
+        description="Find the resonant modes of CASE and write table.txt, modes.csv, "
+                    "modes.json and fields.vtu into the output folder.")
+    solve.add_argument("case", metavar="CASE.toml", help="the case file")
+    solve.add_argument("--out", metavar="DIR",
+                       help="output folder (default: CASE-results next to the case file)")
+    solve.add_argument("--modes", metavar="N", type=int, help="how many modes (overrides the case)")
+    solve.add_argument("--near", metavar="FREQ",
+                       help='find the modes nearest this frequency, e.g. "4.8 GHz"')
+    solve.add_argument("--form", choices=("E", "H"), help="field form (overrides the case)")
+    solve.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = _parser().parse_args(argv)
+    if args.command is None:
+        _parser().print_help()
+        return EXIT_INPUT_ERROR
+    try:
+        return _solve(args)
+    except InputError as exc:
+        print(f"femcav: error: {exc}", file=sys.stderr)
+        return EXIT_INPUT_ERROR
+
+
+def _solve(args) -> int:
+    from .progress import Progress
+    from .runner import run_case
+    from .units import format_frequency, parse_quantity
+
+    near_hz = None if args.near is None else parse_quantity(args.near, "frequency",
+                                                            field="--near")
+    if args.modes is not None and args.modes < 1:
+        raise InputError(f"must be a whole number >= 1, got {args.modes}", field="--modes")
+    case, result, folder = run_case(args.case, out=args.out, modes=args.modes, near_hz=near_hz,
+                                    form=args.form, progress=Progress(quiet=args.quiet))
+    from .io.results import to_table
+
+    what = (f"{len(result.modes)} modes nearest {format_frequency(near_hz or case.solve.near_hz)}"
+            if (near_hz or case.solve.near_hz) else f"lowest {len(result.modes)} modes")
+    print(f"{case.title}: {what}, {result.space.form} form, {result.dofs} DOFs, "
+          f"{result.elements} tetrahedra")
+    print(to_table(result))
+    if result.static_fields_dropped:
+        print(f"({result.static_fields_dropped} static field(s) at zero frequency left out)")
+    print(f"results: {folder}")
+    if not result.passed:
+        print("femcav: warning: at least one mode FAILED its checks; do not trust those "
+              "frequencies (see the check column)", file=sys.stderr)
+        return EXIT_CHECKS_FAILED
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

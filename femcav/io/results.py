@@ -1,0 +1,67 @@
+"""The mode table as terminal text, CSV and JSON.
+
+modes.json is a stable, documented format (README, "Output files"): top-level keys
+``format``, ``title``, ``case``, ``form``, ``dofs``, ``elements``, ``request``,
+``static_fields_dropped``, ``checks_passed``, ``limits``, ``timings_s`` and ``modes``; each mode
+has ``index``, ``frequency_hz``, ``k0_squared_per_m2``, ``residual``, ``divergence``,
+``orthogonality`` and ``passed``.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+
+from ..post import checks
+from ..solver import SolveResult
+from ..units import format_frequency
+
+FORMAT_NAME = "femcav-modes"
+FORMAT_VERSION = 1
+CSV_COLUMNS = ("index", "frequency_hz", "residual", "divergence", "orthogonality", "passed")
+
+
+def mode_rows(result: SolveResult) -> list[dict]:
+    return [{"index": m.index, "frequency_hz": m.frequency_hz, "k0_squared_per_m2": m.k0_squared,
+             "residual": m.checks.residual, "divergence": m.checks.divergence,
+             "orthogonality": m.checks.orthogonality, "passed": m.checks.passed}
+            for m in result.modes]
+
+
+def to_json(result: SolveResult, *, title: str, case: str | None) -> str:
+    request = result.request
+    document = {
+        "format": FORMAT_NAME, "format_version": FORMAT_VERSION, "title": title, "case": case,
+        "form": result.space.form, "dofs": result.dofs, "elements": result.elements,
+        "request": {"modes": request.count if request else len(result.modes),
+                    "near_hz": result.near_hz},
+        "static_fields_dropped": result.static_fields_dropped,
+        "checks_passed": result.passed,
+        "limits": {"residual": checks.RESIDUAL_LIMIT, "divergence": checks.DIVERGENCE_LIMIT,
+                   "orthogonality": checks.ORTHOGONALITY_LIMIT},
+        "timings_s": result.timings,
+        "modes": mode_rows(result),
+    }
+    return json.dumps(document, indent=2) + "\n"
+
+
+def to_csv(result: SolveResult) -> str:
+    out = io.StringIO()
+    writer = csv.DictWriter(out, fieldnames=CSV_COLUMNS, extrasaction="ignore",
+                            lineterminator="\n")
+    writer.writeheader()
+    for row in mode_rows(result):
+        writer.writerow({**row, "frequency_hz": repr(row["frequency_hz"])})
+    return out.getvalue()
+
+
+def to_table(result: SolveResult) -> str:
+    lines = [f"{'mode':>4}  {'frequency':>16}  {'residual':>9}  {'divergence':>10}  "
+             f"{'orthogonality':>13}  check"]
+    for m in result.modes:
+        c = m.checks
+        status = "ok" if c.passed else "FAILED: " + "; ".join(c.failures())
+        lines.append(f"{m.index:>4}  {format_frequency(m.frequency_hz, 7):>16}  "
+                     f"{c.residual:9.1e}  {c.divergence:10.1e}  {c.orthogonality:13.1e}  {status}")
+    return "\n".join(lines)

@@ -1,0 +1,41 @@
+"""Meshes for the tests, written as gmsh .msh files so they also exercise mesh import."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from femcav.geometry.gmsh_session import faces_by_bounds, gmsh_model
+
+
+def box_with_blocks(path: Path, size: tuple[float, float, float],
+                    blocks: dict[str, tuple[float, float, float, float, float, float]],
+                    mesh_size: float, msh_version: float = 4.1) -> Path:
+    """A box 0..size with rectangular blocks (x0, y0, z0, dx, dy, dz) as named regions.
+
+    The rest of the box is region "air"; the outer faces are walls x_min ... z_max.
+    """
+    a, b, d = size
+    with gmsh_model("blocks") as gmsh:
+        occ = gmsh.model.occ
+        outer = occ.addBox(0, 0, 0, a, b, d)
+        inner = {name: occ.addBox(*spec) for name, spec in blocks.items()}
+        _, children = occ.fragment([(3, outer)], [(3, t) for t in inner.values()])
+        occ.synchronize()
+        block_tags = {name: [t for _, t in children[i + 1]] for i, name in enumerate(inner)}
+        taken = {t for tags in block_tags.values() for t in tags}
+        air = [t for _, t in children[0] if t not in taken]
+        gmsh.model.addPhysicalGroup(3, air, name="air")
+        for name, tags in block_tags.items():
+            gmsh.model.addPhysicalGroup(3, tags, name=name)
+        tol = 1e-4 * max(size)
+        for axis, axis_name in enumerate("xyz"):
+            for side, at in (("min", 0.0), ("max", size[axis])):
+                tags = faces_by_bounds(gmsh, lambda bb, i=axis, v=at:
+                                       abs(bb[i] - v) < tol and abs(bb[i + 3] - v) < tol)
+                gmsh.model.addPhysicalGroup(2, tags, name=f"{axis_name}_{side}")
+        gmsh.option.setNumber("Mesh.MeshSizeMax", mesh_size)
+        gmsh.option.setNumber("Mesh.Algorithm3D", 1)
+        gmsh.model.mesh.generate(3)
+        gmsh.option.setNumber("Mesh.MshFileVersion", msh_version)
+        gmsh.write(str(path))
+    return path
