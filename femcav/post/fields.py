@@ -45,7 +45,7 @@ def mode_fields(space: EdgeSpace, dofs: np.ndarray, omega: float,
 
     centroid = Basis(space.mesh, ElementTetN1(), intorder=1)
     field = centroid.interpolate(dofs)
-    value = field.value[:, :, 0].T
+    value = np.asarray(field)[:, :, 0].T
     curl = field.curl[:, :, 0].T
     eps, mu = materials if materials is not None else centroid_materials(space)
     if space.form == "E":
