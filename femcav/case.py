@@ -79,12 +79,12 @@ def load_case(path: str | Path) -> Case:
 
 def build_mesh(case: Case) -> TaggedMesh:
     g = case.geometry
-    try:
-        if g.mesh_path is not None:
-            return read_mesh(g.mesh_path, scale=g.mesh_unit_m)
+    if g.mesh_path is None:
         return BUILDERS[g.builder].build(**g.parameters)
-    except InputError as exc:
-        raise exc.located(source=str(case.path), field="geometry") from None
+    if not g.mesh_path.is_file():
+        raise InputError(f"mesh file {str(g.mesh_path)!r} not found", source=str(case.path),
+                         field="geometry.mesh")
+    return read_mesh(g.mesh_path, scale=g.mesh_unit_m)  # its errors name the mesh file
 
 
 def case_model(case: Case, mesh: TaggedMesh | None = None) -> Model:

@@ -7,6 +7,8 @@ cell-data array found), named by their number.
 
 from __future__ import annotations
 
+import contextlib
+import io
 from pathlib import Path
 
 import numpy as np
@@ -24,11 +26,7 @@ def read_mesh(path: str | Path, *, scale: float = 1.0) -> TaggedMesh:
     path = Path(path)
     if not path.is_file():
         raise InputError("mesh file not found", source=str(path))
-    try:
-        raw = meshio.read(path)
-    except Exception as exc:  # meshio raises many types for unreadable files
-        raise InputError(f"meshio cannot read this file ({type(exc).__name__}: {exc})",
-                         source=str(path)) from None
+    raw = _read_with_meshio(path)
 
     tag_key = next((k for k in _TAG_KEYS if k in raw.cell_data), None)
     names_by_dim: dict[int, dict[int, str]] = {2: {}, 3: {}}
@@ -77,6 +75,30 @@ def read_mesh(path: str | Path, *, scale: float = 1.0) -> TaggedMesh:
     return TaggedMesh(points=points[:, :3], tets=inverse.reshape(tets.shape), tet_region=tet_tags,
                       region_names=region_names, faces=faces[keep], face_tag=face_tags[keep],
                       wall_names=wall_names, source=str(path))
+
+
+def _read_with_meshio(path: Path):
+    """meshio.read, with the format of a .msh file settled first and meshio's own exits caught.
+
+    For an extension that several formats share, meshio tries each in turn, prints the
+    failures to stdout and calls sys.exit when none fits; a gmsh file announces itself on its
+    first line, so we name the format instead.
+    """
+    import meshio
+
+    file_format = None
+    if path.suffix.lower() == ".msh":
+        with open(path, "rb") as handle:
+            file_format = "gmsh" if handle.read(11) == b"$MeshFormat" else "ansys"
+    said = io.StringIO()
+    try:
+        with contextlib.redirect_stdout(said), contextlib.redirect_stderr(said):
+            return meshio.read(path, file_format=file_format)
+    except (Exception, SystemExit) as exc:  # meshio raises many types for unreadable files
+        reason = " ".join(said.getvalue().split()) if isinstance(exc, SystemExit) else (
+            f"{type(exc).__name__}: {exc}")
+        detail = f" ({reason})" if reason else ""
+        raise InputError(f"meshio cannot read this file{detail}", source=str(path)) from None
 
 
 def _name(names: dict[int, str], tag: int, kind: str) -> str:
