@@ -22,10 +22,11 @@ from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
 
-def _end_value(k0: float, eps: Callable[[float], float], a: float, beta: float) -> float:
+def _end_value(k0: float, eps: Callable[[float], float], a: float, beta: float,
+               rtol: float = 1e-12) -> float:
     def rhs(x, u):
         return [u[1], (beta**2 - k0**2 * eps(x)) * u[0]]
-    sol = solve_ivp(rhs, (0.0, a), [0.0, 1.0], method="DOP853", rtol=1e-12, atol=1e-14)
+    sol = solve_ivp(rhs, (0.0, a), [0.0, 1.0], method="DOP853", rtol=rtol, atol=1e-14 * a)
     return float(sol.y[0, -1])
 
 
@@ -35,8 +36,10 @@ def graded_te_m0p_frequencies(eps: Callable[[float], float], a: float, d: float,
     beta = p * math.pi / d
     k_lo = beta / math.sqrt(eps_max)
     k_hi = math.hypot((count + 1) * math.pi / a, beta) / math.sqrt(eps_min)
-    grid = np.linspace(k_lo, k_hi, 400)
-    values = [_end_value(k, eps, a, beta) for k in grid]
+    # Bracket the roots on a grid with a looser tolerance (only signs matter there), then
+    # refine each with the tight one.
+    grid = np.linspace(k_lo, k_hi, 60 * (count + 1))
+    values = [_end_value(k, eps, a, beta, rtol=1e-7) for k in grid]
     roots = []
     for k1, k2, v1, v2 in zip(grid[:-1], grid[1:], values[:-1], values[1:]):
         if v1 * v2 < 0:
