@@ -39,3 +39,26 @@ def box_with_blocks(path: Path, size: tuple[float, float, float],
         gmsh.option.setNumber("Mesh.MshFileVersion", msh_version)
         gmsh.write(str(path))
     return path
+
+
+def box_with_rod(path: Path, size: tuple[float, float, float], rod_radius: float,
+                 mesh_size: float) -> Path:
+    """A box 0..size with a metal rod of ``rod_radius`` along z through its centre, removed
+    from the mesh: a shorted coaxial line with a square outer conductor. Region "gap"; the rod
+    surface is the wall "rod", the outer faces stay unnamed (PEC)."""
+    a, b, d = size
+    with gmsh_model("rod") as gmsh:
+        occ = gmsh.model.occ
+        outer = occ.addBox(0, 0, 0, a, b, d)
+        rod = occ.addCylinder(a / 2, b / 2, 0, 0, 0, d, rod_radius)
+        cut, _ = occ.cut([(3, outer)], [(3, rod)])
+        occ.synchronize()
+        gmsh.model.addPhysicalGroup(3, [t for _, t in cut], name="gap")
+        tol = 1e-4 * max(size)
+        curved = faces_by_bounds(gmsh, lambda bb: bb[0] > tol and bb[3] < a - tol)
+        gmsh.model.addPhysicalGroup(2, curved, name="rod")
+        gmsh.option.setNumber("Mesh.MeshSizeMax", mesh_size)
+        gmsh.option.setNumber("Mesh.Algorithm3D", 1)
+        gmsh.model.mesh.generate(3)
+        gmsh.write(str(path))
+    return path

@@ -58,3 +58,15 @@ def test_graded_permittivity_box():
                                for p in (1, 2, 3)], len(computed))
     assert len(computed) >= 3
     np.testing.assert_allclose(computed, reference, rtol=2e-3)
+
+
+def test_python_callable_permittivity_equals_expression():
+    mesh = box.build(A, B, D, mesh_size=0.004)
+    text = "1.5 + sin(pi*x/0.02286)"
+    by_text = solve_model(make_model(mesh, {"inside": Material(eps_r=Expression(text))}, {}),
+                          modes=3)
+    by_callable = solve_model(make_model(
+        mesh, {"inside": Material(eps_r=lambda x, y, z: 1.5 + np.sin(np.pi * x / A))}, {}),
+        modes=3)
+    np.testing.assert_allclose([m.frequency_hz for m in by_callable.modes],
+                               [m.frequency_hz for m in by_text.modes], rtol=1e-10)
