@@ -47,6 +47,7 @@ def main(argv: list[str] | None = None) -> int:
 
 
 def _solve(args) -> int:
+    from .io.results import to_table
     from .progress import Progress
     from .runner import run_case
     from .units import format_frequency, parse_quantity
@@ -57,10 +58,9 @@ def _solve(args) -> int:
         raise InputError(f"must be a whole number >= 1, got {args.modes}", field="--modes")
     case, result, folder = run_case(args.case, out=args.out, modes=args.modes, near_hz=near_hz,
                                     form=args.form, progress=Progress(quiet=args.quiet))
-    from .io.results import to_table
-
-    what = (f"{len(result.modes)} modes nearest {format_frequency(near_hz or case.solve.near_hz)}"
-            if (near_hz or case.solve.near_hz) else f"lowest {len(result.modes)} modes")
+    count = len(result.modes)
+    what = (f"{count} modes nearest {format_frequency(result.near_hz)}" if result.near_hz
+            else f"lowest {count} modes")
     print(f"{case.title}: {what}, {result.space.form} form, {result.dofs} DOFs, "
           f"{result.elements} tetrahedra")
     print(to_table(result))

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -24,16 +24,10 @@ class TaggedMesh:
     face_tag: np.ndarray        # (n_faces,) int
     wall_names: dict[str, int]
     source: str = "<memory>"
-    notes: tuple[str, ...] = field(default=())
 
     @property
     def n_tets(self) -> int:
         return int(self.tets.shape[0])
-
-    def region_of_tets(self) -> np.ndarray:
-        """Region names per tetrahedron (array of str)."""
-        names = {v: k for k, v in self.region_names.items()}
-        return np.array([names[i] for i in self.tet_region])
 
     def tet_volumes(self) -> np.ndarray:
         p = self.points[self.tets]
