@@ -36,12 +36,12 @@ def run_one(size_mm: float, naive: bool) -> dict:
     from femcav.analytic.box import lowest_box_frequencies
     from femcav.fem.assembly import assemble, restrict
     from femcav.fem.space import build_space
-    from femcav.geometry import box
+    from femcav.geometry import build_part
     from femcav.materials import Material
     from femcav.model import make_model
     from femcav.solver import C0, solve_model
 
-    mesh = box.build(A, B, D, mesh_size=size_mm * 1e-3)
+    mesh = build_part("box", width=A, height=B, length=D, mesh_size=size_mm * 1e-3)
     model = make_model(mesh, {"inside": Material()}, {})
     reference = np.array(lowest_box_frequencies(A, B, D, 10))
     if naive:

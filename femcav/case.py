@@ -12,15 +12,18 @@ from pathlib import Path
 
 from .errors import InputError
 from .expressions import Expression
-from .geometry import BUILDERS, read_mesh
+from .geometry import BUILDERS, build_part, builder_layout, read_mesh
 from .geometry.mesh import TaggedMesh
+from .geometry.params import parse_params
 from .materials import VACUUM, Material
 from .model import FORMS, Model, make_model
 from .units import UNITS, parse_quantity
 from .walls import KINDS, Wall
 
-TOP_KEYS = {"title", "geometry", "regions", "walls", "solve"}
-REGION_KEYS = {"eps_r", "mu_r"}
+TOP_KEYS = {"title", "geometry", "mesh", "regions", "walls", "symmetry", "solve"}
+REGION_KEYS = {"eps_r", "mu_r", "mesh_size"}
+MESH_KEYS = {"size", "max_frequency", "per_wavelength", "edge_refinement"}
+SYMMETRY_CHOICES = {"pec": ("pec",), "pmc": ("pmc",), "both": ("pec", "pmc")}
 WALL_KEYS = {"kind"}
 SOLVE_KEYS = {"modes", "near", "form"}
 DEFAULT_MODES = 10
@@ -32,6 +35,17 @@ class GeometrySpec:
     parameters: dict[str, float] = field(default_factory=dict)
     mesh_path: Path | None = None
     mesh_unit_m: float = 1.0
+
+
+@dataclass(frozen=True)
+class MeshSpec:
+    """Element-size requests for builders (see femcav.sizing for how they combine)."""
+
+    size: float | None = None
+    max_frequency_hz: float | None = None
+    per_wavelength: float | None = None
+    edge_refinement: float = 0.5
+    region_sizes: dict[str, float] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -49,6 +63,8 @@ class Case:
     regions: dict[str, Material]
     walls: dict[str, Wall]
     solve: SolveSpec
+    mesh: MeshSpec = field(default_factory=MeshSpec)
+    symmetry: dict[str, tuple[str, ...]] = field(default_factory=dict)  # axis -> wall kinds
 
 
 def load_case(path: str | Path) -> Case:
@@ -68,33 +84,49 @@ def load_case(path: str | Path) -> Case:
         if not isinstance(title, str):
             raise InputError("must be a string", field="title")
         geometry = _geometry(_table(data, "geometry", required=True), path.parent)
-        regions = {name: _region(name, spec) for name, spec in _table(data, "regions").items()}
+        region_tables = _table(data, "regions")
+        regions = {name: _region(name, spec) for name, spec in region_tables.items()}
         walls = {name: _wall(name, spec) for name, spec in _table(data, "walls").items()}
         solve = _solve(_table(data, "solve"))
+        mesh = _mesh(_table(data, "mesh"), region_tables, geometry)
+        symmetry = _symmetry(_table(data, "symmetry"), geometry, walls)
     except InputError as exc:
         raise exc.located(source=source) from None
     return Case(path=path, title=title, geometry=geometry, regions=regions, walls=walls,
-                solve=solve)
+                solve=solve, mesh=mesh, symmetry=symmetry)
 
 
 def build_mesh(case: Case) -> TaggedMesh:
+    from .sizing import builder_sizing
+
     g = case.geometry
     if g.mesh_path is None:
-        return BUILDERS[g.builder].build(**g.parameters)
+        try:
+            sizing = builder_sizing(case, builder_layout(g.builder, g.parameters))
+            return build_part(g.builder, sizing=sizing, symmetry=tuple(case.symmetry),
+                              **g.parameters)
+        except InputError as exc:
+            raise exc.located(source=str(case.path)) from None
     if not g.mesh_path.is_file():
         raise InputError(f"mesh file {str(g.mesh_path)!r} not found", source=str(case.path),
                          field="geometry.mesh")
     return read_mesh(g.mesh_path, scale=g.mesh_unit_m)  # its errors name the mesh file
 
 
-def case_model(case: Case, mesh: TaggedMesh | None = None) -> Model:
-    """The model of ``case``; a builder's regions not named in the case are vacuum."""
+def case_model(case: Case, mesh: TaggedMesh | None = None,
+               extra_walls: dict[str, Wall] | None = None) -> Model:
+    """The model of ``case``. With a builder, its plain regions (the cavity's space) that the
+    case does not name are vacuum; regions a builder marks as needing a material (a puck, a
+    block) must be named."""
     mesh = mesh if mesh is not None else build_mesh(case)
     materials = dict(case.regions)
     if case.geometry.builder is not None:
-        for region in BUILDERS[case.geometry.builder].REGIONS:
-            materials.setdefault(region, VACUUM)
-    return make_model(mesh, materials, case.walls, source=str(case.path))
+        builder = BUILDERS[case.geometry.builder]
+        for region in mesh.region_names:
+            if region not in getattr(builder, "NEEDS_MATERIAL", ()):
+                materials.setdefault(region, VACUUM)
+    return make_model(mesh, materials, {**case.walls, **(extra_walls or {})},
+                      source=str(case.path))
 
 
 def _table(data: dict, key: str, required: bool = False) -> dict:
@@ -134,19 +166,72 @@ def _geometry(spec: dict, base: Path) -> GeometrySpec:
     if name not in BUILDERS:
         raise InputError(f"unknown builder {name!r}; known: {', '.join(BUILDERS)}",
                          field="geometry.builder")
-    builder = BUILDERS[name]
-    _known(spec, {"builder", *builder.PARAMETERS}, "geometry.")
-    for key in builder.REQUIRED:
-        if key not in spec:
-            raise InputError(f"the {name} builder needs {key}", field=f"geometry.{key}")
-    parameters = {}
-    for key, kind in builder.PARAMETERS.items():
-        if key in spec:
-            value = parse_quantity(spec[key], kind, field=f"geometry.{key}")
-            if value <= 0:
-                raise InputError(f"must be positive, got {spec[key]!r}", field=f"geometry.{key}")
-            parameters[key] = value
+    given = {k: v for k, v in spec.items() if k != "builder"}
+    if "mesh_size" in given:
+        raise InputError("element sizes go in the [mesh] table (size = ...)",
+                         field="geometry.mesh_size")
+    parameters = parse_params(BUILDERS[name].PARAMETERS, given, "geometry")
+    builder_layout(name, parameters)  # refuse parameters that do not fit together, now
     return GeometrySpec(builder=name, parameters=parameters)
+
+
+def _mesh(spec: dict, region_tables: dict, geometry: GeometrySpec) -> MeshSpec:
+    region_sizes = {name: parse_quantity(t["mesh_size"], "length",
+                                         field=f"regions.{name}.mesh_size")
+                    for name, t in region_tables.items() if isinstance(t, dict) and "mesh_size" in t}
+    if geometry.mesh_path is not None and (spec or region_sizes):
+        raise InputError("element sizes apply to builders; an imported mesh is used as it is",
+                         field="mesh" if spec else "regions")
+    _known(spec, MESH_KEYS, "mesh.")
+    size = spec.get("size")
+    size = None if size is None else parse_quantity(size, "length", field="mesh.size")
+    f_max = spec.get("max_frequency")
+    f_max = None if f_max is None else parse_quantity(f_max, "frequency",
+                                                       field="mesh.max_frequency")
+    per_wavelength = spec.get("per_wavelength")
+    if per_wavelength is not None and (isinstance(per_wavelength, bool) or
+                                       not isinstance(per_wavelength, (int, float))
+                                       or not per_wavelength >= 2):
+        raise InputError(f"must be a number >= 2, got {per_wavelength!r}",
+                         field="mesh.per_wavelength")
+    if per_wavelength is not None and f_max is None:
+        raise InputError("needs max_frequency, the highest frequency of interest",
+                         field="mesh.per_wavelength")
+    edge = spec.get("edge_refinement", 0.5)
+    if isinstance(edge, bool) or not isinstance(edge, (int, float)) or not 0 < edge <= 1:
+        raise InputError(f"must be a number in (0, 1] (1 = no refinement), got {edge!r}",
+                         field="mesh.edge_refinement")
+    for value, where in [(size, "mesh.size"), (f_max, "mesh.max_frequency"),
+                         *[(v, f"regions.{k}.mesh_size") for k, v in region_sizes.items()]]:
+        if value is not None and value <= 0:
+            raise InputError("must be positive", field=where)
+    return MeshSpec(size=size, max_frequency_hz=f_max,
+                    per_wavelength=None if per_wavelength is None else float(per_wavelength),
+                    edge_refinement=float(edge), region_sizes=region_sizes)
+
+
+def _symmetry(spec: dict, geometry: GeometrySpec, walls: dict) -> dict[str, tuple[str, ...]]:
+    if not spec:
+        return {}
+    if geometry.builder is None:
+        raise InputError("symmetry cuts apply to builders; for an imported mesh, mesh the "
+                         "part already cut and give the cut faces a wall kind", field="symmetry")
+    _known(spec, {"x", "y", "z"}, "symmetry.")
+    out = {}
+    for axis, choice in spec.items():
+        if choice not in SYMMETRY_CHOICES:
+            raise InputError(f"must be one of {', '.join(map(repr, SYMMETRY_CHOICES))}, got "
+                             f"{choice!r}", field=f"symmetry.{axis}")
+        if f"symmetry_{axis}" in walls:
+            raise InputError("the cut face's kind is set by [symmetry], not [walls]",
+                             field=f"walls.symmetry_{axis}")
+        out[axis] = SYMMETRY_CHOICES[choice]
+    planes = BUILDERS[geometry.builder].symmetry_planes(**geometry.parameters)
+    for axis in out:
+        if axis not in planes:
+            raise InputError(f"this {geometry.builder} has no symmetry plane normal to {axis}; "
+                             f"it has {', '.join(planes) or 'none'}", field=f"symmetry.{axis}")
+    return out
 
 
 def _region(name: str, spec) -> Material:
@@ -166,7 +251,7 @@ def _region(name: str, spec) -> Material:
                          field=where + ".eps_r")
     elif not eps > 0:
         raise InputError(f"must be positive, got {eps!r}", field=where + ".eps_r")
-    mu = spec.get("mu_r", 1.0)
+    mu = spec.get("mu_r", 1.0)  # mesh_size is read by _mesh
     if isinstance(mu, bool) or not isinstance(mu, (int, float)) or not mu > 0:
         raise InputError(f"must be a positive number, got {mu!r}", field=where + ".mu_r")
     return Material(eps_r=eps if callable(eps) else float(eps), mu_r=float(mu))

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import itertools
 from dataclasses import replace
 from pathlib import Path
 
@@ -10,7 +11,22 @@ from .io.atomic import staged_output
 from .io.results import to_csv, to_json, to_table
 from .io.vtk import write_vtu
 from .progress import SILENT, Progress
-from .solver import SolveResult, solve_model
+from .geometry import symmetry_wall_name
+from .solver import SolveResult, merge_classes, solve_model
+from .walls import Wall
+
+
+def symmetry_classes(symmetry: dict[str, tuple[str, ...]]) -> list[dict[str, Wall]]:
+    """The wall kinds of the cut faces for every class to solve (one class if no cut)."""
+    axes = list(symmetry)
+    return [{symmetry_wall_name(axis): Wall(kind) for axis, kind in zip(axes, kinds)}
+            for kinds in itertools.product(*(symmetry[a] for a in axes))]
+
+
+def symmetry_label(walls: dict[str, Wall]) -> str:
+    """E.g. "x:PMC y:PEC": the kind of wall on each cut plane."""
+    return " ".join(f"{name.rsplit('_', 1)[1]}:{wall.kind.upper()}"
+                    for name, wall in walls.items())
 
 
 def default_output_folder(case_path: Path) -> Path:
@@ -39,9 +55,18 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
                   f"({mesh.source}"
                   + (f", coordinates in units of {case.geometry.mesh_unit_m:g} m)"
                      if case.geometry.mesh_path else ")"))
-    model = case_model(case, mesh)
-    result = solve_model(model, modes=settings.modes, near_hz=settings.near_hz,
-                         form=settings.form, progress=progress)
+    classes = symmetry_classes(case.symmetry)
+    labelled = []
+    for walls in classes:
+        label = symmetry_label(walls)
+        if label:
+            progress.step(f"symmetry class {label}")
+        model = case_model(case, mesh, extra_walls=walls)
+        labelled.append((label, solve_model(model, modes=settings.modes,
+                                            near_hz=settings.near_hz, form=settings.form,
+                                            progress=progress)))
+    result = (labelled[0][1] if len(labelled) == 1 and not labelled[0][0]
+              else merge_classes(labelled, settings.modes, settings.near_hz))
 
     folder = Path(out) if out is not None else default_output_folder(case.path)
     with staged_output(folder) as files:

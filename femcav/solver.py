@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 from scipy.constants import c as C0
@@ -33,6 +33,7 @@ class Mode:
     k0_squared: float       # 1/m²
     checks: ModeChecks
     dofs: np.ndarray        # over all edges of the mesh, M-normalised
+    symmetry: str | None = None   # the symmetry class, e.g. "x:PMC y:PEC", when cut
 
 
 @dataclass(frozen=True)
@@ -46,6 +47,7 @@ class SolveResult:
     eigen_stats: dict = field(default_factory=dict)
     request: EigenRequest | None = None
     near_hz: float | None = None
+    classes: list[dict] = field(default_factory=list)   # per symmetry class: label, dofs, modes
 
     @property
     def passed(self) -> bool:
@@ -91,11 +93,8 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
 
     static = pairs.values < STATIC_FRACTION * scale
     values, vectors = pairs.values[~static], pairs.vectors[:, ~static]
-    if request.target is None:
-        keep = np.arange(min(modes, values.size))
-    else:
-        distance = np.abs(np.sqrt(np.maximum(values, 0)) - math.sqrt(request.target))
-        keep = np.sort(np.argsort(distance, kind="stable")[:modes])
+    keep = _select(np.sqrt(np.maximum(values, 0)), modes,
+                   None if request.target is None else math.sqrt(request.target))
     values, vectors = values[keep], vectors[:, keep]
     checks = check_modes(K, M, projector, values, vectors)
 
@@ -109,3 +108,33 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
                        elements=int(space.mesh.nelements), static_fields_dropped=int(static.sum()),
                        timings=timings, eigen_stats=pairs.stats, request=request,
                        near_hz=near_hz)
+
+
+def _select(ascending: np.ndarray, count: int, target: float | None) -> np.ndarray:
+    """Indices (ascending) of the ``count`` lowest values, or of those nearest ``target``."""
+    if target is None:
+        return np.arange(min(count, ascending.size))
+    return np.sort(np.argsort(np.abs(ascending - target), kind="stable")[:count])
+
+
+def merge_classes(labelled: list[tuple[str, SolveResult]], count: int,
+                  near_hz: float | None) -> SolveResult:
+    """One spectrum from the solves of each symmetry class of a cut model.
+
+    Every class was asked for ``count`` modes, so the lowest (or nearest) ``count`` of the
+    union are the lowest (or nearest) of the full model.
+    """
+    tagged = [replace(m, symmetry=label) for label, r in labelled for m in r.modes]
+    tagged.sort(key=lambda m: m.frequency_hz)
+    keep = _select(np.array([m.frequency_hz for m in tagged]), count, near_hz)
+    modes = [replace(tagged[j], index=i + 1) for i, j in enumerate(keep)]
+    results = [r for _, r in labelled]
+    timings = {key: sum(r.timings[key] for r in results) for key in results[0].timings}
+    return SolveResult(
+        modes=modes, space=results[0].space, dofs=max(r.dofs for r in results),
+        elements=results[0].elements,
+        static_fields_dropped=sum(r.static_fields_dropped for r in results), timings=timings,
+        eigen_stats={label: r.eigen_stats for label, r in labelled},
+        request=results[0].request, near_hz=near_hz,
+        classes=[{"symmetry": label, "dofs": r.dofs,
+                  "modes": sum(m.symmetry == label for m in modes)} for label, r in labelled])

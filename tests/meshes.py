@@ -4,7 +4,13 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from femcav.geometry.gmsh_session import faces_by_bounds, gmsh_model
+from femcav.geometry.gmsh_session import gmsh_model
+
+
+def faces_by_bounds(gmsh, predicate) -> list[int]:
+    """Tags of the surfaces whose bounding box (xmin, ymin, zmin, xmax, ymax, zmax) passes."""
+    return [tag for dim, tag in gmsh.model.getEntities(2)
+            if predicate(gmsh.model.getBoundingBox(dim, tag))]
 
 
 def box_with_blocks(path: Path, size: tuple[float, float, float],

@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 
 from femcav.analytic.box import box_modes, lowest_box_frequencies
-from femcav.geometry import box
+from femcav.geometry import build_part
 from femcav.materials import Material
 from femcav.model import make_model
 from femcav.solver import solve_model
@@ -17,7 +17,7 @@ A, B, D = 0.02286, 0.01016, 0.030   # a WR-90-sized cross-section, 30 mm long
 
 @pytest.fixture(scope="module")
 def box_result():
-    mesh = box.build(A, B, D, mesh_size=0.001)
+    mesh = build_part("box", width=A, height=B, length=D, mesh_size=0.001)
     return solve_model(make_model(mesh, {"inside": Material()}, {}), modes=10)
 
 
@@ -50,7 +50,7 @@ def test_count_below_frequency_matches_closed_form(box_result):
 
 
 def test_near_target_returns_modes_around_it(box_result):
-    mesh = box.build(A, B, D, mesh_size=0.002)
+    mesh = build_part("box", width=A, height=B, length=D, mesh_size=0.002)
     reference = lowest_box_frequencies(A, B, D, 10)
     target = 0.5 * (reference[5] + reference[6])
     near = solve_model(make_model(mesh, {"inside": Material()}, {}), modes=4, near_hz=target)

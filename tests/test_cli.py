@@ -22,7 +22,9 @@ builder = "box"
 width = "20 mm"
 height = "10 mm"
 length = "25 mm"
-mesh_size = "3 mm"
+
+[mesh]
+size = "3 mm"
 [solve]
 modes = 3
 """

@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 
 from femcav.analytic.box import box_modes
-from femcav.geometry import box, read_mesh
+from femcav.geometry import build_part, read_mesh
 from femcav.materials import Material
 from femcav.model import make_model
 from femcav.solver import solve_model
@@ -36,7 +36,7 @@ def test_e_and_h_forms_agree_for_a_dielectric_block(tmp_path):
 def test_pmc_symmetry_plane_keeps_the_odd_family(form):
     # Halving the box at x = a/2 with a PMC wall keeps the modes whose x index m is odd:
     # their tangential H vanishes on the mid-plane (closed form: Pozar §6.3, as in test_box).
-    mesh = box.build(A / 2, B, D, mesh_size=0.0015)
+    mesh = build_part("box", width=A / 2, height=B, length=D, mesh_size=0.0015)
     model = make_model(mesh, {"inside": Material()}, {"x_max": Wall("pmc")})
     result = solve_model(model, modes=6, form=form)
     reference = [f for f, label in box_modes(A, B, D, 3e10) if int(label[2]) % 2 == 1][:6]

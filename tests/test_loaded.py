@@ -10,7 +10,7 @@ import numpy as np
 from femcav.analytic.graded import graded_te_m0p_frequencies
 from femcav.analytic.slab import slab_te_m0p_frequencies
 from femcav.expressions import Expression
-from femcav.geometry import box, read_mesh
+from femcav.geometry import build_part, read_mesh
 from femcav.materials import Material
 from femcav.model import make_model
 from femcav.post.fields import mode_fields
@@ -50,7 +50,7 @@ def test_slab_loaded_box(tmp_path):
 
 def test_graded_permittivity_box():
     profile = "1.5 + sin(pi*x/0.02286)"
-    mesh = box.build(A, B, D, mesh_size=0.0015)
+    mesh = build_part("box", width=A, height=B, length=D, mesh_size=0.0015)
     model = make_model(mesh, {"inside": Material(eps_r=Expression(profile))}, {})
     computed = y_polarised(solve_model(model, modes=4))
     eps = lambda x: 1.5 + math.sin(math.pi * x / A)
@@ -61,7 +61,7 @@ def test_graded_permittivity_box():
 
 
 def test_python_callable_permittivity_equals_expression():
-    mesh = box.build(A, B, D, mesh_size=0.004)
+    mesh = build_part("box", width=A, height=B, length=D, mesh_size=0.004)
     text = "1.5 + sin(pi*x/0.02286)"
     by_text = solve_model(make_model(mesh, {"inside": Material(eps_r=Expression(text))}, {}),
                           modes=3)

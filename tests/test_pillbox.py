@@ -9,7 +9,7 @@ from scipy.constants import c
 from scipy.special import jn_zeros
 
 from femcav.analytic.cylinder import lowest_pillbox_frequencies
-from femcav.geometry import pillbox
+from femcav.geometry import build_part
 from femcav.materials import Material
 from femcav.model import make_model
 from femcav.solver import solve_model
@@ -18,7 +18,7 @@ RADIUS, LENGTH = 0.010, 0.015
 
 
 def solve_pillbox(mesh_size, modes):
-    mesh = pillbox.build(RADIUS, LENGTH, mesh_size=mesh_size)
+    mesh = build_part("pillbox", radius=RADIUS, length=LENGTH, mesh_size=mesh_size)
     return solve_model(make_model(mesh, {"inside": Material()}, {}), modes=modes)
 
 

@@ -1,8 +1,8 @@
 """A gmsh model session and its conversion into a TaggedMesh.
 
-Builders describe solids with gmsh's OpenCASCADE kernel, name regions and walls as physical
-groups, and call :func:`mesh_and_read`: the mesh goes through a ``.msh`` file and the same
-reader as an imported mesh, so built and imported meshes take one path into the model.
+Builders describe their part as a Layout (parts.py), which is meshed here and read back through
+a ``.msh`` file with the same reader as an imported mesh, so built and imported meshes take one
+path into the model.
 """
 
 from __future__ import annotations
@@ -30,22 +30,11 @@ def gmsh_model(name: str):
         gmsh.finalize()
 
 
-def faces_by_bounds(gmsh, predicate) -> list[int]:
-    """Tags of the surfaces whose bounding box (xmin, ymin, zmin, xmax, ymax, zmax) passes."""
-    return [tag for dim, tag in gmsh.model.getEntities(2)
-            if predicate(gmsh.model.getBoundingBox(dim, tag))]
-
-
-def mesh_and_read(gmsh, mesh_size: float, source: str, keep_msh: Path | None = None) -> TaggedMesh:
-    """Mesh the current model with tetrahedra of at most ``mesh_size`` metres and read it."""
-    gmsh.option.setNumber("Mesh.MeshSizeMax", mesh_size)
-    gmsh.option.setNumber("Mesh.MeshSizeMin", 0.0)
-    gmsh.option.setNumber("Mesh.MeshSizeFromCurvature", 0)
-    gmsh.option.setNumber("Mesh.Algorithm3D", 1)
-    gmsh.option.setNumber("Mesh.MshFileVersion", 4.1)
-    gmsh.model.mesh.generate(3)
+def write_and_read(gmsh, source: str) -> TaggedMesh:
+    """Write the meshed model to a temporary .msh and read it back as a TaggedMesh."""
     with tempfile.TemporaryDirectory() as tmp:
-        path = Path(keep_msh) if keep_msh else Path(tmp) / "built.msh"
+        path = Path(tmp) / "built.msh"
+        gmsh.option.setNumber("Mesh.MshFileVersion", 4.1)
         gmsh.write(str(path))
         mesh = read_mesh(path)
     return TaggedMesh(**{**mesh.__dict__, "source": source})

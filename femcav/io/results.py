@@ -4,7 +4,8 @@ modes.json is a stable, documented format (README, "Output files"): top-level ke
 ``format``, ``title``, ``case``, ``form``, ``dofs``, ``elements``, ``request``,
 ``static_fields_dropped``, ``checks_passed``, ``limits``, ``timings_s`` and ``modes``; each mode
 has ``index``, ``frequency_hz``, ``k0_squared_per_m2``, ``residual``, ``divergence``,
-``orthogonality`` and ``passed``.
+``orthogonality`` and ``passed``, and ``symmetry`` (the class label, e.g. "x:PMC y:PEC")
+when the model was cut by symmetry planes; then the top level has ``symmetry_classes``.
 """
 
 from __future__ import annotations
@@ -23,10 +24,20 @@ CSV_COLUMNS = ("index", "frequency_hz", "residual", "divergence", "orthogonality
 
 
 def mode_rows(result: SolveResult) -> list[dict]:
-    return [{"index": m.index, "frequency_hz": m.frequency_hz, "k0_squared_per_m2": m.k0_squared,
-             "residual": m.checks.residual, "divergence": m.checks.divergence,
-             "orthogonality": m.checks.orthogonality, "passed": m.checks.passed}
-            for m in result.modes]
+    rows = []
+    for m in result.modes:
+        row = {"index": m.index, "frequency_hz": m.frequency_hz,
+               "k0_squared_per_m2": m.k0_squared, "residual": m.checks.residual,
+               "divergence": m.checks.divergence, "orthogonality": m.checks.orthogonality,
+               "passed": m.checks.passed}
+        if m.symmetry is not None:
+            row["symmetry"] = m.symmetry
+        rows.append(row)
+    return rows
+
+
+def _has_symmetry(result: SolveResult) -> bool:
+    return any(m.symmetry is not None for m in result.modes)
 
 
 def to_json(result: SolveResult, *, title: str, case: str | None) -> str:
@@ -43,13 +54,15 @@ def to_json(result: SolveResult, *, title: str, case: str | None) -> str:
         "timings_s": result.timings,
         "modes": mode_rows(result),
     }
+    if result.classes:
+        document["symmetry_classes"] = result.classes
     return json.dumps(document, indent=2) + "\n"
 
 
 def to_csv(result: SolveResult) -> str:
     out = io.StringIO()
-    writer = csv.DictWriter(out, fieldnames=CSV_COLUMNS, extrasaction="ignore",
-                            lineterminator="\n")
+    columns = CSV_COLUMNS + (("symmetry",) if _has_symmetry(result) else ())
+    writer = csv.DictWriter(out, fieldnames=columns, extrasaction="ignore", lineterminator="\n")
     writer.writeheader()
     for row in mode_rows(result):
         writer.writerow({**row, "frequency_hz": repr(row["frequency_hz"])})
@@ -57,11 +70,15 @@ def to_csv(result: SolveResult) -> str:
 
 
 def to_table(result: SolveResult) -> str:
-    lines = [f"{'mode':>4}  {'frequency':>16}  {'residual':>9}  {'divergence':>10}  "
-             f"{'orthogonality':>13}  check"]
+    width = max([len(m.symmetry or "") for m in result.modes] + [len("symmetry")])
+    sym = _has_symmetry(result)
+    lines = [f"{'mode':>4}  {'frequency':>16}  " + (f"{'symmetry':<{width}}  " if sym else "")
+             + f"{'residual':>9}  {'divergence':>10}  {'orthogonality':>13}  check"]
     for m in result.modes:
         c = m.checks
         status = "ok" if c.passed else "FAILED: " + "; ".join(c.failures())
         lines.append(f"{m.index:>4}  {format_frequency(m.frequency_hz, 7):>16}  "
-                     f"{c.residual:9.1e}  {c.divergence:10.1e}  {c.orthogonality:13.1e}  {status}")
+                     + (f"{m.symmetry:<{width}}  " if sym else "")
+                     + f"{c.residual:9.1e}  {c.divergence:10.1e}  {c.orthogonality:13.1e}  "
+                     f"{status}")
     return "\n".join(lines)
