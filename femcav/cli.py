@@ -31,6 +31,15 @@ def _parser() -> argparse.ArgumentParser:
                        help='find the modes nearest this frequency, e.g. "4.8 GHz"')
     solve.add_argument("--form", choices=("E", "H"), help="field form (overrides the case)")
     solve.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
+    mesh = commands.add_parser(
+        "mesh", help="mesh without solving; print quality, write mesh and picture",
+        description="Mesh CASE without solving. Print the element count, the minimum element "
+                    "quality and the size per region; write mesh.msh, mesh.vtu and mesh.png "
+                    "into the output folder.")
+    mesh.add_argument("case", metavar="CASE.toml", help="the case file")
+    mesh.add_argument("--out", metavar="DIR",
+                      help="output folder (default: CASE-results next to the case file)")
+    mesh.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
     return parser
 
 
@@ -40,7 +49,7 @@ def main(argv: list[str] | None = None) -> int:
         _parser().print_help()
         return EXIT_INPUT_ERROR
     try:
-        return _solve(args)
+        return _mesh(args) if args.command == "mesh" else _solve(args)
     except InputError as exc:
         print(f"femcav: error: {exc}", file=sys.stderr)
         return EXIT_INPUT_ERROR
@@ -71,6 +80,17 @@ def _solve(args) -> int:
         print("femcav: warning: at least one mode FAILED its checks; do not trust those "
               "frequencies (see the check column)", file=sys.stderr)
         return EXIT_CHECKS_FAILED
+    return 0
+
+
+def _mesh(args) -> int:
+    from .io.mesh_summary import mesh_summary
+    from .mesh_runner import mesh_case
+    from .progress import Progress
+
+    run = mesh_case(args.case, out=args.out, progress=Progress(quiet=args.quiet))
+    print(mesh_summary(run.case.title, run.quality))
+    print(f"mesh files: {run.folder}")
     return 0
 
 

@@ -1,0 +1,1 @@
+"""Pictures of meshes and results, rendered off-screen to image files."""
