@@ -170,7 +170,9 @@ def _geometry(spec: dict, base: Path) -> GeometrySpec:
     if "mesh_size" in given:
         raise InputError("element sizes go in the [mesh] table (size = ...)",
                          field="geometry.mesh_size")
-    parameters = parse_params(BUILDERS[name].PARAMETERS, given, "geometry")
+    builder = BUILDERS[name]
+    parameters = (builder.parse(given, "geometry") if hasattr(builder, "parse")
+                  else parse_params(builder.PARAMETERS, given, "geometry"))
     builder_layout(name, parameters)  # refuse parameters that do not fit together, now
     return GeometrySpec(builder=name, parameters=parameters)
 
