@@ -15,6 +15,7 @@ import numpy as np
 
 from ..errors import InputError
 from .mesh import TaggedMesh
+from .validate import check_mesh
 
 _TAG_KEYS = ("gmsh:physical", "medit:ref", "CellEntityIds", "cell_tags", "region", "tag")
 
@@ -72,9 +73,11 @@ def read_mesh(path: str | Path, *, scale: float = 1.0) -> TaggedMesh:
                          source=str(path))
     faces = renumber[faces]
     keep = np.all(faces >= 0, axis=1)
-    return TaggedMesh(points=points[:, :3], tets=inverse.reshape(tets.shape), tet_region=tet_tags,
+    mesh = TaggedMesh(points=points[:, :3], tets=inverse.reshape(tets.shape), tet_region=tet_tags,
                       region_names=region_names, faces=faces[keep], face_tag=face_tags[keep],
                       wall_names=wall_names, source=str(path))
+    check_mesh(mesh, unit_m=scale)
+    return mesh
 
 
 def _read_with_meshio(path: Path):
