@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+import numpy as np
+
 from .errors import InputError
 from .geometry.mesh import TaggedMesh
 from .materials import Material
@@ -39,6 +41,15 @@ def make_model(mesh: TaggedMesh, materials: dict[str, Material], walls: dict[str
         raise InputError(f"the mesh has no surface named {unknown_walls[0]!r}; its named "
                          f"surfaces are {_listing(mesh.wall_names)}", source=source,
                          field=f"walls.{unknown_walls[0]}")
+    if walls:
+        boundary = mesh.boundary_face_keys()
+        faces = np.sort(mesh.faces, axis=1)
+        for name in walls:
+            tagged = faces[mesh.face_tag == mesh.wall_names[name]]
+            if not any(tuple(f) in boundary for f in tagged.tolist()):
+                raise InputError(f"the surface {name!r} is inside the mesh, not on its "
+                                 "boundary; a wall condition needs a boundary surface",
+                                 source=source, field=f"walls.{name}")
     for name, wall in walls.items():
         if wall.kind not in KINDS:
             raise InputError(f"unknown wall kind {wall.kind!r}; allowed: {', '.join(KINDS)}",

@@ -11,6 +11,7 @@ from .io.atomic import staged_output
 from .io.results import to_csv, to_json, to_table
 from .io.vtk import write_vtu
 from .progress import SILENT, Progress
+from .errors import InputError
 from .geometry import symmetry_wall_name
 from .solver import SolveResult, merge_classes, solve_model
 from .walls import Wall
@@ -61,10 +62,13 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
         label = symmetry_label(walls)
         if label:
             progress.step(f"symmetry class {label}")
-        model = case_model(case, mesh, extra_walls=walls)
-        labelled.append((label, solve_model(model, modes=settings.modes,
-                                            near_hz=settings.near_hz, form=settings.form,
-                                            progress=progress)))
+        try:
+            model = case_model(case, mesh, extra_walls=walls)
+            labelled.append((label, solve_model(model, modes=settings.modes,
+                                                near_hz=settings.near_hz, form=settings.form,
+                                                progress=progress)))
+        except InputError as exc:
+            raise exc.located(source=str(case.path)) from None
     result = (labelled[0][1] if len(labelled) == 1 and not labelled[0][0]
               else merge_classes(labelled, settings.modes, settings.near_hz))
 

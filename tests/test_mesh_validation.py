@@ -199,8 +199,9 @@ def test_wall_kind_on_an_inner_surface(tmp_path, capsys):
               {"slab": (1, 3), "air": (2, 3), "interface": (3, 2)})
     regions = '[regions.slab]\neps_r = 2\n[regions.air]\neps_r = 1\n'
     err = refused(tmp_path, capsys, regions=regions, extra='[walls.interface]\nkind = "pmc"\n')
-    # This refusal comes from the space, after the mesh checks; its message names the key.
-    assert "walls.interface: the surface 'interface' is inside the mesh, not on its boundary" in err
+    # This refusal comes from the model, after the mesh checks; it names the case and the key.
+    assert "case.toml: walls.interface: the surface 'interface' is inside the mesh, not on its " \
+           "boundary" in err
 
 
 def test_builder_mesh_passes(tmp_path, capsys):

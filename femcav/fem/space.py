@@ -74,16 +74,10 @@ def _name_boundary_facets(model: Model, mesh) -> dict[int, str]:
     index = {tuple(mesh.facets[:, f]): int(f) for f in boundary}
     names = {v: k for k, v in model.mesh.wall_names.items()}
     facet_wall = {int(f): "" for f in boundary}
-    on_boundary: dict[str, int] = {}
     for tri, tag in zip(np.sort(model.mesh.faces, axis=1), model.mesh.face_tag):
         facet = index.get(tuple(tri))
-        if facet is not None:
+        if facet is not None:  # tagged interfaces between regions are not walls
             facet_wall[facet] = names[int(tag)]
-            on_boundary[names[int(tag)]] = on_boundary.get(names[int(tag)], 0) + 1
-    for name in model.walls:
-        if name not in on_boundary:
-            raise InputError(f"the surface {name!r} is inside the mesh, not on its boundary; "
-                             "a wall condition needs a boundary surface", field=f"walls.{name}")
     return facet_wall
 
 

@@ -34,6 +34,13 @@ class TaggedMesh:
         return np.einsum("ij,ij->i", np.cross(p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]),
                          p[:, 3] - p[:, 0]) / 6.0
 
+    def boundary_face_keys(self) -> set[tuple[int, int, int]]:
+        """Sorted vertex triples of the faces that belong to exactly one tetrahedron."""
+        faces = np.sort(self.tets[:, [[0, 1, 2], [0, 1, 3], [0, 2, 3], [1, 2, 3]]]
+                        .reshape(-1, 3), axis=1)
+        unique, counts = np.unique(faces, axis=0, return_counts=True)
+        return set(map(tuple, unique[counts == 1].tolist()))
+
     def bounding_size(self) -> float:
         """The largest extent of the mesh along x, y or z, metres."""
         return float(np.max(self.points.max(axis=0) - self.points.min(axis=0)))
