@@ -9,18 +9,9 @@ import pytest
 from femcav.case import build_mesh, case_model, load_case
 from femcav.cli import main
 from femcav.solver import solve_model
+from test_cli import SMALL_BOX
 
-BOX = """
-[geometry]
-builder = "box"
-width = "20 mm"
-height = "10 mm"
-length = "25 mm"
-[mesh]
-size = "3 mm"
-[solve]
-modes = 3
-"""
+BOX = SMALL_BOX
 
 L_SHAPE = """
 [geometry]
@@ -67,6 +58,7 @@ def test_composite_of_one_box_equals_the_box_builder(tmp_path):
                             'builder = "composite"\n[[geometry.solids]]\nshape = "box"\n'
                             'corner = [0, 0, 0]\nsize = ["20 mm", "10 mm", "25 mm"]\n'
                             'role = "space"')
+    assert 'builder = "composite"' in composite
     freqs = []
     for text, name in ((BOX, "box.toml"), (composite, "composite.toml")):
         case = load_case(write(tmp_path, text, name))
