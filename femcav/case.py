@@ -16,16 +16,17 @@ from .geometry import BUILDERS, build_part, builder_layout, read_mesh
 from .geometry.mesh import TaggedMesh
 from .geometry.params import parse_params
 from .materials import VACUUM, Material
+from .metals import CONDUCTIVITY_S_PER_M
 from .model import FORMS, Model, make_model
 from .units import UNITS, parse_quantity
 from .walls import KINDS, Wall
 
 TOP_KEYS = {"title", "geometry", "mesh", "regions", "walls", "symmetry", "solve"}
-REGION_KEYS = {"eps_r", "mu_r", "mesh_size"}
+REGION_KEYS = {"eps_r", "mu_r", "tan_delta", "mesh_size"}
 MESH_KEYS = {"size", "max_frequency", "per_wavelength", "edge_refinement"}
 SYMMETRY_CHOICES = {"pec": ("pec",), "pmc": ("pmc",), "both": ("pec", "pmc")}
-WALL_KEYS = {"kind"}
-SOLVE_KEYS = {"modes", "near", "form"}
+WALL_KEYS = {"kind", "conductivity", "metal", "roughness"}
+SOLVE_KEYS = {"modes", "near", "form", "complex_check"}
 DEFAULT_MODES = 10
 
 
@@ -53,6 +54,7 @@ class SolveSpec:
     modes: int = DEFAULT_MODES
     near_hz: float | None = None
     form: str = "E"
+    complex_check: bool = False
 
 
 @dataclass(frozen=True)
@@ -239,36 +241,87 @@ def _symmetry(spec: dict, geometry: GeometrySpec, walls: dict) -> dict[str, tupl
 def _region(name: str, spec) -> Material:
     where = f"regions.{name}"
     if not isinstance(spec, dict):
-        raise InputError("must be a table with eps_r (and optionally mu_r)", field=where)
+        raise InputError("must be a table with eps_r (and optionally mu_r, tan_delta)",
+                         field=where)
     _known(spec, REGION_KEYS, where + ".")
     eps = spec.get("eps_r", 1.0)
-    if isinstance(eps, str):
+    tan_delta = spec.get("tan_delta", 0.0)
+    if isinstance(tan_delta, bool) or not isinstance(tan_delta, (int, float)) or tan_delta < 0:
+        raise InputError(f"must be a number >= 0, got {tan_delta!r}", field=where + ".tan_delta")
+    complex_eps = _complex_literal(eps) if isinstance(eps, str) else None
+    if complex_eps is not None:
+        # eps_r' (1 - j tan δ) with e^{jωt}: a lossy material has a negative imaginary part.
+        if "tan_delta" in spec:
+            raise InputError("give the loss either as a complex eps_r or as tan_delta, not both",
+                             field=where + ".tan_delta")
+        if not complex_eps.real > 0 or complex_eps.imag > 0:
+            raise InputError(f"a complex eps_r needs a positive real part and an imaginary part "
+                             f"<= 0 (loss, with time dependence e^(jwt)); got {eps!r}",
+                             field=where + ".eps_r")
+        eps, tan_delta = complex_eps.real, -complex_eps.imag / complex_eps.real
+    elif isinstance(eps, str):
         try:
-            expression = Expression(eps)
+            eps = Expression(eps)
         except InputError as exc:
             raise exc.located(field=where + ".eps_r") from None
-        eps = expression
     elif isinstance(eps, bool) or not isinstance(eps, (int, float)):
-        raise InputError("must be a number or an expression string in x, y, z (metres)",
-                         field=where + ".eps_r")
+        raise InputError("must be a number, an expression string in x, y, z (metres), or a "
+                         "complex number string such as \"9.8-0.001j\"", field=where + ".eps_r")
     elif not eps > 0:
         raise InputError(f"must be positive, got {eps!r}", field=where + ".eps_r")
     mu = spec.get("mu_r", 1.0)  # mesh_size is read by _mesh
     if isinstance(mu, bool) or not isinstance(mu, (int, float)) or not mu > 0:
         raise InputError(f"must be a positive number, got {mu!r}", field=where + ".mu_r")
-    return Material(eps_r=eps if callable(eps) else float(eps), mu_r=float(mu))
+    return Material(eps_r=eps if callable(eps) else float(eps), mu_r=float(mu),
+                    tan_delta=float(tan_delta))
+
+
+def _complex_literal(text: str) -> complex | None:
+    """A string such as "9.8-0.0098j" as a complex number; None for anything else."""
+    compact = text.replace(" ", "")
+    if not compact.endswith("j"):
+        return None
+    try:
+        return complex(compact)
+    except ValueError:
+        return None
 
 
 def _wall(name: str, spec) -> Wall:
     where = f"walls.{name}"
     if not isinstance(spec, dict):
-        raise InputError("must be a table with kind = \"pec\" or \"pmc\"", field=where)
+        raise InputError('must be a table with kind = "pec", "pmc" or "metal"', field=where)
     _known(spec, WALL_KEYS, where + ".")
     kind = spec.get("kind")
     if kind not in KINDS:
         raise InputError(f"kind must be one of {', '.join(map(repr, KINDS))}, got {kind!r}",
                          field=where + ".kind")
-    return Wall(kind=kind)
+    if kind != "metal":
+        extra = next((k for k in ("conductivity", "metal", "roughness") if k in spec), None)
+        if extra:
+            raise InputError(f'{extra} belongs to kind = "metal"; a {kind.upper()} wall has no '
+                             "loss", field=f"{where}.{extra}")
+        return Wall(kind=kind)
+    if ("conductivity" in spec) == ("metal" in spec):
+        raise InputError('a metal wall needs exactly one of conductivity = "58 MS/m" or metal = '
+                         f"one of {', '.join(map(repr, CONDUCTIVITY_S_PER_M))}", field=where)
+    preset = spec.get("metal")
+    if preset is not None:
+        if preset not in CONDUCTIVITY_S_PER_M:
+            raise InputError(f"unknown metal {preset!r}; known: "
+                             f"{', '.join(CONDUCTIVITY_S_PER_M)}", field=where + ".metal")
+        sigma = CONDUCTIVITY_S_PER_M[preset]
+    else:
+        sigma = parse_quantity(spec["conductivity"], "conductivity", field=where + ".conductivity")
+        if not sigma > 0:
+            raise InputError(f"must be positive, got {spec['conductivity']!r}",
+                             field=where + ".conductivity")
+    roughness = spec.get("roughness")
+    if roughness is not None:
+        roughness = parse_quantity(roughness, "length", field=where + ".roughness")
+        if roughness < 0:
+            raise InputError("must not be negative", field=where + ".roughness")
+    return Wall(kind=kind, conductivity=sigma, roughness=roughness, metal=preset)
 
 
 def _solve(spec: dict) -> SolveSpec:
@@ -284,4 +337,7 @@ def _solve(spec: dict) -> SolveSpec:
     if form not in FORMS:
         raise InputError(f"must be one of {', '.join(map(repr, FORMS))}, got {form!r}",
                          field="solve.form")
-    return SolveSpec(modes=modes, near_hz=near_hz, form=form)
+    complex_check = spec.get("complex_check", False)
+    if not isinstance(complex_check, bool):
+        raise InputError("must be true or false", field="solve.complex_check")
+    return SolveSpec(modes=modes, near_hz=near_hz, form=form, complex_check=complex_check)

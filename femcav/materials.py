@@ -16,8 +16,12 @@ Permittivity = Union[float, Callable[[np.ndarray, np.ndarray, np.ndarray], np.nd
 
 @dataclass(frozen=True)
 class Material:
+    """eps_r (real part) and mu_r; ``tan_delta`` is the dielectric loss tangent, so that the
+    complex permittivity is eps_r (1 - j tan_delta) with time dependence e^{jωt}."""
+
     eps_r: Permittivity = 1.0
     mu_r: float = 1.0
+    tan_delta: float = 0.0
 
     @property
     def is_uniform(self) -> bool:
@@ -32,6 +36,9 @@ class Material:
 
     def check(self, points: np.ndarray, *, field: str) -> None:
         """Refuse a non-positive or non-finite eps_r or mu_r; ``points`` is (n, 3)."""
+        if not (np.isfinite(self.tan_delta) and self.tan_delta >= 0):
+            raise InputError(f"tan_delta must be zero or positive, got {self.tan_delta!r}",
+                             field=f"{field}.tan_delta")
         if not (np.isfinite(self.mu_r) and self.mu_r > 0):
             raise InputError(f"mu_r must be a positive number, got {self.mu_r!r}",
                              field=f"{field}.mu_r")

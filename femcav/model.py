@@ -9,7 +9,7 @@ import numpy as np
 from .errors import InputError
 from .geometry.mesh import TaggedMesh
 from .materials import Material
-from .walls import DEFAULT_KIND, KINDS, Wall
+from .walls import DEFAULT_KIND, KINDS, METAL, Wall
 
 FORMS = ("E", "H")
 
@@ -54,6 +54,13 @@ def make_model(mesh: TaggedMesh, materials: dict[str, Material], walls: dict[str
         if wall.kind not in KINDS:
             raise InputError(f"unknown wall kind {wall.kind!r}; allowed: {', '.join(KINDS)}",
                              source=source, field=f"walls.{name}.kind")
+        if wall.kind == METAL and not (wall.conductivity and wall.conductivity > 0):
+            raise InputError("a metal wall needs a positive conductivity", source=source,
+                             field=f"walls.{name}.conductivity")
+        if wall.kind != METAL and (wall.conductivity is not None or wall.roughness is not None):
+            raise InputError(f"conductivity and roughness belong to kind = \"metal\"; a "
+                             f"{wall.kind.upper()} wall has no loss", source=source,
+                             field=f"walls.{name}.conductivity")
     for name, material in materials.items():
         region_id = mesh.region_names[name]
         points = mesh.points[mesh.tets[mesh.tet_region == region_id].reshape(-1)]

@@ -9,7 +9,7 @@ from pathlib import Path
 from .case import Case, build_mesh, case_model, load_case
 from .io.atomic import staged_output
 from .io.results import to_csv, to_json, to_table
-from .io.vtk import write_vtu
+from .io.vtk import write_vtu, write_wall_loss_vtu
 from .progress import SILENT, Progress
 from .errors import InputError
 from .geometry import symmetry_wall_name
@@ -37,7 +37,8 @@ def default_output_folder(case_path: Path) -> Path:
 def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | None = None,
              near_hz: float | None = None, form: str | None = None,
              progress: Progress = SILENT) -> tuple[Case, SolveResult, Path]:
-    """Solve a case file and write table.txt, modes.csv, modes.json and fields.vtu.
+    """Solve a case file and write table.txt, modes.csv, modes.json and fields.vtu (and
+    wall_loss.vtu when the case has metal walls).
 
     Command-line values (modes, near_hz, form) override the case file's [solve] table.
     """
@@ -66,6 +67,7 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
             model = case_model(case, mesh, extra_walls=walls)
             labelled.append((label, solve_model(model, modes=settings.modes,
                                                 near_hz=settings.near_hz, form=settings.form,
+                                                complex_check=settings.complex_check,
                                                 progress=progress)))
         except InputError as exc:
             raise exc.located(source=str(case.path)) from None
@@ -78,5 +80,8 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
         files.write_text("modes.csv", to_csv(result))
         files.write_text("modes.json", to_json(result, title=case.title, case=str(case.path)))
         files.write_with("fields.vtu", lambda p: write_vtu(result, p), suffix=".vtu")
+        if any(m.losses and m.losses.wall_loss_density is not None for m in result.modes):
+            files.write_with("wall_loss.vtu", lambda p: write_wall_loss_vtu(result, p),
+                             suffix=".vtu")
     progress.step(f"results written to {folder}")
     return case, result, folder

@@ -10,14 +10,16 @@ import numpy as np
 from scipy.constants import c as C0
 
 from .eigen import shift_invert
+from .eigen.complex_shift_invert import complex_eigenvalues
 from .eigen.factorization import get_factorizer
 from .eigen.interface import EigenRequest
 from .errors import InputError
-from .fem.assembly import assemble, restrict
+from .fem.assembly import assemble, assemble_mass, assemble_stiffness, restrict
 from .fem.gradient import GradientProjector, discrete_gradient
 from .fem.space import EdgeSpace, build_space
 from .model import Model
 from .post.checks import ModeChecks, check_modes
+from .post.losses import LossReport, has_losses, metal_faces, mode_losses
 from .progress import SILENT, Progress
 
 # An eigenvalue below this fraction of the lowest-mode scale (π/L)²/(ε_max μ_max) is a static
@@ -34,6 +36,10 @@ class Mode:
     checks: ModeChecks
     dofs: np.ndarray        # over all edges of the mesh, M-normalised
     symmetry: str | None = None   # the symmetry class, e.g. "x:PMC y:PEC", when cut
+    losses: LossReport | None = None   # Q factors by perturbation, when the case has losses
+    # from the direct complex solve with lossy permittivity ([solve] complex_check)
+    complex_frequency_hz: float | None = None
+    q_dielectric_complex: float | None = None
 
 
 @dataclass(frozen=True)
@@ -59,7 +65,8 @@ def frequency_to_k0_squared(f_hz: float) -> float:
 
 
 def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, form: str = "E",
-                factorization: str = "superlu", progress: Progress = SILENT) -> SolveResult:
+                factorization: str = "superlu", complex_check: bool = False,
+                progress: Progress = SILENT) -> SolveResult:
     if not isinstance(modes, int) or modes < 1:
         raise InputError(f"the number of modes must be a whole number >= 1, got {modes!r}",
                          field="solve.modes")
@@ -104,10 +111,52 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
                          k0_squared=float(v), checks=ch, dofs=full[:, i])
                     for i, (v, ch) in enumerate(zip(values, checks))]
     progress.step(f"eigen solve done: {len(result_modes)} modes in {timings['eigen_s']:.2f} s")
+    faces = metal_faces(space) if has_losses(space) else None
+    result_modes = [replace(m, losses=mode_losses(space, m.dofs, m.frequency_hz, faces))
+                    if has_losses(space) else m for m in result_modes]
+    if complex_check:
+        t0 = time.perf_counter()
+        result_modes = _complex_check(space, K, M, G, factorize, result_modes, pairs.stats["shift"])
+        timings["complex_check_s"] = time.perf_counter() - t0
+        progress.step(f"complex check done in {timings['complex_check_s']:.2f} s")
     return SolveResult(modes=result_modes, space=space, dofs=space.n_dofs,
                        elements=int(space.mesh.nelements), static_fields_dropped=int(static.sum()),
                        timings=timings, eigen_stats=pairs.stats, request=request,
                        near_hz=near_hz)
+
+
+def _complex_check(space: EdgeSpace, K, M, G, factorize, modes: list[Mode], shift: float
+                   ) -> list[Mode]:
+    """Solve again with eps_r (1 - j tan δ) and give each mode its complex frequency and the
+    Q it implies, Q = Re ω / (2 Im ω); modes are paired by nearest real frequency."""
+    tan_delta = _tan_delta_at_quadrature(space)
+    if space.form == "E":   # M becomes ∫ eps_r (1 - j tan δ) u·v
+        M_loss = restrict(assemble_mass(space, space.mass_coef * tan_delta), space.free)
+        K_c, M_c = K.astype(complex), M - 1j * M_loss
+    else:                   # 1/(eps_r (1 - j t)) = (1/eps_r)(1 + j t)/(1 + t²)
+        K_re = restrict(assemble_stiffness(space, space.stiffness_coef / (1 + tan_delta**2)),
+                        space.free)
+        K_im = restrict(assemble_stiffness(space, space.stiffness_coef * tan_delta
+                                           / (1 + tan_delta**2)), space.free)
+        K_c, M_c = K_re + 1j * K_im, M.astype(complex)
+    values = complex_eigenvalues(K_c, M_c, G.astype(complex), factorize, shift=shift,
+                                 count=len(modes) + max(4, len(modes) // 2))
+    omegas = C0 * np.sqrt(values)
+    out = []
+    for mode in modes:
+        w = omegas[np.argmin(np.abs(omegas.real - 2 * math.pi * mode.frequency_hz))]
+        q = w.real / (2 * abs(w.imag)) if w.imag != 0 else math.inf
+        out.append(replace(mode, complex_frequency_hz=float(w.real / (2 * math.pi)),
+                           q_dielectric_complex=float(q)))
+    return out
+
+
+def _tan_delta_at_quadrature(space: EdgeSpace) -> np.ndarray:
+    tm = space.model.mesh
+    out = np.zeros_like(space.mass_coef)
+    for name, rid in tm.region_names.items():
+        out[tm.tet_region == rid] = space.model.materials[name].tan_delta
+    return out
 
 
 def _select(ascending: np.ndarray, count: int, target: float | None) -> np.ndarray:

@@ -4,20 +4,27 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-PEC, PMC = "pec", "pmc"
-KINDS = (PEC, PMC)
+PEC, PMC, METAL = "pec", "pmc", "metal"
+KINDS = (PEC, PMC, METAL)
 # A boundary face that no wall names is metal: the enclosure of a cavity (common practice).
 DEFAULT_KIND = PEC
 
 
 @dataclass(frozen=True)
 class Wall:
+    """A wall condition. A metal wall is PEC for the lossless mode and adds loss through its
+    surface resistance (conductivity in S/m, optional rms roughness in m)."""
+
     kind: str = DEFAULT_KIND
+    conductivity: float | None = None
+    roughness: float | None = None
+    metal: str | None = None   # the preset name, when the conductivity came from one
 
 
-def essential_kind(form: str) -> str:
-    """The wall kind whose condition is imposed on the space (n x field = 0) in ``form``.
+def essential_kinds(form: str) -> tuple[str, ...]:
+    """The wall kinds whose condition is imposed on the space (n x field = 0) in ``form``.
 
-    E form: n x E = 0 on PEC is essential, PMC is natural. H form: the reverse.
+    E form: n x E = 0 on PEC (and metal) walls is essential, PMC is natural. H form: the
+    reverse.
     """
-    return {"E": PEC, "H": PMC}[form]
+    return {"E": (PEC, METAL), "H": (PMC,)}[form]

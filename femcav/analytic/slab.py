@@ -57,3 +57,27 @@ def slab_te_m0p_frequencies(a: float, t: float, d: float, eps_r: float, p: int, 
             if len(roots) == count:
                 break
     return [C0 * k / (2 * math.pi) for k in roots]
+
+
+def slab_filling_factor(k0: float, a: float, t: float, eps_r: float, beta: float) -> float:
+    """Share of the electric energy inside the slab for the TE_m0p mode at k0.
+
+    E_y = A sin(k_d x) in the slab and B sin(k_a (a - x)) in the air, with A sin(k_d t) =
+    B sin(k_a (a - t)) (continuity of E_y); the z dependence is common to both and cancels.
+    W_e,slab / W_e = eps_r I_d / (eps_r I_d + I_a), I = ∫ E_y² dx in closed form.
+    """
+    kd2, ka2 = eps_r * k0**2 - beta**2, k0**2 - beta**2
+
+    def sin_sq_integral(k2: float, s: float) -> float:   # ∫_0^s sin²(k x) dx / k² ... scaled
+        # with S(k, x) = sin(kx)/k: ∫_0^s S² dx, real for k² of either sign
+        if k2 > 0:
+            k = math.sqrt(k2)
+            return (s / 2 - math.sin(2 * k * s) / (4 * k)) / k2
+        q = math.sqrt(-k2)
+        return (math.sinh(2 * q * s) / (4 * q) - s / 2) / (-k2)
+
+    # Amplitudes of S(k_d, x) and S(k_a, a - x) that match at x = t.
+    amp_d, amp_a = _s(ka2, a - t), _s(kd2, t)
+    slab = eps_r * amp_d**2 * sin_sq_integral(kd2, t)
+    air = amp_a**2 * sin_sq_integral(ka2, a - t)
+    return slab / (slab + air)

@@ -42,7 +42,7 @@ def superlu(A) -> Solve:
               diag_pivot_thresh=0.1, options={"SymmetricMode": True})
 
     def solve(b: np.ndarray) -> np.ndarray:
-        out = np.empty_like(b, dtype=float)
+        out = np.empty_like(b, dtype=np.result_type(b, lu.L.dtype))
         out[perm] = lu.solve(np.ascontiguousarray(b[perm]))
         return out
 

@@ -18,11 +18,19 @@ def _mass(u, v, w):
     return w.b * dot(u, v)
 
 
+def assemble_stiffness(space: EdgeSpace, coefficient):
+    """∫ a curl u · curl v over all edges, a given at the quadrature points."""
+    return asm(_curl_curl, space.basis, a=coefficient).tocsr()
+
+
+def assemble_mass(space: EdgeSpace, coefficient):
+    """∫ b u · v over all edges, b given at the quadrature points."""
+    return asm(_mass, space.basis, b=coefficient).tocsr()
+
+
 def assemble(space: EdgeSpace):
     """(K, M) over all edges, as CSR matrices; restrict with ``space.free``."""
-    K = asm(_curl_curl, space.basis, a=space.stiffness_coef).tocsr()
-    M = asm(_mass, space.basis, b=space.mass_coef).tocsr()
-    return K, M
+    return assemble_stiffness(space, space.stiffness_coef), assemble_mass(space, space.mass_coef)
 
 
 def restrict(A, free):

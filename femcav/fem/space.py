@@ -12,7 +12,7 @@ from scipy.sparse.csgraph import connected_components
 
 from ..errors import InputError
 from ..model import FORMS, Model
-from ..walls import essential_kind
+from ..walls import essential_kinds
 
 
 @dataclass(frozen=True)
@@ -52,9 +52,9 @@ def build_space(model: Model, form: str = "E") -> EdgeSpace:
     basis = Basis(mesh, ElementTetN1(), intorder=2 if uniform else 4)
 
     facet_wall = _name_boundary_facets(model, mesh)
-    essential = essential_kind(form)
+    essential = essential_kinds(form)
     essential_facets = np.array([f for f, name in facet_wall.items()
-                                 if model.wall_kind(name) == essential], dtype=np.int64)
+                                 if model.wall_kind(name) in essential], dtype=np.int64)
     fixed = (basis.get_dofs(facets=essential_facets).all() if essential_facets.size
              else np.zeros(0, dtype=np.int64))
     free = np.setdiff1d(np.arange(basis.N), fixed)

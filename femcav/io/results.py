@@ -4,7 +4,10 @@ modes.json is a stable, documented format (README, "Output files"): top-level ke
 ``format``, ``title``, ``case``, ``form``, ``dofs``, ``elements``, ``request``,
 ``static_fields_dropped``, ``checks_passed``, ``limits``, ``timings_s`` and ``modes``; each mode
 has ``index``, ``frequency_hz``, ``k0_squared_per_m2``, ``residual``, ``divergence``,
-``orthogonality`` and ``passed``, and ``symmetry`` (the class label, e.g. "x:PMC y:PEC")
+``orthogonality``, ``passed``, ``q_wall``, ``q_dielectric``, ``q_total`` (null without such
+loss), ``wall_loss_share``, ``region_loss_share`` (name -> fraction of that loss),
+``filling_factor`` (region -> share of the electric energy), with ``complex_frequency_hz`` and
+``q_dielectric_complex`` after a complex check, and ``symmetry`` (the class label, e.g. "x:PMC y:PEC")
 when the model was cut by symmetry planes; then the top level has ``symmetry_classes``.
 """
 
@@ -20,7 +23,8 @@ from ..units import format_frequency
 
 FORMAT_NAME = "femcav-modes"
 FORMAT_VERSION = 1
-CSV_COLUMNS = ("index", "frequency_hz", "residual", "divergence", "orthogonality", "passed")
+CSV_COLUMNS = ("index", "frequency_hz", "q_wall", "q_dielectric", "q_total", "residual",
+               "divergence", "orthogonality", "passed")
 
 
 def mode_rows(result: SolveResult) -> list[dict]:
@@ -32,6 +36,18 @@ def mode_rows(result: SolveResult) -> list[dict]:
                "passed": m.checks.passed}
         if m.symmetry is not None:
             row["symmetry"] = m.symmetry
+        loss = m.losses
+        row.update({
+            "q_wall": loss.q_wall if loss else None,
+            "q_dielectric": loss.q_dielectric if loss else None,
+            "q_total": loss.q_total if loss else None,
+            "wall_loss_share": loss.wall_loss_share if loss else {},
+            "region_loss_share": loss.region_loss_share if loss else {},
+            "filling_factor": loss.filling_factor if loss else {},
+        })
+        if m.q_dielectric_complex is not None:
+            row["complex_frequency_hz"] = m.complex_frequency_hz
+            row["q_dielectric_complex"] = m.q_dielectric_complex
         rows.append(row)
     return rows
 
@@ -61,24 +77,36 @@ def to_json(result: SolveResult, *, title: str, case: str | None) -> str:
 
 def to_csv(result: SolveResult) -> str:
     out = io.StringIO()
-    columns = CSV_COLUMNS + (("symmetry",) if _has_symmetry(result) else ())
+    columns = CSV_COLUMNS + (("symmetry",) if _has_symmetry(result) else ()) + (
+        ("q_dielectric_complex",) if any(m.q_dielectric_complex for m in result.modes) else ())
     writer = csv.DictWriter(out, fieldnames=columns, extrasaction="ignore", lineterminator="\n")
     writer.writeheader()
     for row in mode_rows(result):
-        writer.writerow({**row, "frequency_hz": repr(row["frequency_hz"])})
+        writer.writerow({**row, "frequency_hz": repr(row["frequency_hz"]),
+                         **{k: "" if row[k] is None else f"{row[k]:.6g}"
+                            for k in ("q_wall", "q_dielectric", "q_total")}})
     return out.getvalue()
 
 
 def to_table(result: SolveResult) -> str:
     width = max([len(m.symmetry or "") for m in result.modes] + [len("symmetry")])
     sym = _has_symmetry(result)
+    lossy = any(m.losses for m in result.modes)
     lines = [f"{'mode':>4}  {'frequency':>16}  " + (f"{'symmetry':<{width}}  " if sym else "")
+             + (f"{'Q wall':>9}  {'Q diel.':>9}  {'Q total':>9}  " if lossy else "")
              + f"{'residual':>9}  {'divergence':>10}  {'orthogonality':>13}  check"]
     for m in result.modes:
         c = m.checks
         status = "ok" if c.passed else "FAILED: " + "; ".join(c.failures())
         lines.append(f"{m.index:>4}  {format_frequency(m.frequency_hz, 7):>16}  "
                      + (f"{m.symmetry:<{width}}  " if sym else "")
+                     + (_q_columns(m) if lossy else "")
                      + f"{c.residual:9.1e}  {c.divergence:10.1e}  {c.orthogonality:13.1e}  "
                      f"{status}")
     return "\n".join(lines)
+
+
+def _q_columns(mode) -> str:
+    loss = mode.losses
+    values = (loss.q_wall, loss.q_dielectric, loss.q_total) if loss else (None, None, None)
+    return "".join(f"{'-' if q is None else format(q, '.5g'):>9}  " for q in values)

@@ -3,6 +3,7 @@
 Cell data (values at element centroids, 1 J stored energy per mode): ``region`` (region id),
 and per mode K (two digits): ``mK_E`` (V/m), ``mK_H`` (A/m, in quadrature with E),
 ``mK_we`` and ``mK_wm`` (time-averaged electric and magnetic energy density, J/m³).
+The metal walls go into a second file with the loss per area of every mode.
 """
 
 from __future__ import annotations
@@ -30,3 +31,21 @@ def write_vtu(result: SolveResult, path: Path) -> None:
         data[f"{tag}_wm"] = [fields.w_m]
     meshio.write(str(path), meshio.Mesh(tm.points, [("tetra", tm.tets)], cell_data=data),
                  file_format="vtu")
+
+
+def write_wall_loss_vtu(result: SolveResult, path: Path) -> None:
+    """The metal-wall triangles with cell data ``wall`` (an index into the sorted wall names)
+    and, per mode K, ``mK_loss``: time-averaged loss per area, W/m², for 1 J stored."""
+    import meshio
+    import numpy as np
+
+    from ..post.losses import metal_faces
+
+    faces = metal_faces(result.space)
+    mesh = result.space.mesh
+    names = sorted(set(faces.wall))
+    data = {"wall": [np.array([names.index(w) for w in faces.wall], dtype="int32")]}
+    for mode in result.modes:
+        data[f"m{mode.index:02d}_loss"] = [mode.losses.wall_loss_density]
+    meshio.write(str(path), meshio.Mesh(mesh.p.T, [("triangle", mesh.facets[:, faces.facets].T)],
+                                        cell_data=data), file_format="vtu")
