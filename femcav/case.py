@@ -53,7 +53,7 @@ class MeshSpec:
 class SolveSpec:
     modes: int = DEFAULT_MODES
     near_hz: float | None = None
-    form: str = "E"
+    form: str | None = None   # None: H with metal walls, else E (see runner.choose_form)
     complex_check: bool = False
 
 
@@ -333,8 +333,8 @@ def _solve(spec: dict) -> SolveSpec:
     near_hz = None if near is None else parse_quantity(near, "frequency", field="solve.near")
     if near_hz is not None and near_hz <= 0:
         raise InputError(f"must be a positive frequency, got {near!r}", field="solve.near")
-    form = spec.get("form", "E")
-    if form not in FORMS:
+    form = spec.get("form")
+    if form is not None and form not in FORMS:
         raise InputError(f"must be one of {', '.join(map(repr, FORMS))}, got {form!r}",
                          field="solve.form")
     complex_check = spec.get("complex_check", False)

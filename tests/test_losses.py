@@ -192,6 +192,8 @@ def test_case_file_losses_and_outputs(tmp_path, capsys):
     power = np.sum(area * walls.cell_data["m01_loss"][0])
     assert power == pytest.approx(2 * math.pi * mode["frequency_hz"] / mode["q_wall"], rel=1e-9)
     assert "q_wall" in (folder / "modes.csv").read_text().splitlines()[0]
+    # No form given and metal walls: the H form, whose wall Q converges like h².
+    assert doc["form"] == "H"
 
 
 BAD = {
