@@ -12,6 +12,7 @@ from pathlib import Path
 
 from .errors import InputError
 from .expressions import Expression
+from .fem.space import ORDERS
 from .geometry import BUILDERS, build_part, builder_layout, read_mesh
 from .geometry.mesh import TaggedMesh
 from .geometry.params import parse_params
@@ -26,7 +27,7 @@ REGION_KEYS = {"eps_r", "mu_r", "tan_delta", "mesh_size"}
 MESH_KEYS = {"size", "max_frequency", "per_wavelength", "edge_refinement"}
 SYMMETRY_CHOICES = {"pec": ("pec",), "pmc": ("pmc",), "both": ("pec", "pmc")}
 WALL_KEYS = {"kind", "conductivity", "metal", "roughness"}
-SOLVE_KEYS = {"modes", "near", "form", "complex_check"}
+SOLVE_KEYS = {"modes", "near", "form", "order", "complex_check"}
 DEFAULT_MODES = 10
 
 
@@ -54,6 +55,7 @@ class SolveSpec:
     modes: int = DEFAULT_MODES
     near_hz: float | None = None
     form: str | None = None   # None: H with metal walls, else E (see runner.choose_form)
+    order: int = 1
     complex_check: bool = False
 
 
@@ -340,4 +342,9 @@ def _solve(spec: dict) -> SolveSpec:
     complex_check = spec.get("complex_check", False)
     if not isinstance(complex_check, bool):
         raise InputError("must be true or false", field="solve.complex_check")
-    return SolveSpec(modes=modes, near_hz=near_hz, form=form, complex_check=complex_check)
+    order = spec.get("order", 1)
+    if isinstance(order, bool) or order not in ORDERS:
+        raise InputError(f"must be one of {', '.join(map(str, ORDERS))}, got {order!r}",
+                         field="solve.order")
+    return SolveSpec(modes=modes, near_hz=near_hz, form=form, order=order,
+                     complex_check=complex_check)

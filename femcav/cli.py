@@ -30,6 +30,8 @@ def _parser() -> argparse.ArgumentParser:
     solve.add_argument("--near", metavar="FREQ",
                        help='find the modes nearest this frequency, e.g. "4.8 GHz"')
     solve.add_argument("--form", choices=("E", "H"), help="field form (overrides the case)")
+    solve.add_argument("--order", type=int, choices=(1, 2, 3),
+                       help="element order (overrides the case)")
     solve.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
     mesh = commands.add_parser(
         "mesh", help="mesh without solving; print quality, write mesh and picture",
@@ -66,11 +68,13 @@ def _solve(args) -> int:
     if args.modes is not None and args.modes < 1:
         raise InputError(f"must be a whole number >= 1, got {args.modes}", field="--modes")
     case, result, folder = run_case(args.case, out=args.out, modes=args.modes, near_hz=near_hz,
-                                    form=args.form, progress=Progress(quiet=args.quiet))
+                                    form=args.form, order=args.order,
+                                    progress=Progress(quiet=args.quiet))
     count = len(result.modes)
     what = (f"{count} modes nearest {format_frequency(result.near_hz)}" if result.near_hz
             else f"lowest {count} modes")
-    print(f"{case.title}: {what}, {result.space.form} form, {result.dofs} DOFs, "
+    print(f"{case.title}: {what}, {result.space.form} form, order {result.space.order}, "
+          f"{result.dofs} DOFs, "
           f"{result.elements} tetrahedra")
     print(to_table(result))
     if result.static_fields_dropped:

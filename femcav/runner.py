@@ -54,12 +54,12 @@ def default_output_folder(case_path: Path) -> Path:
 
 
 def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | None = None,
-             near_hz: float | None = None, form: str | None = None,
+             near_hz: float | None = None, form: str | None = None, order: int | None = None,
              progress: Progress = SILENT) -> tuple[Case, SolveResult, Path]:
     """Solve a case file and write table.txt, modes.csv, modes.json and fields.vtu (and
     wall_loss.vtu when the case has metal walls).
 
-    Command-line values (modes, near_hz, form) override the case file's [solve] table.
+    Command-line values (modes, near_hz, form, order) override the case file's [solve] table.
     """
     case = load_case(path)
     settings = case.solve
@@ -69,6 +69,8 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
         settings = replace(settings, near_hz=near_hz)
     if form is not None:
         settings = replace(settings, form=form)
+    if order is not None:
+        settings = replace(settings, order=order)
 
     progress.step(f"case {case.path}: {case.title}")
     mesh = build_mesh(case)
@@ -87,6 +89,7 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
             model = case_model(case, mesh, extra_walls=walls)
             labelled.append((label, solve_model(model, modes=settings.modes,
                                                 near_hz=settings.near_hz, form=settings.form,
+                                                order=settings.order,
                                                 complex_check=settings.complex_check,
                                                 progress=progress)))
         except InputError as exc:

@@ -65,7 +65,7 @@ def frequency_to_k0_squared(f_hz: float) -> float:
 
 
 def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, form: str = "E",
-                factorization: str = "superlu", complex_check: bool = False,
+                order: int = 1, factorization: str = "superlu", complex_check: bool = False,
                 progress: Progress = SILENT) -> SolveResult:
     if not isinstance(modes, int) or modes < 1:
         raise InputError(f"the number of modes must be a whole number >= 1, got {modes!r}",
@@ -75,12 +75,12 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
                          field="solve.near")
     timings = {}
     t0 = time.perf_counter()
-    space = build_space(model, form)
+    space = build_space(model, form, order)
     K_all, M_all = assemble(space)
     K, M = restrict(K_all, space.free), restrict(M_all, space.free)
-    G = discrete_gradient(space.mesh)[space.free][:, space.free_nodes]
+    G = discrete_gradient(space)[space.free][:, space.free_nodes]
     timings["assembly_s"] = time.perf_counter() - t0
-    progress.step(f"assembled {form} form: {space.n_dofs} DOFs, {space.mesh.nelements} "
+    progress.step(f"assembled {form} form, order {order}: {space.n_dofs} DOFs, {space.mesh.nelements} "
                   f"tetrahedra, {space.free_nodes.size} gradient DOFs")
     if space.n_dofs < modes + 2:
         raise InputError(f"the mesh has only {space.n_dofs} free DOFs, too few for {modes} "

@@ -1,10 +1,9 @@
 """The discrete gradient and the M-orthogonal projection that removes gradient fields.
 
-For lowest-order Nédélec elements a DOF is the line integral of the field along its edge,
-from the lower to the higher node number (scikit-fem's orientation). The gradient of a
-piecewise-linear nodal function is therefore exactly G @ phi with G[e, head] = +1 and
-G[e, tail] = -1. Every such field lies in the kernel of the curl-curl operator; removing the
-component in range(G) keeps eigen iterations away from that large, degenerate kernel.
+The gradient of every order-k Lagrange function is exactly a Nédélec field of order k; for
+k = 1 a DOF is the line integral along its edge, so G[e, head] = +1 and G[e, tail] = -1.
+Every such field lies in the kernel of the curl-curl operator; removing the component in
+range(G) keeps eigen iterations away from that large, degenerate kernel.
 """
 
 from __future__ import annotations
@@ -12,15 +11,28 @@ from __future__ import annotations
 import numpy as np
 import scipy.sparse as sp
 
+from .nedelec import dofs_of
 
-def discrete_gradient(mesh) -> sp.csr_matrix:
-    """G (n_edges x n_nodes) for a scikit-fem tetrahedral mesh."""
-    tail, head = mesh.edges
-    n_edges = tail.size
-    rows = np.concatenate([np.arange(n_edges), np.arange(n_edges)])
-    cols = np.concatenate([tail, head])
-    vals = np.concatenate([-np.ones(n_edges), np.ones(n_edges)])
-    return sp.csr_matrix((vals, (rows, cols)), shape=(n_edges, mesh.nvertices))
+
+def discrete_gradient(space) -> sp.csr_matrix:
+    """G (edge-space DOFs x scalar-space DOFs): the Nédélec DOFs of the gradient of every
+    Lagrange basis function of the same order. ∇P_k lies inside NED_k, so G is exact, and the
+    moments are Piola-invariant, so one reference matrix serves every element."""
+    k = space.order
+    lagrange = space.scalar_basis.elem
+    local = np.array([dofs_of(k, lambda X, j=j: lagrange.lbasis(X, j)[1])
+                      for j in range(len(lagrange.dofnames))]).T       # (n_ned, n_lag)
+    local[np.abs(local) < 1e-12] = 0.0
+    rows_local, cols_local = np.nonzero(local)
+    edge_dofs = space.basis.element_dofs          # (n_ned, n_elements)
+    scalar_dofs = space.scalar_basis.element_dofs  # (n_lag, n_elements)
+    rows = edge_dofs[rows_local].ravel()
+    cols = scalar_dofs[cols_local].ravel()
+    vals = np.repeat(local[rows_local, cols_local], edge_dofs.shape[1])
+    # A DOF shared by several elements gets the same value from each: keep one.
+    _, first = np.unique(rows.astype(np.int64) * space.scalar_basis.N + cols, return_index=True)
+    return sp.csr_matrix((vals[first], (rows[first], cols[first])),
+                         shape=(space.basis.N, space.scalar_basis.N))
 
 
 class GradientProjector:

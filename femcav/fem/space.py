@@ -13,6 +13,8 @@ from scipy.sparse.csgraph import connected_components
 from ..errors import InputError
 from ..model import FORMS, Model
 from ..walls import essential_kinds
+from .lagrange import ElementTetLagrange
+from .nedelec import ElementTetNedelec
 
 
 @dataclass(frozen=True)
@@ -27,10 +29,12 @@ class EdgeSpace:
 
     model: Model
     form: str
-    mesh: object                 # skfem.MeshTet
-    basis: object                # skfem.Basis on ElementTetN1 (the lowest-order Nédélec)
+    order: int
+    mesh: object                 # skfem.MeshTet, vertices of every tetrahedron sorted
+    basis: object                # skfem.Basis on the Nédélec element of this order
+    scalar_basis: object         # skfem.Basis on the Lagrange element of this order
     free: np.ndarray
-    free_nodes: np.ndarray
+    free_nodes: np.ndarray       # free DOFs of the scalar (gradient) space
     stiffness_coef: np.ndarray
     mass_coef: np.ndarray
     facet_wall: dict[int, str]   # boundary facet index -> wall name ("" for unnamed)
@@ -40,16 +44,25 @@ class EdgeSpace:
         return int(self.free.size)
 
 
-def build_space(model: Model, form: str = "E") -> EdgeSpace:
-    from skfem import Basis, ElementTetN1, MeshTet
+ORDERS = (1, 2, 3)
+
+
+def build_space(model: Model, form: str = "E", order: int = 1) -> EdgeSpace:
+    from skfem import Basis, MeshTet
 
     if form not in FORMS:
         raise InputError(f"unknown field form {form!r}; allowed: {', '.join(FORMS)}",
                          field="solve.form")
+    if order not in ORDERS:
+        raise InputError(f"element order must be one of {', '.join(map(str, ORDERS))}, got "
+                         f"{order!r}", field="solve.order")
     tm = model.mesh
-    mesh = MeshTet(np.ascontiguousarray(tm.points.T), np.ascontiguousarray(tm.tets.T))
+    mesh = MeshTet(np.ascontiguousarray(tm.points.T), np.ascontiguousarray(tm.tets.T),
+                   sort_t=True)
     uniform = all(m.is_uniform for m in model.materials.values())
-    basis = Basis(mesh, ElementTetN1(), intorder=2 if uniform else 4)
+    # u·v of two order-k fields has degree 2k; a varying eps_r gets two degrees more.
+    basis = Basis(mesh, ElementTetNedelec(order), intorder=2 * order + (0 if uniform else 2))
+    scalar_basis = Basis(mesh, ElementTetLagrange(order), intorder=1)
 
     facet_wall = _name_boundary_facets(model, mesh)
     essential = essential_kinds(form)
@@ -58,13 +71,14 @@ def build_space(model: Model, form: str = "E") -> EdgeSpace:
     fixed = (basis.get_dofs(facets=essential_facets).all() if essential_facets.size
              else np.zeros(0, dtype=np.int64))
     free = np.setdiff1d(np.arange(basis.N), fixed)
-    fixed_nodes = np.unique(mesh.facets[:, essential_facets]) if essential_facets.size else []
-    free_nodes = _ground(mesh, np.setdiff1d(np.arange(mesh.nvertices), fixed_nodes))
+    fixed_scalar = (scalar_basis.get_dofs(facets=essential_facets).all() if essential_facets.size
+                    else np.zeros(0, dtype=np.int64))
+    free_nodes = _ground(mesh, np.setdiff1d(np.arange(scalar_basis.N), fixed_scalar))
 
     eps, mu = _coefficients(model, basis)
     stiffness_coef, mass_coef = (1.0 / mu, eps) if form == "E" else (1.0 / eps, mu)
-    return EdgeSpace(model=model, form=form, mesh=mesh, basis=basis, free=free,
-                     free_nodes=free_nodes, stiffness_coef=stiffness_coef, mass_coef=mass_coef,
+    return EdgeSpace(model=model, form=form, order=order, mesh=mesh, basis=basis,
+                     scalar_basis=scalar_basis, free=free, free_nodes=free_nodes, stiffness_coef=stiffness_coef, mass_coef=mass_coef,
                      facet_wall=facet_wall)
 
 
@@ -82,7 +96,9 @@ def _name_boundary_facets(model: Model, mesh) -> dict[int, str]:
 
 
 def _ground(mesh, nodes: np.ndarray) -> np.ndarray:
-    """Drop one node of every connected piece that no essential wall touches.
+    """Drop one vertex DOF of every connected piece that no essential wall touches.
+
+    ``nodes`` are scalar-space DOFs; the first ``nvertices`` of them are the vertices.
 
     A constant potential has no gradient, so without an essential wall the scalar space has
     one null vector per piece; removing one node per such piece leaves the range of the
@@ -94,8 +110,8 @@ def _ground(mesh, nodes: np.ndarray) -> np.ndarray:
     cols = np.tile(t, (t.shape[0], 1)).ravel()
     graph = sp.coo_matrix((np.ones(rows.size), (rows, cols)), shape=(n, n))
     _, label = connected_components(graph, directed=False)
-    keep = np.ones(n, dtype=bool)
-    is_free = np.zeros(n, dtype=bool)
+    keep = np.ones(max(n, int(nodes.max()) + 1 if nodes.size else n), dtype=bool)
+    is_free = np.zeros(keep.size, dtype=bool)
     is_free[nodes] = True
     for piece in np.unique(label):
         members = np.flatnonzero(label == piece)

@@ -1,7 +1,7 @@
 """The mode table as terminal text, CSV and JSON.
 
 modes.json is a stable, documented format (README, "Output files"): top-level keys
-``format``, ``title``, ``case``, ``form``, ``dofs``, ``elements``, ``request``,
+``format``, ``title``, ``case``, ``form``, ``order``, ``dofs``, ``elements``, ``request``,
 ``static_fields_dropped``, ``checks_passed``, ``limits``, ``timings_s`` and ``modes``; each mode
 has ``index``, ``frequency_hz``, ``k0_squared_per_m2``, ``residual``, ``divergence``,
 ``orthogonality``, ``passed``, ``q_wall``, ``q_dielectric``, ``q_total`` (null without such
@@ -60,7 +60,8 @@ def to_json(result: SolveResult, *, title: str, case: str | None) -> str:
     request = result.request
     document = {
         "format": FORMAT_NAME, "format_version": FORMAT_VERSION, "title": title, "case": case,
-        "form": result.space.form, "dofs": result.dofs, "elements": result.elements,
+        "form": result.space.form, "order": result.space.order, "dofs": result.dofs,
+        "elements": result.elements,
         "request": {"modes": request.count if request else len(result.modes),
                     "near_hz": result.near_hz},
         "static_fields_dropped": result.static_fields_dropped,

@@ -41,9 +41,9 @@ def centroid_materials(space: EdgeSpace) -> tuple[np.ndarray, np.ndarray]:
 def mode_fields(space: EdgeSpace, dofs: np.ndarray, omega: float,
                 materials: tuple[np.ndarray, np.ndarray] | None = None) -> CentroidFields:
     """Fields of one mode; ``dofs`` are over all edges and M-normalised (xᵀ M x = 1)."""
-    from skfem import Basis, ElementTetN1
+    from skfem import Basis
 
-    centroid = Basis(space.mesh, ElementTetN1(), intorder=1)
+    centroid = Basis(space.mesh, space.basis.elem, intorder=1)
     field = centroid.interpolate(dofs)
     value = np.asarray(field)[:, :, 0].T
     curl = field.curl[:, :, 0].T

@@ -5,8 +5,8 @@ form) or H itself (H form) on the faces of the wall; Q_wall = ω W / P_wall with
 time-averaged stored energy. Dielectric loss: 1/Q_d = Σ_i p_i tan δ_i with p_i = W_e,i / W_e
 the electric-energy filling factor of region i. 1/Q = 1/Q_wall + 1/Q_d. (D. M. Pozar,
 Microwave Engineering, 4th ed., §6.1 and §6.3; common practice.) Volume integrals use the
-quadrature of the space, face integrals a degree-2 rule on each face: exact for the
-lowest-order elements, whose curl is constant in an element.
+quadrature of the space, face integrals a rule of degree 2k on each face for order k: exact
+for |H_t|² of the order-k field in the H form, and for the curl of E in the E form.
 """
 
 from __future__ import annotations
@@ -46,7 +46,7 @@ class MetalFaces:
 
 
 def metal_faces(space: EdgeSpace) -> MetalFaces | None:
-    from skfem import ElementTetN1, FacetBasis
+    from skfem import FacetBasis
 
     model = space.model
     pairs = sorted((f, name) for f, name in space.facet_wall.items()
@@ -54,7 +54,7 @@ def metal_faces(space: EdgeSpace) -> MetalFaces | None:
     if not pairs:
         return None
     facets = np.array([f for f, _ in pairs], dtype=np.int64)
-    basis = FacetBasis(space.mesh, ElementTetN1(), facets=facets, intorder=2)
+    basis = FacetBasis(space.mesh, space.basis.elem, facets=facets, intorder=2 * space.order)
     mu_by_region = {rid: model.materials[name].mu_r
                     for name, rid in model.mesh.region_names.items()}
     elements = space.mesh.f2t[0, facets]

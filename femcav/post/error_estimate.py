@@ -1,0 +1,154 @@
+"""An error bar on every frequency from a sequence of meshes of one part.
+
+The part is solved at each mesh size; every mode of the finest mesh is followed back through
+the coarser meshes by field overlap (``mode_matching``), and its matched frequencies are
+extrapolated to zero mesh size with a fitted rate (``richardson``). The bar on a finest-mesh
+frequency is the safety factor times its distance from the extrapolated value.
+
+Each mesh is asked for a few more modes than requested, so that a mode near the top of the
+list still finds its partner on a coarser mesh where the modes are ordered differently, and
+so that a degenerate pair cut by the end of the list is matched whole.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass, replace
+from typing import Callable, Sequence
+
+import numpy as np
+
+from ..model import Model
+from ..progress import SILENT, Progress
+from ..solver import SolveResult, solve_model
+from ..units import format_length
+from .field_overlap import mode_overlaps
+from .mode_matching import DEGENERATE_RTOL, match_modes
+from .richardson import extrapolate, sizes_from_dofs
+
+SIZE_MEASURES = ("nominal", "dofs")
+
+
+def extra_modes(count: int) -> int:
+    """Spare modes per mesh: enough for a crossing or a degenerate triple at the top."""
+    return max(3, math.ceil(count / 3))
+
+
+@dataclass(frozen=True)
+class ModeEstimate:
+    index: int                        # the mode's index in the finest result (1-based)
+    frequency_hz: float               # on the finest mesh
+    extrapolated_hz: float | None     # f0, or None when no coarser mesh has the mode
+    error_estimate_hz: float | None   # the bar on frequency_hz, None when not estimable
+    fitted_rate: float                # observed rate (nan when undefined)
+    rate_used: float                  # the rate behind extrapolated_hz (nan when none)
+    fallback: bool                    # True: the theoretical rate was used instead of the fit
+    reason: str                       # why the fit was not used ("" when it was)
+    safety_factor: float
+    matched_hz: tuple[float | None, ...]   # per mesh of EstimatedResult.sizes; None: unmatched
+    overlaps: tuple[float, ...]       # subspace overlap with the finest mode, per mesh
+
+
+@dataclass(frozen=True)
+class EstimatedResult:
+    finest: SolveResult               # the finest mesh's result, with the requested modes
+    estimates: list[ModeEstimate]     # one per mode of ``finest``, in the same order
+    sizes: tuple[float, ...]          # the meshes, coarse to fine (nominal sizes, m)
+    effective_sizes: tuple[float, ...]   # the sizes the extrapolation used
+    dofs: tuple[int, ...]
+
+
+def estimate_from_results(results: Sequence[SolveResult], sizes: Sequence[float], *,
+                          order_rate: float = 2.0, indices: Sequence[int] | None = None,
+                          degenerate_rtol: float = DEGENERATE_RTOL) -> list[ModeEstimate]:
+    """Estimates for the modes of the finest result (``indices``: 0-based positions in its
+    mode list; default all). ``results[k]`` was solved on a mesh of size ``sizes[k]``; the
+    smallest size is the finest mesh."""
+    if len(results) != len(sizes) or len(results) < 2:
+        raise ValueError("need one result per mesh size and at least two meshes")
+    order = np.argsort(-np.asarray(sizes, float), kind="stable")
+    results = [results[k] for k in order]
+    h = np.asarray(sizes, float)[order]
+    finest = results[-1]
+    fine_hz = np.array([m.frequency_hz for m in finest.modes])
+    fine_dofs = np.column_stack([m.dofs for m in finest.modes])
+    partners, overlaps = [], []
+    for coarse in results[:-1]:
+        coarse_hz = np.array([m.frequency_hz for m in coarse.modes])
+        o = mode_overlaps(coarse.space, np.column_stack([m.dofs for m in coarse.modes]),
+                          finest.space, fine_dofs)
+        matching = match_modes(o, coarse_hz, fine_hz, degenerate_rtol)
+        partners.append([None if p < 0 else float(coarse_hz[p]) for p in matching.partner])
+        overlaps.append(matching.overlap)
+    out = []
+    for j in (range(len(finest.modes)) if indices is None else indices):
+        matched = tuple(p[j] for p in partners) + (float(fine_hz[j]),)
+        out.append(_estimate(finest.modes[j].index, matched,
+                             tuple(float(o[j]) for o in overlaps) + (1.0,), h, order_rate))
+    return out
+
+
+def _estimate(index: int, matched, overlaps, h: np.ndarray, order_rate: float) -> ModeEstimate:
+    use = [k for k, f in enumerate(matched) if f is not None]
+    if len(use) < 2:
+        return ModeEstimate(index=index, frequency_hz=matched[-1], extrapolated_hz=None,
+                            error_estimate_hz=None, fitted_rate=math.nan, rate_used=math.nan,
+                            fallback=True, reason="no coarser mesh has this mode",
+                            safety_factor=math.nan, matched_hz=matched, overlaps=overlaps)
+    x = extrapolate(h[use], [matched[k] for k in use], order_rate=order_rate)
+    reason = x.reason
+    if len(use) < len(matched):
+        reason = "; ".join(filter(None, [f"matched on {len(use)} of {len(matched)} meshes",
+                                         reason]))
+    return ModeEstimate(index=index, frequency_hz=matched[-1], extrapolated_hz=x.extrapolated_hz,
+                        error_estimate_hz=x.error_hz, fitted_rate=x.fitted_rate,
+                        rate_used=x.rate_used, fallback=x.fallback, reason=reason,
+                        safety_factor=x.safety_factor, matched_hz=matched, overlaps=overlaps)
+
+
+def estimate_errors(build_model: Callable[[float], Model], sizes: Sequence[float], *,
+                    modes: int, near_hz: float | None = None, form: str = "E",
+                    order_rate: float = 2.0, size_measure: str = "nominal",
+                    progress: Progress = SILENT, **solve_options) -> EstimatedResult:
+    """Solve ``build_model(size)`` at every size (metres, any order; at least two, three for
+    an observed rate) and give each of the ``modes`` requested modes of the finest mesh an
+    error estimate. ``size_measure`` "dofs" extrapolates in N^(-1/3) instead of the nominal
+    size. ``solve_options`` go to ``solve_model`` unchanged."""
+    if size_measure not in SIZE_MEASURES:
+        raise ValueError(f"size_measure must be one of {SIZE_MEASURES}, got {size_measure!r}")
+    sizes = sorted((float(s) for s in sizes), reverse=True)
+    if len(sizes) < 2 or len(set(sizes)) != len(sizes) or sizes[-1] <= 0:
+        raise ValueError(f"need at least two distinct positive mesh sizes, got {sizes}")
+    asked = modes + extra_modes(modes)
+    results = []
+    for k, size in enumerate(sizes, start=1):
+        t0 = time.perf_counter()
+        result = solve_model(build_model(size), modes=asked, near_hz=near_hz, form=form,
+                             **solve_options)
+        results.append(result)
+        progress.step(f"error estimate: mesh {k} of {len(sizes)}, size "
+                      f"{format_length(size, 3)}: {result.dofs} DOFs, {len(result.modes)} "
+                      f"modes in {time.perf_counter() - t0:.2f} s")
+    effective = (sizes if size_measure == "nominal"
+                 else list(sizes_from_dofs([r.dofs for r in results])))
+    t0 = time.perf_counter()
+    finest = results[-1]
+    keep = _requested(np.array([m.frequency_hz for m in finest.modes]), modes, near_hz)
+    estimates = estimate_from_results(results, effective, order_rate=order_rate, indices=keep)
+    trimmed = [replace(finest.modes[j], index=i + 1) for i, j in enumerate(keep)]
+    estimates = [replace(e, index=i + 1) for i, e in enumerate(estimates)]
+    request = finest.request if finest.request is None else replace(finest.request, count=modes)
+    progress.step(f"error estimate: modes matched and extrapolated in "
+                  f"{time.perf_counter() - t0:.2f} s")
+    return EstimatedResult(finest=replace(finest, modes=trimmed, request=request),
+                           estimates=estimates, sizes=tuple(sizes),
+                           effective_sizes=tuple(float(s) for s in effective),
+                           dofs=tuple(r.dofs for r in results))
+
+
+def _requested(ascending_hz: np.ndarray, count: int, near_hz: float | None) -> list[int]:
+    """Positions of the requested modes among the extras: the lowest, or those nearest."""
+    if near_hz is None:
+        return list(range(min(count, ascending_hz.size)))
+    return sorted(np.argsort(np.abs(ascending_hz - near_hz), kind="stable")[:count].tolist())

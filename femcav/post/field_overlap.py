@@ -1,0 +1,145 @@
+"""Overlap of modes solved on two meshes of the same part.
+
+A mode of the coarse mesh is evaluated at the quadrature points of the fine mesh (point
+location in the coarse mesh, then the coarse basis at the located reference coordinates), so
+both fields are integrated with one rule, the fine one. The weight is the mass coefficient of
+the form (eps_r in the E form, mu_r in the H form): the overlap is then the M-inner product
+of the fine discretisation, in which the fine modes are orthonormal, and
+O_ij = |(c_i, f_j)_M| / (‖c_i‖_M ‖f_j‖_M) lies in [0, 1] by the Cauchy–Schwarz inequality.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+from scipy.spatial import cKDTree
+
+from ..fem.space import EdgeSpace
+
+# A point counts as inside an element when no barycentric coordinate is below this; the
+# slack absorbs round-off for points on shared faces.
+INSIDE_TOLERANCE = 1e-10
+# Nearest centroids tried per point, then the wider search for the points still not inside.
+FIRST_CANDIDATES = 8
+WIDE_CANDIDATES = 64
+
+
+@dataclass(frozen=True)
+class Location:
+    """Where points lie in a mesh: an element each, and how far inside it they are."""
+
+    cells: np.ndarray           # element index per point
+    min_barycentric: np.ndarray  # smallest barycentric coordinate; < 0: outside that element
+
+    @property
+    def outside(self) -> np.ndarray:
+        return self.min_barycentric < -INSIDE_TOLERANCE
+
+
+@dataclass(frozen=True)
+class Transfer:
+    """Coarse DOFs -> coarse field at the fine quadrature points.
+
+    ``matrix`` maps a DOF vector of the coarse space to the field stacked by component,
+    shape (3 * n_points, n_coarse_edges). Points the coarse mesh does not contain (the two
+    meshes approximate a curved wall by different facets) take the field of the element
+    they are nearest to, continued as its polynomial; ``outside_points`` counts them and
+    ``worst_barycentric`` says how far out the worst one is, in units of that element.
+    """
+
+    matrix: sp.csr_matrix
+    n_points: int
+    outside_points: int
+    worst_barycentric: float
+
+
+@dataclass(frozen=True)
+class Overlaps:
+    """``matrix[i, j]`` = overlap of coarse mode i with fine mode j, in [0, 1]. ``inner`` holds
+    the signed inner products of the normalised fields and ``coarse_gram`` those of the
+    normalised coarse fields with each other (not quite the identity: they were orthonormal
+    on their own mesh), for projections onto the span of a cluster of modes."""
+
+    matrix: np.ndarray
+    inner: np.ndarray
+    coarse_gram: np.ndarray
+    transfer: Transfer
+
+
+def locate(mesh, points: np.ndarray) -> Location:
+    """An element of ``mesh`` (a scikit-fem MeshTet) for each point of ``points`` (3, n): the
+    containing one, or for a point outside the mesh the candidate it is least outside of."""
+    corners = mesh.p[:, mesh.t]                       # (3, 4, n_elements)
+    tree = cKDTree(corners.mean(axis=1).T)
+    inverse, origin = _inverse_maps(corners)
+    cells, worst = _best_candidates(tree, inverse, origin, points, FIRST_CANDIDATES)
+    retry = np.flatnonzero(worst < -INSIDE_TOLERANCE)
+    if retry.size:
+        # A sliver's centroid can be far from a point it contains; widen the search there.
+        wide_cells, wide_worst = _best_candidates(tree, inverse, origin, points[:, retry],
+                                                  WIDE_CANDIDATES)
+        better = wide_worst > worst[retry]
+        cells[retry[better]] = wide_cells[better]
+        worst[retry[better]] = wide_worst[better]
+    return Location(cells=cells, min_barycentric=worst)
+
+
+def _inverse_maps(corners: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    edges = corners[:, 1:, :] - corners[:, :1, :]     # columns p1-p0, p2-p0, p3-p0
+    return np.linalg.inv(np.moveaxis(edges, 2, 0)), corners[:, 0, :].T
+
+
+def _best_candidates(tree, inverse, origin, points, count):
+    count = min(count, origin.shape[0])
+    _, cand = tree.query(points.T, count)
+    cand = cand.reshape(points.shape[1], count)
+    local = np.einsum("pkij,pkj->pki", inverse[cand], points.T[:, None, :] - origin[cand])
+    bary = np.concatenate([1 - local.sum(axis=2, keepdims=True), local], axis=2)
+    lowest = bary.min(axis=2)
+    pick = lowest.argmax(axis=1)
+    rows = np.arange(points.shape[1])
+    return cand[rows, pick], lowest[rows, pick]
+
+
+def transfer_matrix(coarse: EdgeSpace, points: np.ndarray) -> Transfer:
+    """The matrix that evaluates a coarse-space DOF vector at ``points`` (3, n)."""
+    basis = coarse.basis
+    where = locate(coarse.mesh, points)
+    cells = where.cells
+    reference = basis.mapping.invF(points[:, :, None], tind=cells)   # (3, n, 1)
+    n = points.shape[1]
+    rows, cols, vals = [], [], []
+    for i in range(basis.Nbfun):
+        value = basis.elem.gbasis(basis.mapping, reference, i, tind=cells)[0].value
+        for component in range(3):
+            rows.append(component * n + np.arange(n))
+            cols.append(basis.element_dofs[i, cells])
+            vals.append(value[component, :, 0])
+    matrix = sp.coo_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
+                           shape=(3 * n, basis.N)).tocsr()
+    return Transfer(matrix=matrix, n_points=n, outside_points=int(where.outside.sum()),
+                    worst_barycentric=float(min(where.min_barycentric.min(), 0.0)))
+
+
+def mode_overlaps(coarse: EdgeSpace, coarse_dofs: np.ndarray, fine: EdgeSpace,
+                  fine_dofs: np.ndarray) -> Overlaps:
+    """Overlaps of the coarse modes (columns of ``coarse_dofs``) with the fine ones."""
+    if coarse.form != fine.form:
+        raise ValueError(f"cannot compare an {coarse.form} form result with an {fine.form} "
+                         "form one: the stored fields differ")
+    basis = fine.basis
+    points = basis.mapping.F(basis.X).reshape(3, -1)     # element-major, as basis.dx
+    transfer = transfer_matrix(coarse, points)
+    weight = (fine.mass_coef * basis.dx).ravel()
+    c = (transfer.matrix @ coarse_dofs).reshape(3, -1, coarse_dofs.shape[1])
+    f = np.stack([np.asarray(basis.interpolate(fine_dofs[:, j])).reshape(3, -1)
+                  for j in range(fine_dofs.shape[1])], axis=2)
+    cross = np.einsum("cpi,p,cpj->ij", c, weight, f)
+    gram = np.einsum("cpi,p,cpk->ik", c, weight, c)
+    c_norm = np.sqrt(np.maximum(np.diag(gram), np.finfo(float).tiny))
+    f_norm = np.sqrt(np.maximum(np.einsum("cpj,p,cpj->j", f, weight, f), np.finfo(float).tiny))
+    inner = cross / np.outer(c_norm, f_norm)
+    return Overlaps(matrix=np.minimum(np.abs(inner), 1.0), inner=inner,
+                    coarse_gram=gram / np.outer(c_norm, c_norm), transfer=transfer)
