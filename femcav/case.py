@@ -24,7 +24,7 @@ from .walls import KINDS, Wall
 
 TOP_KEYS = {"title", "geometry", "mesh", "regions", "walls", "symmetry", "solve"}
 REGION_KEYS = {"eps_r", "mu_r", "tan_delta", "mesh_size"}
-MESH_KEYS = {"size", "max_frequency", "per_wavelength", "edge_refinement"}
+MESH_KEYS = {"size", "max_frequency", "per_wavelength", "edge_refinement", "curved"}
 SYMMETRY_CHOICES = {"pec": ("pec",), "pmc": ("pmc",), "both": ("pec", "pmc")}
 WALL_KEYS = {"kind", "conductivity", "metal", "roughness"}
 SOLVE_KEYS = {"modes", "near", "form", "order", "complex_check"}
@@ -48,6 +48,7 @@ class MeshSpec:
     per_wavelength: float | None = None
     edge_refinement: float = 0.5
     region_sizes: dict[str, float] = field(default_factory=dict)
+    curved: bool = False
 
 
 @dataclass(frozen=True)
@@ -211,7 +212,10 @@ def _mesh(spec: dict, region_tables: dict, geometry: GeometrySpec) -> MeshSpec:
                          *[(v, f"regions.{k}.mesh_size") for k, v in region_sizes.items()]]:
         if value is not None and value <= 0:
             raise InputError("must be positive", field=where)
-    return MeshSpec(size=size, max_frequency_hz=f_max,
+    curved = spec.get("curved", False)
+    if not isinstance(curved, bool):
+        raise InputError("must be true or false", field="mesh.curved")
+    return MeshSpec(size=size, max_frequency_hz=f_max, curved=curved,
                     per_wavelength=None if per_wavelength is None else float(per_wavelength),
                     edge_refinement=float(edge), region_sizes=region_sizes)
 

@@ -51,4 +51,5 @@ def builder_sizing(case, layout: Layout) -> Sizing:
             region_sizes[region] = min(region_sizes.get(region, math.inf), wavelength / n / per)
     if size is None:
         size = DEFAULT_SIZE_FRACTION * layout.extent()
-    return Sizing(size=size, region_sizes=region_sizes, edge_factor=spec.edge_refinement)
+    return Sizing(size=size, region_sizes=region_sizes, edge_factor=spec.edge_refinement,
+                  curved=spec.curved)

@@ -48,7 +48,7 @@ ORDERS = (1, 2, 3)
 
 
 def build_space(model: Model, form: str = "E", order: int = 1) -> EdgeSpace:
-    from skfem import Basis, MeshTet
+    from skfem import Basis
 
     if form not in FORMS:
         raise InputError(f"unknown field form {form!r}; allowed: {', '.join(FORMS)}",
@@ -57,8 +57,7 @@ def build_space(model: Model, form: str = "E", order: int = 1) -> EdgeSpace:
         raise InputError(f"element order must be one of {', '.join(map(str, ORDERS))}, got "
                          f"{order!r}", field="solve.order")
     tm = model.mesh
-    mesh = MeshTet(np.ascontiguousarray(tm.points.T), np.ascontiguousarray(tm.tets.T),
-                   sort_t=True)
+    mesh = _skfem_mesh(tm)
     uniform = all(m.is_uniform for m in model.materials.values())
     # u·v of two order-k fields has degree 2k; a varying eps_r gets two degrees more.
     basis = Basis(mesh, ElementTetNedelec(order), intorder=2 * order + (0 if uniform else 2))
@@ -80,6 +79,26 @@ def build_space(model: Model, form: str = "E", order: int = 1) -> EdgeSpace:
     return EdgeSpace(model=model, form=form, order=order, mesh=mesh, basis=basis,
                      scalar_basis=scalar_basis, free=free, free_nodes=free_nodes, stiffness_coef=stiffness_coef, mass_coef=mass_coef,
                      facet_wall=facet_wall)
+
+
+def _skfem_mesh(tm):
+    """A scikit-fem mesh with sorted vertices; quadratic (curved) when the mesh has 10-node
+    tetrahedra, whose edge midpoints then define an isoparametric map per element."""
+    from skfem import MeshTet, MeshTet2
+
+    n_corners = int(tm.tets.max()) + 1          # corners come first in TaggedMesh.points
+    corners = np.ascontiguousarray(tm.points[:n_corners].T)
+    linear = MeshTet(corners, np.ascontiguousarray(tm.tets.T), sort_t=True)
+    if tm.tets10 is None:
+        return linear
+    key = lambda a, b: np.minimum(a, b) * n_corners + np.maximum(a, b)
+    edge_keys = key(linear.edges[0], linear.edges[1])
+    order = np.argsort(edge_keys)
+    midpoints = np.empty((3, linear.edges.shape[1]))
+    for k, (a, b) in enumerate(((0, 1), (1, 2), (0, 2), (0, 3), (1, 3), (2, 3))):
+        where = order[np.searchsorted(edge_keys[order], key(tm.tets10[:, a], tm.tets10[:, b]))]
+        midpoints[:, where] = tm.points[tm.tets10[:, 4 + k]].T
+    return MeshTet2(np.hstack([corners, midpoints]), linear.t)
 
 
 def _name_boundary_facets(model: Model, mesh) -> dict[int, str]:

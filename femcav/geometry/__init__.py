@@ -17,7 +17,7 @@ def builder_layout(name: str, params: dict) -> Layout:
 
 
 def build_part(name: str, *, mesh_size: float | None = None, sizing: Sizing | None = None,
-               symmetry: tuple[str, ...] = (), **params) -> TaggedMesh:
+               symmetry: tuple[str, ...] = (), curved: bool = False, **params) -> TaggedMesh:
     """Mesh builder ``name`` with ``params`` (SI floats); cut at the symmetry planes named
     in ``symmetry`` (axes "x", "y", "z"), keeping the side at or above each plane."""
     builder = BUILDERS[name]
@@ -31,7 +31,7 @@ def build_part(name: str, *, mesh_size: float | None = None, sizing: Sizing | No
                              f"{', '.join(planes) or 'none'}", field=f"symmetry.{axis}")
     if sizing is None:
         from ..sizing import DEFAULT_SIZE_FRACTION
-        sizing = Sizing(size=mesh_size or DEFAULT_SIZE_FRACTION * layout.extent())
+        sizing = Sizing(size=mesh_size or DEFAULT_SIZE_FRACTION * layout.extent(), curved=curved)
     return mesh_layout(layout, sizing, {axis: planes[axis] for axis in symmetry}, name=name)
 
 

@@ -36,23 +36,27 @@ def read_mesh(path: str | Path, *, scale: float = 1.0) -> TaggedMesh:
             names_by_dim[int(dim)][int(tag)] = name
 
     tets, tet_tags, faces, face_tags = [], [], [], []
+    kinds = set()
     for i, block in enumerate(raw.cells):
         tags = (np.asarray(raw.cell_data[tag_key][i], dtype=int).reshape(-1)
                 if tag_key else np.zeros(len(block.data), dtype=int))
-        if block.type == "tetra":
+        if block.type in ("tetra", "tetra10"):
+            kinds.add(block.type)
             tets.append(block.data)
             tet_tags.append(tags)
-        elif block.type == "triangle" and tag_key:
-            faces.append(block.data)
+        elif block.type in ("triangle", "triangle6") and tag_key:
+            faces.append(block.data[:, :3])   # a curved face is named by its corners
             face_tags.append(tags)
-        elif block.type in ("tetra10", "triangle6"):
-            raise InputError(f"second-order cells ({block.type}) are not supported yet; "
-                             "mesh with order 1", source=str(path))
     if not tets:
         raise InputError("the mesh has no tetrahedra (femcav needs a 3D tetrahedral mesh)",
                          source=str(path))
+    if len(kinds) > 1:
+        raise InputError("the mesh mixes straight (4-node) and curved (10-node) tetrahedra; "
+                         "use one kind", source=str(path))
 
-    tets = np.concatenate(tets).astype(np.int64)
+    # 10-node tetrahedra (VTK/meshio node order: corners, then the midpoints of the edges
+    # 01, 12, 02, 03, 13, 23) describe curved elements; the first four nodes are the corners.
+    cells = np.concatenate(tets).astype(np.int64)
     tet_tags = np.concatenate(tet_tags)
     region_names = {_name(names_by_dim[3], t, "region"): int(t) for t in np.unique(tet_tags)}
     if faces:
@@ -62,20 +66,24 @@ def read_mesh(path: str | Path, *, scale: float = 1.0) -> TaggedMesh:
         faces, face_tags = np.zeros((0, 3), np.int64), np.zeros(0, int)
     wall_names = {_name(names_by_dim[2], t, "wall"): int(t) for t in np.unique(face_tags)}
 
-    # Keep only the points the tetrahedra use, renumbered, so that stray nodes (geometry
-    # points, 2D-only entities) never become DOFs.
-    used, inverse = np.unique(tets, return_inverse=True)
+    # Keep only the points the tetrahedra use, corners first, renumbered, so that stray nodes
+    # (geometry points, 2D-only entities) never become DOFs.
+    corners = np.unique(cells[:, :4])
+    rest = np.setdiff1d(np.unique(cells), corners)
+    used = np.concatenate([corners, rest])
     renumber = np.full(raw.points.shape[0], -1, dtype=np.int64)
     renumber[used] = np.arange(used.size)
     points = np.asarray(raw.points, dtype=float)[used] * scale
     if points.shape[1] == 2:
         raise InputError("the mesh is two-dimensional; femcav needs 3D tetrahedra",
                          source=str(path))
+    cells = renumber[cells]
     faces = renumber[faces]
     keep = np.all(faces >= 0, axis=1)
-    mesh = TaggedMesh(points=points[:, :3], tets=inverse.reshape(tets.shape), tet_region=tet_tags,
+    mesh = TaggedMesh(points=points[:, :3], tets=cells[:, :4], tet_region=tet_tags,
                       region_names=region_names, faces=faces[keep], face_tag=face_tags[keep],
-                      wall_names=wall_names, source=str(path))
+                      wall_names=wall_names, source=str(path),
+                      tets10=cells if cells.shape[1] == 10 else None)
     check_mesh(mesh, unit_m=scale)
     return mesh
 

@@ -16,7 +16,7 @@ class TaggedMesh:
     named by ``wall_names``. Faces on the boundary that carry no name are not listed.
     """
 
-    points: np.ndarray          # (n_points, 3) float, metres
+    points: np.ndarray          # (n_points, 3) float, metres; corners first
     tets: np.ndarray            # (n_tets, 4) int
     tet_region: np.ndarray      # (n_tets,) int
     region_names: dict[str, int]
@@ -24,6 +24,9 @@ class TaggedMesh:
     face_tag: np.ndarray        # (n_faces,) int
     wall_names: dict[str, int]
     source: str = "<memory>"
+    # Curved (quadratic) tetrahedra: (n_tets, 10) node numbers, corners then the midpoints
+    # of the edges 01, 12, 02, 03, 13, 23 (VTK order); None for straight tetrahedra.
+    tets10: np.ndarray | None = None
 
     @property
     def n_tets(self) -> int:

@@ -50,6 +50,7 @@ class Sizing:
     size: float
     region_sizes: dict[str, float] = field(default_factory=dict)
     edge_factor: float = 0.5   # size at metal edges relative to the local size (1 = off)
+    curved: bool = False       # quadratic (10-node) tetrahedra that follow curved surfaces
 
 
 def symmetry_wall_name(axis: str) -> str:
@@ -99,6 +100,10 @@ def mesh_layout(layout: Layout, sizing: Sizing, cuts: dict[str, float] | None = 
         walls = _name_walls(gmsh, layout, cuts, tol)
         _set_sizes(gmsh, layout, sizing, region_of, walls)
         gmsh.model.mesh.generate(3)
+        if sizing.curved:
+            # Second-order nodes placed on the CAD surfaces: the elements follow curved walls
+            # and interfaces instead of cutting them with flat facets.
+            gmsh.model.mesh.setOrder(2)
         for region in dict.fromkeys(region_of.values()):
             gmsh.model.addPhysicalGroup(3, [t for t, r in region_of.items() if r == region],
                                         name=region)

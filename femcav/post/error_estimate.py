@@ -24,7 +24,7 @@ from ..progress import SILENT, Progress
 from ..solver import SolveResult, solve_model
 from ..units import format_length
 from .field_overlap import mode_overlaps
-from .mode_matching import DEGENERATE_RTOL, match_modes
+from .mode_matching import DEGENERATE_RTOL, clusters, match_modes
 from .richardson import extrapolate, sizes_from_dofs
 
 SIZE_MEASURES = ("nominal", "dofs")
@@ -48,6 +48,7 @@ class ModeEstimate:
     safety_factor: float
     matched_hz: tuple[float | None, ...]   # per mesh of EstimatedResult.sizes; None: unmatched
     overlaps: tuple[float, ...]       # subspace overlap with the finest mode, per mesh
+    cluster: tuple[int, ...] = ()     # indices of the degenerate modes extrapolated together
 
 
 @dataclass(frozen=True)
@@ -69,42 +70,68 @@ def estimate_from_results(results: Sequence[SolveResult], sizes: Sequence[float]
         raise ValueError("need one result per mesh size and at least two meshes")
     order = np.argsort(-np.asarray(sizes, float), kind="stable")
     results = [results[k] for k in order]
-    h = np.asarray(sizes, float)[order]
     finest = results[-1]
     fine_hz = np.array([m.frequency_hz for m in finest.modes])
     fine_dofs = np.column_stack([m.dofs for m in finest.modes])
-    partners, overlaps = [], []
+    matched, overlaps = [], []
     for coarse in results[:-1]:
         coarse_hz = np.array([m.frequency_hz for m in coarse.modes])
         o = mode_overlaps(coarse.space, np.column_stack([m.dofs for m in coarse.modes]),
                           finest.space, fine_dofs)
         matching = match_modes(o, coarse_hz, fine_hz, degenerate_rtol)
-        partners.append([None if p < 0 else float(coarse_hz[p]) for p in matching.partner])
-        overlaps.append(matching.overlap)
-    out = []
-    for j in (range(len(finest.modes)) if indices is None else indices):
-        matched = tuple(p[j] for p in partners) + (float(fine_hz[j]),)
-        out.append(_estimate(finest.modes[j].index, matched,
-                             tuple(float(o[j]) for o in overlaps) + (1.0,), h, order_rate))
-    return out
+        matched.append([None if p < 0 else float(coarse_hz[p]) for p in matching.partner])
+        overlaps.append([float(v) for v in matching.overlap])
+    matched.append([float(f) for f in fine_hz])
+    overlaps.append([1.0] * fine_hz.size)
+    estimates = estimate_matched(np.asarray(sizes, float)[order], matched, overlaps,
+                                 order_rate=order_rate, degenerate_rtol=degenerate_rtol)
+    chosen = range(fine_hz.size) if indices is None else indices
+    return [replace(estimates[j], index=finest.modes[j].index) for j in chosen]
 
 
-def _estimate(index: int, matched, overlaps, h: np.ndarray, order_rate: float) -> ModeEstimate:
-    use = [k for k, f in enumerate(matched) if f is not None]
+def estimate_matched(sizes: np.ndarray, matched: list[list[float | None]],
+                     overlaps: list[list[float]], *, order_rate: float = 2.0,
+                     degenerate_rtol: float = DEGENERATE_RTOL) -> list[ModeEstimate]:
+    """Estimates from matched frequencies: ``matched[k][j]`` is the frequency of finest mode
+    j on mesh k (sizes coarse to fine, the last mesh the finest), None where unmatched.
+
+    A degenerate cluster of the finest mesh is extrapolated as one: its mean frequency, over
+    the meshes where every member is matched. The split of a degenerate eigenspace is mesh
+    noise of the size of the convergence itself, and the mean of the cluster is free of it
+    to first order. A member's bar adds its distance from the cluster mean on the finest
+    mesh (the triangle inequality: |f_j - f| <= |f_j - mean| + |mean - f|).
+    """
+    fine_hz = np.array(matched[-1], float)
+    out: dict[int, ModeEstimate] = {}
+    for group in clusters(fine_hz, degenerate_rtol):
+        group = sorted(group)
+        use = [k for k in range(len(sizes)) if all(matched[k][j] is not None for j in group)]
+        mean = [float(np.mean([matched[k][j] for j in group])) for k in use]
+        for j in group:
+            out[j] = _estimate(j + 1, sizes, use, mean, matched, overlaps, j, group,
+                               order_rate)
+    return [out[j] for j in range(fine_hz.size)]
+
+
+def _estimate(index, sizes, use, mean, matched, overlaps, j, group, order_rate) -> ModeEstimate:
+    own = tuple(m[j] for m in matched)
+    common = dict(index=index, frequency_hz=own[-1], matched_hz=own,
+                  overlaps=tuple(o[j] for o in overlaps),
+                  cluster=tuple(g + 1 for g in group) if len(group) > 1 else ())
     if len(use) < 2:
-        return ModeEstimate(index=index, frequency_hz=matched[-1], extrapolated_hz=None,
-                            error_estimate_hz=None, fitted_rate=math.nan, rate_used=math.nan,
-                            fallback=True, reason="no coarser mesh has this mode",
-                            safety_factor=math.nan, matched_hz=matched, overlaps=overlaps)
-    x = extrapolate(h[use], [matched[k] for k in use], order_rate=order_rate)
-    reason = x.reason
-    if len(use) < len(matched):
-        reason = "; ".join(filter(None, [f"matched on {len(use)} of {len(matched)} meshes",
-                                         reason]))
-    return ModeEstimate(index=index, frequency_hz=matched[-1], extrapolated_hz=x.extrapolated_hz,
-                        error_estimate_hz=x.error_hz, fitted_rate=x.fitted_rate,
-                        rate_used=x.rate_used, fallback=x.fallback, reason=reason,
-                        safety_factor=x.safety_factor, matched_hz=matched, overlaps=overlaps)
+        return ModeEstimate(extrapolated_hz=None, error_estimate_hz=None, fitted_rate=math.nan,
+                            rate_used=math.nan, fallback=True,
+                            reason="no coarser mesh has this mode", safety_factor=math.nan,
+                            **common)
+    x = extrapolate(sizes[use], mean, order_rate=order_rate)
+    notes = [x.reason]
+    if len(use) < len(sizes):
+        notes.insert(0, f"matched on {len(use)} of {len(sizes)} meshes")
+    return ModeEstimate(extrapolated_hz=x.extrapolated_hz,
+                        error_estimate_hz=x.error_hz + abs(own[-1] - mean[-1]),
+                        fitted_rate=x.fitted_rate, rate_used=x.rate_used, fallback=x.fallback,
+                        reason="; ".join(filter(None, notes)), safety_factor=x.safety_factor,
+                        **common)
 
 
 def estimate_errors(build_model: Callable[[float], Model], sizes: Sequence[float], *,

@@ -12,12 +12,31 @@ asymptotic range, or mesh-to-mesh noise of the unstructured meshes is as large a
 convergence itself, and the theoretical rate of the element order is used with the two
 finest meshes instead.
 
-Safety factor, after Roache's grid convergence index (same source): 1.25 on |f_finest - f0|
-when the rate is observed from three or more meshes and agrees with theory, 3 otherwise. The
-observed rate of an unstructured mesh sequence scatters (each mesh is a new triangulation,
-not a refinement of the last), and a rate above the theoretical one is more likely noise
-than faster convergence; then the bar is taken with the theoretical rate, which gives the
-larger of the two estimates, times 3.
+The bar on the finest frequency is a safety factor Fs times an estimate of |f_finest - f0|,
+after Roache's grid convergence index (same source; the rate limiting as in W. L. Oberkampf
+and C. J. Roy, Verification and Validation in Scientific Computing, 2010, ch. 8; both from
+memory), with one guard of ours, the last:
+
+- Fs = 1.25 when the observed rate agrees with the theoretical one (within 25 %): the data
+  are in the asymptotic range and the fit can be believed.
+- Fs = 3 otherwise, and in every fallback.
+- A rate faster than the element order delivers is not credited: the bar is taken with
+  min(observed, theoretical), the larger of the two corrections. The reported f0 keeps the
+  fitted rate.
+- Guard: when the rate is not trusted or disagrees, each consecutive pair of meshes is also a
+  two-mesh estimate with the theoretical rate (scaled to the finest mesh as h^p), and the
+  largest of them counts. Each mesh of an unstructured sequence is a new triangulation, not a
+  refinement of the last, so its frequency carries noise on top of C h^p; noise can make one
+  difference small (a plateau, or a change of sign) far more easily than it makes one large,
+  so the largest difference is the one to trust.
+
+Measured on 30 sequences (box and two pillboxes, E and H form, five sequences of three
+lowest-order meshes from h ≈ 3.6 down to 1.3 mm, ten modes each, against closed forms): the
+true error lay inside the bar for 299 of 300 modes, and never fewer than 9 of 10 in a
+sequence; for the single modes in the asymptotic range the bar was 1.05 to 5.6 times the true
+error (median 1.7). The extrapolated f0 itself removed only about a third of the error (median
+|f0 - exact| / |f_finest - exact| = 0.67): at these sizes mesh noise is of the order of the
+convergence, which is why the bar, not f0, is the product.
 """
 
 from __future__ import annotations
@@ -103,6 +122,13 @@ def _extrapolate(h: np.ndarray, f: np.ndarray, p: float) -> float:
     return float(f[-1] + (f[-1] - f[-2]) / ((h[-2] / h[-1]) ** p - 1.0))
 
 
+def _largest_pair_estimate(h: np.ndarray, f: np.ndarray, p: float) -> float:
+    """The largest two-mesh estimate at rate p over consecutive pairs, scaled to the finest
+    mesh; the finest pair's is |f_finest - f0|."""
+    return max(abs(f[k + 1] - f[k]) / ((h[k] / h[k + 1]) ** p - 1.0) * (h[-1] / h[k + 1]) ** p
+               for k in range(h.size - 1))
+
+
 def _fitted_f0(h: np.ndarray, f: np.ndarray, p: float) -> float:
     if h.size == 3:   # the three-point fit passes through all points: any two give f0
         return _extrapolate(h, f, p)
@@ -129,22 +155,24 @@ def extrapolate(sizes, frequencies, *, order_rate: float = 2.0,
     elif math.isnan(p_fit):
         reason = "frequency differences change sign between meshes"
     elif not band[0] <= p_fit <= band[1]:
-        reason = f"fitted rate {p_fit:.3g} outside [{band[0]:g}, {band[1]:g}]"
+        shown = {0.0: f"< {_SEARCH[0]:g}", math.inf: f"> {_SEARCH[1]:g}"}.get(p_fit, f"{p_fit:.3g}")
+        reason = f"fitted rate {shown} outside [{band[0]:g}, {band[1]:g}]"
 
     if reason:
         f0 = _extrapolate(h, f, order_rate)
         p_used, safety = order_rate, SAFETY_ASSUMED
-        error = safety * abs(f[-1] - f0)
+        estimate = _largest_pair_estimate(h, f, order_rate)
     else:
         f0 = _fitted_f0(h, f, p_fit)
         p_used = p_fit
+        slower = _extrapolate(h, f, min(p_fit, order_rate))
+        estimate = max(abs(f[-1] - f0), abs(f[-1] - slower))
         if abs(p_fit - order_rate) <= RATE_AGREEMENT * order_rate:
             safety = SAFETY_OBSERVED
-            error = safety * abs(f[-1] - f0)
         else:
             safety = SAFETY_ASSUMED
-            assumed = _extrapolate(h, f, min(p_fit, order_rate))
-            error = safety * max(abs(f[-1] - f0), abs(f[-1] - assumed))
+            estimate = max(estimate, _largest_pair_estimate(h, f, order_rate))
+    error = safety * estimate
     return Extrapolation(sizes=tuple(h), frequencies_hz=tuple(f), finest_hz=float(f[-1]),
                          extrapolated_hz=f0, error_hz=float(error), fitted_rate=float(p_fit),
                          rate_used=float(p_used), fallback=bool(reason), reason=reason,
