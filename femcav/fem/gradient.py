@@ -8,9 +8,12 @@ range(G) keeps eigen iterations away from that large, degenerate kernel.
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 import scipy.sparse as sp
 
+from .lagrange import ElementTetLagrange
 from .nedelec import dofs_of
 
 
@@ -18,11 +21,7 @@ def discrete_gradient(space) -> sp.csr_matrix:
     """G (edge-space DOFs x scalar-space DOFs): the Nédélec DOFs of the gradient of every
     Lagrange basis function of the same order. ∇P_k lies inside NED_k, so G is exact, and the
     moments are Piola-invariant, so one reference matrix serves every element."""
-    k = space.order
-    lagrange = space.scalar_basis.elem
-    local = np.array([dofs_of(k, lambda X, j=j: lagrange.lbasis(X, j)[1])
-                      for j in range(len(lagrange.dofnames))]).T       # (n_ned, n_lag)
-    local[np.abs(local) < 1e-12] = 0.0
+    local = _reference_gradient(space.order)
     rows_local, cols_local = np.nonzero(local)
     edge_dofs = space.basis.element_dofs          # (n_ned, n_elements)
     scalar_dofs = space.scalar_basis.element_dofs  # (n_lag, n_elements)
@@ -33,6 +32,16 @@ def discrete_gradient(space) -> sp.csr_matrix:
     _, first = np.unique(rows.astype(np.int64) * space.scalar_basis.N + cols, return_index=True)
     return sp.csr_matrix((vals[first], (rows[first], cols[first])),
                          shape=(space.basis.N, space.scalar_basis.N))
+
+
+@lru_cache(maxsize=None)
+def _reference_gradient(k: int) -> np.ndarray:
+    """(n_ned, n_lag): Nédélec moments of the gradients of the reference Lagrange basis."""
+    lagrange = ElementTetLagrange(k)
+    local = np.array([dofs_of(k, lambda X, j=j: lagrange.lbasis(X, j)[1])
+                      for j in range(len(lagrange.dofnames))]).T
+    local[np.abs(local) < 1e-12] = 0.0
+    return local
 
 
 class GradientProjector:

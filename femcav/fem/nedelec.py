@@ -116,6 +116,7 @@ def _scalar_basis_1d(degree: int, s: np.ndarray) -> list[np.ndarray]:
     return [s**p for p in range(degree + 1)]
 
 
+@lru_cache(maxsize=None)
 def moment_functionals(k: int):
     """The DOFs as a list of functions mapping a field evaluator f(X) -> (3, n) to a number,
     in scikit-fem's local order: edges, then faces, then interior."""
