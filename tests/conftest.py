@@ -1,4 +1,72 @@
+"""Shared test helpers: meshes written as gmsh .msh files, so that tests also exercise mesh
+import. Test modules import them with ``from conftest import ...``."""
+
 import sys
 from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).parent))
+
+from femcav.geometry.gmsh_session import gmsh_model  # noqa: E402
+
+
+def faces_by_bounds(gmsh, predicate) -> list[int]:
+    """Tags of the surfaces whose bounding box (xmin, ymin, zmin, xmax, ymax, zmax) passes."""
+    return [tag for dim, tag in gmsh.model.getEntities(2)
+            if predicate(gmsh.model.getBoundingBox(dim, tag))]
+
+
+def box_with_blocks(path: Path, size: tuple[float, float, float],
+                    blocks: dict[str, tuple[float, float, float, float, float, float]],
+                    mesh_size: float, msh_version: float = 4.1) -> Path:
+    """A box 0..size with rectangular blocks (x0, y0, z0, dx, dy, dz) as named regions.
+
+    The rest of the box is region "air"; the outer faces are walls x_min ... z_max.
+    """
+    a, b, d = size
+    with gmsh_model("blocks") as gmsh:
+        occ = gmsh.model.occ
+        outer = occ.addBox(0, 0, 0, a, b, d)
+        inner = {name: occ.addBox(*spec) for name, spec in blocks.items()}
+        _, children = occ.fragment([(3, outer)], [(3, t) for t in inner.values()])
+        occ.synchronize()
+        block_tags = {name: [t for _, t in children[i + 1]] for i, name in enumerate(inner)}
+        taken = {t for tags in block_tags.values() for t in tags}
+        air = [t for _, t in children[0] if t not in taken]
+        gmsh.model.addPhysicalGroup(3, air, name="air")
+        for name, tags in block_tags.items():
+            gmsh.model.addPhysicalGroup(3, tags, name=name)
+        tol = 1e-4 * max(size)
+        for axis, axis_name in enumerate("xyz"):
+            for side, at in (("min", 0.0), ("max", size[axis])):
+                tags = faces_by_bounds(gmsh, lambda bb, i=axis, v=at:
+                                       abs(bb[i] - v) < tol and abs(bb[i + 3] - v) < tol)
+                gmsh.model.addPhysicalGroup(2, tags, name=f"{axis_name}_{side}")
+        gmsh.option.setNumber("Mesh.MeshSizeMax", mesh_size)
+        gmsh.option.setNumber("Mesh.Algorithm3D", 1)
+        gmsh.model.mesh.generate(3)
+        gmsh.option.setNumber("Mesh.MshFileVersion", msh_version)
+        gmsh.write(str(path))
+    return path
+
+
+def box_with_rod(path: Path, size: tuple[float, float, float], rod_radius: float,
+                 mesh_size: float) -> Path:
+    """A box 0..size with a metal rod of ``rod_radius`` along z through its centre, removed
+    from the mesh: a shorted coaxial line with a square outer conductor. Region "gap"; the rod
+    surface is the wall "rod", the outer faces stay unnamed (PEC)."""
+    a, b, d = size
+    with gmsh_model("rod") as gmsh:
+        occ = gmsh.model.occ
+        outer = occ.addBox(0, 0, 0, a, b, d)
+        rod = occ.addCylinder(a / 2, b / 2, 0, 0, 0, d, rod_radius)
+        cut, _ = occ.cut([(3, outer)], [(3, rod)])
+        occ.synchronize()
+        gmsh.model.addPhysicalGroup(3, [t for _, t in cut], name="gap")
+        tol = 1e-4 * max(size)
+        curved = faces_by_bounds(gmsh, lambda bb: bb[0] > tol and bb[3] < a - tol)
+        gmsh.model.addPhysicalGroup(2, curved, name="rod")
+        gmsh.option.setNumber("Mesh.MeshSizeMax", mesh_size)
+        gmsh.option.setNumber("Mesh.Algorithm3D", 1)
+        gmsh.model.mesh.generate(3)
+        gmsh.write(str(path))
+    return path

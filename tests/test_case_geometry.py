@@ -157,7 +157,7 @@ def test_bad_geometry_input(tmp_path, capsys, name):
 
 
 def test_imported_mesh_refuses_sizes_and_symmetry(tmp_path, capsys):
-    from meshes import box_with_blocks
+    from conftest import box_with_blocks
     box_with_blocks(tmp_path / "m.msh", (0.02, 0.01, 0.025), {"slab": (0, 0, 0, 0.005, 0.01, 0.025)},
                     mesh_size=0.005)
     for extra, expected in (('[mesh]\nsize = "1 mm"\n', "mesh: element sizes apply to builders"),

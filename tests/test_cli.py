@@ -13,7 +13,7 @@ import pytest
 
 from femcav.cli import main
 from femcav.post import checks
-from meshes import box_with_blocks
+from conftest import box_with_blocks
 
 SMALL_BOX = """
 title = "small box"
@@ -167,7 +167,7 @@ def test_mesh_without_tetrahedra(tmp_path, capsys):
 
 def test_imported_gmsh22_mesh_with_unit(tmp_path, capsys):
     # The same two-region box as a gmsh 2.2 file in millimetres.
-    from meshes import box_with_blocks as write
+    from conftest import box_with_blocks as write
     write(tmp_path / "mm.msh", (20.0, 10.0, 25.0), {"slab": (0, 0, 0, 5.0, 10.0, 25.0)},
           mesh_size=4.0, msh_version=2.2)
     case = write_case(tmp_path, '[geometry]\nmesh = "mm.msh"\nmesh_unit = "mm"\n'

@@ -10,7 +10,7 @@ from femcav.materials import Material
 from femcav.model import make_model
 from femcav.solver import solve_model
 from femcav.walls import Wall
-from meshes import box_with_blocks
+from conftest import box_with_blocks
 
 A, B, D = 0.02286, 0.01016, 0.030
 

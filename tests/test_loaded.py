@@ -15,7 +15,7 @@ from femcav.materials import Material
 from femcav.model import make_model
 from femcav.post.fields import mode_fields
 from femcav.solver import solve_model
-from meshes import box_with_blocks
+from conftest import box_with_blocks
 
 A, B, D = 0.02286, 0.01016, 0.030
 

@@ -98,7 +98,7 @@ def test_filled_cavity_q_dielectric_is_one_over_tan_delta():
 
 @pytest.fixture(scope="module")
 def slab_model(tmp_path_factory):
-    from meshes import box_with_blocks
+    from conftest import box_with_blocks
     from femcav.geometry import read_mesh
     a, b, d, t = 0.02286, 0.01016, 0.030, 0.006
     path = box_with_blocks(tmp_path_factory.mktemp("slab") / "slab.msh", (a, b, d),

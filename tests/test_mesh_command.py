@@ -15,7 +15,7 @@ from femcav.cli import main
 from femcav.geometry import box, read_mesh
 from femcav.post.mesh_quality import mean_edge_length, mean_ratio
 from femcav.viz import mesh_picture
-from meshes import box_with_blocks
+from conftest import box_with_blocks
 from test_cli import BAD_CASES, SMALL_BOX, write_case  # SMALL_BOX: 20 x 10 x 25 mm, 3 mm
 
 # Alternate corners of a cube form a regular tetrahedron (common practice).

@@ -13,7 +13,7 @@ from femcav.geometry import read_mesh
 from femcav.materials import Material
 from femcav.model import make_model
 from femcav.solver import solve_model
-from meshes import box_with_rod
+from conftest import box_with_rod
 
 SIZE = (0.012, 0.012, 0.040)
 
