@@ -2,8 +2,8 @@
 
 The part is solved at each mesh size; every mode of the finest mesh is followed back through
 the coarser meshes by field overlap (``mode_matching``), and its matched frequencies are
-extrapolated to zero mesh size with a fitted rate (``richardson``). The bar on a finest-mesh
-frequency is the safety factor times its distance from the extrapolated value.
+extrapolated to zero mesh size with a fitted rate (``richardson``, which also says how the
+bar is formed and why). A degenerate cluster is extrapolated as one (``estimate_matched``).
 
 Each mesh is asked for a few more modes than requested, so that a mode near the top of the
 list still finds its partner on a coarser mesh where the modes are ordered differently, and
@@ -48,7 +48,10 @@ class ModeEstimate:
     safety_factor: float
     matched_hz: tuple[float | None, ...]   # per mesh of EstimatedResult.sizes; None: unmatched
     overlaps: tuple[float, ...]       # subspace overlap with the finest mode, per mesh
-    cluster: tuple[int, ...] = ()     # indices of the degenerate modes extrapolated together
+    # the degenerate cluster extrapolated together: its size on the finest mesh (1: a single
+    # mode) and the indices of its members among the returned modes
+    cluster_size: int = 1
+    cluster: tuple[int, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -96,10 +99,13 @@ def estimate_matched(sizes: np.ndarray, matched: list[list[float | None]],
     j on mesh k (sizes coarse to fine, the last mesh the finest), None where unmatched.
 
     A degenerate cluster of the finest mesh is extrapolated as one: its mean frequency, over
-    the meshes where every member is matched. The split of a degenerate eigenspace is mesh
-    noise of the size of the convergence itself, and the mean of the cluster is free of it
-    to first order. A member's bar adds its distance from the cluster mean on the finest
-    mesh (the triangle inequality: |f_j - f| <= |f_j - mean| + |mean - f|).
+    the meshes where every member is matched. To first order the members move by the
+    eigenvalues of the discretisation's perturbation restricted to the eigenspace; their mean
+    is its trace, which does not depend on how a mesh happens to split the cluster (T. Kato,
+    Perturbation Theory for Linear Operators, ch. 2, from memory), while the split itself is
+    mesh noise of the size of the convergence. A member's bar adds its distance from the
+    cluster mean on the finest mesh (the triangle inequality:
+    |f_j - f| <= |f_j - mean| + |mean - f|).
     """
     fine_hz = np.array(matched[-1], float)
     out: dict[int, ModeEstimate] = {}
@@ -114,9 +120,11 @@ def estimate_matched(sizes: np.ndarray, matched: list[list[float | None]],
 
 
 def _estimate(index, sizes, use, mean, matched, overlaps, j, group, order_rate) -> ModeEstimate:
+    """Mode j's record; ``mean`` is its cluster's mean frequency on the meshes ``use``."""
     own = tuple(m[j] for m in matched)
     common = dict(index=index, frequency_hz=own[-1], matched_hz=own,
                   overlaps=tuple(o[j] for o in overlaps),
+                  cluster_size=len(group),
                   cluster=tuple(g + 1 for g in group) if len(group) > 1 else ())
     if len(use) < 2:
         return ModeEstimate(extrapolated_hz=None, error_estimate_hz=None, fitted_rate=math.nan,
@@ -140,8 +148,11 @@ def estimate_errors(build_model: Callable[[float], Model], sizes: Sequence[float
                     progress: Progress = SILENT, **solve_options) -> EstimatedResult:
     """Solve ``build_model(size)`` at every size (metres, any order; at least two, three for
     an observed rate) and give each of the ``modes`` requested modes of the finest mesh an
-    error estimate. ``size_measure`` "dofs" extrapolates in N^(-1/3) instead of the nominal
-    size. ``solve_options`` go to ``solve_model`` unchanged."""
+    error estimate. ``order_rate`` is the theoretical rate of the frequency error, 2k for
+    Nédélec elements of order k on a smooth part (the eigenvalue error goes like h^(2k);
+    D. Boffi, Acta Numerica 19 (2010), from memory); it is the fallback when the observed rate
+    cannot be trusted. ``size_measure`` "dofs" extrapolates in N^(-1/3) instead of the nominal
+    size. ``solve_options`` go to ``solve_model`` unchanged (e.g. ``order``)."""
     if size_measure not in SIZE_MEASURES:
         raise ValueError(f"size_measure must be one of {SIZE_MEASURES}, got {size_measure!r}")
     sizes = sorted((float(s) for s in sizes), reverse=True)
@@ -164,7 +175,10 @@ def estimate_errors(build_model: Callable[[float], Model], sizes: Sequence[float
     keep = _requested(np.array([m.frequency_hz for m in finest.modes]), modes, near_hz)
     estimates = estimate_from_results(results, effective, order_rate=order_rate, indices=keep)
     trimmed = [replace(finest.modes[j], index=i + 1) for i, j in enumerate(keep)]
-    estimates = [replace(e, index=i + 1) for i, e in enumerate(estimates)]
+    renumber = {finest.modes[j].index: i + 1 for i, j in enumerate(keep)}
+    estimates = [replace(e, index=i + 1,
+                         cluster=tuple(renumber[c] for c in e.cluster if c in renumber))
+                 for i, e in enumerate(estimates)]
     request = finest.request if finest.request is None else replace(finest.request, count=modes)
     progress.step(f"error estimate: modes matched and extrapolated in "
                   f"{time.perf_counter() - t0:.2f} s")

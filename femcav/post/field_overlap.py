@@ -24,13 +24,18 @@ INSIDE_TOLERANCE = 1e-10
 # Nearest centroids tried per point, then the wider search for the points still not inside.
 FIRST_CANDIDATES = 8
 WIDE_CANDIDATES = 64
+# Newton steps on a curved element's map; from the corner tetrahedron's guess it converges
+# in a few, the limit only guards against a point far outside.
+NEWTON_STEPS = 20
 
 
 @dataclass(frozen=True)
 class Location:
-    """Where points lie in a mesh: an element each, and how far inside it they are."""
+    """Where points lie in a mesh: an element each, and the point's local coordinates in the
+    straight-sided tetrahedron of that element's corners."""
 
-    cells: np.ndarray           # element index per point
+    cells: np.ndarray            # element index per point
+    local: np.ndarray            # (3, n) local coordinates in the corner tetrahedron
     min_barycentric: np.ndarray  # smallest barycentric coordinate; < 0: outside that element
 
     @property
@@ -69,21 +74,22 @@ class Overlaps:
 
 
 def locate(mesh, points: np.ndarray) -> Location:
-    """An element of ``mesh`` (a scikit-fem MeshTet) for each point of ``points`` (3, n): the
-    containing one, or for a point outside the mesh the candidate it is least outside of."""
-    corners = mesh.p[:, mesh.t]                       # (3, 4, n_elements)
+    """An element of ``mesh`` (a scikit-fem MeshTet or MeshTet2) for each point of ``points``
+    (3, n): the containing one, or for a point outside the mesh the candidate it is least
+    outside of. Curved elements are searched by their corner tetrahedra."""
+    corners = mesh.p[:, mesh.t[:4]]                   # (3, 4, n_elements)
     tree = cKDTree(corners.mean(axis=1).T)
     inverse, origin = _inverse_maps(corners)
-    cells, worst = _best_candidates(tree, inverse, origin, points, FIRST_CANDIDATES)
+    cells, local, worst = _best_candidates(tree, inverse, origin, points, FIRST_CANDIDATES)
     retry = np.flatnonzero(worst < -INSIDE_TOLERANCE)
     if retry.size:
         # A sliver's centroid can be far from a point it contains; widen the search there.
-        wide_cells, wide_worst = _best_candidates(tree, inverse, origin, points[:, retry],
-                                                  WIDE_CANDIDATES)
-        better = wide_worst > worst[retry]
-        cells[retry[better]] = wide_cells[better]
-        worst[retry[better]] = wide_worst[better]
-    return Location(cells=cells, min_barycentric=worst)
+        wide = _best_candidates(tree, inverse, origin, points[:, retry], WIDE_CANDIDATES)
+        better = wide[2] > worst[retry]
+        cells[retry[better]] = wide[0][better]
+        local[:, retry[better]] = wide[1][:, better]
+        worst[retry[better]] = wide[2][better]
+    return Location(cells=cells, local=local, min_barycentric=worst)
 
 
 def _inverse_maps(corners: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -100,7 +106,7 @@ def _best_candidates(tree, inverse, origin, points, count):
     lowest = bary.min(axis=2)
     pick = lowest.argmax(axis=1)
     rows = np.arange(points.shape[1])
-    return cand[rows, pick], lowest[rows, pick]
+    return cand[rows, pick], local[rows, pick].T.copy(), lowest[rows, pick]
 
 
 def transfer_matrix(coarse: EdgeSpace, points: np.ndarray) -> Transfer:
@@ -108,19 +114,45 @@ def transfer_matrix(coarse: EdgeSpace, points: np.ndarray) -> Transfer:
     basis = coarse.basis
     where = locate(coarse.mesh, points)
     cells = where.cells
-    reference = basis.mapping.invF(points[:, :, None], tind=cells)   # (3, n, 1)
+    reference = _reference_coordinates(basis.mapping, points, where)   # (3, n, 1)
+    worst = _barycentric_min(reference[:, :, 0])
     n = points.shape[1]
     rows, cols, vals = [], [], []
     for i in range(basis.Nbfun):
-        value = basis.elem.gbasis(basis.mapping, reference, i, tind=cells)[0].value
+        value = np.asarray(basis.elem.gbasis(basis.mapping, reference, i, tind=cells)[0])
         for component in range(3):
             rows.append(component * n + np.arange(n))
             cols.append(basis.element_dofs[i, cells])
             vals.append(value[component, :, 0])
     matrix = sp.coo_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
                            shape=(3 * n, basis.N)).tocsr()
-    return Transfer(matrix=matrix, n_points=n, outside_points=int(where.outside.sum()),
-                    worst_barycentric=float(min(where.min_barycentric.min(), 0.0)))
+    return Transfer(matrix=matrix, n_points=n,
+                    outside_points=int(np.sum(worst < -INSIDE_TOLERANCE)),
+                    worst_barycentric=float(min(worst.min(), 0.0)))
+
+
+def _reference_coordinates(mapping, points: np.ndarray, where: Location) -> np.ndarray:
+    """Reference coordinates of each point in its element: the corner tetrahedron's local
+    coordinates for a straight element, refined by Newton steps on the element's own map for
+    a curved one. Newton is not clipped to the reference element, so a point just outside
+    the mesh gets the continuation of its element's map, as it does when straight."""
+    from skfem.mapping import MappingAffine
+
+    X = where.local[:, :, None]
+    if isinstance(mapping, MappingAffine):
+        return X
+    x = points[:, :, None]
+    for _ in range(NEWTON_STEPS):
+        step = np.einsum("ijkl,jkl->ikl", mapping.invDF(X, tind=where.cells),
+                         x - mapping.F(X, tind=where.cells))
+        X = X + step
+        if np.abs(step).max() < 1e-13:
+            break
+    return X
+
+
+def _barycentric_min(local: np.ndarray) -> np.ndarray:
+    return np.minimum(local.min(axis=0), 1.0 - local.sum(axis=0))
 
 
 def mode_overlaps(coarse: EdgeSpace, coarse_dofs: np.ndarray, fine: EdgeSpace,
