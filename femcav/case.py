@@ -27,7 +27,8 @@ REGION_KEYS = {"eps_r", "mu_r", "tan_delta", "mesh_size"}
 MESH_KEYS = {"size", "max_frequency", "per_wavelength", "edge_refinement", "curved"}
 SYMMETRY_CHOICES = {"pec": ("pec",), "pmc": ("pmc",), "both": ("pec", "pmc")}
 WALL_KEYS = {"kind", "conductivity", "metal", "roughness"}
-SOLVE_KEYS = {"modes", "near", "form", "order", "complex_check"}
+SOLVE_KEYS = {"modes", "near", "form", "order", "complex_check", "error_estimate", "accuracy",
+              "max_dofs"}
 DEFAULT_MODES = 10
 
 
@@ -58,6 +59,9 @@ class SolveSpec:
     form: str | None = None   # None: H with metal walls, else E (see runner.choose_form)
     order: int = 1
     complex_check: bool = False
+    error_estimate: bool = False       # solve a mesh sequence and bar every frequency
+    accuracy: float | None = None      # relative target for the bars (refine until met)
+    max_dofs: int = 400_000
 
 
 @dataclass(frozen=True)
@@ -94,6 +98,11 @@ def load_case(path: str | Path) -> Case:
         walls = {name: _wall(name, spec) for name, spec in _table(data, "walls").items()}
         solve = _solve(_table(data, "solve"))
         mesh = _mesh(_table(data, "mesh"), region_tables, geometry)
+        if solve.error_estimate and geometry.builder is None:
+            raise InputError("error estimates re-mesh the part, so they need a builder; for an "
+                             "imported mesh, solve meshes of several sizes yourself",
+                             field="solve.error_estimate" if "error_estimate" in
+                             _table(data, "solve") else "solve.accuracy")
         symmetry = _symmetry(_table(data, "symmetry"), geometry, walls)
     except InputError as exc:
         raise exc.located(source=source) from None
@@ -350,5 +359,39 @@ def _solve(spec: dict) -> SolveSpec:
     if isinstance(order, bool) or order not in ORDERS:
         raise InputError(f"must be one of {', '.join(map(str, ORDERS))}, got {order!r}",
                          field="solve.order")
+    estimate = spec.get("error_estimate", False)
+    if not isinstance(estimate, bool):
+        raise InputError("must be true or false", field="solve.error_estimate")
+    accuracy = spec.get("accuracy")
+    if accuracy is not None:
+        accuracy = _relative(accuracy, "solve.accuracy")
+    max_dofs = spec.get("max_dofs", 400_000)
+    if isinstance(max_dofs, bool) or not isinstance(max_dofs, int) or max_dofs < 1000:
+        raise InputError(f"must be a whole number >= 1000, got {max_dofs!r}",
+                         field="solve.max_dofs")
     return SolveSpec(modes=modes, near_hz=near_hz, form=form, order=order,
-                     complex_check=complex_check)
+                     complex_check=complex_check, error_estimate=estimate or accuracy is not None,
+                     accuracy=accuracy, max_dofs=max_dofs)
+
+
+_RELATIVE_UNITS = {"ppm": 1e-6, "ppb": 1e-9, "%": 1e-2}
+
+
+def _relative(value, field: str) -> float:
+    """A relative accuracy: a number (1e-5), or a string such as "10 ppm" or "0.01 %"."""
+    if isinstance(value, (int, float)) and not isinstance(value, bool):
+        number = float(value)
+    elif isinstance(value, str):
+        text = value.strip()
+        unit = next((u for u in _RELATIVE_UNITS if text.endswith(u)), None)
+        try:
+            number = float(text[: -len(unit)] if unit else text) * (_RELATIVE_UNITS[unit]
+                                                                     if unit else 1.0)
+        except ValueError:
+            raise InputError(f"cannot read {value!r}; write e.g. \"10 ppm\", \"0.01 %\" or "
+                             "1e-5", field=field) from None
+    else:
+        raise InputError('must be a relative accuracy such as "10 ppm"', field=field)
+    if not 0 < number < 0.5:
+        raise InputError(f"must be between 0 and 50 %, got {value!r}", field=field)
+    return number

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import itertools
+import math
 from dataclasses import replace
 from pathlib import Path
 
@@ -49,6 +50,73 @@ def choose_form(case: Case, form: str | None, progress: Progress) -> str:
     return form
 
 
+# Each coarser mesh of an error estimate is this much coarser than the next (sizes h r², h r,
+# h): wide enough for the differences to stand out of mesh noise, close enough to stay in
+# the same convergence regime.
+REFINEMENT_RATIO = 1.35
+
+
+def _solve_options(settings) -> dict:
+    return dict(modes=settings.modes, near_hz=settings.near_hz, form=settings.form,
+                order=settings.order, complex_check=settings.complex_check)
+
+
+def solve_with_error_bars(case: Case, walls: dict[str, Wall], settings,
+                          progress: Progress) -> SolveResult:
+    """Solve three meshes of the part (the case's sizes and two coarser) and give every
+    mode of the finest its error bar; with an accuracy target, refine by REFINEMENT_RATIO
+    until every bar is within it or the next mesh would exceed max_dofs."""
+    from .geometry import build_part, builder_layout
+    from .post.error_estimate import estimate_errors
+    from .sizing import builder_sizing
+
+    g = case.geometry
+    base = builder_sizing(case, builder_layout(g.builder, g.parameters))
+
+    def build_model(size: float):
+        factor = size / base.size
+        sizing = replace(base, size=size,
+                         region_sizes={k: v * factor for k, v in base.region_sizes.items()})
+        part = build_part(g.builder, sizing=sizing, symmetry=tuple(case.symmetry),
+                          **g.parameters)
+        return case_model(case, part, extra_walls=walls)
+
+    r = REFINEMENT_RATIO
+    sizes = [base.size * r**2, base.size * r, base.size]
+    while True:
+        estimated = estimate_errors(build_model, sizes, modes=settings.modes,
+                                    near_hz=settings.near_hz, form=settings.form,
+                                    order_rate=2.0 * settings.order, progress=progress,
+                                    order=settings.order,
+                                    complex_check=settings.complex_check)
+        finest = estimated.finest
+        modes = [replace(m, error_estimate_hz=e.error_estimate_hz,
+                         extrapolated_hz=e.extrapolated_hz)
+                 for m, e in zip(finest.modes, estimated.estimates)]
+        result = replace(finest, modes=modes)
+        if settings.accuracy is None or _worst_bar(result) <= settings.accuracy:
+            return result
+        if finest.dofs * r**3 > settings.max_dofs:
+            progress.step(f"accuracy target not reached: the next mesh would exceed "
+                          f"max_dofs = {settings.max_dofs}")
+            return result
+        sizes = sizes[1:] + [sizes[-1] / r]
+        progress.step(f"largest error bar {_worst_bar(result):.1e} above the target "
+                      f"{settings.accuracy:.1e}: refining to {sizes[-1] * 1e3:.3g} mm")
+
+
+def _worst_bar(result: SolveResult) -> float:
+    bars = [m.error_estimate_hz / m.frequency_hz for m in result.modes
+            if m.error_estimate_hz is not None]
+    return max(bars) if len(bars) == len(result.modes) else math.inf
+
+
+def _accuracy_summary(result: SolveResult, target: float) -> dict:
+    worst = _worst_bar(result)
+    return {"target": target, "largest_relative_bar": worst if math.isfinite(worst) else None,
+            "reached": worst <= target}
+
+
 def default_output_folder(case_path: Path) -> Path:
     return case_path.parent / f"{case_path.stem}-results"
 
@@ -86,16 +154,18 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
         if label:
             progress.step(f"symmetry class {label}")
         try:
-            model = case_model(case, mesh, extra_walls=walls)
-            labelled.append((label, solve_model(model, modes=settings.modes,
-                                                near_hz=settings.near_hz, form=settings.form,
-                                                order=settings.order,
-                                                complex_check=settings.complex_check,
-                                                progress=progress)))
+            if settings.error_estimate:
+                labelled.append((label, solve_with_error_bars(case, walls, settings, progress)))
+            else:
+                model = case_model(case, mesh, extra_walls=walls)
+                labelled.append((label, solve_model(model, **_solve_options(settings),
+                                                    progress=progress)))
         except InputError as exc:
             raise exc.located(source=str(case.path)) from None
     result = (labelled[0][1] if len(labelled) == 1 and not labelled[0][0]
               else merge_classes(labelled, settings.modes, settings.near_hz))
+    if settings.accuracy is not None:
+        result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
 
     folder = Path(out) if out is not None else default_output_folder(case.path)
     with staged_output(folder) as files:

@@ -40,6 +40,8 @@ class Mode:
     # from the direct complex solve with lossy permittivity ([solve] complex_check)
     complex_frequency_hz: float | None = None
     q_dielectric_complex: float | None = None
+    error_estimate_hz: float | None = None   # from a mesh sequence ([solve] error_estimate)
+    extrapolated_hz: float | None = None
 
 
 @dataclass(frozen=True)
@@ -54,6 +56,7 @@ class SolveResult:
     request: EigenRequest | None = None
     near_hz: float | None = None
     classes: list[dict] = field(default_factory=list)   # per symmetry class: label, dofs, modes
+    accuracy: dict | None = None   # target, largest relative bar, reached (with a target)
 
     @property
     def passed(self) -> bool:

@@ -331,3 +331,67 @@ def test_bars_hold_over_other_mesh_sequences(part, sizes, form):
     inside = sum(abs(e.frequency_hz - f) <= e.error_estimate_hz
                  for e, f in zip(estimates, exact))
     assert inside >= 9, f"{inside} of {COUNT} inside"
+
+
+# --- through the case file -------------------------------------------------------------
+
+ESTIMATE_CASE = """
+[geometry]
+builder = "box"
+width = "22.86 mm"
+height = "10.16 mm"
+length = "30 mm"
+[mesh]
+size = "2.2 mm"
+[solve]
+modes = 5
+"""
+
+
+def _run_case(tmp_path, extra, expect=0, base=ESTIMATE_CASE):
+    import json
+
+    from femcav.cli import main
+    case = tmp_path / "case.toml"
+    case.write_text(base + extra)
+    assert main(["solve", str(case), "-q"]) == expect
+    path = tmp_path / "case-results" / "modes.json"
+    return json.loads(path.read_text()) if expect == 0 else None
+
+
+def test_case_file_error_bars_contain_the_closed_form(tmp_path):
+    # Closed form: Pozar, Microwave Engineering, 4th ed., §6.3 (from memory).
+    from femcav.analytic.box import lowest_box_frequencies
+    doc = _run_case(tmp_path, "error_estimate = true\n")
+    exact = lowest_box_frequencies(0.02286, 0.01016, 0.030, 5)
+    inside = [abs(m["frequency_hz"] - f) <= m["error_estimate_hz"]
+              for m, f in zip(doc["modes"], exact)]
+    assert sum(inside) >= 4, doc["modes"]
+    assert all(m["extrapolated_hz"] > 0 for m in doc["modes"])
+
+
+def test_accuracy_target_refines_until_met_or_says_it_could_not(tmp_path):
+    coarse = ESTIMATE_CASE.replace('size = "2.2 mm"', 'size = "4 mm"').replace("modes = 5",
+                                                                               "modes = 2")
+    doc = _run_case(tmp_path, 'accuracy = "1 %"\n', base=coarse)
+    assert doc["accuracy"]["reached"] is True
+    assert doc["accuracy"]["largest_relative_bar"] <= 0.01
+    doc = _run_case(tmp_path, 'accuracy = "1 ppm"\nmax_dofs = 5000\n', base=coarse)
+    assert doc["accuracy"]["reached"] is False and doc["dofs"] <= 5000
+
+
+def test_error_estimate_needs_a_builder(tmp_path, capsys):
+    from conftest import box_with_blocks
+    from femcav.cli import main
+    box_with_blocks(tmp_path / "m.msh", (0.02, 0.01, 0.025), {"slab": (0, 0, 0, 0.005, 0.01, 0.025)},
+                    mesh_size=0.005)
+    case = tmp_path / "case.toml"
+    case.write_text('[geometry]\nmesh = "m.msh"\n[regions.air]\neps_r = 1\n[regions.slab]\n'
+                    'eps_r = 2\n[solve]\nerror_estimate = true\n')
+    assert main(["solve", str(case), "-q"]) == 2
+    assert "solve.error_estimate: error estimates re-mesh the part" in capsys.readouterr().err
+
+
+def test_bad_accuracy_text(tmp_path, capsys):
+    _run_case(tmp_path, 'accuracy = "tight"\n', expect=2)
+    assert "solve.accuracy: cannot read 'tight'" in capsys.readouterr().err

@@ -14,11 +14,18 @@ import scipy.sparse as sp
 from scipy.sparse.linalg import splu
 
 Solve = Callable[[np.ndarray], np.ndarray]
+SMALL = 200   # below this many unknowns, no reordering
 
 
 def nested_dissection(A) -> np.ndarray:
-    """A fill-reducing permutation of the symmetric matrix A (METIS nested dissection)."""
+    """A fill-reducing permutation of the symmetric matrix A (METIS nested dissection).
+
+    Small matrices keep their order: nothing to gain, and METIS stops the process with a
+    floating-point exception on an empty graph."""
     import pymetis
+
+    if A.shape[0] < SMALL:
+        return np.arange(A.shape[0])
 
     graph = sp.csr_matrix(A, copy=True)
     graph.setdiag(0)

@@ -54,9 +54,12 @@ class GradientProjector:
     def __init__(self, M, G, factorize):
         self.M = M
         self.G = G.tocsr()
-        self._solve = factorize((self.G.T @ M @ self.G).tocsc())
+        # A mesh too coarse to have an interior node has no gradient fields to remove.
+        self._solve = factorize((self.G.T @ M @ self.G).tocsc()) if G.shape[1] else None
 
     def gradient_part(self, x: np.ndarray) -> np.ndarray:
+        if self._solve is None:
+            return np.zeros_like(x)
         return self.G @ self._solve(self.G.T @ (self.M @ x))
 
     def remove(self, x: np.ndarray) -> np.ndarray:

@@ -4,7 +4,8 @@ modes.json is a stable, documented format (README, "Output files"): top-level ke
 ``format``, ``title``, ``case``, ``form``, ``order``, ``dofs``, ``elements``, ``request``,
 ``static_fields_dropped``, ``checks_passed``, ``limits``, ``timings_s`` and ``modes``; each mode
 has ``index``, ``frequency_hz``, ``k0_squared_per_m2``, ``residual``, ``divergence``,
-``orthogonality``, ``passed``, ``q_wall``, ``q_dielectric``, ``q_total`` (null without such
+``orthogonality``, ``passed``, ``error_estimate_hz`` (null unless a mesh sequence was
+solved; then also ``extrapolated_hz``), ``q_wall``, ``q_dielectric``, ``q_total`` (null without such
 loss), ``wall_loss_share``, ``region_loss_share`` (name -> fraction of that loss),
 ``filling_factor`` (region -> share of the electric energy), with ``complex_frequency_hz`` and
 ``q_dielectric_complex`` after a complex check, and ``symmetry`` (the class label, e.g. "x:PMC y:PEC")
@@ -23,7 +24,7 @@ from ..units import format_frequency
 
 FORMAT_NAME = "femcav-modes"
 FORMAT_VERSION = 1
-CSV_COLUMNS = ("index", "frequency_hz", "q_wall", "q_dielectric", "q_total", "residual",
+CSV_COLUMNS = ("index", "frequency_hz", "error_estimate_hz", "q_wall", "q_dielectric", "q_total", "residual",
                "divergence", "orthogonality", "passed")
 
 
@@ -45,6 +46,9 @@ def mode_rows(result: SolveResult) -> list[dict]:
             "region_loss_share": loss.region_loss_share if loss else {},
             "filling_factor": loss.filling_factor if loss else {},
         })
+        row["error_estimate_hz"] = m.error_estimate_hz
+        if m.extrapolated_hz is not None:
+            row["extrapolated_hz"] = m.extrapolated_hz
         if m.q_dielectric_complex is not None:
             row["complex_frequency_hz"] = m.complex_frequency_hz
             row["q_dielectric_complex"] = m.q_dielectric_complex
@@ -73,6 +77,8 @@ def to_json(result: SolveResult, *, title: str, case: str | None) -> str:
     }
     if result.classes:
         document["symmetry_classes"] = result.classes
+    if result.accuracy is not None:
+        document["accuracy"] = result.accuracy
     return json.dumps(document, indent=2) + "\n"
 
 
@@ -84,6 +90,8 @@ def to_csv(result: SolveResult) -> str:
     writer.writeheader()
     for row in mode_rows(result):
         writer.writerow({**row, "frequency_hz": repr(row["frequency_hz"]),
+                         "error_estimate_hz": "" if row["error_estimate_hz"] is None
+                         else f"{row['error_estimate_hz']:.3g}",
                          **{k: "" if row[k] is None else f"{row[k]:.6g}"
                             for k in ("q_wall", "q_dielectric", "q_total")}})
     return out.getvalue()
@@ -93,13 +101,16 @@ def to_table(result: SolveResult) -> str:
     width = max([len(m.symmetry or "") for m in result.modes] + [len("symmetry")])
     sym = _has_symmetry(result)
     lossy = any(m.losses for m in result.modes)
-    lines = [f"{'mode':>4}  {'frequency':>16}  " + (f"{'symmetry':<{width}}  " if sym else "")
+    bars = any(m.error_estimate_hz is not None for m in result.modes)
+    lines = [f"{'mode':>4}  {'frequency':>16}  " + (f"{'± error':>12}  " if bars else "")
+             + (f"{'symmetry':<{width}}  " if sym else "")
              + (f"{'Q wall':>9}  {'Q diel.':>9}  {'Q total':>9}  " if lossy else "")
              + f"{'residual':>9}  {'divergence':>10}  {'orthogonality':>13}  check"]
     for m in result.modes:
         c = m.checks
         status = "ok" if c.passed else "FAILED: " + "; ".join(c.failures())
         lines.append(f"{m.index:>4}  {format_frequency(m.frequency_hz, 7):>16}  "
+                     + (f"{_bar(m):>12}  " if bars else "")
                      + (f"{m.symmetry:<{width}}  " if sym else "")
                      + (_q_columns(m) if lossy else "")
                      + f"{c.residual:9.1e}  {c.divergence:10.1e}  {c.orthogonality:13.1e}  "
@@ -111,3 +122,7 @@ def _q_columns(mode) -> str:
     loss = mode.losses
     values = (loss.q_wall, loss.q_dielectric, loss.q_total) if loss else (None, None, None)
     return "".join(f"{'-' if q is None else format(q, '.5g'):>9}  " for q in values)
+
+
+def _bar(mode) -> str:
+    return "-" if mode.error_estimate_hz is None else format_frequency(mode.error_estimate_hz, 3)
