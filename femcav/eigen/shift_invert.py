@@ -17,6 +17,8 @@ from scipy.sparse.linalg import LinearOperator, eigsh
 from ..fem.gradient import GradientProjector
 from .interface import EigenPairs, EigenRequest
 
+ARPACK_TOLERANCE = 1e-10
+
 
 def solve(K, M, projector: GradientProjector, request: EigenRequest, factorize,
           *, lowest_scale: float, progress=None) -> EigenPairs:
@@ -47,8 +49,11 @@ def solve(K, M, projector: GradientProjector, request: EigenRequest, factorize,
     operator = LinearOperator((n, n), matvec=apply, dtype=float)
     start = projector.remove(np.random.default_rng(12345).standard_normal(n))
     t0 = time.perf_counter()
+    # ARPACK's default tolerance is machine precision; 1e-10 on the Ritz values leaves
+    # residuals near 1e-10 (the checks allow 1e-6) and Rayleigh quotients accurate to about
+    # 1e-20, and saved 18 % of the operator applications on a pillbox (83 -> 68).
     values, vectors = eigsh(K, k=k, M=M, sigma=sigma, OPinv=operator, which="LM", v0=start,
-                            ncv=min(n, max(2 * k + 1, 20)))
+                            ncv=min(n, max(2 * k + 1, 20)), tol=ARPACK_TOLERANCE)
     t_iter = time.perf_counter() - t0
 
     # Rayleigh quotients are more accurate than the back-transformed Ritz values. The vectors

@@ -56,13 +56,13 @@ class ElementTetLagrange(ElementH1):
 
     def lbasis(self, X, i):
         c = self._coef[:, i]
-        x, y, z = X
-        phi = sum(ci * x**a * y**b * z**d for ci, (a, b, d) in zip(c, self._monomials))
-        dphi = np.array([
-            sum(ci * a * x ** max(a - 1, 0) * y**b * z**d for ci, (a, b, d) in zip(c, self._monomials) if a),
-            sum(ci * b * x**a * y ** max(b - 1, 0) * z**d for ci, (a, b, d) in zip(c, self._monomials) if b),
-            sum(ci * d * x**a * y**b * z ** max(d - 1, 0) for ci, (a, b, d) in zip(c, self._monomials) if d),
-        ])
-        phi = phi + 0 * x
-        dphi = dphi + 0 * X
-        return phi, dphi
+        e = np.array(self._monomials).T[:, :, None]                  # (3, n_mono, 1)
+        flat = X.reshape(3, -1)
+        powers = flat[:, None, :] ** e                               # (3, n_mono, n)
+        phi = c @ np.prod(powers, axis=0)
+        dphi = np.empty((3, flat.shape[1]))
+        for axis in range(3):
+            lowered = powers.copy()
+            lowered[axis] = e[axis] * flat[axis][None, :] ** np.maximum(e[axis] - 1, 0)
+            dphi[axis] = c @ np.prod(lowered, axis=0)
+        return phi.reshape(X.shape[1:]), dphi.reshape((3,) + X.shape[1:])
