@@ -35,7 +35,7 @@ DEFAULT_MODES = 10
 @dataclass(frozen=True)
 class GeometrySpec:
     builder: str | None = None
-    parameters: dict[str, float] = field(default_factory=dict)
+    parameters: dict[str, object] = field(default_factory=dict)   # SI values
     mesh_path: Path | None = None
     mesh_unit_m: float = 1.0
 

@@ -4,7 +4,6 @@
 import math
 
 import numpy as np
-import pytest
 from scipy.constants import c
 from scipy.special import jn_zeros
 

@@ -19,7 +19,6 @@ correction is needed.
 
 from __future__ import annotations
 
-import itertools
 from functools import lru_cache
 
 import numpy as np

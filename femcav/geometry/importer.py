@@ -22,7 +22,6 @@ _TAG_KEYS = ("gmsh:physical", "medit:ref", "CellEntityIds", "cell_tags", "region
 
 def read_mesh(path: str | Path, *, scale: float = 1.0) -> TaggedMesh:
     """Read ``path``; coordinates are multiplied by ``scale`` to give metres."""
-    import meshio
 
     path = Path(path)
     if not path.is_file():
