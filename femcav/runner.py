@@ -141,11 +141,13 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
         settings = replace(settings, order=order)
 
     progress.step(f"case {case.path}: {case.title}")
-    mesh = build_mesh(case)
-    progress.step(f"mesh: {mesh.n_tets} tetrahedra, regions {', '.join(mesh.region_names)} "
-                  f"({mesh.source}"
-                  + (f", coordinates in units of {case.geometry.mesh_unit_m:g} m)"
-                     if case.geometry.mesh_path else ")"))
+    # With error bars every mesh, the finest included, is built by solve_with_error_bars.
+    mesh = None if settings.error_estimate else build_mesh(case)
+    if mesh is not None:
+        progress.step(f"mesh: {mesh.n_tets} tetrahedra, regions {', '.join(mesh.region_names)} "
+                      f"({mesh.source}"
+                      + (f", coordinates in units of {case.geometry.mesh_unit_m:g} m)"
+                         if case.geometry.mesh_path else ")"))
     settings = replace(settings, form=choose_form(case, settings.form, progress))
     classes = symmetry_classes(case.symmetry)
     labelled = []

@@ -110,13 +110,14 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
 
     full = np.zeros((K_all.shape[0], values.size))
     full[space.free] = vectors
-    result_modes = [Mode(index=i + 1, frequency_hz=C0 * math.sqrt(max(v, 0.0)) / (2 * math.pi),
-                         k0_squared=float(v), checks=ch, dofs=full[:, i])
-                    for i, (v, ch) in enumerate(zip(values, checks))]
+    frequencies = C0 * np.sqrt(np.maximum(values, 0.0)) / (2 * math.pi)
+    lossy = has_losses(space)
+    faces = metal_faces(space) if lossy else None
+    result_modes = [Mode(index=i + 1, frequency_hz=float(f), k0_squared=float(v), checks=ch,
+                         dofs=full[:, i],
+                         losses=mode_losses(space, full[:, i], f, faces) if lossy else None)
+                    for i, (f, v, ch) in enumerate(zip(frequencies, values, checks))]
     progress.step(f"eigen solve done: {len(result_modes)} modes in {timings['eigen_s']:.2f} s")
-    faces = metal_faces(space) if has_losses(space) else None
-    result_modes = [replace(m, losses=mode_losses(space, m.dofs, m.frequency_hz, faces))
-                    if has_losses(space) else m for m in result_modes]
     if complex_check:
         t0 = time.perf_counter()
         result_modes = _complex_check(space, K, M, G, factorize, result_modes, pairs.stats["shift"])
