@@ -11,10 +11,10 @@ from scipy.constants import c as C0
 
 from .eigen import shift_invert
 from .eigen.complex_shift_invert import complex_eigenvalues
-from .eigen.factorization import get_factorizer
+from .eigen.factorization import describe, get_factorizer
 from .eigen.interface import EigenRequest
 from .errors import InputError
-from .fem.assembly import assemble, assemble_mass, assemble_stiffness, restrict
+from .fem.assembly import assemble, assemble_mass, assemble_stiffness
 from .fem.gradient import GradientProjector, discrete_gradient
 from .fem.space import EdgeSpace, build_space
 from .model import Model
@@ -68,7 +68,7 @@ def frequency_to_k0_squared(f_hz: float) -> float:
 
 
 def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, form: str = "E",
-                order: int = 1, factorization: str = "superlu", complex_check: bool = False,
+                order: int = 1, factorization: str = "auto", complex_check: bool = False,
                 progress: Progress = SILENT) -> SolveResult:
     if not isinstance(modes, int) or modes < 1:
         raise InputError(f"the number of modes must be a whole number >= 1, got {modes!r}",
@@ -79,8 +79,7 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     timings = {}
     t0 = time.perf_counter()
     space = build_space(model, form, order)
-    K_all, M_all = assemble(space)
-    K, M = restrict(K_all, space.free), restrict(M_all, space.free)
+    K, M = assemble(space)
     G = discrete_gradient(space)[space.free][:, space.free_nodes]
     timings["assembly_s"] = time.perf_counter() - t0
     progress.step(f"assembled {form} form, order {order}: {space.n_dofs} DOFs, {space.mesh.nelements} "
@@ -90,6 +89,7 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
                          "modes; refine the mesh", field="solve.modes")
 
     factorize = get_factorizer(factorization)
+    progress.step(f"sparse direct solves: {describe(factorization)}")
     t0 = time.perf_counter()
     projector = GradientProjector(M, G, factorize)
     # In either form mass_coef.max() / stiffness_coef.min() is eps_max * mu_max.
@@ -100,6 +100,7 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     pairs = shift_invert.solve(K, M, projector, request, factorize, lowest_scale=scale,
                                progress=progress)
     timings["eigen_s"] = time.perf_counter() - t0
+    pairs.stats["factorization"] = describe(factorization)
 
     static = pairs.values < STATIC_FRACTION * scale
     values, vectors = pairs.values[~static], pairs.vectors[:, ~static]
@@ -108,7 +109,7 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     values, vectors = values[keep], vectors[:, keep]
     checks = check_modes(K, M, projector, values, vectors)
 
-    full = np.zeros((K_all.shape[0], values.size))
+    full = np.zeros((space.dofs.N, values.size))
     full[space.free] = vectors
     frequencies = C0 * np.sqrt(np.maximum(values, 0.0)) / (2 * math.pi)
     lossy = has_losses(space)
@@ -135,13 +136,11 @@ def _complex_check(space: EdgeSpace, K, M, G, factorize, modes: list[Mode], shif
     Q it implies, Q = Re ω / (2 Im ω); modes are paired by nearest real frequency."""
     tan_delta = _tan_delta_at_quadrature(space)
     if space.form == "E":   # M becomes ∫ eps_r (1 - j tan δ) u·v
-        M_loss = restrict(assemble_mass(space, space.mass_coef * tan_delta), space.free)
+        M_loss = assemble_mass(space, space.mass_coef * tan_delta)
         K_c, M_c = K.astype(complex), M - 1j * M_loss
     else:                   # 1/(eps_r (1 - j t)) = (1/eps_r)(1 + j t)/(1 + t²)
-        K_re = restrict(assemble_stiffness(space, space.stiffness_coef / (1 + tan_delta**2)),
-                        space.free)
-        K_im = restrict(assemble_stiffness(space, space.stiffness_coef * tan_delta
-                                           / (1 + tan_delta**2)), space.free)
+        K_re = assemble_stiffness(space, space.stiffness_coef / (1 + tan_delta**2))
+        K_im = assemble_stiffness(space, space.stiffness_coef * tan_delta / (1 + tan_delta**2))
         K_c, M_c = K_re + 1j * K_im, M.astype(complex)
     values = complex_eigenvalues(K_c, M_c, G.astype(complex), factorize, shift=shift,
                                  count=len(modes) + max(4, len(modes) // 2))

@@ -1,37 +1,84 @@
-"""Stiffness and mass matrices of the curl-curl eigenproblem K x = k0² M x."""
+"""Stiffness and mass matrices of the curl-curl eigenproblem K x = k0² M x.
+
+With the covariant Piola map u = J^{-T} û and curl u = J curl û / det J, both integrands are
+reference quantities contracted with a 3x3 metric of the element map:
+
+    u · v             = ûᵀ (J^{-1} J^{-T}) v̂
+    curl u · curl v   = curl ûᵀ (Jᵀ J) curl v̂ / det² J
+
+so the reference basis is evaluated once for all elements and only the metric varies from
+point to point (per element on flat tetrahedra, per quadrature point on curved ones). The
+element matrices are then one batched matrix product per block of elements.
+"""
 
 from __future__ import annotations
 
-from skfem import BilinearForm, asm
-from skfem.helpers import curl, dot
+import numpy as np
+import scipy.sparse as sp
 
 from .space import EdgeSpace
 
-
-@BilinearForm
-def _curl_curl(u, v, w):
-    return w.a * dot(curl(u), curl(v))
-
-
-@BilinearForm
-def _mass(u, v, w):
-    return w.b * dot(u, v)
+# Elements per block: bounds the temporary (block, points, 3, n_basis) array to ~100 MB at
+# third order (45 basis functions, 24 points).
+BLOCK = 4096
 
 
 def assemble_stiffness(space: EdgeSpace, coefficient):
-    """∫ a curl u · curl v over all edges, a given at the quadrature points."""
-    return asm(_curl_curl, space.basis, a=coefficient).tocsr()
+    """∫ a curl u · curl v over the free DOFs, a given at the quadrature points."""
+    return _free_csr(space, _element_matrices(space, coefficient, curl=True))
 
 
 def assemble_mass(space: EdgeSpace, coefficient):
-    """∫ b u · v over all edges, b given at the quadrature points."""
-    return asm(_mass, space.basis, b=coefficient).tocsr()
+    """∫ b u · v over the free DOFs, b given at the quadrature points."""
+    return _free_csr(space, _element_matrices(space, coefficient, curl=False))
 
 
 def assemble(space: EdgeSpace):
-    """(K, M) over all edges, as CSR matrices; restrict with ``space.free``."""
-    return assemble_stiffness(space, space.stiffness_coef), assemble_mass(space, space.mass_coef)
+    """(K, M) over the free DOFs (``space.free``), as CSR matrices with one sparsity pattern.
+
+    Both are gathered as the real and imaginary parts of one complex matrix, so that the
+    summation of element contributions runs once (it is most of the assembly time on
+    high-order meshes)."""
+    combined = _free_csr(space, _element_matrices(space, space.stiffness_coef, curl=True)
+                         + 1j * _element_matrices(space, space.mass_coef, curl=False))
+    pattern = (combined.indices, combined.indptr)
+    return (sp.csr_matrix((combined.data.real.copy(), *pattern), shape=combined.shape),
+            sp.csr_matrix((combined.data.imag.copy(), *pattern), shape=combined.shape))
 
 
-def restrict(A, free):
-    return A[free][:, free].tocsr()
+def _element_matrices(space: EdgeSpace, coefficient, *, curl: bool) -> np.ndarray:
+    """(n_elements, n_basis, n_basis) element matrices of one of the two integrands."""
+    X, W = space.quadrature
+    values, curls = space.element.reference_tables(X)          # (n_basis, 3, n_points)
+    table = (curls if curl else values).transpose(2, 1, 0)      # (n_points, 3, n_basis)
+    n_points, _, n_basis = table.shape
+    reference = table.reshape(n_points * 3, n_basis)            # rows (point, component)
+    mapping = space.mesh.mapping()
+    n_elements = space.mesh.nelements
+    local = np.empty((n_elements, n_basis, n_basis), dtype=np.result_type(coefficient, float))
+    for start in range(0, n_elements, BLOCK):
+        block = np.arange(start, min(start + BLOCK, n_elements))
+        J = np.moveaxis(mapping.DF(X, tind=block), (0, 1), (2, 3))   # (block, points, 3, 3)
+        det = np.linalg.det(J)
+        if curl:
+            metric = np.einsum("eqij,eqik->eqjk", J, J) / np.abs(det)[..., None, None]
+        else:
+            inverse = np.linalg.inv(J)
+            metric = np.einsum("eqij,eqkj->eqik", inverse, inverse) * np.abs(det)[..., None, None]
+        metric = metric * (W * coefficient[block])[..., None, None]
+        weighted = np.einsum("eqab,qbn->eqan", metric, table)   # metric applied to the basis
+        local[block] = reference.T @ weighted.reshape(block.size, n_points * 3, n_basis)
+    return local
+
+
+def _free_csr(space: EdgeSpace, local: np.ndarray):
+    """Sum element matrices into a CSR matrix over the free DOFs; entries of fixed DOFs
+    (essential walls) are dropped before the summation."""
+    index = np.full(space.dofs.N, -1, dtype=np.int64)
+    index[space.free] = np.arange(space.free.size)
+    element_dofs = index[space.dofs.element_dofs.T]            # (n_elements, n_basis)
+    rows = np.broadcast_to(element_dofs[:, :, None], local.shape)
+    cols = np.broadcast_to(element_dofs[:, None, :], local.shape)
+    keep = (rows >= 0) & (cols >= 0)
+    n = space.free.size
+    return sp.coo_matrix((local[keep], (rows[keep], cols[keep])), shape=(n, n)).tocsr()

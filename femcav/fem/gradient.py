@@ -23,23 +23,22 @@ def discrete_gradient(space) -> sp.csr_matrix:
     moments are Piola-invariant, so one reference matrix serves every element."""
     local = _reference_gradient(space.order)
     rows_local, cols_local = np.nonzero(local)
-    edge_dofs = space.basis.element_dofs          # (n_ned, n_elements)
-    scalar_dofs = space.scalar_basis.element_dofs  # (n_lag, n_elements)
+    edge_dofs = space.dofs.element_dofs           # (n_ned, n_elements)
+    scalar_dofs = space.scalar_dofs.element_dofs  # (n_lag, n_elements)
     rows = edge_dofs[rows_local].ravel()
     cols = scalar_dofs[cols_local].ravel()
     vals = np.repeat(local[rows_local, cols_local], edge_dofs.shape[1])
     # A DOF shared by several elements gets the same value from each: keep one.
-    _, first = np.unique(rows.astype(np.int64) * space.scalar_basis.N + cols, return_index=True)
+    _, first = np.unique(rows.astype(np.int64) * space.scalar_dofs.N + cols, return_index=True)
     return sp.csr_matrix((vals[first], (rows[first], cols[first])),
-                         shape=(space.basis.N, space.scalar_basis.N))
+                         shape=(space.dofs.N, space.scalar_dofs.N))
 
 
 @lru_cache(maxsize=None)
 def _reference_gradient(k: int) -> np.ndarray:
     """(n_ned, n_lag): Nédélec moments of the gradients of the reference Lagrange basis."""
     lagrange = ElementTetLagrange(k)
-    local = np.array([dofs_of(k, lambda X, j=j: lagrange.lbasis(X, j)[1])
-                      for j in range(len(lagrange.dofnames))]).T
+    local = dofs_of(k, lambda X: lagrange.reference_tables(X)[1])
     local[np.abs(local) < 1e-12] = 0.0
     return local
 
@@ -52,15 +51,16 @@ class GradientProjector:
     """
 
     def __init__(self, M, G, factorize):
-        self.M = M
         self.G = G.tocsr()
+        self._GtM = (self.G.T @ M).tocsr()   # one product per application instead of two
         # A mesh too coarse to have an interior node has no gradient fields to remove.
-        self._solve = factorize((self.G.T @ M @ self.G).tocsc()) if G.shape[1] else None
+        self._solve = (factorize((self._GtM @ self.G).tocsc(), definite=not np.iscomplexobj(M))
+                       if G.shape[1] else None)
 
     def gradient_part(self, x: np.ndarray) -> np.ndarray:
         if self._solve is None:
             return np.zeros_like(x)
-        return self.G @ self._solve(self.G.T @ (self.M @ x))
+        return self.G @ self._solve(self._GtM @ x)
 
     def remove(self, x: np.ndarray) -> np.ndarray:
         return x - self.gradient_part(x)

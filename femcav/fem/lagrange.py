@@ -15,7 +15,7 @@ import numpy as np
 from skfem.element import ElementH1
 from skfem.refdom import RefTet
 
-from .nedelec import VERTICES, _monomials
+from .nedelec import VERTICES, _monomials, derivative_matrix, monomial_values
 
 
 def lattice_nodes(k: int) -> np.ndarray:
@@ -52,17 +52,20 @@ class ElementTetLagrange(ElementH1):
         self.maxdeg = k
         self.doflocs = lattice_nodes(k)
         self.dofnames = ["u"] * len(self.doflocs)
-        self._monomials, self._coef = _coefficients(k)
+        monomials, self._coef = _coefficients(k)
+        self._exponents = np.array(monomials)
+        self._derivatives = [derivative_matrix(self._exponents, a) for a in range(3)]
+
+    def reference_tables(self, X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Every basis function (n, ...) and its gradient (n, 3, ...) at reference points X."""
+        mono = monomial_values(self._exponents, X)
+        values = np.tensordot(self._coef.T, mono, axes=(1, 0))
+        grads = np.stack([np.tensordot((D @ self._coef).T, mono, axes=(1, 0))
+                          for D in self._derivatives], axis=1)
+        return values, grads
 
     def lbasis(self, X, i):
+        mono = monomial_values(self._exponents, X)
         c = self._coef[:, i]
-        e = np.array(self._monomials).T[:, :, None]                  # (3, n_mono, 1)
-        flat = X.reshape(3, -1)
-        powers = flat[:, None, :] ** e                               # (3, n_mono, n)
-        phi = c @ np.prod(powers, axis=0)
-        dphi = np.empty((3, flat.shape[1]))
-        for axis in range(3):
-            lowered = powers.copy()
-            lowered[axis] = e[axis] * flat[axis][None, :] ** np.maximum(e[axis] - 1, 0)
-            dphi[axis] = c @ np.prod(lowered, axis=0)
-        return phi.reshape(X.shape[1:]), dphi.reshape((3,) + X.shape[1:])
+        return (np.tensordot(c, mono, axes=(0, 0)),
+                np.stack([np.tensordot(D @ c, mono, axes=(0, 0)) for D in self._derivatives]))

@@ -15,6 +15,9 @@ numerically once per order. Neighbouring elements agree on a shared edge or face
 parametrise it alike: femcav sorts every tetrahedron's vertices by global number (scikit-fem's
 ``sort_t``), so that every local a < b < c is also a global one and no sign or permutation
 correction is needed.
+
+Polynomials are kept as coefficient arrays over the monomials of degree <= k, so that a whole
+element's basis is evaluated at once by one matrix product.
 """
 
 from __future__ import annotations
@@ -33,51 +36,59 @@ def _monomials(degree: int, exact: bool = False) -> list[tuple[int, int, int]]:
             for k in range(degree + 1 - i - j) if not exact or i + j + k == degree]
 
 
-class _VectorPolynomial:
-    """Σ_terms c e_component x^i y^j z^k, kept as (component, exponents) -> coefficient."""
-
-    def __init__(self, terms: dict):
-        self.terms = terms
-
-    def value(self, X: np.ndarray) -> np.ndarray:
-        out = np.zeros((3,) + X.shape[1:])
-        for (comp, (i, j, k)), c in self.terms.items():
-            out[comp] += c * X[0] ** i * X[1] ** j * X[2] ** k
-        return out
-
-    def curl(self, X: np.ndarray) -> np.ndarray:
-        out = np.zeros((3,) + X.shape[1:])
-        for (comp, e), c in self.terms.items():
-            for axis in range(3):
-                if axis == comp or e[axis] == 0:
-                    continue
-                d = list(e)
-                d[axis] -= 1
-                term = c * e[axis] * X[0] ** d[0] * X[1] ** d[1] * X[2] ** d[2]
-                # curl = ∇ × (f e_comp): component (axis × comp) gets ±∂_axis f
-                target = 3 - axis - comp
-                sign = 1.0 if (axis, comp) in ((1, 2), (2, 0), (0, 1)) else -1.0
-                out[target] += sign * term
-        return out
+def monomial_values(exponents: np.ndarray, X: np.ndarray) -> np.ndarray:
+    """x^i y^j z^k for every row (i, j, k) of ``exponents``: shape (n_mono,) + X.shape[1:]."""
+    out = np.ones((len(exponents),) + X.shape[1:])
+    for axis in range(3):
+        for p in range(1, int(exponents[:, axis].max(initial=0)) + 1):
+            rows = exponents[:, axis] >= p
+            out[rows] *= X[axis]
+    return out
 
 
-def _candidates(k: int) -> list[_VectorPolynomial]:
-    out = [_VectorPolynomial({(comp, m): 1.0}) for m in _monomials(k - 1) for comp in range(3)]
+def derivative_matrix(exponents: np.ndarray, axis: int) -> np.ndarray:
+    """D with D @ c the coefficients of ∂f/∂x_axis for f = Σ c_m x^m (same monomial list)."""
+    index = {tuple(e): n for n, e in enumerate(exponents)}
+    D = np.zeros((len(exponents), len(exponents)))
+    for n, e in enumerate(exponents):
+        if e[axis] > 0:
+            lowered = list(e)
+            lowered[axis] -= 1
+            D[index[tuple(lowered)], n] = e[axis]
+    return D
+
+
+def _curl_coefficients(values: np.ndarray, exponents: np.ndarray) -> np.ndarray:
+    """Coefficients (..., 3, n_mono) of the curl of fields given by ``values`` (..., 3, n_mono)."""
+    D = [derivative_matrix(exponents, a) for a in range(3)]
+    d = lambda comp, axis: values[..., comp, :] @ D[axis].T
+    return np.stack([d(2, 1) - d(1, 2), d(0, 2) - d(2, 0), d(1, 0) - d(0, 1)], axis=-2)
+
+
+@lru_cache(maxsize=None)
+def _candidates(k: int) -> tuple[np.ndarray, np.ndarray]:
+    """A spanning set of NED_k: coefficient arrays (n_cand, 3, n_mono) and the exponents."""
+    exponents = np.array(_monomials(k))
+    index = {e: n for n, e in enumerate(_monomials(k))}
+    cands = []
+    for m in _monomials(k - 1):
+        for comp in range(3):
+            c = np.zeros((3, len(exponents)))
+            c[comp, index[m]] = 1.0
+            cands.append(c)
     for m in _monomials(k - 1, exact=True):
         for j in range(3):
             # x × (x^m e_j): component i of x × v is x_{i+1} v_{i+2} - x_{i+2} v_{i+1}
-            terms: dict = {}
+            c = np.zeros((3, len(exponents)))
             for i in range(3):
-                for other, sign in (((i + 1) % 3, 1.0), ((i + 2) % 3, -1.0)):
-                    v_index = (i + 2) % 3 if sign > 0 else (i + 1) % 3
-                    if v_index != j:
-                        continue
-                    e = list(m)
-                    e[other] += 1
-                    key = (i, tuple(e))
-                    terms[key] = terms.get(key, 0.0) + sign
-            out.append(_VectorPolynomial(terms))
-    return out
+                for other, v_index, sign in (((i + 1) % 3, (i + 2) % 3, 1.0),
+                                             ((i + 2) % 3, (i + 1) % 3, -1.0)):
+                    if v_index == j:
+                        e = list(m)
+                        e[other] += 1
+                        c[i, index[tuple(e)]] += sign
+            cands.append(c)
+    return np.array(cands), exponents
 
 
 def _gauss_line(n: int):
@@ -88,82 +99,82 @@ def _gauss_line(n: int):
 def _triangle_rule(n: int):
     """Collapsed Gauss rule on {s, t >= 0, s + t <= 1}, exact to degree 2n - 2 or so."""
     s, ws = _gauss_line(n)
-    pts, wts = [], []
-    for a, wa in zip(s, ws):
-        for b, wb in zip(s, ws):
-            pts.append((a, b * (1 - a)))
-            wts.append(wa * wb * (1 - a))
-    return np.array(pts), np.array(wts)
+    a, b = np.meshgrid(s, s, indexing="ij")
+    wa, wb = np.meshgrid(ws, ws, indexing="ij")
+    return np.column_stack([a.ravel(), (b * (1 - a)).ravel()]), (wa * wb * (1 - a)).ravel()
 
 
 def _tet_rule(n: int):
     s, ws = _gauss_line(n)
-    pts, wts = [], []
-    for a, wa in zip(s, ws):
-        for b, wb in zip(s, ws):
-            for c, wc in zip(s, ws):
-                x = a
-                y = b * (1 - a)
-                z = c * (1 - a) * (1 - b)
-                pts.append((x, y, z))
-                wts.append(wa * wb * wc * (1 - a) ** 2 * (1 - b))
-    return np.array(pts), np.array(wts)
-
-
-def _scalar_basis_1d(degree: int, s: np.ndarray) -> list[np.ndarray]:
-    """Legendre-like moment weights on [0, 1]: 1, s, s², ... (any basis of P_degree works)."""
-    return [s**p for p in range(degree + 1)]
+    a, b, c = np.meshgrid(s, s, s, indexing="ij")
+    wa, wb, wc = np.meshgrid(ws, ws, ws, indexing="ij")
+    pts = np.column_stack([a.ravel(), (b * (1 - a)).ravel(), (c * (1 - a) * (1 - b)).ravel()])
+    return pts, (wa * wb * wc * (1 - a) ** 2 * (1 - b)).ravel()
 
 
 @lru_cache(maxsize=None)
-def moment_functionals(k: int):
-    """The DOFs as a list of functions mapping a field evaluator f(X) -> (3, n) to a number,
-    in scikit-fem's local order: edges, then faces, then interior."""
-    funcs = []
+def moments(k: int) -> tuple[np.ndarray, np.ndarray]:
+    """The DOFs as a quadrature: points P (3, n_points) and weights W (n_dofs, 3, n_points),
+    so that DOF_i(u) = Σ W[i] * u(P), in scikit-fem's local order: edges, faces, interior.
+    The moment weights q are monomials (any basis of the polynomial space would do)."""
     n = k + 3
+    blocks = []            # (points (3, n), [(tangent, weight along the points)])
     s, w = _gauss_line(n)
     for a, b in RefTet.edges:
         xa, xb = VERTICES[a], VERTICES[b]
-        X = (xa[:, None] + np.outer(xb - xa, s))
-        for q in _scalar_basis_1d(k - 1, s):
-            funcs.append(lambda f, X=X, t=xb - xa, q=q, w=w: np.sum(w * q * (t @ f(X))))
+        blocks.append((xa[:, None] + np.outer(xb - xa, s),
+                       [(xb - xa, w * s**p) for p in range(k)]))
     if k >= 2:
         pts, wts = _triangle_rule(n)
         for a, b, c in RefTet.facets:
             xa, xb, xc = VERTICES[a], VERTICES[b], VERTICES[c]
             X = xa[:, None] + np.outer(xb - xa, pts[:, 0]) + np.outer(xc - xa, pts[:, 1])
+            rows = []
             for p in _monomials(k - 2):
-                if len(p) and p[2] != 0:
+                if p[2] != 0:
                     continue
                 q = pts[:, 0] ** p[0] * pts[:, 1] ** p[1]
-                for t in (xb - xa, xc - xa):
-                    funcs.append(lambda f, X=X, t=t, q=q, w=wts: np.sum(w * q * (t @ f(X))))
+                rows += [(t, wts * q) for t in (xb - xa, xc - xa)]
+            blocks.append((X, rows))
     if k >= 3:
         pts, wts = _tet_rule(n)
         X = pts.T
+        rows = []
         for p in _monomials(k - 3):
             q = X[0] ** p[0] * X[1] ** p[1] * X[2] ** p[2]
-            for m in range(1, 4):
-                t = VERTICES[m] - VERTICES[0]
-                funcs.append(lambda f, X=X, t=t, q=q, w=wts: np.sum(w * q * (t @ f(X))))
-    return funcs
+            rows += [(VERTICES[m] - VERTICES[0], wts * q) for m in range(1, 4)]
+        blocks.append((X, rows))
+    points = np.hstack([X for X, _ in blocks])
+    n_dofs = sum(len(rows) for _, rows in blocks)
+    W = np.zeros((n_dofs, 3, points.shape[1]))
+    i, start = 0, 0
+    for X, rows in blocks:
+        for tangent, weight in rows:
+            W[i, :, start:start + X.shape[1]] = np.outer(tangent, weight)
+            i += 1
+        start += X.shape[1]
+    return points, W
 
 
 @lru_cache(maxsize=None)
-def dual_coefficients(k: int) -> tuple[list[_VectorPolynomial], np.ndarray]:
-    """Candidate polynomials and the coefficients C with basis_i = Σ_j C[j, i] cand_j."""
-    cands = _candidates(k)
-    funcs = moment_functionals(k)
-    D = np.array([[fn(c.value) for c in cands] for fn in funcs])   # (n_dofs, n_cands)
+def basis_coefficients(k: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The dual basis of the moments: value and curl coefficient arrays (n_dofs, 3, n_mono)
+    over the monomial exponents (n_mono, 3)."""
+    cands, exponents = _candidates(k)
+    points, W = moments(k)
+    at_points = np.tensordot(cands, monomial_values(exponents, points), axes=(2, 0))
+    D = np.einsum("icp,ncp->in", W, at_points)                      # (n_dofs, n_cands)
     dim = k * (k + 2) * (k + 3) // 2
-    if len(funcs) != dim or np.linalg.matrix_rank(D) != dim:
+    if D.shape[0] != dim or np.linalg.matrix_rank(D) != dim:
         raise RuntimeError(f"Nédélec order {k}: moments are not unisolvent")
-    return cands, np.linalg.pinv(D)
+    values = np.tensordot(np.linalg.pinv(D).T, cands, axes=(1, 0))  # (n_dofs, 3, n_mono)
+    return values, _curl_coefficients(values, exponents), exponents
 
 
 def dofs_of(k: int, field) -> np.ndarray:
-    """The reference DOFs of a field given as f(X) -> (3, n) values."""
-    return np.array([fn(field) for fn in moment_functionals(k)])
+    """The reference DOFs of fields given as f(X) -> (..., 3, n): shape (n_dofs, ...)."""
+    points, W = moments(k)
+    return np.tensordot(W, field(points), axes=([1, 2], [-2, -1]))
 
 
 class ElementTetNedelec(ElementHcurl):
@@ -188,7 +199,7 @@ class ElementTetNedelec(ElementHcurl):
             + [VERTICES[list(f)].mean(axis=0) for f in RefTet.facets
                for _ in range(self.facet_dofs)]
             + [np.full(3, 0.25)] * self.interior_dofs)
-        self._cands, self._coef = dual_coefficients(k)
+        self._values, self._curls, self._exponents = basis_coefficients(k)
 
     def orient(self, mapping, i, tind=None):
         # Sorted vertex numbers make every local orientation the global one.
@@ -196,8 +207,14 @@ class ElementTetNedelec(ElementHcurl):
         ones = np.ones(n, dtype=np.int32)
         return ones if tind is None else ones[tind]
 
+    def reference_tables(self, X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Every basis function and its curl at the reference points X (3, ...):
+        two arrays of shape (n_dofs, 3, ...)."""
+        mono = monomial_values(self._exponents, X)
+        return (np.tensordot(self._values, mono, axes=(2, 0)),
+                np.tensordot(self._curls, mono, axes=(2, 0)))
+
     def lbasis(self, X, i):
-        column = self._coef[:, i]
-        phi = sum(c * cand.value(X) for c, cand in zip(column, self._cands) if c != 0.0)
-        dphi = sum(c * cand.curl(X) for c, cand in zip(column, self._cands) if c != 0.0)
-        return phi, dphi
+        mono = monomial_values(self._exponents, X)
+        return (np.tensordot(self._values[i], mono, axes=(1, 0)),
+                np.tensordot(self._curls[i], mono, axes=(1, 0)))

@@ -1,10 +1,11 @@
-"""The discrete space: lowest-order Nédélec edge elements on the model's mesh, with the
+"""The discrete space: Nédélec edge elements of order 1, 2 or 3 on the model's mesh, with the
 essential walls of the chosen field form removed and the coefficients of the form evaluated
 at the quadrature points."""
 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 import scipy.sparse as sp
@@ -31,8 +32,11 @@ class EdgeSpace:
     form: str
     order: int
     mesh: object                 # skfem.MeshTet, vertices of every tetrahedron sorted
-    basis: object                # skfem.Basis on the Nédélec element of this order
-    scalar_basis: object         # skfem.Basis on the Lagrange element of this order
+    element: object              # the Nédélec element of this order
+    scalar_element: object       # the Lagrange element of this order
+    quadrature: tuple            # reference points (3, n_points) and weights (n_points,)
+    dofs: object                 # skfem Dofs of the edge space
+    scalar_dofs: object          # skfem Dofs of the scalar (gradient) space
     free: np.ndarray
     free_nodes: np.ndarray       # free DOFs of the scalar (gradient) space
     stiffness_coef: np.ndarray
@@ -43,12 +47,26 @@ class EdgeSpace:
     def n_dofs(self) -> int:
         return int(self.free.size)
 
+    @cached_property
+    def basis(self):
+        """A scikit-fem basis on the space's quadrature, built on first use: assembly works
+        from reference tables and does not need it; post-processing does."""
+        from skfem import CellBasis
+        return CellBasis(self.mesh, self.element, quadrature=self.quadrature, dofs=self.dofs)
+
+    @cached_property
+    def scalar_basis(self):
+        from skfem import CellBasis
+        return CellBasis(self.mesh, self.scalar_element, quadrature=self.quadrature,
+                         dofs=self.scalar_dofs)
+
 
 ORDERS = (1, 2, 3)
 
 
 def build_space(model: Model, form: str = "E", order: int = 1) -> EdgeSpace:
-    from skfem import Basis
+    from skfem.assembly import Dofs
+    from skfem.quadrature import get_quadrature
 
     if form not in FORMS:
         raise InputError(f"unknown field form {form!r}; allowed: {', '.join(FORMS)}",
@@ -56,29 +74,30 @@ def build_space(model: Model, form: str = "E", order: int = 1) -> EdgeSpace:
     if order not in ORDERS:
         raise InputError(f"element order must be one of {', '.join(map(str, ORDERS))}, got "
                          f"{order!r}", field="solve.order")
-    tm = model.mesh
-    mesh = _skfem_mesh(tm)
+    mesh = _skfem_mesh(model.mesh)
     uniform = all(m.is_uniform for m in model.materials.values())
+    element, scalar_element = ElementTetNedelec(order), ElementTetLagrange(order)
     # u·v of two order-k fields has degree 2k; a varying eps_r gets two degrees more.
-    basis = Basis(mesh, ElementTetNedelec(order), intorder=2 * order + (0 if uniform else 2))
-    scalar_basis = Basis(mesh, ElementTetLagrange(order), intorder=1)
+    quadrature = get_quadrature(element.refdom, 2 * order + (0 if uniform else 2))
+    dofs, scalar_dofs = Dofs(mesh, element), Dofs(mesh, scalar_element)
 
     facet_wall = _name_boundary_facets(model, mesh)
     essential = essential_kinds(form)
     essential_facets = np.array([f for f, name in facet_wall.items()
                                  if model.wall_kind(name) in essential], dtype=np.int64)
-    fixed = (basis.get_dofs(facets=essential_facets).all() if essential_facets.size
+    fixed = (dofs.get_facet_dofs(essential_facets).all() if essential_facets.size
              else np.zeros(0, dtype=np.int64))
-    free = np.setdiff1d(np.arange(basis.N), fixed)
-    fixed_scalar = (scalar_basis.get_dofs(facets=essential_facets).all() if essential_facets.size
+    free = np.setdiff1d(np.arange(dofs.N), fixed)
+    fixed_scalar = (scalar_dofs.get_facet_dofs(essential_facets).all() if essential_facets.size
                     else np.zeros(0, dtype=np.int64))
-    free_nodes = _ground(mesh, np.setdiff1d(np.arange(scalar_basis.N), fixed_scalar))
+    free_nodes = _ground(mesh, np.setdiff1d(np.arange(scalar_dofs.N), fixed_scalar))
 
-    eps, mu = _coefficients(model, basis)
+    eps, mu = _coefficients(model, mesh.mapping().F(quadrature[0]))
     stiffness_coef, mass_coef = (1.0 / mu, eps) if form == "E" else (1.0 / eps, mu)
-    return EdgeSpace(model=model, form=form, order=order, mesh=mesh, basis=basis,
-                     scalar_basis=scalar_basis, free=free, free_nodes=free_nodes, stiffness_coef=stiffness_coef, mass_coef=mass_coef,
-                     facet_wall=facet_wall)
+    return EdgeSpace(model=model, form=form, order=order, mesh=mesh, element=element,
+                     scalar_element=scalar_element, quadrature=quadrature, dofs=dofs,
+                     scalar_dofs=scalar_dofs, free=free, free_nodes=free_nodes,
+                     stiffness_coef=stiffness_coef, mass_coef=mass_coef, facet_wall=facet_wall)
 
 
 def _skfem_mesh(tm):
@@ -139,9 +158,9 @@ def _ground(mesh, nodes: np.ndarray) -> np.ndarray:
     return nodes[keep[nodes]]
 
 
-def _coefficients(model: Model, basis) -> tuple[np.ndarray, np.ndarray]:
-    """eps_r and mu_r at the quadrature points, shape (n_elements, n_points)."""
-    x = basis.mapping.F(basis.X)  # (3, n_elements, n_points)
+def _coefficients(model: Model, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """eps_r and mu_r at the quadrature points x (3, n_elements, n_points), shape
+    (n_elements, n_points)."""
     eps = np.empty(x.shape[1:])
     mu = np.empty(x.shape[1:])
     tm = model.mesh
