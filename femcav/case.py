@@ -10,6 +10,7 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from .eigen.factorization import FACTORIZERS
 from .errors import InputError
 from .expressions import Expression
 from .fem.space import ORDERS
@@ -28,7 +29,7 @@ MESH_KEYS = {"size", "max_frequency", "per_wavelength", "edge_refinement", "curv
 SYMMETRY_CHOICES = {"pec": ("pec",), "pmc": ("pmc",), "both": ("pec", "pmc")}
 WALL_KEYS = {"kind", "conductivity", "metal", "roughness"}
 SOLVE_KEYS = {"modes", "near", "form", "order", "complex_check", "error_estimate", "accuracy",
-              "max_dofs"}
+              "max_dofs", "factorization"}
 DEFAULT_MODES = 10
 
 
@@ -62,6 +63,7 @@ class SolveSpec:
     error_estimate: bool = False       # solve a mesh sequence and bar every frequency
     accuracy: float | None = None      # relative target for the bars (refine until met)
     max_dofs: int = 400_000
+    factorization: str = "auto"        # sparse direct library (femcav.eigen.factorization)
 
 
 @dataclass(frozen=True)
@@ -369,9 +371,13 @@ def _solve(spec: dict) -> SolveSpec:
     if isinstance(max_dofs, bool) or not isinstance(max_dofs, int) or max_dofs < 1000:
         raise InputError(f"must be a whole number >= 1000, got {max_dofs!r}",
                          field="solve.max_dofs")
+    factorization = spec.get("factorization", "auto")
+    if factorization not in FACTORIZERS:
+        raise InputError(f"must be one of {', '.join(map(repr, FACTORIZERS))}, got "
+                         f"{factorization!r}", field="solve.factorization")
     return SolveSpec(modes=modes, near_hz=near_hz, form=form, order=order,
                      complex_check=complex_check, error_estimate=estimate or accuracy is not None,
-                     accuracy=accuracy, max_dofs=max_dofs)
+                     accuracy=accuracy, max_dofs=max_dofs, factorization=factorization)
 
 
 _RELATIVE_UNITS = {"ppm": 1e-6, "ppb": 1e-9, "%": 1e-2}

@@ -58,7 +58,8 @@ REFINEMENT_RATIO = 1.35
 
 def _solve_options(settings) -> dict:
     return dict(modes=settings.modes, near_hz=settings.near_hz, form=settings.form,
-                order=settings.order, complex_check=settings.complex_check)
+                order=settings.order, complex_check=settings.complex_check,
+                factorization=settings.factorization)
 
 
 def solve_with_error_bars(case: Case, walls: dict[str, Wall], settings,
@@ -88,7 +89,8 @@ def solve_with_error_bars(case: Case, walls: dict[str, Wall], settings,
                                     near_hz=settings.near_hz, form=settings.form,
                                     order_rate=2.0 * settings.order, progress=progress,
                                     order=settings.order,
-                                    complex_check=settings.complex_check)
+                                    complex_check=settings.complex_check,
+                                    factorization=settings.factorization)
         finest = estimated.finest
         modes = [replace(m, error_estimate_hz=e.error_estimate_hz,
                          extrapolated_hz=e.extrapolated_hz)
@@ -123,11 +125,13 @@ def default_output_folder(case_path: Path) -> Path:
 
 def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | None = None,
              near_hz: float | None = None, form: str | None = None, order: int | None = None,
+             factorization: str | None = None,
              progress: Progress = SILENT) -> tuple[Case, SolveResult, Path]:
     """Solve a case file and write table.txt, modes.csv, modes.json and fields.vtu (and
     wall_loss.vtu when the case has metal walls).
 
-    Command-line values (modes, near_hz, form, order) override the case file's [solve] table.
+    Command-line values (modes, near_hz, form, order, factorization) override the case
+    file's [solve] table.
     """
     case = load_case(path)
     settings = case.solve
@@ -139,6 +143,8 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
         settings = replace(settings, form=form)
     if order is not None:
         settings = replace(settings, order=order)
+    if factorization is not None:
+        settings = replace(settings, factorization=factorization)
 
     progress.step(f"case {case.path}: {case.title}")
     # With error bars every mesh, the finest included, is built by solve_with_error_bars.

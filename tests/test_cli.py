@@ -45,6 +45,7 @@ def test_solve_writes_documented_results(tmp_path, capsys):
 
     document = json.loads((out / "modes.json").read_text())
     assert isinstance(document["dofs"], int) and isinstance(document["elements"], int)
+    assert document["factorization"] in ("MKL PARDISO", "SuperLU (MKL PARDISO not installed)")
     freqs = [m["frequency_hz"] for m in document["modes"]]
     assert len(freqs) == 3 and freqs == sorted(freqs)
     assert all(m["residual"] < 1e-8 and m["divergence"] < 1e-8 for m in document["modes"])
@@ -64,6 +65,13 @@ def test_solve_writes_documented_results(tmp_path, capsys):
     for key in ("m01_we", "m01_wm"):
         assert np.sum(vol * grid.cell_data[key][0]) == pytest.approx(0.5, rel=0.05)
     assert not list(out.glob(".*partial*"))
+
+
+def test_factorization_chosen_on_the_command_line(tmp_path, capsys):
+    case = write_case(tmp_path, SMALL_BOX)
+    out = tmp_path / "lu"
+    assert main(["solve", str(case), "--out", str(out), "--factorization", "superlu", "-q"]) == 0
+    assert json.loads((out / "modes.json").read_text())["factorization"] == "SuperLU"
 
 
 def test_default_output_folder_and_near_and_form(tmp_path, capsys):
@@ -120,6 +128,8 @@ BAD_CASES = {
     "no geometry": ("[solve]\nmodes = 2\n", "geometry: the [geometry] table is missing"),
     "zero modes": (SMALL_BOX.replace("modes = 3", "modes = 0"), "solve.modes: must be a whole"),
     "bad form": (SMALL_BOX.replace("modes = 3", 'modes = 3\nform = "B"'), "solve.form: must be"),
+    "bad factorization": (SMALL_BOX.replace("modes = 3", 'modes = 3\nfactorization = "lu"'),
+                          "solve.factorization: must be one of 'auto', 'superlu', 'pardiso'"),
 }
 
 

@@ -33,7 +33,8 @@ def solve(K, M, projector: GradientProjector, request: EigenRequest, factorize,
     sigma = -lowest_scale if request.target is None else request.target
 
     t0 = time.perf_counter()
-    solve_shifted = factorize((K - sigma * M).tocsc())
+    # Below the spectrum K - σM is positive definite; at a target inside it, indefinite.
+    solve_shifted = factorize((K - sigma * M).tocsc(), definite=request.target is None)
     t_factor = time.perf_counter() - t0
     if progress:
         progress.step(f"factorised K - σM ({n} DOFs) in {t_factor:.2f} s")

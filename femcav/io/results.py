@@ -2,7 +2,8 @@
 
 modes.json is a stable, documented format (README, "Output files"): top-level keys
 ``format``, ``title``, ``case``, ``form``, ``order``, ``dofs``, ``elements``, ``request``,
-``static_fields_dropped``, ``checks_passed``, ``limits``, ``timings_s`` and ``modes``; each mode
+``static_fields_dropped``, ``checks_passed``, ``limits``, ``timings_s``, ``factorization`` and
+``modes``; each mode
 has ``index``, ``frequency_hz``, ``k0_squared_per_m2``, ``residual``, ``divergence``,
 ``orthogonality``, ``passed``, ``error_estimate_hz`` (null unless a mesh sequence was
 solved; then also ``extrapolated_hz``), ``q_wall``, ``q_dielectric``, ``q_total`` (null without such
@@ -73,6 +74,7 @@ def to_json(result: SolveResult, *, title: str, case: str | None) -> str:
         "limits": {"residual": checks.RESIDUAL_LIMIT, "divergence": checks.DIVERGENCE_LIMIT,
                    "orthogonality": checks.ORTHOGONALITY_LIMIT},
         "timings_s": result.timings,
+        "factorization": _factorization(result.eigen_stats),
         "modes": mode_rows(result),
     }
     if result.classes:
@@ -80,6 +82,14 @@ def to_json(result: SolveResult, *, title: str, case: str | None) -> str:
     if result.accuracy is not None:
         document["accuracy"] = result.accuracy
     return json.dumps(document, indent=2) + "\n"
+
+
+def _factorization(stats: dict) -> str | None:
+    """The sparse direct library used; merged symmetry classes keep stats per class."""
+    if "factorization" in stats:
+        return stats["factorization"]
+    inner = [v for v in stats.values() if isinstance(v, dict)]
+    return inner[0].get("factorization") if inner else None
 
 
 def to_csv(result: SolveResult) -> str:
