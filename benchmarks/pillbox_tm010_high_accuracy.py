@@ -5,9 +5,10 @@ r = 10 mm, l = 15 mm, against f = c p01 / (2π r) with p01 from scipy.special (P
 Microwave Engineering, 4th ed., §6.4). Run with one BLAS/MKL thread; pass the mesh size in
 mm and optionally the factorisation (auto, superlu, pardiso; default auto).
 
-Measured on the 2-vCPU, 24 GB reference machine (SuperLU with METIS ordering, 1 thread):
-  1.5 mm: 115 746 DOFs, error 3.1e-7,  85 s,  4.7 GB peak
-  1.1 mm: 293 112 DOFs, error 8.9e-8, 719 s, 18.9 GB peak (600 s of it the factorisation)
+Measured on the 2-vCPU, 24 GB reference machine (1 thread):
+  1.1 mm: 293 112 DOFs, error 8.9e-8, 105 s,  3.4 GB peak, MKL PARDISO (56 s factorisation)
+  1.1 mm: 293 112 DOFs, error 8.9e-8, 719 s, 18.9 GB peak, SuperLU with METIS ordering
+  1.5 mm: 115 746 DOFs, error 3.1e-7,  85 s,  4.7 GB peak, SuperLU
 
     OMP_NUM_THREADS=1 MKL_NUM_THREADS=1 python benchmarks/pillbox_tm010_high_accuracy.py 1.5
 """
