@@ -1,0 +1,281 @@
+"""Auxiliary-space (Hiptmair-Xu) preconditioner for A = K + τ M on the free edge DOFs.
+
+After R. Hiptmair and J. Xu, "Nodal auxiliary space preconditioning in H(curl) and H(div)
+spaces", SIAM J. Numer. Anal. 45(6) (2007) 2483-2509: a field splits into a high-frequency
+part (a smoother on A handles it), a gradient G p and a nodal vector field Π z, and the two
+auxiliary problems are discrete scalar and vector Laplacians in disguise, which algebraic
+multigrid solves well. The additive form
+
+    B = S + G V_G Gᵀ + Π V_Π Πᵀ,      V_G ≈ (Gᵀ A G)⁻¹,  V_Π ≈ (Πᵀ A Π)⁻¹,
+
+is symmetric positive definite when S and the V-cycles are, so it preconditions CG and LOBPCG.
+The multiplicative form applies the same pieces one after another on the updated residual
+in the symmetric order S, G, Π, G, S (symmetric too; costlier per application, fewer
+iterations). The coefficients (ε, μ) live inside K and M, so nothing here depends on them.
+
+Each V_• is one V-cycle of smoothed aggregation AMG (P. Vaněk, J. Mandel and M. Brezina,
+"Algebraic multigrid by smoothed aggregation for second and fourth order elliptic problems",
+Computing 56 (1996) 179-196). pyamg builds the hierarchy (aggregates, prolongators, coarse
+matrices); the cycle itself is ours and runs on a block of vectors at once, with Chebyshev
+polynomial smoothing in the Jacobi-scaled matrix (a fixed polynomial, so the cycle is a
+symmetric linear operator; the same polynomial smooths the edge matrix as S). The Chebyshev
+recurrence is the classical one, e.g. Y. Saad, Iterative Methods for Sparse Linear Systems,
+2nd ed., SIAM 2003, §12.1 (from memory).
+
+Orders 2 and 3 use the same construction with the discrete gradient of the Lagrange space of
+the same order and Π into the order-k DOFs (femcav.fem.interpolation): the local high-order
+gradients are then inside G's range and the order-k smoother handles the rest.
+"""
+
+from __future__ import annotations
+
+import time
+
+import numpy as np
+import scipy.linalg as la
+import scipy.sparse as sp
+
+CHEBYSHEV_DEGREE = 2
+CHEBYSHEV_LOWER = 1.0 / 30.0    # fraction of the spectral radius the smoother damps down to
+CHEBYSHEV_UPPER = 1.1           # safety above the estimated spectral radius
+MAX_COARSE = 400                # the coarsest AMG level is solved by dense Cholesky
+
+
+class ChebyshevSmoother:
+    """x = p(D⁻¹A) D⁻¹ b: ``degree`` steps of Chebyshev iteration for D⁻¹A from x = 0 on
+    [lower ρ, upper ρ], ρ the spectral radius of D⁻¹A (D = diag A)."""
+
+    def __init__(self, A, degree: int = CHEBYSHEV_DEGREE):
+        from pyamg.util.linalg import approximate_spectral_radius
+
+        self.A = A.tocsr()
+        diag = self.A.diagonal()
+        self.dinv = 1.0 / np.where(diag > 0, diag, 1.0)
+        scaled = sp.diags(self.dinv) @ self.A
+        rho = approximate_spectral_radius(scaled, maxiter=20, restart=0, symmetric=False)
+        upper, lower = CHEBYSHEV_UPPER * rho, CHEBYSHEV_LOWER * rho
+        self.theta, self.delta = (upper + lower) / 2, (upper - lower) / 2
+        self.degree = degree
+
+    def __call__(self, b: np.ndarray) -> np.ndarray:
+        dinv = self.dinv if b.ndim == 1 else self.dinv[:, None]
+        sigma = self.theta / self.delta
+        rho_old = 1.0 / sigma
+        r = dinv * b
+        d = r / self.theta
+        x = d.copy()
+        for _ in range(self.degree - 1):
+            r -= dinv * (self.A @ d)
+            rho = 1.0 / (2.0 * sigma - rho_old)
+            d = (rho * rho_old) * d + (2.0 * rho / self.delta) * r
+            x += d
+            rho_old = rho
+        return x
+
+
+class BlockVCycle:
+    """One V-cycle of smoothed aggregation for the SPD matrix A, on vectors or blocks."""
+
+    def __init__(self, A, near_null: np.ndarray | None = None, blocksize: int = 1,
+                 degree: int = CHEBYSHEV_DEGREE):
+        import pyamg
+
+        A = sp.csr_matrix(A)
+        if blocksize > 1:
+            A = A.tobsr(blocksize=(blocksize, blocksize))
+        hierarchy = pyamg.smoothed_aggregation_solver(
+            A, B=near_null, max_coarse=MAX_COARSE, max_levels=25, keep=False,
+            improve_candidates=None)
+        levels = hierarchy.levels
+        self.A = [lvl.A.tocsr() for lvl in levels]
+        self.P = [lvl.P.tocsr() for lvl in levels[:-1]]
+        self.R = [lvl.R.tocsr() for lvl in levels[:-1]]
+        self.smoothers = [ChebyshevSmoother(a, degree) for a in self.A[:-1]]
+        coarse = self.A[-1].toarray()
+        try:
+            self._coarse = ("cholesky", la.cho_factor(coarse))
+        except la.LinAlgError:   # round-off made the coarsest matrix semidefinite
+            self._coarse = ("pinv", np.linalg.pinv(coarse, hermitian=True))
+        self.operator_complexity = sum(a.nnz for a in self.A) / self.A[0].nnz
+
+    @property
+    def n_levels(self) -> int:
+        return len(self.A)
+
+    def _coarse_solve(self, b):
+        kind, data = self._coarse
+        return la.cho_solve(data, b) if kind == "cholesky" else data @ b
+
+    def __call__(self, b: np.ndarray, level: int = 0) -> np.ndarray:
+        if level == len(self.A) - 1:
+            return self._coarse_solve(b)
+        A, smooth = self.A[level], self.smoothers[level]
+        x = smooth(b)
+        x += self.P[level] @ self(self.R[level] @ (b - A @ x), level + 1)
+        x += smooth(b - A @ x)
+        return x
+
+
+def _regularised(A):
+    """A with unit diagonal where a row is empty (a zero column of the transfer): the entry
+    is decoupled, the transfer ignores it, and the matrix becomes definite."""
+    A = sp.csr_matrix(A)
+    empty = np.flatnonzero(np.diff(A.indptr) == 0) if A.nnz else np.arange(A.shape[0])
+    zero_diag = np.flatnonzero(A.diagonal() == 0)
+    fix = np.union1d(empty, zero_diag)
+    if fix.size:
+        A = A + sp.csr_matrix((np.ones(fix.size), (fix, fix)), shape=A.shape)
+    return A
+
+
+class AuxiliarySpacePreconditioner:
+    """B ≈ A⁻¹ for A = K + τM (τ > 0) on the free edge DOFs.
+
+    ``G`` (free edge DOFs x free scalar DOFs) and ``Pi`` (free edge DOFs x 3 n_vertices,
+    component-major) are the two transfers. The nodal problem is either the Galerkin product
+    Πᵀ A Π (``nodal_matrix=None``, one AMG on the coupled 3 x 3 blocks) or a given scalar
+    SPD matrix L on the vertices (e.g. ν-weighted Laplacian plus τ ε-weighted mass), applied
+    to each component separately, as in Hiptmair and Xu's analysis where the auxiliary
+    problem is the vector Laplacian. ``cycle`` is "additive" or "multiplicative".
+    Call it on a vector (n,) or a block (n, m).
+    """
+
+    def __init__(self, A, G, Pi, *, nodal_matrix=None, near_null=None,
+                 cycle: str = "multiplicative", smoothing_degree: int = 3):
+        if cycle not in ("additive", "multiplicative"):
+            raise ValueError(f"cycle must be 'additive' or 'multiplicative', got {cycle!r}")
+        t0 = time.perf_counter()
+        self.A = sp.csr_matrix(A)
+        self.cycle = cycle
+        self.smoother = ChebyshevSmoother(self.A, smoothing_degree)
+        self.G = sp.csr_matrix(G)
+        self.Gt = self.G.T.tocsr()
+        self.gradient_cycle = (BlockVCycle(_regularised(self.Gt @ (self.A @ self.G)))
+                               if self.G.shape[1] else None)
+        self.n_vertices = n_v = Pi.shape[1] // 3
+        self.componentwise = nodal_matrix is not None
+        if self.componentwise:
+            self.Pi = sp.csr_matrix(Pi)
+            self.nodal_cycle = BlockVCycle(nodal_matrix)
+        else:
+            # Node-major order lets AMG aggregate the three components of a vertex together,
+            # with the three constant fields as the near-null space.
+            node_major = np.arange(3 * n_v).reshape(3, n_v).T.ravel()
+            self.Pi = sp.csr_matrix(Pi)[:, node_major]
+            self.nodal_cycle = BlockVCycle(_regularised(self.Pi.T @ (self.A @ self.Pi)),
+                                           near_null=(np.tile(np.eye(3), (n_v, 1))
+                                                      if near_null is None else near_null),
+                                           blocksize=3)
+        self.Pit = self.Pi.T.tocsr()
+        self.setup_seconds = time.perf_counter() - t0
+        self.applications = 0
+
+    @property
+    def shape(self):
+        return self.A.shape
+
+    def _gradient(self, r):
+        if self.gradient_cycle is None:
+            return np.zeros_like(r)
+        return self.G @ self.gradient_cycle(self.Gt @ r)
+
+    def _nodal(self, r):
+        z = self.Pit @ r
+        if self.componentwise:   # (3 n_v, m) -> (n_v, 3 m): the three components side by side
+            m = 1 if r.ndim == 1 else r.shape[1]
+            side = z.reshape(3, self.n_vertices, m).transpose(1, 0, 2).reshape(self.n_vertices,
+                                                                                3 * m)
+            z = (self.nodal_cycle(side).reshape(self.n_vertices, 3, m).transpose(1, 0, 2)
+                 .reshape(z.shape))
+        else:
+            z = self.nodal_cycle(z)
+        return self.Pi @ z
+
+    def __call__(self, r: np.ndarray) -> np.ndarray:
+        self.applications += 1 if r.ndim == 1 else r.shape[1]
+        r = np.asarray(r, dtype=float)
+        if self.cycle == "additive":
+            return self.smoother(r) + self._gradient(r) + self._nodal(r)
+        x = self.smoother(r)
+        for correct in (self._gradient, self._nodal, self._gradient, self.smoother):
+            x += correct(r - self.A @ x)
+        return x
+
+    def aslinearoperator(self):
+        from scipy.sparse.linalg import LinearOperator
+        return LinearOperator(self.A.shape, matvec=self, matmat=self, dtype=float)
+
+    def describe(self) -> str:
+        g = self.gradient_cycle
+        nodal = "vector Laplacian" if self.componentwise else "Galerkin"
+        return (f"HX ({self.cycle}, {nodal} nodal problem): gradient AMG "
+                f"{g.n_levels if g else 0} levels, nodal AMG {self.nodal_cycle.n_levels} "
+                f"levels, setup {self.setup_seconds:.2f} s")
+
+
+def nodal_laplacian(space, shift: float) -> sp.csr_matrix:
+    """L (n_vertices x n_vertices): ∫ a ∇φ_i·∇φ_j + shift ∫ b φ_i φ_j over the piecewise-
+    linear hat functions, with a and b the element means of the space's stiffness and mass
+    coefficients (1/μ_r and ε_r in the E form). On curved meshes the affine map through the
+    vertices is used, which is good enough for a preconditioner."""
+    mesh = space.mesh
+    t = mesh.t[:4]
+    x = mesh.p[:, t]                                         # (3, 4, n_e)
+    J = np.moveaxis(x[:, 1:, :] - x[:, :1, :], 2, 0)         # (n_e, 3, 3), columns edges
+    det = np.linalg.det(J)
+    volume = np.abs(det) / 6.0
+    # gradients of the hat functions: rows of J^{-1} for vertices 1..3, minus their sum
+    inv = np.linalg.inv(J)                                   # (n_e, 3, 3)
+    grads = np.concatenate([-inv.sum(axis=1, keepdims=True), inv], axis=1)   # (n_e, 4, 3)
+    a = space.stiffness_coef.mean(axis=1)
+    b = space.mass_coef.mean(axis=1)
+    stiff = np.einsum("eic,ejc->eij", grads, grads) * (a * volume)[:, None, None]
+    mass = (np.ones((4, 4)) + np.eye(4))[None] * (b * volume / 20.0)[:, None, None]
+    local = stiff + shift * mass
+    rows = np.broadcast_to(t.T[:, :, None], local.shape).ravel()
+    cols = np.broadcast_to(t.T[:, None, :], local.shape).ravel()
+    n_v = int(mesh.nvertices)
+    return sp.csr_matrix((local.ravel(), (rows, cols)), shape=(n_v, n_v))
+
+
+def hx_preconditioner(space, K, M, G, shift: float, *, nodal: str = "galerkin",
+                      **options) -> AuxiliarySpacePreconditioner:
+    """The preconditioner of A = K + shift·M for ``space``; K, M and G as the solver restricts
+    them (free edge DOFs; G over the free scalar DOFs). ``nodal`` is "laplacian" (the
+    coefficient-weighted vector Laplacian, one scalar AMG for the three components) or
+    "galerkin" (Πᵀ A Π); other options go to AuxiliarySpacePreconditioner.
+
+    Π keeps every vertex, also those on essential walls: restricting Π to the free rows is
+    the interpolation followed by zeroing the tangential DOFs on the wall, so a wall vertex
+    still carries the normal component of the field there (nonzero for E on a PEC wall).
+    A column that is zero on the free rows (a corner vertex whose edges all lie on walls) is
+    decoupled in Πᵀ A Π by a unit diagonal.
+    """
+    if not shift > 0:
+        raise ValueError(f"the shift τ of K + τM must be positive, got {shift!r}")
+    from ..fem.interpolation import nodal_vector_interpolation
+
+    if nodal not in ("laplacian", "galerkin"):
+        raise ValueError(f"nodal must be 'laplacian' or 'galerkin', got {nodal!r}")
+    Pi = nodal_vector_interpolation(space)[space.free]
+    L = nodal_laplacian(space, shift) if nodal == "laplacian" else None
+    nn = None if L is not None else linear_fields(space.mesh.p[:, :space.mesh.nvertices])
+    return AuxiliarySpacePreconditioner((K + shift * M).tocsr(), G, Pi, nodal_matrix=L,
+                                        near_null=nn, **options)
+
+
+def linear_fields(points):
+    """(3 n_vertices, 9), node-major: the constant fields and the gradients of the six
+    quadratic monomials (curl-free linear fields), in coordinates centred and scaled."""
+    x = points - points.mean(axis=1, keepdims=True)
+    x = x / np.abs(x).max()
+    n = x.shape[1]
+    out = np.zeros((n, 3, 9))
+    out[:, :, :3] = np.eye(3)
+    col = 3
+    for i in range(3):
+        for j in range(i, 3):
+            out[:, i, col] += x[j]
+            out[:, j, col] += x[i]
+            col += 1
+    return out.reshape(3 * n, 9)
