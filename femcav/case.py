@@ -11,6 +11,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .eigen.factorization import FACTORIZERS
+from .eigen.selection import METHODS
 from .errors import InputError
 from .expressions import Expression
 from .fem.space import ORDERS
@@ -29,7 +30,7 @@ MESH_KEYS = {"size", "max_frequency", "per_wavelength", "edge_refinement", "curv
 SYMMETRY_CHOICES = {"pec": ("pec",), "pmc": ("pmc",), "both": ("pec", "pmc")}
 WALL_KEYS = {"kind", "conductivity", "metal", "roughness"}
 SOLVE_KEYS = {"modes", "near", "form", "order", "complex_check", "error_estimate", "accuracy",
-              "max_dofs", "factorization"}
+              "max_dofs", "factorization", "method"}
 DEFAULT_MODES = 10
 
 
@@ -64,6 +65,7 @@ class SolveSpec:
     accuracy: float | None = None      # relative target for the bars (refine until met)
     max_dofs: int = 400_000
     factorization: str = "auto"        # sparse direct library (femcav.eigen.factorization)
+    method: str = "auto"               # eigen backend (femcav.eigen.selection)
 
 
 @dataclass(frozen=True)
@@ -375,9 +377,14 @@ def _solve(spec: dict) -> SolveSpec:
     if factorization not in FACTORIZERS:
         raise InputError(f"must be one of {', '.join(map(repr, FACTORIZERS))}, got "
                          f"{factorization!r}", field="solve.factorization")
+    method = spec.get("method", "auto")
+    if method not in METHODS:
+        raise InputError(f"must be one of {', '.join(map(repr, METHODS))}, got {method!r}",
+                         field="solve.method")
     return SolveSpec(modes=modes, near_hz=near_hz, form=form, order=order,
                      complex_check=complex_check, error_estimate=estimate or accuracy is not None,
-                     accuracy=accuracy, max_dofs=max_dofs, factorization=factorization)
+                     accuracy=accuracy, max_dofs=max_dofs, factorization=factorization,
+                     method=method)
 
 
 _RELATIVE_UNITS = {"ppm": 1e-6, "ppb": 1e-9, "%": 1e-2}

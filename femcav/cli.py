@@ -35,6 +35,9 @@ def _parser() -> argparse.ArgumentParser:
     solve.add_argument("--factorization", choices=("auto", "superlu", "pardiso"),
                        help="sparse direct library for the shift-invert solves (overrides the "
                             "case; auto: PARDISO when installed, else SuperLU)")
+    solve.add_argument("--method", choices=("auto", "direct", "iterative"),
+                       help="eigen backend (overrides the case; auto: by request and size, "
+                            "the choice and its reason are printed)")
     solve.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
     mesh = commands.add_parser(
         "mesh", help="mesh without solving; print quality, write mesh and picture",
@@ -72,7 +75,8 @@ def _solve(args) -> int:
         raise InputError(f"must be a whole number >= 1, got {args.modes}", field="--modes")
     case, result, folder = run_case(args.case, out=args.out, modes=args.modes, near_hz=near_hz,
                                     form=args.form, order=args.order,
-                                    factorization=args.factorization, progress=Progress(quiet=args.quiet))
+                                    factorization=args.factorization, method=args.method,
+                                    progress=Progress(quiet=args.quiet))
     count = len(result.modes)
     what = (f"{count} modes nearest {format_frequency(result.near_hz)}" if result.near_hz
             else f"lowest {count} modes")

@@ -59,7 +59,7 @@ REFINEMENT_RATIO = 1.35
 def _solve_options(settings) -> dict:
     return dict(modes=settings.modes, near_hz=settings.near_hz, form=settings.form,
                 order=settings.order, complex_check=settings.complex_check,
-                factorization=settings.factorization)
+                factorization=settings.factorization, method=settings.method)
 
 
 def solve_with_error_bars(case: Case, walls: dict[str, Wall], settings,
@@ -90,7 +90,8 @@ def solve_with_error_bars(case: Case, walls: dict[str, Wall], settings,
                                     order_rate=2.0 * settings.order, progress=progress,
                                     order=settings.order,
                                     complex_check=settings.complex_check,
-                                    factorization=settings.factorization)
+                                    factorization=settings.factorization,
+                                    method=settings.method)
         finest = estimated.finest
         modes = [replace(m, error_estimate_hz=e.error_estimate_hz,
                          extrapolated_hz=e.extrapolated_hz)
@@ -125,13 +126,13 @@ def default_output_folder(case_path: Path) -> Path:
 
 def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | None = None,
              near_hz: float | None = None, form: str | None = None, order: int | None = None,
-             factorization: str | None = None,
+             factorization: str | None = None, method: str | None = None,
              progress: Progress = SILENT) -> tuple[Case, SolveResult, Path]:
     """Solve a case file and write table.txt, modes.csv, modes.json and fields.vtu (and
     wall_loss.vtu when the case has metal walls).
 
-    Command-line values (modes, near_hz, form, order, factorization) override the case
-    file's [solve] table.
+    Command-line values (modes, near_hz, form, order, factorization, method) override the
+    case file's [solve] table.
     """
     case = load_case(path)
     settings = case.solve
@@ -145,6 +146,8 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
         settings = replace(settings, order=order)
     if factorization is not None:
         settings = replace(settings, factorization=factorization)
+    if method is not None:
+        settings = replace(settings, method=method)
 
     progress.step(f"case {case.path}: {case.title}")
     # With error bars every mesh, the finest included, is built by solve_with_error_bars.

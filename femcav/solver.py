@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 import time
+from functools import partial
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -11,7 +12,10 @@ from scipy.constants import c as C0
 
 from .eigen import shift_invert
 from .eigen.complex_shift_invert import complex_eigenvalues
-from .eigen.factorization import describe, get_factorizer
+from .eigen import selection
+from .eigen.factorization import describe, get_factorizer, library
+from .eigen.memory import format_bytes
+from .eigen.pardiso import TooLarge
 from .eigen.interface import EigenRequest
 from .errors import InputError
 from .fem.assembly import assemble, assemble_mass, assemble_stiffness
@@ -68,8 +72,8 @@ def frequency_to_k0_squared(f_hz: float) -> float:
 
 
 def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, form: str = "E",
-                order: int = 1, factorization: str = "auto", complex_check: bool = False,
-                progress: Progress = SILENT) -> SolveResult:
+                order: int = 1, factorization: str = "auto", method: str = "auto",
+                complex_check: bool = False, progress: Progress = SILENT) -> SolveResult:
     if not isinstance(modes, int) or modes < 1:
         raise InputError(f"the number of modes must be a whole number >= 1, got {modes!r}",
                          field="solve.modes")
@@ -88,19 +92,33 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
         raise InputError(f"the mesh has only {space.n_dofs} free DOFs, too few for {modes} "
                          "modes; refine the mesh", field="solve.modes")
 
-    factorize = get_factorizer(factorization)
+    request = EigenRequest(count=modes,
+                           target=None if near_hz is None else frequency_to_k0_squared(near_hz))
+    choice = selection.choose(method, n=K.shape[0], nnz=K.nnz, request=request, order=order,
+                              library=library(factorization))
+    progress.step(choice.describe())
+    factorize = partial(get_factorizer(factorization),
+                        memory_limit=int(selection.MEMORY_SHARE * choice.free_bytes))
     progress.step(f"sparse direct solves: {describe(factorization)}")
-    t0 = time.perf_counter()
-    projector = GradientProjector(M, G, factorize)
     # In either form mass_coef.max() / stiffness_coef.min() is eps_max * mu_max.
     scale = ((math.pi / model.mesh.bounding_size()) ** 2
              / (space.mass_coef.max() / space.stiffness_coef.min()))
-    request = EigenRequest(count=modes,
-                           target=None if near_hz is None else frequency_to_k0_squared(near_hz))
-    pairs = shift_invert.solve(K, M, projector, request, factorize, lowest_scale=scale,
-                               progress=progress)
+    t0 = time.perf_counter()
+    try:
+        projector = GradientProjector(M, G, factorize)
+        if choice.method == "iterative":
+            pairs = _lobpcg_pairs(space, K, M, G, projector, request, scale, progress)
+        else:
+            pairs = shift_invert.solve(K, M, projector, request, factorize, lowest_scale=scale,
+                                       progress=progress)
+    except TooLarge as error:
+        raise InputError(f"the factorisation of {K.shape[0]} DOFs needs "
+                         f"{format_bytes(error.needed)} but only {format_bytes(error.limit)} "
+                         "can be spared; use a coarser mesh or symmetry planes",
+                         field="solve") from None
     timings["eigen_s"] = time.perf_counter() - t0
     pairs.stats["factorization"] = describe(factorization)
+    pairs.stats["method"] = choice.method
 
     static = pairs.values < STATIC_FRACTION * scale
     values, vectors = pairs.values[~static], pairs.vectors[:, ~static]
@@ -128,6 +146,18 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
                        elements=int(space.mesh.nelements), static_fields_dropped=int(static.sum()),
                        timings=timings, eigen_stats=pairs.stats, request=request,
                        near_hz=near_hz)
+
+
+def _lobpcg_pairs(space, K, M, G, projector, request, scale, progress):
+    """The lowest modes by LOBPCG with the auxiliary-space multigrid preconditioner of
+    K + τM, τ the lowest-mode scale (where the preconditioner's nodal parts are built)."""
+    from .eigen import hx, lobpcg
+
+    t0 = time.perf_counter()
+    preconditioner = hx.hx_preconditioner(space, K, M, G, shift=scale)
+    progress.step(f"multigrid preconditioner set up in {time.perf_counter() - t0:.2f} s")
+    return lobpcg.solve(K, M, projector, request, preconditioner, lowest_scale=scale,
+                        progress=progress)
 
 
 def _complex_check(space: EdgeSpace, K, M, G, factorize, modes: list[Mode], shift: float

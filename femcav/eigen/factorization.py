@@ -2,7 +2,8 @@
 
 A factoriser is a function ``factorize(A, definite=False) -> solve`` where ``solve(b)``
 returns A⁻¹ b for a vector or a block of column vectors; ``definite`` promises a symmetric
-positive definite A, which lets a Cholesky-capable library halve its work. SuperLU (from
+positive definite A, which lets a Cholesky-capable library halve its work; ``memory_limit``
+(bytes) lets a library that can predict its memory refuse before factorising. SuperLU (from
 scipy) always works; MKL PARDISO is used where the optional extra is installed. "auto" picks
 the fastest one installed that handles the matrix.
 """
@@ -38,7 +39,7 @@ def nested_dissection(A) -> np.ndarray:
     return np.asarray(perm, dtype=np.int64)
 
 
-def superlu(A, *, definite: bool = False) -> Solve:
+def superlu(A, *, definite: bool = False, memory_limit: int | None = None) -> Solve:
     """SuperLU on a symmetrically permuted matrix.
 
     Measured on a 34k-DOF curl-curl matrix (one core): COLAMD column ordering 18.1 s,
@@ -58,18 +59,18 @@ def superlu(A, *, definite: bool = False) -> Solve:
     return solve
 
 
-def pardiso(A, *, definite: bool = False) -> Solve:
+def pardiso(A, *, definite: bool = False, memory_limit: int | None = None) -> Solve:
     from .pardiso import pardiso as factor
 
-    return factor(A, definite=definite)
+    return factor(A, definite=definite, memory_limit=memory_limit)
 
 
-def auto(A, *, definite: bool = False) -> Solve:
+def auto(A, *, definite: bool = False, memory_limit: int | None = None) -> Solve:
     """PARDISO for real matrices when installed, else SuperLU."""
     from .pardiso import available
 
     if available() and not np.iscomplexobj(A):
-        return pardiso(A, definite=definite)
+        return pardiso(A, definite=definite, memory_limit=memory_limit)
     return superlu(A, definite=definite)
 
 
@@ -89,6 +90,13 @@ def get_factorizer(name: str) -> Callable[..., Solve]:
         raise InputError("factorization = \"pardiso\" needs MKL: pip install 'femcav[fast]' "
                          "(or use \"auto\" or \"superlu\")", field="solve.factorization")
     return FACTORIZERS[name]
+
+
+def library(name: str) -> str:
+    """"superlu" or "pardiso": what ``name`` resolves to for real matrices on this machine."""
+    from .pardiso import available
+
+    return "pardiso" if name == "pardiso" or (name == "auto" and available()) else "superlu"
 
 
 def describe(name: str) -> str:

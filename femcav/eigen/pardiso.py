@@ -27,7 +27,7 @@ import numpy as np
 import scipy.sparse as sp
 
 REAL_SPD, REAL_SYMMETRIC_INDEFINITE = 2, -2
-ANALYSE_AND_FACTOR, SOLVE, RELEASE = 12, 33, -1
+ANALYSE, FACTOR, SOLVE, RELEASE = 11, 22, 33, -1
 ERRORS = {-1: "input inconsistent", -2: "not enough memory", -3: "reordering problem",
           -4: "zero pivot (the matrix is not positive definite)", -5: "internal error",
           -6: "preordering failed", -7: "diagonal matrix problem", -8: "32-bit integer overflow",
@@ -37,6 +37,14 @@ ERRORS = {-1: "input inconsistent", -2: "not enough memory", -3: "reordering pro
 
 class PardisoUnavailable(RuntimeError):
     pass
+
+
+class TooLarge(RuntimeError):
+    """The analysis says the factorisation needs more memory than the limit given."""
+
+    def __init__(self, needed: int, limit: int):
+        super().__init__(f"PARDISO needs {needed} bytes, limit {limit}")
+        self.needed, self.limit = needed, limit
 
 
 class PardisoError(RuntimeError):
@@ -79,7 +87,7 @@ _DOUBLE_P = ctypes.POINTER(ctypes.c_double)
 class _Factor:
     """One PARDISO factorisation of a real symmetric matrix (upper triangle kept)."""
 
-    def __init__(self, A, mtype: int):
+    def __init__(self, A, mtype: int, memory_limit: int | None = None):
         lib = _library()
         upper = sp.triu(sp.csr_matrix(A), format="csr")
         upper.sum_duplicates()
@@ -104,9 +112,14 @@ class _Factor:
             p[12] = 1  # matrices such as a shift inside the spectrum
         p[17] = -1    # report the non-zeros of the factor
         p[34] = 1     # zero-based indices
-        self._call(ANALYSE_AND_FACTOR, np.zeros(1), np.zeros(1), 1)
-        self.factor_nonzeros = int(p[17])
         weakref.finalize(self, _release, lib, self._pt, self._iparm, n, mtype)
+        self._call(ANALYSE, np.zeros(1), np.zeros(1), 1)
+        # iparm[14]: peak of the analysis; [15] permanent; [16] factorisation and solve (kB)
+        self.needed_bytes = int(max(p[14], p[15] + p[16])) * 1024
+        if memory_limit is not None and self.needed_bytes > memory_limit:
+            raise TooLarge(self.needed_bytes, memory_limit)
+        self._call(FACTOR, np.zeros(1), np.zeros(1), 1)
+        self.factor_nonzeros = int(p[17])
 
     def _call(self, phase: int, b: np.ndarray, x: np.ndarray, nrhs: int) -> None:
         error = ctypes.c_int32(0)
@@ -137,15 +150,17 @@ def _release(lib, pt, iparm, n, mtype) -> None:
                 None, None, ctypes.byref(error))
 
 
-def pardiso(A, *, definite: bool = False):
+def pardiso(A, *, definite: bool = False, memory_limit: int | None = None):
     """Factorise the real symmetric matrix A: Cholesky when ``definite`` (falling back to the
-    indefinite LDLᵀ if a pivot says otherwise), else symmetric indefinite LDLᵀ."""
+    indefinite LDLᵀ if a pivot says otherwise), else symmetric indefinite LDLᵀ. With
+    ``memory_limit`` (bytes), raise TooLarge after the analysis if the factorisation would
+    need more."""
     if np.iscomplexobj(A):
         raise TypeError("the PARDISO binding handles real matrices only")
     if definite:
         try:
-            return _Factor(A, REAL_SPD).solve
+            return _Factor(A, REAL_SPD, memory_limit).solve
         except PardisoError as error:
             if error.code != -4:
                 raise
-    return _Factor(A, REAL_SYMMETRIC_INDEFINITE).solve
+    return _Factor(A, REAL_SYMMETRIC_INDEFINITE, memory_limit).solve

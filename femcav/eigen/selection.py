@@ -1,0 +1,81 @@
+"""Which eigen backend runs a request, and why; refusal when neither fits in memory.
+
+"direct" is shift-invert Lanczos on a sparse factorisation (femcav.eigen.shift_invert): the
+only choice for modes near a target, and the fastest while the factor is small. "iterative"
+is LOBPCG with the auxiliary-space multigrid preconditioner (femcav.eigen.lobpcg and
+femcav.eigen.hx): lowest modes only, memory and time close to linear in the DOFs.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from ..errors import InputError
+from .interface import EigenRequest
+from .memory import available_bytes, direct_peak_bytes, format_bytes, iterative_peak_bytes
+
+METHODS = ("auto", "direct", "iterative")
+# With "auto", the lowest modes of larger problems go to the iterative backend (see the
+# README's performance section for the measurements behind the number).
+ITERATIVE_FROM_DOFS = 150_000
+# Leave this share of the free memory to everything else.
+MEMORY_SHARE = 0.85
+ITERATIVE_ORDERS = (1,)
+
+
+@dataclass(frozen=True)
+class Choice:
+    method: str          # "direct" or "iterative"
+    reason: str
+    peak_bytes: float    # estimated
+    free_bytes: float
+
+    def describe(self) -> str:
+        return (f"eigen method {self.method}: {self.reason}; estimated peak "
+                f"{format_bytes(self.peak_bytes)} of {format_bytes(self.free_bytes)} free")
+
+
+def choose(method: str, *, n: int, nnz: int, request: EigenRequest, order: int, library: str,
+           free_bytes: float | None = None) -> Choice:
+    if method not in METHODS:
+        raise InputError(f"must be one of {', '.join(map(repr, METHODS))}, got {method!r}",
+                         field="solve.method")
+    free = available_bytes() if free_bytes is None else free_bytes
+    budget = MEMORY_SHARE * free
+    block = request.count + max(4, request.count // 2)
+    direct = direct_peak_bytes(n, nnz, 2 * block + 1, library)
+    iterative = iterative_peak_bytes(n, nnz, block)
+    iterative_possible = request.target is None and order in ITERATIVE_ORDERS
+
+    if method == "iterative":
+        if request.target is not None:
+            raise InputError("the iterative method finds the lowest modes only; for modes near "
+                             "a frequency use method = \"direct\" (or \"auto\")",
+                             field="solve.method")
+        if order not in ITERATIVE_ORDERS:
+            raise InputError(f"the iterative method supports element order "
+                             f"{', '.join(map(str, ITERATIVE_ORDERS))}; got order {order}",
+                             field="solve.method")
+        choice = Choice("iterative", "asked for", iterative, free)
+    elif method == "direct":
+        choice = Choice("direct", "asked for", direct, free)
+    elif not iterative_possible:
+        why = ("modes near a target need shift-invert" if request.target is not None
+               else f"the iterative method does not support order {order}")
+        choice = Choice("direct", why, direct, free)
+    elif direct > budget:
+        choice = Choice("iterative", f"the factorisation would need about "
+                        f"{format_bytes(direct)}", iterative, free)
+    elif n >= ITERATIVE_FROM_DOFS:
+        choice = Choice("iterative", f"{n} DOFs >= {ITERATIVE_FROM_DOFS}", iterative, free)
+    else:
+        choice = Choice("direct", f"{n} DOFs < {ITERATIVE_FROM_DOFS}", direct, free)
+
+    if choice.peak_bytes > budget:
+        hint = (" or method = \"iterative\"" if choice.method == "direct" and iterative_possible
+                and iterative <= budget else "")
+        raise InputError(f"the {choice.method} solve of {n} DOFs needs about "
+                         f"{format_bytes(choice.peak_bytes)} (estimated) but only "
+                         f"{format_bytes(free)} are free; use a coarser mesh, symmetry planes"
+                         f"{hint}", field="solve")
+    return choice

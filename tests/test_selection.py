@@ -1,0 +1,92 @@
+"""Choosing the eigen backend and refusing what will not fit in memory. The memory model is
+checked against SuperLU's own factor of a real curl-curl matrix (scipy, on this mesh)."""
+
+import json
+
+import pytest
+from scipy.sparse.linalg import splu
+
+from femcav.cli import main
+from femcav.eigen import pardiso as pardiso_module
+from femcav.eigen import selection
+from femcav.eigen.factorization import nested_dissection
+from femcav.eigen.interface import EigenRequest
+from femcav.eigen.memory import available_bytes, format_bytes, superlu_factor_entries
+from femcav.errors import InputError
+from femcav.fem.assembly import assemble
+from femcav.fem.space import build_space
+from femcav.geometry import build_part
+from femcav.materials import Material
+from femcav.model import make_model
+
+GB = 1e9
+LOWEST, NEAR = EigenRequest(count=10), EigenRequest(count=6, target=1e6)
+
+
+def choose(method="auto", n=50_000, request=LOWEST, order=1, free=20 * GB):
+    return selection.choose(method, n=n, nnz=15 * n, request=request, order=order,
+                            library="superlu", free_bytes=free)
+
+
+def test_auto_picks_by_request_and_size():
+    assert choose().method == "direct"
+    big = choose(n=200_000)
+    assert big.method == "iterative" and "200000 DOFs" in big.reason
+    assert choose(n=200_000, request=NEAR).method == "direct"
+    assert "order 3" in choose(n=200_000, order=3).reason
+    squeezed = choose(n=120_000, free=1.5 * GB)    # the factor would not fit, LOBPCG does
+    assert squeezed.method == "iterative" and "factorisation" in squeezed.reason
+    assert "GB free" in big.describe()
+
+
+def test_refusals_say_what_to_change():
+    with pytest.raises(InputError, match="lowest modes only"):
+        choose("iterative", request=NEAR)
+    with pytest.raises(InputError, match="supports element order 1"):
+        choose("iterative", order=2)
+    with pytest.raises(InputError, match='needs about .* or method = "iterative"'):
+        choose("direct", n=120_000, free=1.5 * GB)
+    with pytest.raises(InputError, match="coarser mesh"):
+        choose(n=2_000_000, free=0.5 * GB)
+    with pytest.raises(InputError, match="solve.method"):
+        choose("fastest")
+
+
+def test_superlu_factor_model_within_a_factor_two():
+    mesh = build_part("box", width=0.02286, height=0.01016, length=0.030, mesh_size=0.0015)
+    K, M = assemble(build_space(make_model(mesh, {"inside": Material()}, {}), "E", 1))
+    A = (K + 1e4 * M).tocsc()
+    perm = nested_dissection(A)
+    lu = splu(A[perm][:, perm].tocsc(), permc_spec="NATURAL", diag_pivot_thresh=0.1,
+              options={"SymmetricMode": True})
+    measured = lu.L.nnz + lu.U.nnz
+    modelled = superlu_factor_entries(A.shape[0], A.nnz)
+    assert 0.5 < modelled / measured < 2.0
+
+
+def test_memory_reading_and_units():
+    assert available_bytes() > 1e8
+    assert format_bytes(3.4e9) == "3.4 GB" and format_bytes(2.5e6) == "2.5 MB"
+
+
+@pytest.mark.skipif(not pardiso_module.available(), reason="MKL PARDISO not installed")
+def test_pardiso_refuses_after_its_analysis():
+    mesh = build_part("box", width=0.02, height=0.01, length=0.025, mesh_size=0.003)
+    K, M = assemble(build_space(make_model(mesh, {"inside": Material()}, {}), "E", 1))
+    with pytest.raises(pardiso_module.TooLarge) as caught:
+        pardiso_module.pardiso(K + 1e4 * M, definite=True, memory_limit=1000)
+    assert caught.value.needed > 1000
+
+
+def test_command_line_refuses_a_solve_that_does_not_fit(tmp_path, capsys, monkeypatch):
+    case = tmp_path / "case.toml"
+    case.write_text('[geometry]\nbuilder = "box"\nwidth = "20 mm"\nheight = "10 mm"\n'
+                    'length = "25 mm"\n[mesh]\nsize = "3 mm"\n[solve]\nmodes = 3\n'
+                    'method = "direct"\n')
+    monkeypatch.setattr(selection, "available_bytes", lambda: 1e6)
+    assert main(["solve", str(case), "--out", str(tmp_path / "out"), "-q"]) == 2
+    assert "needs about" in capsys.readouterr().err
+    assert not (tmp_path / "out").exists()
+    monkeypatch.undo()
+    assert main(["solve", str(case), "--out", str(tmp_path / "ok"), "-q"]) == 0
+    assert json.loads((tmp_path / "ok" / "modes.json").read_text())["dofs"] > 0
