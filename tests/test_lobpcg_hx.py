@@ -139,14 +139,15 @@ def pcg_iterations(problem, cycle):
     return count[0]
 
 
-@pytest.mark.parametrize("cycle", ["additive", "multiplicative"])
-def test_pcg_iterations_nearly_independent_of_the_mesh(mesh_sequence, cycle):
+@pytest.mark.parametrize("cycle, cap", [("additive", 40), ("multiplicative", 20)])
+def test_pcg_iterations_nearly_independent_of_the_mesh(mesh_sequence, cycle, cap):
     # Mesh independence of HX preconditioning is the theorem of Hiptmair and Xu (2007);
-    # 50 % growth over two refinements by √2 is our bar.
+    # 50 % growth over two refinements by √2 is our bar. The caps are our own measurements
+    # (23 additive, 10 multiplicative on all three meshes) with room to spare.
     counts = [pcg_iterations(problem, cycle) for problem in mesh_sequence]
     print(f"PCG iterations ({cycle}):", counts)
     assert counts[-1] < 1.5 * counts[0], counts
-    assert max(counts) < 80, counts
+    assert max(counts) < cap, counts
 
 
 @pytest.mark.slow
@@ -212,8 +213,9 @@ def test_lobpcg_matches_shift_invert_with_a_dielectric_block():
     assert_same_modes(problem, iterative, direct)
 
 
-def test_lobpcg_matches_shift_invert_at_order_2():
-    problem = discrete_problem(box_model(0.004), order=2)
+@pytest.mark.parametrize("order, h", [(2, 0.004), (3, 0.006)])
+def test_lobpcg_matches_shift_invert_at_higher_order(order, h):
+    problem = discrete_problem(box_model(h), order=order)
     iterative, direct = both_backends(problem)
     assert_same_modes(problem, iterative, direct)
 
