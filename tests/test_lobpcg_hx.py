@@ -220,6 +220,32 @@ def test_lobpcg_matches_shift_invert_at_higher_order(order, h):
     assert_same_modes(problem, iterative, direct)
 
 
+def test_lobpcg_returns_a_static_field_with_the_modes(tmp_path):
+    # A shorted coax in the H form: the field circling the rod is curl-free but no gradient
+    # (see tests/test_static_fields.py); it comes back as an extra pair at about zero, so
+    # that the solver can drop it, and the modes still agree with the direct backend.
+    from conftest import box_with_rod
+
+    from femcav.geometry import read_mesh
+
+    size = (0.012, 0.012, 0.040)
+    path = box_with_rod(tmp_path / "coax.msh", size, rod_radius=0.002, mesh_size=0.002)
+    model = make_model(read_mesh(path), {"gap": Material()}, {})
+    space = build_space(model, "H", 1)
+    K, M = assemble(space)
+    G = discrete_gradient(space)[space.free][:, space.free_nodes]
+    projector = GradientProjector(M, G, get_factorizer("auto"))
+    scale = (math.pi / model.mesh.bounding_size()) ** 2
+    request = EigenRequest(2)
+    pairs = lobpcg.solve(K, M, projector, request, hx_preconditioner(space, K, M, G, scale),
+                         lowest_scale=scale)
+    direct = shift_invert.solve(K, M, projector, request, get_factorizer("auto"),
+                                lowest_scale=scale)
+    assert pairs.stats["converged"] and pairs.values.size == 3
+    assert abs(pairs.values[0]) < 1e-6 * scale
+    np.testing.assert_allclose(pairs.values[1:], direct.values[1:3], rtol=1e-8)
+
+
 def test_lobpcg_refuses_a_target(small_box):
     _, K, M, _, projector, scale = small_box
     with pytest.raises(ValueError, match="lowest modes only"):

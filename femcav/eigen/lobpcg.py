@@ -24,7 +24,8 @@ The start block and every preconditioned residual are made M-orthogonal to range
 complement up to round-off. The final vectors are returned as the iteration left them (not
 projected again), so that the divergence check measures the iteration.
 
-Convergence is relative: ‖K x - λ M x‖ / ‖K x‖ below ``tol`` for each wanted pair.
+Convergence is relative: ‖K x - λ M x‖ / ‖K x‖ below ``tol`` for each wanted pair (for a
+static field, whose K x vanishes, ‖K x - λ M x‖ / (lowest_scale ‖M x‖)).
 """
 
 from __future__ import annotations
@@ -112,8 +113,9 @@ def solve(K, M, projector, request: EigenRequest, preconditioner, *, lowest_scal
     converged, fresh = False, True
     while True:
         R = KX - MX * values
-        residual = np.linalg.norm(R, axis=0) / np.maximum(np.linalg.norm(KX, axis=0),
-                                                          np.finfo(float).tiny)
+        # ‖K x‖ for a mode; a static field (K x ≈ 0) is measured against lowest_scale ‖M x‖
+        residual = np.linalg.norm(R, axis=0) / np.maximum(
+            np.linalg.norm(KX, axis=0), lowest_scale * np.linalg.norm(MX, axis=0))
         static = int(np.sum(values < STATIC_FRACTION * lowest_scale))
         wanted = min(request.count + static, m - 1)
         history.append(float(residual[:wanted].max()))
