@@ -220,6 +220,16 @@ def test_lobpcg_matches_shift_invert_at_higher_order(order, h):
     assert_same_modes(problem, iterative, direct)
 
 
+def test_lobpcg_matches_shift_invert_on_a_curved_mesh():
+    # Quadratic tetrahedra: Π uses the vertices' affine map only (a preconditioner needs no
+    # more); the modes must still come out as the direct backend's.
+    mesh = build_part("pillbox", radius=0.01, length=0.015, mesh_size=0.004, curved=True)
+    assert mesh.tets10 is not None
+    problem = discrete_problem(make_model(mesh, {"inside": Material()}, {}), order=2)
+    iterative, direct = both_backends(problem, count=6)
+    assert_same_modes(problem, iterative, direct, count=6)
+
+
 def test_lobpcg_returns_a_static_field_with_the_modes(tmp_path):
     # A shorted coax in the H form: the field circling the rod is curl-free but no gradient
     # (see tests/test_static_fields.py); it comes back as an extra pair at about zero, so
