@@ -13,7 +13,8 @@ each backend to SuperLU shift-invert at the sizes where that runs.
 Every point runs in a fresh process with a fixed thread count (BLAS, OpenMP and MKL):
 `--threads 1` (default) and `--threads 2` (the reference machine's vCPUs).
 
-    python benchmarks/scale.py [--threads N] [--quick]     # --quick: the 50k points only
+    python benchmarks/scale.py [--threads N] [--quick] [--largest K]
+    # --quick: the 50k points only; --largest 2: up to 200k
 """
 
 from __future__ import annotations
@@ -82,12 +83,13 @@ def main() -> None:
     parser = argparse.ArgumentParser()
     parser.add_argument("--threads", type=int, default=1)
     parser.add_argument("--quick", action="store_true")
+    parser.add_argument("--largest", type=int, default=3, help="how many of the sizes to run")
     args = parser.parse_args()
     env = dict(os.environ, OMP_NUM_THREADS=str(args.threads),
                OPENBLAS_NUM_THREADS=str(args.threads), MKL_NUM_THREADS=str(args.threads))
     rows = []
     for part, sizes in SIZES_MM.items():
-        for index, size in enumerate(sizes[:1] if args.quick else sizes):
+        for index, size in enumerate(sizes[:1 if args.quick else args.largest]):
             for backend in BACKENDS:
                 if (backend, index) in SKIP:
                     continue

@@ -139,7 +139,8 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     progress.step(f"eigen solve done: {len(result_modes)} modes in {timings['eigen_s']:.2f} s")
     if complex_check:
         t0 = time.perf_counter()
-        result_modes = _complex_check(space, K, M, G, factorize, result_modes, pairs.stats["shift"])
+        result_modes = _complex_check(space, K, M, G, factorize, result_modes,
+                                      pairs.stats.get("shift", -scale))
         timings["complex_check_s"] = time.perf_counter() - t0
         progress.step(f"complex check done in {timings['complex_check_s']:.2f} s")
     return SolveResult(modes=result_modes, space=space, dofs=space.n_dofs,
