@@ -23,17 +23,18 @@ GB = 1e9
 LOWEST, NEAR = EigenRequest(count=10), EigenRequest(count=6, target=1e6)
 
 
-def choose(method="auto", n=50_000, request=LOWEST, order=1, free=20 * GB):
+def choose(method="auto", n=50_000, request=LOWEST, order=1, free=20 * GB, library="superlu"):
     return selection.choose(method, n=n, nnz=15 * n, request=request, order=order,
-                            library="superlu", free_bytes=free)
+                            library=library, free_bytes=free)
 
 
 def test_auto_picks_by_request_and_size():
     assert choose().method == "direct"
-    big = choose(n=200_000)
-    assert big.method == "iterative" and "200000 DOFs" in big.reason
-    assert choose(n=200_000, request=NEAR).method == "direct"
-    assert "order 3" in choose(n=200_000, order=3).reason
+    big = choose(n=300_000, free=40 * GB)
+    assert big.method == "iterative" and "300000 DOFs" in big.reason
+    assert choose(n=300_000, free=40 * GB, library="pardiso").method == "direct"
+    assert choose(n=300_000, request=NEAR, free=40 * GB).method == "direct"
+    assert "order 3" in choose(n=300_000, order=3, free=40 * GB).reason
     squeezed = choose(n=120_000, free=1.5 * GB)    # the factor would not fit, LOBPCG does
     assert squeezed.method == "iterative" and "factorisation" in squeezed.reason
     assert "GB free" in big.describe()

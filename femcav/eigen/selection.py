@@ -15,9 +15,11 @@ from .interface import EigenRequest
 from .memory import available_bytes, direct_peak_bytes, format_bytes, iterative_peak_bytes
 
 METHODS = ("auto", "direct", "iterative")
-# With "auto", the lowest modes of larger problems go to the iterative backend (see the
-# README's performance section for the measurements behind the number).
-ITERATIVE_FROM_DOFS = 150_000
+# With "auto", the lowest modes of problems this large go to the iterative backend when the
+# factorisation is SuperLU; with PARDISO only when its factor would not fit. Measured (box,
+# order 1, 10 modes, one thread; benchmarks/scale.py): at 50k / 200k DOFs LOBPCG + HX took
+# 15 / 95 s, SuperLU shift-invert 9.5 / 89 s, PARDISO shift-invert 4.8 / 36 s.
+ITERATIVE_FROM_DOFS = {"superlu": 250_000, "pardiso": None}
 # Leave this share of the free memory to everything else.
 MEMORY_SHARE = 0.85
 # Orders the iterative method handles; "auto" sends only order 1 there (at order 3 the point
@@ -49,6 +51,7 @@ def choose(method: str, *, n: int, nnz: int, request: EigenRequest, order: int, 
     direct = direct_peak_bytes(n, nnz, 2 * block + 1, library)
     iterative = iterative_peak_bytes(n, nnz, block)
     iterative_possible = request.target is None and order in AUTO_ITERATIVE_ORDERS
+    threshold = ITERATIVE_FROM_DOFS[library]
 
     if method == "iterative":
         if request.target is not None:
@@ -69,10 +72,11 @@ def choose(method: str, *, n: int, nnz: int, request: EigenRequest, order: int, 
     elif direct > budget:
         choice = Choice("iterative", f"the factorisation would need about "
                         f"{format_bytes(direct)}", iterative, free)
-    elif n >= ITERATIVE_FROM_DOFS:
-        choice = Choice("iterative", f"{n} DOFs >= {ITERATIVE_FROM_DOFS}", iterative, free)
+    elif threshold is not None and n >= threshold:
+        choice = Choice("iterative", f"{n} DOFs >= {threshold} with {library}", iterative, free)
     else:
-        choice = Choice("direct", f"{n} DOFs < {ITERATIVE_FROM_DOFS}", direct, free)
+        choice = Choice("direct", f"{n} DOFs, the factorisation fits" if threshold is None
+                        else f"{n} DOFs < {threshold} with {library}", direct, free)
 
     if choice.peak_bytes > budget:
         hint = (" or method = \"iterative\"" if choice.method == "direct" and iterative_possible
