@@ -4,19 +4,18 @@ from __future__ import annotations
 
 import math
 import time
-from functools import partial
 from dataclasses import dataclass, field, replace
+from functools import partial
 
 import numpy as np
 from scipy.constants import c as C0
 
-from .eigen import shift_invert
+from .eigen import selection, shift_invert
 from .eigen.complex_shift_invert import complex_eigenvalues
-from .eigen import selection
 from .eigen.factorization import describe, get_factorizer, library
+from .eigen.interface import EigenRequest
 from .eigen.memory import format_bytes
 from .eigen.pardiso import TooLarge
-from .eigen.interface import EigenRequest
 from .errors import InputError
 from .fem.assembly import assemble, assemble_mass, assemble_stiffness
 from .fem.gradient import GradientProjector, discrete_gradient
