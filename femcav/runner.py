@@ -135,19 +135,9 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
     case file's [solve] table.
     """
     case = load_case(path)
-    settings = case.solve
-    if modes is not None:
-        settings = replace(settings, modes=modes)
-    if near_hz is not None:
-        settings = replace(settings, near_hz=near_hz)
-    if form is not None:
-        settings = replace(settings, form=form)
-    if order is not None:
-        settings = replace(settings, order=order)
-    if factorization is not None:
-        settings = replace(settings, factorization=factorization)
-    if method is not None:
-        settings = replace(settings, method=method)
+    overrides = dict(modes=modes, near_hz=near_hz, form=form, order=order,
+                     factorization=factorization, method=method)
+    settings = replace(case.solve, **{k: v for k, v in overrides.items() if v is not None})
 
     progress.step(f"case {case.path}: {case.title}")
     # With error bars every mesh, the finest included, is built by solve_with_error_bars.
