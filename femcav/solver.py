@@ -13,7 +13,7 @@ from scipy.constants import c as C0
 from .eigen import selection, shift_invert
 from .eigen.complex_shift_invert import complex_eigenvalues
 from .eigen.factorization import describe, get_factorizer, library
-from .eigen.interface import EigenRequest
+from .eigen.interface import STATIC_FRACTION, EigenRequest
 from .eigen.memory import format_bytes
 from .eigen.pardiso import TooLarge
 from .errors import InputError
@@ -25,10 +25,6 @@ from .post.checks import ModeChecks, check_modes
 from .post.losses import LossReport, has_losses, metal_faces, mode_losses
 from .progress import SILENT, Progress
 
-# An eigenvalue below this fraction of the lowest-mode scale (π/L)²/(ε_max μ_max) is a static
-# field, not a resonance: on domains with holes or floating conductors a few curl-free
-# fields are not gradients of a potential that vanishes on the walls, so deflation keeps them.
-STATIC_FRACTION = 1e-6
 
 
 @dataclass(frozen=True)
@@ -153,9 +149,8 @@ def _lobpcg_pairs(space, K, M, G, projector, request, scale, progress):
     K + τM, τ the lowest-mode scale (where the preconditioner's nodal parts are built)."""
     from .eigen import hx, lobpcg
 
-    t0 = time.perf_counter()
     preconditioner = hx.hx_preconditioner(space, K, M, G, shift=scale)
-    progress.step(f"multigrid preconditioner set up in {time.perf_counter() - t0:.2f} s")
+    progress.step(f"multigrid preconditioner set up in {preconditioner.setup_seconds:.2f} s")
     return lobpcg.solve(K, M, projector, request, preconditioner, lowest_scale=scale,
                         progress=progress)
 

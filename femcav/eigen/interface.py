@@ -6,6 +6,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+# An eigenvalue below this fraction of the lowest-mode scale (π/L)²/(ε_max μ_max) is a static
+# field, not a resonance: on domains with holes or floating conductors a few curl-free
+# fields are not gradients of a potential that vanishes on the walls, so deflation keeps them.
+STATIC_FRACTION = 1e-6
+
 
 @dataclass(frozen=True)
 class EigenRequest:

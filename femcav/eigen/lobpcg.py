@@ -42,12 +42,11 @@ import time
 import numpy as np
 import scipy.linalg as la
 
-from .interface import EigenPairs, EigenRequest
+from .interface import STATIC_FRACTION, EigenPairs, EigenRequest
 
 TOLERANCE = 1e-9
 MAX_ITERATIONS = 1000
 DROP = 1e-10            # SVQB: directions whose scaled Gram eigenvalue is below this go
-STATIC_FRACTION = 1e-6  # Ritz values below this fraction of lowest_scale are static fields
 REFRESH = 20            # recompute K X and M X from X every this many iterations
 PROGRESS_EVERY = 10
 

@@ -82,3 +82,11 @@ def _free_csr(space: EdgeSpace, local: np.ndarray):
     keep = (rows >= 0) & (cols >= 0)
     n = space.free.size
     return sp.coo_matrix((local[keep], (rows[keep], cols[keep])), shape=(n, n)).tocsr()
+
+
+def shared_entries_csr(rows, cols, vals, shape) -> sp.csr_matrix:
+    """A CSR matrix from entries that every element sharing a DOF gives alike (interpolation
+    and gradient matrices, whose DOFs are values, not sums over elements): one copy of each
+    is kept."""
+    _, first = np.unique(np.asarray(rows, dtype=np.int64) * shape[1] + cols, return_index=True)
+    return sp.csr_matrix((vals[first], (rows[first], cols[first])), shape=shape)

@@ -13,6 +13,7 @@ from functools import lru_cache
 import numpy as np
 import scipy.sparse as sp
 
+from .assembly import shared_entries_csr
 from .lagrange import ElementTetLagrange
 from .nedelec import dofs_of
 
@@ -28,10 +29,7 @@ def discrete_gradient(space) -> sp.csr_matrix:
     rows = edge_dofs[rows_local].ravel()
     cols = scalar_dofs[cols_local].ravel()
     vals = np.repeat(local[rows_local, cols_local], edge_dofs.shape[1])
-    # A DOF shared by several elements gets the same value from each: keep one.
-    _, first = np.unique(rows.astype(np.int64) * space.scalar_dofs.N + cols, return_index=True)
-    return sp.csr_matrix((vals[first], (rows[first], cols[first])),
-                         shape=(space.dofs.N, space.scalar_dofs.N))
+    return shared_entries_csr(rows, cols, vals, (space.dofs.N, space.scalar_dofs.N))
 
 
 @lru_cache(maxsize=None)

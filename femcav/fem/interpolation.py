@@ -25,6 +25,7 @@ from functools import lru_cache
 import numpy as np
 import scipy.sparse as sp
 
+from .assembly import shared_entries_csr
 from .nedelec import moments
 
 
@@ -56,9 +57,7 @@ def nodal_vector_interpolation(space) -> sp.csr_matrix:
     cols = (np.arange(3)[None, None, None, :] * n_v
             + t.T[:, None, :, None])                          # (n_e, 1, 4, 3)
     cols = np.broadcast_to(cols, local.shape)
-    rows, cols, vals = rows.ravel(), cols.ravel(), local.ravel()
-    _, first = np.unique(rows.astype(np.int64) * (3 * n_v) + cols, return_index=True)
-    out = sp.csr_matrix((vals[first], (rows[first], cols[first])),
-                        shape=(space.dofs.N, 3 * n_v))
+    out = shared_entries_csr(rows.ravel(), cols.ravel(), local.ravel(),
+                             (space.dofs.N, 3 * n_v))
     out.eliminate_zeros()
     return out
