@@ -74,3 +74,13 @@ def test_backends_give_the_same_modes(box_model, near_hz):
     if near_hz is None:
         reference = np.array(lowest_box_frequencies(0.02286, 0.01016, 0.030, 10))
         assert np.abs(b / reference - 1).max() < 2e-3
+
+
+@needs_pardiso
+def test_pardiso_with_the_complex_check():
+    # The lossy check's complex matrices go to SuperLU. A cavity filled with one lossy
+    # dielectric has Q_d = 1 / tan δ (Pozar, Microwave Engineering, 4th ed., §6.1, from memory).
+    mesh = build_part("box", width=0.02286, height=0.01016, length=0.030, mesh_size=0.004)
+    model = make_model(mesh, {"inside": Material(eps_r=2.0, tan_delta=1e-3)}, {})
+    result = solve_model(model, modes=2, complex_check=True, factorization="pardiso")
+    assert all(m.q_dielectric_complex == pytest.approx(1000, rel=1e-3) for m in result.modes)

@@ -60,18 +60,20 @@ def superlu(A, *, definite: bool = False, memory_limit: int | None = None) -> So
 
 
 def pardiso(A, *, definite: bool = False, memory_limit: int | None = None) -> Solve:
+    """MKL PARDISO for real matrices; the complex ones of the lossy check go to SuperLU."""
     from .pardiso import pardiso as factor
 
+    if np.iscomplexobj(A):
+        return superlu(A, definite=definite)
     return factor(A, definite=definite, memory_limit=memory_limit)
 
 
 def auto(A, *, definite: bool = False, memory_limit: int | None = None) -> Solve:
-    """PARDISO for real matrices when installed, else SuperLU."""
+    """PARDISO when installed, else SuperLU."""
     from .pardiso import available
 
-    if available() and not np.iscomplexobj(A):
-        return pardiso(A, definite=definite, memory_limit=memory_limit)
-    return superlu(A, definite=definite)
+    factor = pardiso if available() else superlu
+    return factor(A, definite=definite, memory_limit=memory_limit)
 
 
 FACTORIZERS: dict[str, Callable[..., Solve]] = {"auto": auto, "superlu": superlu,

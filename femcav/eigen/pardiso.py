@@ -134,8 +134,6 @@ class _Factor:
             raise PardisoError(error.value)
 
     def solve(self, b: np.ndarray) -> np.ndarray:
-        if np.iscomplexobj(b):
-            return self.solve(b.real) + 1j * self.solve(b.imag)
         rhs = np.asfortranarray(b, dtype=np.float64)
         x = np.empty_like(rhs, order="F")
         self._call(SOLVE, rhs, x, 1 if rhs.ndim == 1 else rhs.shape[1])
