@@ -6,6 +6,8 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).parent))
 
+import numpy as np  # noqa: E402
+
 from femcav.geometry.gmsh_session import gmsh_model  # noqa: E402
 
 
@@ -70,3 +72,9 @@ def box_with_rod(path: Path, size: tuple[float, float, float], rod_radius: float
         gmsh.model.mesh.generate(3)
         gmsh.write(str(path))
     return path
+
+
+def sorted_rows(a):
+    """The rows of a 2D array in lexicographic order: compares point sets whatever their
+    numbering (the mesh reader renumbers vertices)."""
+    return a[np.lexsort(a.T[::-1])]

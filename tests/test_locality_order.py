@@ -2,6 +2,7 @@
 mesh stays the same mesh, its numbering gets a small bandwidth, and the modes do not move."""
 
 import numpy as np
+from conftest import sorted_rows
 
 from femcav.analytic.box import lowest_box_frequencies
 from femcav.geometry import build_part, read_mesh
@@ -31,10 +32,6 @@ def shuffled(mesh: TaggedMesh, seed: int = 7) -> TaggedMesh:
                       tet_region=mesh.tet_region[along], region_names=mesh.region_names,
                       faces=renumber[mesh.faces], face_tag=mesh.face_tag,
                       wall_names=mesh.wall_names)
-
-
-def sorted_rows(a: np.ndarray) -> np.ndarray:
-    return a[np.lexsort(a.T[::-1])]
 
 
 def test_a_shuffled_file_is_read_back_with_a_small_bandwidth_and_the_same_modes(tmp_path):

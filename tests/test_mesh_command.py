@@ -15,7 +15,7 @@ from femcav.cli import main
 from femcav.geometry import box, read_mesh
 from femcav.post.mesh_quality import mean_edge_length, mean_ratio
 from femcav.viz import mesh_picture
-from conftest import box_with_blocks
+from conftest import box_with_blocks, sorted_rows
 from test_cli import BAD_CASES, SMALL_BOX, write_case  # SMALL_BOX: 20 x 10 x 25 mm, 3 mm
 
 # Alternate corners of a cube form a regular tetrahedron (common practice).
@@ -122,8 +122,6 @@ def test_mesh_command_on_a_box(tmp_path, capfd):
     assert set(back.region_names) == {"inside"} and set(back.wall_names) == set(box.WALLS)
     assert back.n_tets == built.n_tets and len(back.faces) == len(built.faces)
     # the reader renumbers vertices for locality, so compare the point sets
-    def sorted_rows(points):
-        return points[np.lexsort(points.T[::-1])]
     assert np.allclose(sorted_rows(back.points), sorted_rows(built.points), rtol=0, atol=1e-15)
 
     grid = meshio.read(out / "mesh.vtu")

@@ -41,12 +41,13 @@ the same order and Π into the order-k DOFs (femcav.fem.interpolation): the loca
 gradients are then inside G's range and the order-k smoother handles the rest. It works, and
 well at order 2 (CG to 1e-8: 15 / 17 iterations at 3.2k / 25k DOFs), poorly at order 3 (83 / 70
 at 3.4k / 10k DOFs with a degree-3 smoother, 44 at 10k with degree 6, even with an exact
-nodal solve): the point smoother is weak on the order-3 face and interior DOFs.
+nodal solve): the point smoother is weak on the order-3 face and interior DOFs. A p-level
+(order-1 HX reached through NED_1 ⊂ NED_k) or a block smoother would likely do better.
+
 Applying the whole preconditioner in float32 (set up in float64) was tried and dropped: box,
 200k DOFs, 10 modes, one thread, 29 LOBPCG iterations either way, 38.8 s against 42.2 s of
 eigen solve, within run-to-run noise; the nodal level (Πᵀ A Π, 94 entries a row) did not get
-faster at all. A p-level
-(order-1 HX reached through NED_1 ⊂ NED_k) or a block smoother would likely do better.
+faster at all.
 """
 
 from __future__ import annotations
