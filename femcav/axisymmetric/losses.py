@@ -1,0 +1,141 @@
+"""Energies, field class and Q factors of one axisymmetric mode.
+
+All integrals are over the section with the weight r of the volume element; the common
+azimuthal factor (π for m >= 1, 2π for m = 0) cancels in every ratio below, so it is left
+out. Electric energy: ε0 ε_r (r |e_t|² + u² / r). From ∇×E = -jωμ0 μ_r H, with the
+meridional curl (1/r) rot(∇u + m e_t) and the azimuthal one curl e_t:
+
+    |H_φ| ∝ |curl e_t|,   H_z ∝ (∂_r u + m e_r) / r,   H·n on a wall ∝ (∇u + m e_t)·n' / r,
+
+n' the in-plane normal turned a quarter (the tangent along the section's boundary curve
+for the meridional part of H_t). Q_wall = ω W / P_wall, W = 2 W_e, P_wall =
+(R_s / 2) ∮ |H_t|² dS; 1/Q_d = Σ p_i tan δ_i (D. M. Pozar, Microwave Engineering, 4th ed.,
+§6.1 and §6.3; common practice).
+
+Field class (a heuristic, stated as such): the share of the electric energy in E_z and of
+the magnetic energy in H_z. "TE-like" when E_z holds under CLASS_SHARE of it, "TM-like"
+when H_z does, "hybrid" otherwise. For m = 0 exactly one of e_t and u is nonzero, so the
+class is exact there.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy.constants import epsilon_0, mu_0
+from skfem import FacetBasis
+
+from ..metals import surface_resistance
+from ..post.losses import LossReport
+from ..walls import METAL
+from .space import OrderSpace
+
+CLASS_SHARE = 1e-2
+
+
+def _split(space: OrderSpace, dofs: np.ndarray):
+    full = np.zeros(space.n_edge + space.node_basis.N)
+    full[space.free] = dofs
+    return full[:space.n_edge], full[space.n_edge:]
+
+
+def electric_energy_by_region(space: OrderSpace, dofs) -> tuple[dict[str, float], float]:
+    """∫ ε0 ε_r |E|² r per region, and the share of it in E_z."""
+    e_dofs, u_dofs = _split(space, dofs)
+    e = space.edge_basis.interpolate(e_dofs)
+    u = space.node_basis.interpolate(u_dofs)
+    r = space.edge_basis.mapping.F(space.edge_basis.X)[0]
+    density = epsilon_0 * space.eps * (r * np.sum(np.asarray(e.value) ** 2, axis=0)
+                                       + np.asarray(u.value) ** 2 / r)
+    axial = epsilon_0 * space.eps * r * np.asarray(e.value)[1] ** 2
+    dx = space.edge_basis.dx
+    per_cell = np.sum(density * dx, axis=1)
+    section = space.model.section
+    energy = {name: float(per_cell[section.tri_region == rid].sum())
+              for name, rid in section.region_names.items()}
+    return energy, float(np.sum(axial * dx) / max(per_cell.sum(), np.finfo(float).tiny))
+
+
+def axial_magnetic_share(space: OrderSpace, dofs) -> float:
+    """The share of ∫ μ_r⁻¹ |∇×E|² r in its z component."""
+    e_dofs, u_dofs = _split(space, dofs)
+    e = space.edge_basis.interpolate(e_dofs)
+    u = space.node_basis.interpolate(u_dofs)
+    r = space.edge_basis.mapping.F(space.edge_basis.X)[0]
+    meridional = np.asarray(u.grad) + space.m * np.asarray(e.value)
+    total = space.inv_mu * (np.sum(meridional**2, axis=0) / r + r * np.asarray(e.curl) ** 2)
+    axial = space.inv_mu * meridional[0] ** 2 / r
+    dx = space.edge_basis.dx
+    return float(np.sum(axial * dx) / max(np.sum(total * dx), np.finfo(float).tiny))
+
+
+def field_class(space: OrderSpace, dofs) -> str:
+    _, e_axial = electric_energy_by_region(space, dofs)
+    h_axial = axial_magnetic_share(space, dofs)
+    if e_axial < CLASS_SHARE <= h_axial:
+        return "TE-like"
+    if h_axial < CLASS_SHARE <= e_axial:
+        return "TM-like"
+    return "hybrid"
+
+
+def has_losses(space: OrderSpace) -> bool:
+    model = space.model
+    return (any(m.tan_delta > 0 for m in model.materials.values())
+            or any(w.kind == METAL for w in model.walls.values()))
+
+
+def mode_losses(space: OrderSpace, dofs, frequency_hz: float) -> LossReport:
+    omega = 2 * math.pi * frequency_hz
+    energy, _ = electric_energy_by_region(space, dofs)
+    total_e = sum(energy.values())
+    filling = {name: value / total_e for name, value in energy.items()}
+    stored = 0.5 * total_e
+    materials = space.model.materials
+    terms = {name: filling[name] * materials[name].tan_delta for name in filling}
+    inverse_qd = sum(terms.values())
+    q_d = 1.0 / inverse_qd if inverse_qd > 0 else None
+    region_share = {n: t / inverse_qd for n, t in terms.items()} if inverse_qd > 0 else {}
+
+    powers = _wall_powers(space, dofs, omega)
+    q_wall, wall_share = None, {}
+    if powers:
+        total_p = sum(powers.values())
+        q_wall = omega * stored / total_p
+        wall_share = {name: p / total_p for name, p in powers.items()}
+    inverse = sum(1.0 / q for q in (q_wall, q_d) if q)
+    return LossReport(q_wall=q_wall, q_dielectric=q_d, q_total=1.0 / inverse if inverse else None,
+                      wall_loss_share=wall_share, region_loss_share=region_share,
+                      filling_factor=filling)
+
+
+def _wall_powers(space: OrderSpace, dofs, omega: float) -> dict[str, float]:
+    """(R_s / 2) ∫ |H_t|² r dl on each metal wall of the section, W (same scale as W)."""
+    from .space import _facets_of
+
+    model, section = space.model, space.model.section
+    mesh = space.edge_basis.mesh
+    e_dofs, u_dofs = _split(space, dofs)
+    mu_by_region = {rid: model.materials[name].mu_r for name, rid in section.region_names.items()}
+    out = {}
+    for name, tag in section.wall_names.items():
+        if name == "axis" or model.wall_kind(name) != METAL:
+            continue
+        facets = _facets_of(mesh, section.edges[section.edge_tag == tag])
+        intorder = space.edge_basis.intorder
+        eb = FacetBasis(mesh, space.edge_basis.elem, facets=facets, intorder=intorder)
+        nb = FacetBasis(mesh, space.node_basis.elem, facets=facets, intorder=intorder)
+        e = eb.interpolate(e_dofs)
+        u = nb.interpolate(u_dofs)
+        r = eb.global_coordinates().value[0]
+        n = eb.normals
+        mu_r = np.array([mu_by_region[t] for t in section.tri_region[mesh.f2t[0, facets]]])
+        meridional = np.asarray(u.grad) + space.m * np.asarray(e.value)
+        # |curl E|_t² r: the azimuthal part and the meridional part along the wall
+        curl_t_sq = r * np.asarray(e.curl) ** 2 + np.sum(meridional * n, axis=0) ** 2 / r
+        h_t_sq = curl_t_sq / (omega * mu_0 * mu_r[:, None]) ** 2
+        wall = model.walls[name]
+        rs = surface_resistance(omega, wall.conductivity, wall.roughness)
+        out[name] = float(0.5 * rs * np.sum(h_t_sq * eb.dx))
+    return out

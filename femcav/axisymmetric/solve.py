@@ -1,0 +1,146 @@
+"""The modes of a body of revolution: one deflated shift-invert solve per azimuthal order.
+
+Each order m is asked for ``modes`` modes (the lowest, or the nearest to a target), so the
+lowest (or nearest) ``modes`` of their union are those of the whole part. A mode with
+m >= 1 stands for a degenerate pair in 3D (cos mφ and sin mφ); it is listed once, with
+m, and counts once.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass, field
+from functools import partial
+
+import numpy as np
+from scipy.constants import c as C0
+
+from ..eigen import shift_invert
+from ..eigen.factorization import describe, get_factorizer
+from ..eigen.interface import STATIC_FRACTION, EigenRequest
+from ..errors import InputError
+from ..fem.gradient import GradientProjector
+from ..post.checks import ModeChecks, check_modes
+from ..post.losses import LossReport
+from ..progress import SILENT, Progress
+from .losses import field_class, has_losses, mode_losses
+from .model import AxisymmetricModel
+from .space import (
+    OrderSpace,
+    assemble_order,
+    build_order_space,
+    kernel_basis,
+    skfem_mesh,
+)
+
+
+@dataclass(frozen=True)
+class AxisymmetricMode:
+    index: int                  # 1-based, in frequency order over all m
+    m: int                      # azimuthal order
+    frequency_hz: float
+    k0_squared: float
+    field_class: str            # TE-like, TM-like or hybrid (see losses.field_class)
+    checks: ModeChecks
+    dofs: np.ndarray            # over the free DOFs of the order-m space, M-normalised
+    losses: LossReport | None = None
+
+    @property
+    def label(self) -> str:
+        return f"m={self.m} {self.field_class}"
+
+
+@dataclass(frozen=True)
+class AxisymmetricResult:
+    modes: list[AxisymmetricMode]
+    spaces: dict[int, OrderSpace]
+    dofs: dict[int, int]
+    triangles: int
+    timings: dict[str, float]
+    eigen_stats: dict = field(default_factory=dict)
+
+    @property
+    def passed(self) -> bool:
+        return all(m.checks.passed for m in self.modes)
+
+
+def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int = 10,
+                       near_hz: float | None = None, order: int = 3,
+                       factorization: str = "auto", progress: Progress = SILENT
+                       ) -> AxisymmetricResult:
+    orders = _checked_orders(orders)
+    if not isinstance(modes, int) or modes < 1:
+        raise InputError(f"the number of modes must be a whole number >= 1, got {modes!r}",
+                         field="solve.modes")
+    if near_hz is not None and not near_hz > 0:
+        raise InputError(f"the target frequency must be positive, got {near_hz!r} Hz",
+                         field="solve.near")
+    factorize = partial(get_factorizer(factorization))
+    mesh = skfem_mesh(model)
+    eps_mu = max(float(np.max(m.eps_at(*_probe(model)) * m.mu_r))
+                 for m in model.materials.values())
+    scale = (math.pi / model.section.bounding_size()) ** 2 / eps_mu
+    target = None if near_hz is None else (2 * math.pi * near_hz / C0) ** 2
+    timings = {"assembly_s": 0.0, "eigen_s": 0.0}
+    found, spaces, dofs, stats = [], {}, {}, {}
+    for m in orders:
+        t0 = time.perf_counter()
+        space = build_order_space(model, m, order, mesh)
+        K, M = assemble_order(space)
+        G = kernel_basis(space)
+        timings["assembly_s"] += time.perf_counter() - t0
+        spaces[m], dofs[m] = space, space.n_dofs
+        progress.step(f"m = {m}: {space.n_dofs} DOFs (order {order}), "
+                      f"{G.shape[1]} kernel fields")
+        count = min(modes, max(space.n_dofs - G.shape[1] - 2, 0))
+        if count < 1:
+            continue
+        t0 = time.perf_counter()
+        projector = GradientProjector(M, G, factorize)
+        pairs = shift_invert.solve(K, M, projector, EigenRequest(count, target), factorize,
+                                   lowest_scale=scale, progress=progress)
+        timings["eigen_s"] += time.perf_counter() - t0
+        stats[m] = pairs.stats
+        keep = pairs.values >= STATIC_FRACTION * scale
+        values, vectors = pairs.values[keep], pairs.vectors[:, keep]
+        checks = check_modes(K, M, projector, values, vectors)
+        for value, vector, check in zip(values, vectors.T, checks):
+            found.append((m, float(value), vector, check))
+    found.sort(key=lambda item: item[1])
+    if target is not None:
+        nearest = sorted(range(len(found)), key=lambda i: abs(math.sqrt(found[i][1])
+                                                             - math.sqrt(target)))[:modes]
+        found = [found[i] for i in sorted(nearest)]
+    found = found[:modes]
+    lossy = has_losses(next(iter(spaces.values())))
+    result_modes = []
+    for index, (m, value, vector, check) in enumerate(found, start=1):
+        frequency = C0 * math.sqrt(value) / (2 * math.pi)
+        space = spaces[m]
+        result_modes.append(AxisymmetricMode(
+            index=index, m=m, frequency_hz=frequency, k0_squared=value,
+            field_class=field_class(space, vector), checks=check, dofs=vector,
+            losses=mode_losses(space, vector, frequency) if lossy else None))
+    progress.step(f"{len(result_modes)} modes over m = {', '.join(map(str, orders))} in "
+                  f"{timings['eigen_s']:.2f} s ({describe(factorization)})")
+    return AxisymmetricResult(modes=result_modes, spaces=spaces, dofs=dofs,
+                              triangles=model.section.n_triangles, timings=timings,
+                              eigen_stats=stats)
+
+
+def _checked_orders(orders) -> tuple[int, ...]:
+    try:
+        out = tuple(dict.fromkeys(orders))
+    except TypeError:
+        out = (orders,)
+    if not out or not all(isinstance(m, int) and not isinstance(m, bool) and m >= 0
+                          for m in out):
+        raise InputError(f"azimuthal_orders must be a list of whole numbers >= 0, got "
+                         f"{orders!r}", field="solve.azimuthal_orders")
+    return out
+
+
+def _probe(model: AxisymmetricModel):
+    rz = model.section.points
+    return rz[:, 0], np.zeros(len(rz)), rz[:, 1]

@@ -1,0 +1,229 @@
+"""Discrete fields of one azimuthal order m on the meridional section, and their matrices.
+
+The field E = (e_r cos mφ, e_φ sin mφ, e_z cos mφ) (m >= 1; for m = 0 the azimuthal part is
+e_φ alone) is carried by e_t = (e_r, e_z) in Nédélec (edge) elements of the first kind of
+order k and by u = r e_φ in Lagrange elements of order k, on the (r, z) section. With
+that change of variables
+
+    (∇×E)_φ ∝ curl e_t,    (∇×E)_{r,z} ∝ (1/r) rot (∇u + m e_t),
+
+and the curl-curl eigenproblem ∇×(μ_r⁻¹∇×E) = k0² ε_r E becomes, after the φ integral
+(a common factor π, or 2π for m = 0),
+
+    K = ∫ μ_r⁻¹ [ (1/r) (∇u + m e_t)·(∇v + m f_t) + r curl e_t curl f_t ] dr dz,
+    M = ∫ ε_r [ r e_t·f_t + u v / r ] dr dz.
+
+Every gradient E = ∇(p cos mφ) maps to (e_t, u) = (∇p, -m p), and ∇P_k lies inside the
+Nédélec space, so the discrete kernel is exactly {(∇p, -m p)}: the spectrum has no
+spurious modes and the kernel is deflated like the 3D gradient kernel. The variables and
+weights are those of A. D. Greenwood and J.-M. Jin, "A novel efficient algorithm for
+scattering from a complex BOR using mixed finite elements and cylindrical PML", IEEE
+Trans. Antennas Propag. 47(4) (1999) 620-629 (from memory); the kernel argument and the
+axis conditions below are ours.
+
+On the axis r = 0: u = 0 for every m (e_φ stays finite); for m >= 1 also the tangential
+e_z = 0 (a field with cos mφ, m >= 1, has no axial part on the axis). The remaining axis
+condition for m >= 1, ∂_r u + m e_r = 0, is left to the 1/r weight: the energy of a field
+that breaks it grows without bound near the axis, so the discrete minimiser meets it in
+the limit. Measured (pillbox, orders 2 and 3, h halved twice): the eigenvalue errors fall
+as h^4 and h^6 for m = 0, 1 and 2 alike, the optimal rates.
+
+Walls: PEC and metal fix the tangential e_t and u (e_φ); PMC is natural.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+from skfem import (
+    Basis,
+    BilinearForm,
+    ElementTriN1,
+    ElementTriN2,
+    ElementTriN3,
+    ElementTriP1,
+    ElementTriP2,
+    ElementTriP3,
+    MeshTri,
+)
+from skfem.helpers import dot
+
+from ..errors import InputError
+from ..fem.assembly import shared_entries_csr
+from ..walls import PMC
+from .model import AxisymmetricModel
+
+ELEMENTS = {1: (ElementTriN1, ElementTriP1), 2: (ElementTriN2, ElementTriP2),
+            3: (ElementTriN3, ElementTriP3)}
+
+
+@dataclass(frozen=True)
+class OrderSpace:
+    """The discrete space of azimuthal order ``m``: DOFs are [edge DOFs, node DOFs]."""
+
+    model: AxisymmetricModel
+    m: int
+    order: int
+    edge_basis: Basis
+    node_basis: Basis
+    free: np.ndarray            # free DOFs of the stacked vector
+    free_potentials: np.ndarray  # node DOFs p whose (∇p, -m p) is a free kernel field
+    eps: np.ndarray             # ε_r at the quadrature points (n_triangles, n_points)
+    inv_mu: np.ndarray
+
+    @property
+    def n_edge(self) -> int:
+        return self.edge_basis.N
+
+    @property
+    def n_dofs(self) -> int:
+        return int(self.free.size)
+
+
+def skfem_mesh(model: AxisymmetricModel) -> MeshTri:
+    section = model.section
+    return MeshTri(section.points.T.copy(), section.triangles.T.copy())
+
+
+def build_order_space(model: AxisymmetricModel, m: int, order: int,
+                      mesh: MeshTri | None = None) -> OrderSpace:
+    if order not in ELEMENTS:
+        raise InputError(f"the axisymmetric solver has element orders 1, 2 and 3, got "
+                         f"{order!r}", field="solve.order")
+    if not isinstance(m, int) or m < 0:
+        raise InputError(f"azimuthal orders are whole numbers >= 0, got {m!r}",
+                         field="solve.azimuthal_orders")
+    mesh = skfem_mesh(model) if mesh is None else mesh
+    edge_element, node_element = ELEMENTS[order]
+    # The 1/r weights are not polynomials: two orders above the product of the bases.
+    intorder = 2 * order + 2
+    edge_basis = Basis(mesh, edge_element(), intorder=intorder)
+    node_basis = Basis(mesh, node_element(), intorder=intorder)
+
+    section = model.section
+    fixed_edge, fixed_node = set(), set()
+    for name, tag in section.wall_names.items():
+        facets = _facets_of(mesh, section.edges[section.edge_tag == tag])
+        if name == "axis":
+            continue
+        if model.wall_kind(name) != PMC:
+            fixed_edge.update(edge_basis.get_dofs(facets).all().tolist())
+            fixed_node.update(node_basis.get_dofs(facets).all().tolist())
+    # The axis, found from the geometry: boundary facets with both ends on r = 0.
+    boundary = mesh.boundary_facets()
+    ends = mesh.p[0, mesh.facets[:, boundary]]
+    axis = boundary[np.all(ends == 0.0, axis=0)]
+    # p may be nonzero on the axis for m = 0 (only its gradient enters), never on fixed walls
+    wall_nodes = set(fixed_node)
+    axis_nodes = set(node_basis.get_dofs(axis).all().tolist())
+    fixed_node |= axis_nodes
+    if m >= 1:
+        fixed_edge.update(edge_basis.get_dofs(axis).all().tolist())
+    free_edge = np.setdiff1d(np.arange(edge_basis.N), np.fromiter(fixed_edge, int, len(fixed_edge)))
+    free_node = np.setdiff1d(np.arange(node_basis.N), np.fromiter(fixed_node, int, len(fixed_node)))
+    free = np.concatenate([free_edge, edge_basis.N + free_node])
+    if m >= 1:
+        wall_nodes |= axis_nodes
+    potentials = np.setdiff1d(np.arange(node_basis.N),
+                              np.fromiter(wall_nodes, int, len(wall_nodes)))
+
+    eps, inv_mu = _coefficients(model, edge_basis)
+    return OrderSpace(model=model, m=m, order=order, edge_basis=edge_basis,
+                      node_basis=node_basis, free=free, free_potentials=potentials,
+                      eps=eps, inv_mu=inv_mu)
+
+
+def _facets_of(mesh: MeshTri, edges: np.ndarray) -> np.ndarray:
+    """Facet indices of the mesh for (n, 2) vertex pairs."""
+    if edges.size == 0:
+        return np.zeros(0, dtype=np.int64)
+    n = mesh.p.shape[1]
+    keys = np.sort(mesh.facets, axis=0)
+    order = np.argsort(keys[0] * n + keys[1])
+    sorted_keys = (keys[0] * n + keys[1])[order]
+    e = np.sort(edges, axis=1)
+    wanted = e[:, 0] * n + e[:, 1]
+    pos = np.searchsorted(sorted_keys, wanted)
+    if np.any(pos >= sorted_keys.size) or np.any(sorted_keys[np.minimum(pos, sorted_keys.size - 1)]
+                                                  != wanted):
+        raise InputError("a named boundary edge of the section is not an edge of its triangles",
+                         source=None)
+    return order[pos]
+
+
+def _coefficients(model: AxisymmetricModel, basis: Basis):
+    section = model.section
+    x = basis.mapping.F(basis.X)                   # (2, n_triangles, n_points)
+    r, z = x[0], x[1]
+    eps = np.empty_like(r)
+    inv_mu = np.empty_like(r)
+    for name, rid in section.region_names.items():
+        cells = section.tri_region == rid
+        material = model.materials[name]
+        eps[cells] = material.eps_at(r[cells], np.zeros_like(r[cells]), z[cells])
+        inv_mu[cells] = 1.0 / material.mu_r
+    return eps, inv_mu
+
+
+@BilinearForm
+def _edge_edge(e, f, w):
+    r = w.x[0]
+    return w.inv_mu * (w.m**2 * dot(e, f) / r + r * e.curl * f.curl)
+
+
+@BilinearForm
+def _node_edge(u, f, w):        # trial u (node), test f (edge)
+    return w.inv_mu * w.m * dot(u.grad, f) / w.x[0]
+
+
+@BilinearForm
+def _node_node(u, v, w):
+    return w.inv_mu * dot(u.grad, v.grad) / w.x[0]
+
+
+@BilinearForm
+def _edge_mass(e, f, w):
+    return w.eps * w.x[0] * dot(e, f)
+
+
+@BilinearForm
+def _node_mass(u, v, w):
+    return w.eps * u * v / w.x[0]
+
+
+def assemble_order(space: OrderSpace, eps: np.ndarray | None = None):
+    """(K, M) over the free DOFs; ``eps`` replaces ε_r at the quadrature points (for the
+    lossy part of a complex permittivity)."""
+    eb, nb = space.edge_basis, space.node_basis
+    coefficient = {"m": float(space.m), "inv_mu": space.inv_mu}
+    K_ee = _edge_edge.assemble(eb, **coefficient)
+    K_ue = _node_edge.assemble(nb, eb, **coefficient)        # rows edge, columns node
+    K_uu = _node_node.assemble(nb, **coefficient)
+    eps = space.eps if eps is None else eps
+    M_ee = _edge_mass.assemble(eb, eps=eps)
+    M_uu = _node_mass.assemble(nb, eps=eps)
+    K = sp.bmat([[K_ee, K_ue], [K_ue.T, K_uu]], format="csr")
+    M = sp.block_diag([M_ee, M_uu], format="csr")
+    f = space.free
+    return K[f][:, f].tocsr(), M[f][:, f].tocsr()
+
+
+def kernel_basis(space: OrderSpace) -> sp.csr_matrix:
+    """G (free DOFs x free potentials): the fields (∇p, -m p) of the node basis functions p,
+    which span the kernel of K. The edge part is the local L2 projection of ∇p on every
+    triangle, exact because ∇p is a Nédélec field there."""
+    eb, nb = space.edge_basis, space.node_basis
+    weights = eb.dx                                        # (n_triangles, n_points)
+    phi = np.stack([b[0].value for b in eb.basis])         # (n_e, 2, n_triangles, n_points)
+    grad = np.stack([b[0].grad for b in nb.basis])         # (n_n, 2, n_triangles, n_points)
+    local_mass = np.einsum("ictq,jctq,tq->tij", phi, phi, weights)
+    local_load = np.einsum("ictq,jctq,tq->tij", phi, grad, weights)
+    local = np.linalg.solve(local_mass, local_load)        # (n_triangles, n_e, n_n)
+    rows = np.broadcast_to(eb.element_dofs.T[:, :, None], local.shape)
+    cols = np.broadcast_to(nb.element_dofs.T[:, None, :], local.shape)
+    keep = np.abs(local) > 1e-10 * np.abs(local).max()
+    G_edge = shared_entries_csr(rows[keep], cols[keep], local[keep], (eb.N, nb.N))
+    G = sp.vstack([G_edge, -space.m * sp.identity(nb.N, format="csr")], format="csr")
+    return G[space.free][:, space.free_potentials].tocsr()

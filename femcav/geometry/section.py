@@ -1,0 +1,162 @@
+"""The meridional section of a body-of-revolution Layout, meshed in the (r, z) half-plane.
+
+A builder's Layout made of cylinders on the z axis (pillbox, coaxial and re-entrant
+cavities, a dielectric resonator on the axis of its shield) is also a body of revolution:
+each cylinder is a rectangle 0 <= r <= radius in the section. The same boolean steps as in
+3D (space, minus metal, fragmented by fills) run on those rectangles, and the boundary
+curves are named by the Layout's own rules, applied to the section's points placed in the
+plane y = 0 (x = r). Curves on r = 0 are named ``axis``.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..errors import InputError
+from .gmsh_session import gmsh_model
+from .meridional import AXIS, MeridionalMesh, checked_section
+from .parts import Layout, Sizing
+from .solids import Cylinder
+
+
+def _rectangle(solid, tol: float) -> tuple[float, float, float]:
+    """(radius, z_low, z_high) of a cylinder on the z axis; InputError for anything else."""
+    if isinstance(solid, Cylinder):
+        base, axis = np.asarray(solid.base, float), np.asarray(solid.axis, float)
+        if abs(base[0]) <= tol and abs(base[1]) <= tol and abs(axis[0]) <= tol \
+                and abs(axis[1]) <= tol:
+            z0, z1 = sorted((base[2], base[2] + axis[2]))
+            return float(solid.radius), float(z0), float(z1)
+    raise InputError(f"{solid} is not a body of revolution about the z axis, so this part "
+                     "has no axisymmetric model; solve it in 3D (drop azimuthal_orders)",
+                     field="solve.azimuthal_orders")
+
+
+def axisymmetric_layout_check(layout: Layout) -> None:
+    """InputError unless every solid of ``layout`` is a cylinder on the z axis."""
+    tol = 1e-9 * layout.extent()
+    for solid in [*layout.space, *(s for _, s in layout.metal), *(s for _, s in layout.fills)]:
+        _rectangle(solid, tol)
+
+
+def mesh_section(layout: Layout, sizing: Sizing, name: str = "section") -> MeridionalMesh:
+    """Mesh the meridional section of ``layout`` with triangles of ``sizing``'s sizes."""
+    axisymmetric_layout_check(layout)
+    tol = 1e-7 * layout.extent()
+
+    def add(occ, solid) -> int:
+        radius, z0, z1 = _rectangle(solid, tol)
+        return occ.addRectangle(0.0, z0, 0.0, radius, z1 - z0)
+
+    with gmsh_model(name) as gmsh:
+        occ = gmsh.model.occ
+        space = [(2, add(occ, s)) for s in layout.space]
+        if len(space) > 1:
+            space, _ = occ.fuse(space[:1], space[1:])
+        if layout.metal:
+            space, _ = occ.cut(space, [(2, add(occ, m)) for _, m in layout.metal])
+        region_of: dict[int, str] = {}
+        if layout.fills:
+            _, pieces = occ.fragment(space, [(2, add(occ, f)) for _, f in layout.fills])
+            kept = {t for dimtags in pieces[:len(space)] for _, t in dimtags}
+            for t in kept:
+                region_of[t] = layout.background
+            for (region, _), dimtags in zip(layout.fills, pieces[len(space):]):
+                for _, t in dimtags:
+                    if t in kept:
+                        region_of[t] = region
+            stray = [(2, t) for _, t in occ.getEntities(2) if t not in kept]
+            if stray:
+                occ.remove(stray, recursive=True)
+        else:
+            region_of = {t: layout.background for _, t in space}
+        occ.synchronize()
+
+        walls = _name_curves(gmsh, layout, tol)
+        _set_sizes(gmsh, sizing, region_of)
+        gmsh.model.mesh.generate(2)
+        return _read(gmsh, region_of, walls, layout.description or name)
+
+
+def _name_curves(gmsh, layout: Layout, tol: float) -> dict[int, str]:
+    walls = {}
+    for _, tag in gmsh.model.getEntities(1):
+        up, _ = gmsh.model.getAdjacencies(1, tag)
+        if len(up) != 1:
+            continue
+        lo, hi = gmsh.model.getParametrizationBounds(1, tag)
+        ts = [lo[0] + (hi[0] - lo[0]) * (i + 0.5) / 7 for i in range(7)]
+        rz = np.reshape(gmsh.model.getValue(1, tag, ts), (-1, 3))[:, :2]
+        if np.all(np.abs(rz[:, 0]) <= tol):
+            walls[tag] = AXIS
+            continue
+        xyz = np.column_stack([rz[:, 0], np.zeros(len(rz)), rz[:, 1]])
+        name = ""
+        for metal_name, solid in layout.metal:
+            if np.all(solid.on_surface(xyz, tol)):
+                name = metal_name
+                break
+        walls[tag] = name or layout.outer_wall(xyz)
+    return walls
+
+
+def _set_sizes(gmsh, sizing: Sizing, region_of: dict[int, str]) -> None:
+    fields = []
+    for region in dict.fromkeys(region_of.values()):
+        f = gmsh.model.mesh.field.add("Constant")
+        gmsh.model.mesh.field.setNumbers(f, "SurfacesList",
+                                         [t for t, r in region_of.items() if r == region])
+        gmsh.model.mesh.field.setNumber(f, "VIn",
+                                        min(sizing.size, sizing.region_sizes.get(region,
+                                                                                 math.inf)))
+        gmsh.model.mesh.field.setNumber(f, "VOut", 1e22)
+        gmsh.model.mesh.field.setNumber(f, "IncludeBoundary", 1)
+        fields.append(f)
+    smallest = gmsh.model.mesh.field.add("Min")
+    gmsh.model.mesh.field.setNumbers(smallest, "FieldsList", fields)
+    gmsh.model.mesh.field.setAsBackgroundMesh(smallest)
+    for option, value in (("MeshSizeFromPoints", 0), ("MeshSizeFromCurvature", 0),
+                          ("MeshSizeExtendFromBoundary", 0), ("MeshSizeMax", sizing.size),
+                          ("MeshSizeMin", 0.0), ("Algorithm", 6)):
+        gmsh.option.setNumber(f"Mesh.{option}", value)
+
+
+def _read(gmsh, region_of: dict[int, str], walls: dict[int, str], source: str
+          ) -> MeridionalMesh:
+    tags, coords, _ = gmsh.model.mesh.getNodes()
+    index = np.full(int(tags.max()) + 1, -1, dtype=np.int64)
+    index[tags.astype(np.int64)] = np.arange(tags.size)
+    points = np.reshape(coords, (-1, 3))[:, :2]
+    region_names = {r: i for i, r in enumerate(dict.fromkeys(region_of.values()))}
+    triangles, tri_region = [], []
+    for surface, region in region_of.items():
+        types, _, nodes = gmsh.model.mesh.getElements(2, surface)
+        for kind, node_list in zip(types, nodes):
+            if kind != 2:       # 3-node triangles only
+                continue
+            tri = index[np.reshape(node_list, (-1, 3)).astype(np.int64)]
+            triangles.append(tri)
+            tri_region.append(np.full(len(tri), region_names[region]))
+    wall_names = {w: i for i, w in enumerate(sorted(set(walls.values()) - {""}))}
+    edges, edge_tag = [], []
+    for curve, wall in walls.items():
+        if not wall:
+            continue
+        types, _, nodes = gmsh.model.mesh.getElements(1, curve)
+        for kind, node_list in zip(types, nodes):
+            if kind == 1:
+                e = index[np.reshape(node_list, (-1, 2)).astype(np.int64)]
+                edges.append(e)
+                edge_tag.append(np.full(len(e), wall_names[wall]))
+    used = np.unique(np.concatenate(triangles))
+    renumber = np.full(points.shape[0], -1, dtype=np.int64)
+    renumber[used] = np.arange(used.size)
+    mesh = MeridionalMesh(
+        points=points[used], triangles=renumber[np.concatenate(triangles)],
+        tri_region=np.concatenate(tri_region), region_names=region_names,
+        edges=renumber[np.concatenate(edges)] if edges else np.zeros((0, 2), np.int64),
+        edge_tag=np.concatenate(edge_tag) if edge_tag else np.zeros(0, np.int64),
+        wall_names=wall_names, source=source)
+    return checked_section(mesh)
