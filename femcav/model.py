@@ -9,7 +9,7 @@ import numpy as np
 from .errors import InputError
 from .geometry.mesh import TaggedMesh
 from .materials import Material
-from .walls import DEFAULT_KIND, KINDS, METAL, Wall
+from .walls import KINDS, METAL, Wall, kind_of
 
 FORMS = ("E", "H")
 
@@ -21,7 +21,7 @@ class Model:
     walls: dict[str, Wall] = field(default_factory=dict)
 
     def wall_kind(self, wall_name: str) -> str:
-        return self.walls.get(wall_name, Wall(DEFAULT_KIND)).kind
+        return kind_of(self.walls, wall_name)
 
 
 def make_model(mesh: TaggedMesh, materials: dict[str, Material], walls: dict[str, Wall],

@@ -26,7 +26,6 @@ from .post.losses import LossReport, has_losses, metal_faces, mode_losses
 from .progress import SILENT, Progress
 
 
-
 @dataclass(frozen=True)
 class Mode:
     index: int              # 1-based, in frequency order
@@ -62,6 +61,16 @@ class SolveResult:
         return all(m.checks.passed for m in self.modes)
 
 
+def check_request(modes, near_hz) -> None:
+    """InputError unless ``modes`` is a count >= 1 and ``near_hz`` is None or positive."""
+    if not isinstance(modes, int) or modes < 1:
+        raise InputError(f"the number of modes must be a whole number >= 1, got {modes!r}",
+                         field="solve.modes")
+    if near_hz is not None and not near_hz > 0:
+        raise InputError(f"the target frequency must be positive, got {near_hz!r} Hz",
+                         field="solve.near")
+
+
 def frequency_to_k0_squared(f_hz: float) -> float:
     return (2 * math.pi * f_hz / C0) ** 2
 
@@ -69,12 +78,7 @@ def frequency_to_k0_squared(f_hz: float) -> float:
 def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, form: str = "E",
                 order: int = 1, factorization: str = "auto", method: str = "auto",
                 complex_check: bool = False, progress: Progress = SILENT) -> SolveResult:
-    if not isinstance(modes, int) or modes < 1:
-        raise InputError(f"the number of modes must be a whole number >= 1, got {modes!r}",
-                         field="solve.modes")
-    if near_hz is not None and not near_hz > 0:
-        raise InputError(f"the target frequency must be positive, got {near_hz!r} Hz",
-                         field="solve.near")
+    check_request(modes, near_hz)
     timings = {}
     t0 = time.perf_counter()
     space = build_space(model, form, order)

@@ -28,3 +28,8 @@ def essential_kinds(form: str) -> tuple[str, ...]:
     reverse.
     """
     return {"E": (PEC, METAL), "H": (PMC,)}[form]
+
+
+def kind_of(walls: dict[str, Wall], name: str) -> str:
+    """The kind of the wall ``name``; an unnamed or unlisted boundary is DEFAULT_KIND."""
+    return walls.get(name, Wall(DEFAULT_KIND)).kind

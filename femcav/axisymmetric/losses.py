@@ -24,12 +24,11 @@ import math
 
 import numpy as np
 from scipy.constants import epsilon_0, mu_0
-from skfem import FacetBasis
 
 from ..metals import surface_resistance
 from ..post.losses import LossReport
 from ..walls import METAL
-from .space import OrderSpace
+from .space import OrderSpace, facets_of, quadrature_order
 
 CLASS_SHARE = 1e-2
 
@@ -112,8 +111,6 @@ def mode_losses(space: OrderSpace, dofs, frequency_hz: float) -> LossReport:
 
 def _wall_powers(space: OrderSpace, dofs, omega: float) -> dict[str, float]:
     """(R_s / 2) ∫ |H_t|² r dl on each metal wall of the section, W (same scale as W)."""
-    from .space import _facets_of
-
     model, section = space.model, space.model.section
     mesh = space.edge_basis.mesh
     e_dofs, u_dofs = _split(space, dofs)
@@ -122,20 +119,51 @@ def _wall_powers(space: OrderSpace, dofs, omega: float) -> dict[str, float]:
     for name, tag in section.wall_names.items():
         if name == "axis" or model.wall_kind(name) != METAL:
             continue
-        facets = _facets_of(mesh, section.edges[section.edge_tag == tag])
-        intorder = space.edge_basis.intorder
-        eb = FacetBasis(mesh, space.edge_basis.elem, facets=facets, intorder=intorder)
-        nb = FacetBasis(mesh, space.node_basis.elem, facets=facets, intorder=intorder)
-        e = eb.interpolate(e_dofs)
-        u = nb.interpolate(u_dofs)
-        r = eb.global_coordinates().value[0]
-        n = eb.normals
-        mu_r = np.array([mu_by_region[t] for t in section.tri_region[mesh.f2t[0, facets]]])
-        meridional = np.asarray(u.grad) + space.m * np.asarray(e.value)
-        # |curl E|_t² r: the azimuthal part and the meridional part along the wall
-        curl_t_sq = r * np.asarray(e.curl) ** 2 + np.sum(meridional * n, axis=0) ** 2 / r
-        h_t_sq = curl_t_sq / (omega * mu_0 * mu_r[:, None]) ** 2
+        total = 0.0
+        for eb, nb, normal, dl in _edge_bases(space, facets_of(mesh, section.edges[
+                section.edge_tag == tag])):
+            e, u = eb.interpolate(e_dofs), nb.interpolate(u_dofs)
+            r = eb.mapping.F(eb.X, tind=eb.tind)[0]
+            mu_r = np.array([mu_by_region[t] for t in section.tri_region[eb.tind]])
+            meridional = np.asarray(u.grad) + space.m * np.asarray(e.value)
+            # |curl E|_t² r: the azimuthal part and the meridional part along the wall
+            curl_t_sq = (r * np.asarray(e.curl) ** 2
+                         + np.einsum("ctq,ct->tq", meridional, normal) ** 2 / r)
+            total += float(np.sum(curl_t_sq / (omega * mu_0 * mu_r[:, None]) ** 2 * dl))
         wall = model.walls[name]
-        rs = surface_resistance(omega, wall.conductivity, wall.roughness)
-        out[name] = float(0.5 * rs * np.sum(h_t_sq * eb.dx))
+        out[name] = 0.5 * surface_resistance(omega, wall.conductivity, wall.roughness) * total
     return out
+
+
+# the reference triangle's edges in scikit-fem's order: (0,1), (1,2), (0,2)
+_REFERENCE_EDGES = np.array([[[0.0, 0.0], [1.0, 0.0]], [[1.0, 0.0], [0.0, 1.0]],
+                             [[0.0, 0.0], [0.0, 1.0]]])
+
+
+def _edge_bases(space: OrderSpace, facets: np.ndarray):
+    """Cell bases that evaluate the order space on boundary facets: one per local edge
+    index, with Gauss points on that edge of the reference triangle (scikit-fem's facet
+    bases do not take its higher-order Nédélec elements). Yields (edge basis, node basis,
+    outward unit normals (2, n), length weights (n, n_points))."""
+    from skfem import CellBasis
+
+    mesh = space.edge_basis.mesh
+    s, w = np.polynomial.legendre.leggauss(quadrature_order(space.order) // 2 + 1)
+    s, w = (s + 1) / 2, w / 2
+    cells = mesh.f2t[0, facets]
+    local = np.argmax(mesh.t2f[:, cells] == facets, axis=0)
+    for j in range(3):
+        chosen = local == j
+        if not chosen.any():
+            continue
+        a, b = _REFERENCE_EDGES[j]
+        X = (a[:, None] + np.outer(b - a, s))
+        eb = CellBasis(mesh, space.edge_basis.elem, elements=cells[chosen], quadrature=(X, w))
+        nb = CellBasis(mesh, space.node_basis.elem, elements=cells[chosen], quadrature=(X, w))
+        ends = mesh.p[:, mesh.facets[:, facets[chosen]]]          # (2, 2, n)
+        tangent = ends[:, 1] - ends[:, 0]
+        length = np.linalg.norm(tangent, axis=0)
+        normal = np.array([tangent[1], -tangent[0]]) / length
+        inward = mesh.p[:, mesh.t[:, cells[chosen]]].mean(axis=1) - ends.mean(axis=1)
+        normal *= np.where(np.sum(normal * inward, axis=0) > 0, -1.0, 1.0)
+        yield eb, nb, normal, length[:, None] * w[None, :]

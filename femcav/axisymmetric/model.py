@@ -11,7 +11,7 @@ import numpy as np
 from ..errors import InputError
 from ..geometry.meridional import AXIS, MeridionalMesh
 from ..materials import Material
-from ..walls import DEFAULT_KIND, KINDS, METAL, Wall
+from ..walls import KINDS, METAL, Wall, kind_of
 
 # eps_r(r cos φ, r sin φ, z) must not depend on φ by more than this, relatively
 ROTATION_TOLERANCE = 1e-9
@@ -24,7 +24,7 @@ class AxisymmetricModel:
     walls: dict[str, Wall] = field(default_factory=dict)
 
     def wall_kind(self, wall_name: str) -> str:
-        return self.walls.get(wall_name, Wall(DEFAULT_KIND)).kind
+        return kind_of(self.walls, wall_name)
 
 
 def make_axisymmetric_model(section: MeridionalMesh, materials: dict[str, Material],

@@ -24,6 +24,7 @@ from ..fem.gradient import GradientProjector
 from ..post.checks import ModeChecks, check_modes
 from ..post.losses import LossReport
 from ..progress import SILENT, Progress
+from ..solver import check_request, frequency_to_k0_squared
 from .losses import field_class, has_losses, mode_losses
 from .model import AxisymmetricModel
 from .space import (
@@ -70,18 +71,13 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
                        factorization: str = "auto", progress: Progress = SILENT
                        ) -> AxisymmetricResult:
     orders = _checked_orders(orders)
-    if not isinstance(modes, int) or modes < 1:
-        raise InputError(f"the number of modes must be a whole number >= 1, got {modes!r}",
-                         field="solve.modes")
-    if near_hz is not None and not near_hz > 0:
-        raise InputError(f"the target frequency must be positive, got {near_hz!r} Hz",
-                         field="solve.near")
+    check_request(modes, near_hz)
     factorize = partial(get_factorizer(factorization))
     mesh = skfem_mesh(model)
     eps_mu = max(float(np.max(m.eps_at(*_probe(model)) * m.mu_r))
                  for m in model.materials.values())
     scale = (math.pi / model.section.bounding_size()) ** 2 / eps_mu
-    target = None if near_hz is None else (2 * math.pi * near_hz / C0) ** 2
+    target = None if near_hz is None else frequency_to_k0_squared(near_hz)
     timings = {"assembly_s": 0.0, "eigen_s": 0.0}
     found, spaces, dofs, stats = [], {}, {}, {}
     for m in orders:

@@ -82,6 +82,11 @@ class OrderSpace:
         return int(self.free.size)
 
 
+def quadrature_order(order: int) -> int:
+    """The 1/r weights are not polynomials: two degrees above the product of the bases."""
+    return 2 * order + 2
+
+
 def skfem_mesh(model: AxisymmetricModel) -> MeshTri:
     section = model.section
     return MeshTri(section.points.T.copy(), section.triangles.T.copy())
@@ -97,15 +102,14 @@ def build_order_space(model: AxisymmetricModel, m: int, order: int,
                          field="solve.azimuthal_orders")
     mesh = skfem_mesh(model) if mesh is None else mesh
     edge_element, node_element = ELEMENTS[order]
-    # The 1/r weights are not polynomials: two orders above the product of the bases.
-    intorder = 2 * order + 2
+    intorder = quadrature_order(order)
     edge_basis = Basis(mesh, edge_element(), intorder=intorder)
     node_basis = Basis(mesh, node_element(), intorder=intorder)
 
     section = model.section
     fixed_edge, fixed_node = set(), set()
     for name, tag in section.wall_names.items():
-        facets = _facets_of(mesh, section.edges[section.edge_tag == tag])
+        facets = facets_of(mesh, section.edges[section.edge_tag == tag])
         if name == "axis":
             continue
         if model.wall_kind(name) != PMC:
@@ -135,7 +139,7 @@ def build_order_space(model: AxisymmetricModel, m: int, order: int,
                       eps=eps, inv_mu=inv_mu)
 
 
-def _facets_of(mesh: MeshTri, edges: np.ndarray) -> np.ndarray:
+def facets_of(mesh: MeshTri, edges: np.ndarray) -> np.ndarray:
     """Facet indices of the mesh for (n, 2) vertex pairs."""
     if edges.size == 0:
         return np.zeros(0, dtype=np.int64)

@@ -11,8 +11,8 @@ does the rest, so that all builders share one path to a mesh.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Callable
 
 import numpy as np
 
@@ -79,22 +79,8 @@ def mesh_layout(layout: Layout, sizing: Sizing, cuts: dict[str, float] | None = 
                 corner, size = lo.copy(), hi - lo
                 corner[i], size[i] = position, hi[i] - position
                 space, _ = occ.intersect(space, [(3, Box(tuple(corner), tuple(size)).add_to(occ))])
-        fills = [(3, f.add_to(occ)) for _, f in layout.fills]
-        region_of: dict[int, str] = {}
-        if fills:
-            _, pieces = occ.fragment(space, fills)
-            kept = {t for dimtags in pieces[:len(space)] for _, t in dimtags}
-            for t in kept:
-                region_of[t] = layout.background
-            for (region, _), dimtags in zip(layout.fills, pieces[len(space):]):
-                for _, t in dimtags:
-                    if t in kept:
-                        region_of[t] = region
-            stray = [(3, t) for dim, t in occ.getEntities(3) if t not in kept]
-            if stray:
-                occ.remove(stray, recursive=True)
-        else:
-            region_of = {t: layout.background for _, t in space}
+        region_of = fragment_by_fills(occ, layout, space,
+                                      [(3, f.add_to(occ)) for _, f in layout.fills])
         occ.synchronize()
 
         walls = _name_walls(gmsh, layout, cuts, tol)
@@ -110,6 +96,26 @@ def mesh_layout(layout: Layout, sizing: Sizing, cuts: dict[str, float] | None = 
         for wall in sorted(set(walls.values()) - {""}):
             gmsh.model.addPhysicalGroup(2, [t for t, w in walls.items() if w == wall], name=wall)
         return write_and_read(gmsh, source=layout.description or name)
+
+
+def fragment_by_fills(occ, layout: Layout, space: list, fills: list) -> dict[int, str]:
+    """Fragment the space (dim-tags) by the fills (dim-tags, in layout.fills order) and name
+    the pieces: a later fill wins; pieces outside the space are removed. Returns the region
+    name per entity tag of the space's dimension."""
+    if not fills:
+        return {t: layout.background for _, t in space}
+    dim = space[0][0]
+    _, pieces = occ.fragment(space, fills)
+    kept = {t for dimtags in pieces[:len(space)] for _, t in dimtags}
+    region_of = dict.fromkeys(kept, layout.background)
+    for (region, _), dimtags in zip(layout.fills, pieces[len(space):]):
+        for _, t in dimtags:
+            if t in kept:
+                region_of[t] = region
+    stray = [(dim, t) for _, t in occ.getEntities(dim) if t not in kept]
+    if stray:
+        occ.remove(stray, recursive=True)
+    return region_of
 
 
 def _boundary_surfaces(gmsh) -> list[int]:

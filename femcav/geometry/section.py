@@ -17,7 +17,7 @@ import numpy as np
 from ..errors import InputError
 from .gmsh_session import gmsh_model
 from .meridional import AXIS, MeridionalMesh, checked_section
-from .parts import Layout, Sizing
+from .parts import Layout, Sizing, fragment_by_fills
 from .solids import Cylinder
 
 
@@ -57,21 +57,8 @@ def mesh_section(layout: Layout, sizing: Sizing, name: str = "section") -> Merid
             space, _ = occ.fuse(space[:1], space[1:])
         if layout.metal:
             space, _ = occ.cut(space, [(2, add(occ, m)) for _, m in layout.metal])
-        region_of: dict[int, str] = {}
-        if layout.fills:
-            _, pieces = occ.fragment(space, [(2, add(occ, f)) for _, f in layout.fills])
-            kept = {t for dimtags in pieces[:len(space)] for _, t in dimtags}
-            for t in kept:
-                region_of[t] = layout.background
-            for (region, _), dimtags in zip(layout.fills, pieces[len(space):]):
-                for _, t in dimtags:
-                    if t in kept:
-                        region_of[t] = region
-            stray = [(2, t) for _, t in occ.getEntities(2) if t not in kept]
-            if stray:
-                occ.remove(stray, recursive=True)
-        else:
-            region_of = {t: layout.background for _, t in space}
+        region_of = fragment_by_fills(occ, layout, space,
+                                      [(2, add(occ, f)) for _, f in layout.fills])
         occ.synchronize()
 
         walls = _name_curves(gmsh, layout, tol)

@@ -1,0 +1,126 @@
+"""The axisymmetric solver against closed forms for the pillbox.
+
+Resonances: TM_nml at sqrt((p_nm / a)² + (lπ/d)²), TE_nml with p'_nm, the zeros of J_n and
+J_n' from scipy.special (D. M. Pozar, Microwave Engineering, 4th ed., §6.4; section number
+from memory). Here n is the azimuthal order m of the solver.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from scipy.constants import c, epsilon_0, mu_0
+from scipy.special import jn_zeros, jnp_zeros
+
+from femcav.axisymmetric.model import make_axisymmetric_model
+from femcav.axisymmetric.solve import solve_axisymmetric
+from femcav.errors import InputError
+from femcav.geometry import BUILDERS
+from femcav.geometry.parts import Sizing
+from femcav.geometry.section import mesh_section
+from femcav.materials import Material
+from femcav.metals import CONDUCTIVITY_S_PER_M, surface_resistance
+from femcav.walls import Wall
+
+A, D = 0.010, 0.015
+COPPER = CONDUCTIVITY_S_PER_M["copper"]
+ETA = math.sqrt(mu_0 / epsilon_0)
+
+
+def pillbox_section(size):
+    return mesh_section(BUILDERS["pillbox"].layout(radius=A, length=D), Sizing(size=size))
+
+
+def frequency(zero, l):
+    return c / (2 * math.pi) * math.hypot(zero / A, l * math.pi / D)
+
+
+def find(result, m, field_class, f_expected):
+    candidates = [mode for mode in result.modes if mode.m == m and mode.field_class == field_class]
+    return min(candidates, key=lambda mode: abs(mode.frequency_hz - f_expected))
+
+
+@pytest.fixture(scope="module")
+def fine_pillbox():
+    model = make_axisymmetric_model(pillbox_section(0.0005), {"inside": Material()},
+                                    {w: Wall("metal", conductivity=COPPER)
+                                     for w in ("side", "bottom", "top")})
+    return solve_axisymmetric(model, orders=(0, 1, 2), modes=8, order=3)
+
+
+@pytest.mark.parametrize("name, m, field_class, zero, l", [
+    ("TM010", 0, "TM-like", jn_zeros(0, 1)[0], 0),
+    ("TM011", 0, "TM-like", jn_zeros(0, 1)[0], 1),
+    ("TE011", 0, "TE-like", jnp_zeros(0, 1)[0], 1),
+    ("TE111", 1, "TE-like", jnp_zeros(1, 1)[0], 1),
+    ("TM110", 1, "TM-like", jn_zeros(1, 1)[0], 0),
+    ("TE211", 2, "TE-like", jnp_zeros(2, 1)[0], 1),
+])
+def test_pillbox_modes_against_bessel_zeros(fine_pillbox, name, m, field_class, zero, l):
+    expected = frequency(zero, l)
+    mode = find(fine_pillbox, m, field_class, expected)
+    assert mode.frequency_hz == pytest.approx(expected, rel=1e-8), name
+    assert mode.checks.passed
+
+
+def test_pillbox_tm010_wall_q(fine_pillbox):
+    # Q = p01 η d / (2 R_s (a + d)), from the TM010 fields (Pozar §6.4; common practice).
+    p01 = jn_zeros(0, 1)[0]
+    mode = find(fine_pillbox, 0, "TM-like", frequency(p01, 0))
+    rs = surface_resistance(2 * math.pi * mode.frequency_hz, COPPER)
+    assert mode.losses.q_wall == pytest.approx(p01 * ETA * D / (2 * rs * (A + D)), rel=1e-4)
+    assert mode.losses.wall_loss_share["side"] == pytest.approx(D / (A + D), rel=1e-4)
+
+
+def test_pillbox_te011_wall_q(fine_pillbox):
+    # TE_0nl: Q = (ka)³ η a d / (4 p'² R_s) / (a d / 2 + (β a² / p')²) with p' = p'_01 and
+    # β = lπ/d (Pozar §6.4, the TE_nml formula at n = 0; from memory, and re-derived from the
+    # fields E_φ = J1(p' r / a) sin βz).
+    p1 = jnp_zeros(0, 1)[0]
+    mode = find(fine_pillbox, 0, "TE-like", frequency(p1, 1))
+    k = 2 * math.pi * mode.frequency_hz / c
+    beta = math.pi / D
+    rs = surface_resistance(2 * math.pi * mode.frequency_hz, COPPER)
+    expected = ((k * A) ** 3 * ETA * A * D / (4 * p1**2 * rs)
+                / (A * D / 2 + (beta * A**2 / p1) ** 2))
+    assert mode.losses.q_wall == pytest.approx(expected, rel=1e-4)
+
+
+def reference_spectrum(m, count):
+    """The lowest ``count`` pillbox modes of azimuthal order m, ascending."""
+    out = []
+    for p in range(1, count + 1):
+        for l in range(count + 1):
+            out.append(frequency(jn_zeros(m, p)[-1], l))
+            if l:
+                out.append(frequency(jnp_zeros(m, p)[-1], l))
+    return sorted(out)[:count]
+
+
+@pytest.mark.parametrize("m", [0, 1, 2])
+def test_no_spurious_modes_near_the_axis(m):
+    # Orders 1 and 2: every one of the lowest modes is a pillbox mode, in order, none
+    # missing and none extra (a spurious mode would slot in between and shift the rest).
+    for order, size, tolerance in ((1, 0.0007, 0.02), (2, 0.0015, 2e-3)):
+        model = make_axisymmetric_model(pillbox_section(size), {"inside": Material()}, {})
+        result = solve_axisymmetric(model, orders=(m,), modes=12, order=order)
+        solved = np.array([mode.frequency_hz for mode in result.modes])
+        np.testing.assert_allclose(solved, reference_spectrum(m, 12), rtol=tolerance)
+        assert result.passed
+
+
+def test_graded_permittivity_must_be_a_body_of_revolution():
+    section = pillbox_section(0.003)
+    make_axisymmetric_model(section, {"inside": Material(
+        eps_r=lambda x, y, z: 1 + 100 * (x**2 + y**2))}, {})
+    with pytest.raises(InputError, match="changes around the z axis"):
+        make_axisymmetric_model(section, {"inside": Material(eps_r=lambda x, y, z: 1 + 50 * x)},
+                                {})
+
+
+def test_a_box_has_no_axisymmetric_section():
+    layout = BUILDERS["box"].layout(width=0.02, height=0.01, length=0.03)
+    with pytest.raises(InputError, match="not a body of revolution"):
+        mesh_section(layout, Sizing(size=0.003))
