@@ -30,7 +30,9 @@ MESH_KEYS = {"size", "max_frequency", "per_wavelength", "edge_refinement", "curv
 SYMMETRY_CHOICES = {"pec": ("pec",), "pmc": ("pmc",), "both": ("pec", "pmc")}
 WALL_KEYS = {"kind", "conductivity", "metal", "roughness"}
 SOLVE_KEYS = {"modes", "near", "form", "order", "complex_check", "error_estimate", "accuracy",
-              "max_dofs", "factorization", "method"}
+              "max_dofs", "factorization", "method", "azimuthal_orders"}
+MAX_AZIMUTHAL_ORDER = 100
+AXISYMMETRIC_ORDER = 3   # element order of the axisymmetric solver unless the case sets one
 DEFAULT_MODES = 10
 
 
@@ -66,6 +68,9 @@ class SolveSpec:
     max_dofs: int = 400_000
     factorization: str = "auto"        # sparse direct library (femcav.eigen.factorization)
     method: str = "auto"               # eigen backend (femcav.eigen.selection)
+    # the azimuthal orders m of a body of revolution: solve its meridional section instead
+    # of the 3D part (femcav.axisymmetric); None for a 3D solve
+    azimuthal_orders: tuple[int, ...] | None = None
 
 
 @dataclass(frozen=True)
@@ -108,6 +113,8 @@ def load_case(path: str | Path) -> Case:
                              field="solve.error_estimate" if "error_estimate" in
                              _table(data, "solve") else "solve.accuracy")
         symmetry = _symmetry(_table(data, "symmetry"), geometry, walls)
+        if solve.azimuthal_orders is not None:
+            _check_axisymmetric(solve, geometry, symmetry, _table(data, "solve"))
     except InputError as exc:
         raise exc.located(source=source) from None
     return Case(path=path, title=title, geometry=geometry, regions=regions, walls=walls,
@@ -133,18 +140,23 @@ def build_mesh(case: Case) -> TaggedMesh:
 
 def case_model(case: Case, mesh: TaggedMesh | None = None,
                extra_walls: dict[str, Wall] | None = None) -> Model:
-    """The model of ``case``. With a builder, its plain regions (the cavity's space) that the
-    case does not name are vacuum; regions a builder marks as needing a material (a puck, a
-    block) must be named."""
+    """The model of ``case`` (materials as in case_materials)."""
     mesh = mesh if mesh is not None else build_mesh(case)
+    return make_model(mesh, case_materials(case, mesh.region_names),
+                      {**case.walls, **(extra_walls or {})}, source=str(case.path))
+
+
+def case_materials(case: Case, region_names) -> dict[str, Material]:
+    """The case's materials for the mesh regions ``region_names``: with a builder, its plain
+    regions (the cavity's space) that the case does not name are vacuum; regions a builder
+    marks as needing a material (a puck, a block) must be named."""
     materials = dict(case.regions)
     if case.geometry.builder is not None:
         builder = BUILDERS[case.geometry.builder]
-        for region in mesh.region_names:
+        for region in region_names:
             if region not in getattr(builder, "NEEDS_MATERIAL", ()):
                 materials.setdefault(region, VACUUM)
-    return make_model(mesh, materials, {**case.walls, **(extra_walls or {})},
-                      source=str(case.path))
+    return materials
 
 
 def _table(data: dict, key: str, required: bool = False) -> dict:
@@ -381,10 +393,55 @@ def _solve(spec: dict) -> SolveSpec:
     if method not in METHODS:
         raise InputError(f"must be one of {', '.join(map(repr, METHODS))}, got {method!r}",
                          field="solve.method")
+    orders = spec.get("azimuthal_orders")
+    if orders is not None:
+        orders = _azimuthal_orders(orders)
+        if "order" not in spec:
+            order = AXISYMMETRIC_ORDER
     return SolveSpec(modes=modes, near_hz=near_hz, form=form, order=order,
                      complex_check=complex_check, error_estimate=estimate or accuracy is not None,
                      accuracy=accuracy, max_dofs=max_dofs, factorization=factorization,
-                     method=method)
+                     method=method, azimuthal_orders=orders)
+
+
+def _azimuthal_orders(value) -> tuple[int, ...]:
+    """A list of whole numbers m >= 0; a single number is a list of one."""
+    items = [value] if isinstance(value, int) and not isinstance(value, bool) else value
+    if (not isinstance(items, list) or not items
+            or not all(isinstance(m, int) and not isinstance(m, bool)
+                       and 0 <= m <= MAX_AZIMUTHAL_ORDER for m in items)):
+        raise InputError(f"must be a list of whole numbers from 0 to {MAX_AZIMUTHAL_ORDER}, "
+                         f"e.g. [0, 1, 2]; got {value!r}", field="solve.azimuthal_orders")
+    if len(set(items)) != len(items):
+        raise InputError(f"lists an order twice: {value!r}", field="solve.azimuthal_orders")
+    return tuple(sorted(items))
+
+
+def _check_axisymmetric(solve: SolveSpec, geometry: GeometrySpec, symmetry: dict,
+                        spec: dict) -> None:
+    """What the axisymmetric path cannot take, refused before any meshing."""
+    from .geometry.section import axisymmetric_layout_check
+
+    if geometry.builder is None:
+        raise InputError("the axisymmetric solver meshes the section of a builder's part; "
+                         "an imported mesh is solved in 3D (drop azimuthal_orders)",
+                         field="solve.azimuthal_orders")
+    axisymmetric_layout_check(builder_layout(geometry.builder, geometry.parameters))
+    if symmetry:
+        raise InputError("symmetry cuts are for 3D solves; the azimuthal orders already "
+                         "separate the field classes of a body of revolution",
+                         field="symmetry")
+    refused = {"form": solve.form == "H", "method": solve.method == "iterative",
+               "error_estimate": solve.error_estimate}
+    reasons = {"form": "the axisymmetric solver works in the E form",
+               "method": "the axisymmetric solver uses the direct shift-invert path (its "
+                         "problems are small)",
+               "error_estimate": "error bars are not yet available for axisymmetric solves; "
+                                 "compare two [mesh] sizes"}
+    for key, bad in refused.items():
+        if bad:
+            where = "accuracy" if key == "error_estimate" and "accuracy" in spec else key
+            raise InputError(reasons[key], field=f"solve.{where}")
 
 
 _RELATIVE_UNITS = {"ppm": 1e-6, "ppb": 1e-9, "%": 1e-2}

@@ -80,9 +80,8 @@ def _solve(args) -> int:
     count = len(result.modes)
     what = (f"{count} modes nearest {format_frequency(result.near_hz)}" if result.near_hz
             else f"lowest {count} modes")
-    print(f"{case.title}: {what}, {result.space.form} form, order {result.space.order}, "
-          f"{result.dofs} DOFs, "
-          f"{result.elements} tetrahedra")
+    print(f"{case.title}: {what}, {result.form} form, order {result.order}, "
+          f"{result.dofs} DOFs, {result.elements} {result.element_kind}")
     print(to_table(result))
     if result.static_fields_dropped:
         print(f"({result.static_fields_dropped} static field(s) at zero frequency left out)")

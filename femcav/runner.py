@@ -140,6 +140,8 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
     settings = replace(case.solve, **{k: v for k, v in overrides.items() if v is not None})
 
     progress.step(f"case {case.path}: {case.title}")
+    if settings.azimuthal_orders is not None:
+        return case, *_run_axisymmetric(case, settings, out, progress)
     # With error bars every mesh, the finest included, is built by solve_with_error_bars.
     mesh = None if settings.error_estimate else build_mesh(case)
     if mesh is not None:
@@ -170,12 +172,37 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
 
     folder = Path(out) if out is not None else default_output_folder(case.path)
     with staged_output(folder) as files:
-        files.write_text("table.txt", to_table(result) + "\n")
-        files.write_text("modes.csv", to_csv(result))
-        files.write_text("modes.json", to_json(result, title=case.title, case=str(case.path)))
+        _write_tables(files, case, result)
         files.write_with("fields.vtu", lambda p: write_vtu(result, p), suffix=".vtu")
         if any(m.losses and m.losses.wall_loss_density is not None for m in result.modes):
             files.write_with("wall_loss.vtu", lambda p: write_wall_loss_vtu(result, p),
                              suffix=".vtu")
     progress.step(f"results written to {folder}")
     return case, result, folder
+
+
+def _write_tables(files, case: Case, result) -> None:
+    files.write_text("table.txt", to_table(result) + "\n")
+    files.write_text("modes.csv", to_csv(result))
+    files.write_text("modes.json", to_json(result, title=case.title, case=str(case.path)))
+
+
+def _run_axisymmetric(case: Case, settings, out, progress: Progress):
+    """The axisymmetric path of run_case: the same table files; fields.vtu holds the modes
+    revolved into 3D."""
+    from .axisymmetric.revolve import write_revolved_vtu
+    from .axisymmetric.runner import solve_axisymmetric_case
+
+    for key, bad, why in (("--form", settings.form == "H", "works in the E form"),
+                          ("--method", settings.method == "iterative",
+                           "uses the direct shift-invert path")):
+        if bad:
+            raise InputError(f"the axisymmetric solver {why}", source=str(case.path),
+                             field=key)
+    result = solve_axisymmetric_case(case, settings, progress)
+    folder = Path(out) if out is not None else default_output_folder(case.path)
+    with staged_output(folder) as files:
+        _write_tables(files, case, result)
+        files.write_with("fields.vtu", lambda p: write_revolved_vtu(result, p), suffix=".vtu")
+    progress.step(f"results written to {folder}")
+    return result, folder

@@ -60,6 +60,16 @@ class SolveResult:
     def passed(self) -> bool:
         return all(m.checks.passed for m in self.modes)
 
+    @property
+    def form(self) -> str:
+        return self.space.form
+
+    @property
+    def order(self) -> int:
+        return self.space.order
+
+    element_kind = "tetrahedra"
+
 
 def check_request(modes, near_hz) -> None:
     """InputError unless ``modes`` is a count >= 1 and ``near_hz`` is None or positive."""

@@ -10,13 +10,14 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import partial
 
 import numpy as np
 from scipy.constants import c as C0
 
 from ..eigen import shift_invert
+from ..eigen.complex_shift_invert import complex_eigenvalues
 from ..eigen.factorization import describe, get_factorizer
 from ..eigen.interface import STATIC_FRACTION, EigenRequest
 from ..errors import InputError
@@ -29,6 +30,7 @@ from .losses import field_class, has_losses, mode_losses
 from .model import AxisymmetricModel
 from .space import (
     OrderSpace,
+    assemble_mass,
     assemble_order,
     build_order_space,
     kernel_basis,
@@ -46,30 +48,52 @@ class AxisymmetricMode:
     checks: ModeChecks
     dofs: np.ndarray            # over the free DOFs of the order-m space, M-normalised
     losses: LossReport | None = None
+    # the same optional entries as a 3D mode, for the shared writers
+    complex_frequency_hz: float | None = None
+    q_dielectric_complex: float | None = None
+    error_estimate_hz: float | None = None
+    extrapolated_hz: float | None = None
+    symmetry: str | None = None
 
     @property
-    def label(self) -> str:
-        return f"m={self.m} {self.field_class}"
+    def multiplicity(self) -> int:
+        """Modes of the full part: the cos mφ and sin mφ pair for m >= 1."""
+        return 1 if self.m == 0 else 2
 
 
 @dataclass(frozen=True)
 class AxisymmetricResult:
     modes: list[AxisymmetricMode]
     spaces: dict[int, OrderSpace]
-    dofs: dict[int, int]
-    triangles: int
+    dofs_by_order: dict[int, int]
+    order: int
+    elements: int               # triangles of the section
     timings: dict[str, float]
+    request: EigenRequest
+    near_hz: float | None = None
     eigen_stats: dict = field(default_factory=dict)
+    form = "E"
+    element_kind = "triangles (meridional section)"
+    static_fields_dropped = 0
+    classes = ()
+    accuracy = None
 
     @property
     def passed(self) -> bool:
         return all(m.checks.passed for m in self.modes)
 
+    @property
+    def dofs(self) -> int:
+        return sum(self.dofs_by_order.values())
+
 
 def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int = 10,
                        near_hz: float | None = None, order: int = 3,
-                       factorization: str = "auto", progress: Progress = SILENT
-                       ) -> AxisymmetricResult:
+                       factorization: str = "auto", complex_check: bool = False,
+                       progress: Progress = SILENT) -> AxisymmetricResult:
+    """The lowest ``modes`` modes over the azimuthal ``orders`` (or those nearest
+    ``near_hz``), Nédélec/Lagrange elements of ``order``; with ``complex_check``, every mode
+    also gets its complex frequency from a solve with ε_r (1 - j tan δ)."""
     orders = _checked_orders(orders)
     check_request(modes, near_hz)
     factorize = partial(get_factorizer(factorization))
@@ -97,7 +121,7 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
         pairs = shift_invert.solve(K, M, projector, EigenRequest(count, target), factorize,
                                    lowest_scale=scale, progress=progress)
         timings["eigen_s"] += time.perf_counter() - t0
-        stats[m] = pairs.stats
+        stats[m] = {**pairs.stats, "factorization": describe(factorization)}
         keep = pairs.values >= STATIC_FRACTION * scale
         values, vectors = pairs.values[keep], pairs.vectors[:, keep]
         checks = check_modes(K, M, projector, values, vectors)
@@ -118,11 +142,16 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
             index=index, m=m, frequency_hz=frequency, k0_squared=value,
             field_class=field_class(space, vector), checks=check, dofs=vector,
             losses=mode_losses(space, vector, frequency) if lossy else None))
+    if complex_check:
+        t0 = time.perf_counter()
+        result_modes = _complex_check(spaces, result_modes, factorize, scale)
+        timings["complex_check_s"] = time.perf_counter() - t0
     progress.step(f"{len(result_modes)} modes over m = {', '.join(map(str, orders))} in "
                   f"{timings['eigen_s']:.2f} s ({describe(factorization)})")
-    return AxisymmetricResult(modes=result_modes, spaces=spaces, dofs=dofs,
-                              triangles=model.section.n_triangles, timings=timings,
-                              eigen_stats=stats)
+    return AxisymmetricResult(modes=result_modes, spaces=spaces, dofs_by_order=dofs,
+                              order=order, elements=model.section.n_triangles,
+                              timings=timings, request=EigenRequest(modes, target),
+                              near_hz=near_hz, eigen_stats=stats)
 
 
 def _checked_orders(orders) -> tuple[int, ...]:
@@ -140,3 +169,34 @@ def _checked_orders(orders) -> tuple[int, ...]:
 def _probe(model: AxisymmetricModel):
     rz = model.section.points
     return rz[:, 0], np.zeros(len(rz)), rz[:, 1]
+
+
+def _complex_check(spaces: dict[int, OrderSpace], modes: list[AxisymmetricMode], factorize,
+                   scale: float) -> list[AxisymmetricMode]:
+    """Per order m: the complex k0² of K x = k0² (M - j M_tanδ) x, paired with the real
+    modes of that m by nearest frequency; Q_d = Re ω / (2 Im ω)."""
+    out = {}
+    for m, space in spaces.items():
+        own = [mode for mode in modes if mode.m == m]
+        if not own:
+            continue
+        K, M = assemble_order(space)
+        M_loss = assemble_mass(space, space.eps * _tan_delta_at_quadrature(space))
+        G = kernel_basis(space).astype(complex)
+        values = complex_eigenvalues(K.astype(complex), M - 1j * M_loss, G, factorize,
+                                     shift=-scale, count=len(own) + max(4, len(own) // 2))
+        omegas = C0 * np.sqrt(values)
+        for mode in own:
+            w = omegas[np.argmin(np.abs(omegas.real - 2 * math.pi * mode.frequency_hz))]
+            q = w.real / (2 * abs(w.imag)) if w.imag != 0 else math.inf
+            out[mode.index] = replace(mode, complex_frequency_hz=float(w.real / (2 * math.pi)),
+                                      q_dielectric_complex=float(q))
+    return [out.get(mode.index, mode) for mode in modes]
+
+
+def _tan_delta_at_quadrature(space: OrderSpace) -> np.ndarray:
+    section = space.model.section
+    out = np.zeros_like(space.eps)
+    for name, rid in section.region_names.items():
+        out[section.tri_region == rid] = space.model.materials[name].tan_delta
+    return out

@@ -197,21 +197,24 @@ def _node_mass(u, v, w):
     return w.eps * u * v / w.x[0]
 
 
-def assemble_order(space: OrderSpace, eps: np.ndarray | None = None):
-    """(K, M) over the free DOFs; ``eps`` replaces ε_r at the quadrature points (for the
-    lossy part of a complex permittivity)."""
+def assemble_order(space: OrderSpace):
+    """(K, M) over the free DOFs."""
     eb, nb = space.edge_basis, space.node_basis
     coefficient = {"m": float(space.m), "inv_mu": space.inv_mu}
     K_ee = _edge_edge.assemble(eb, **coefficient)
     K_ue = _node_edge.assemble(nb, eb, **coefficient)        # rows edge, columns node
     K_uu = _node_node.assemble(nb, **coefficient)
-    eps = space.eps if eps is None else eps
-    M_ee = _edge_mass.assemble(eb, eps=eps)
-    M_uu = _node_mass.assemble(nb, eps=eps)
     K = sp.bmat([[K_ee, K_ue], [K_ue.T, K_uu]], format="csr")
-    M = sp.block_diag([M_ee, M_uu], format="csr")
     f = space.free
-    return K[f][:, f].tocsr(), M[f][:, f].tocsr()
+    return K[f][:, f].tocsr(), assemble_mass(space, space.eps)
+
+
+def assemble_mass(space: OrderSpace, eps: np.ndarray):
+    """M over the free DOFs with ε_r replaced by ``eps`` at the quadrature points (the
+    lossy part of a complex permittivity, for one)."""
+    M = sp.block_diag([_edge_mass.assemble(space.edge_basis, eps=eps),
+                       _node_mass.assemble(space.node_basis, eps=eps)], format="csr")
+    return M[space.free][:, space.free].tocsr()
 
 
 def kernel_basis(space: OrderSpace) -> sp.csr_matrix:

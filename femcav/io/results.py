@@ -11,6 +11,9 @@ loss), ``wall_loss_share``, ``region_loss_share`` (name -> fraction of that loss
 ``filling_factor`` (region -> share of the electric energy), with ``complex_frequency_hz`` and
 ``q_dielectric_complex`` after a complex check, and ``symmetry`` (the class label, e.g. "x:PMC y:PEC")
 when the model was cut by symmetry planes; then the top level has ``symmetry_classes``.
+A mode of the axisymmetric solver also has ``azimuthal_order``, ``field_class`` (TE-like,
+TM-like, hybrid) and ``multiplicity`` (2 for m >= 1: the cos mφ and sin mφ pair); then the
+top level has ``axisymmetric`` (the orders solved and the DOFs of each).
 """
 
 from __future__ import annotations
@@ -38,6 +41,9 @@ def mode_rows(result: SolveResult) -> list[dict]:
                "passed": m.checks.passed}
         if m.symmetry is not None:
             row["symmetry"] = m.symmetry
+        if getattr(m, "m", None) is not None:   # a mode of the axisymmetric solver
+            row.update(azimuthal_order=m.m, field_class=m.field_class,
+                       multiplicity=m.multiplicity)
         loss = m.losses
         row.update({
             "q_wall": loss.q_wall if loss else None,
@@ -61,11 +67,15 @@ def _has_symmetry(result: SolveResult) -> bool:
     return any(m.symmetry is not None for m in result.modes)
 
 
+def _is_axisymmetric(result) -> bool:
+    return any(getattr(m, "m", None) is not None for m in result.modes)
+
+
 def to_json(result: SolveResult, *, title: str, case: str | None) -> str:
     request = result.request
     document = {
         "format": FORMAT_NAME, "format_version": FORMAT_VERSION, "title": title, "case": case,
-        "form": result.space.form, "order": result.space.order, "dofs": result.dofs,
+        "form": result.form, "order": result.order, "dofs": result.dofs,
         "elements": result.elements,
         "request": {"modes": request.count if request else len(result.modes),
                     "near_hz": result.near_hz},
@@ -79,6 +89,11 @@ def to_json(result: SolveResult, *, title: str, case: str | None) -> str:
     }
     if result.classes:
         document["symmetry_classes"] = result.classes
+    if getattr(result, "dofs_by_order", None):
+        document["axisymmetric"] = {"azimuthal_orders": list(result.dofs_by_order),
+                                    "dofs_by_order": {str(k): v for k, v
+                                                      in result.dofs_by_order.items()},
+                                    "element": "triangles of the meridional section"}
     if result.accuracy is not None:
         document["accuracy"] = result.accuracy
     return json.dumps(document, indent=2) + "\n"
@@ -95,6 +110,7 @@ def _factorization(stats: dict) -> str | None:
 def to_csv(result: SolveResult) -> str:
     out = io.StringIO()
     columns = CSV_COLUMNS + (("symmetry",) if _has_symmetry(result) else ()) + (
+        ("azimuthal_order", "field_class") if _is_axisymmetric(result) else ()) + (
         ("q_dielectric_complex",) if any(m.q_dielectric_complex for m in result.modes) else ())
     writer = csv.DictWriter(out, fieldnames=columns, extrasaction="ignore", lineterminator="\n")
     writer.writeheader()
@@ -112,8 +128,10 @@ def to_table(result: SolveResult) -> str:
     sym = _has_symmetry(result)
     lossy = any(m.losses for m in result.modes)
     bars = any(m.error_estimate_hz is not None for m in result.modes)
+    axisymmetric = _is_axisymmetric(result)
     lines = [f"{'mode':>4}  {'frequency':>16}  " + (f"{'± error':>12}  " if bars else "")
              + (f"{'symmetry':<{width}}  " if sym else "")
+             + (f"{'m':>2}  {'class':<8}  " if axisymmetric else "")
              + (f"{'Q wall':>9}  {'Q diel.':>9}  {'Q total':>9}  " if lossy else "")
              + f"{'residual':>9}  {'divergence':>10}  {'orthogonality':>13}  check"]
     for m in result.modes:
@@ -122,6 +140,7 @@ def to_table(result: SolveResult) -> str:
         lines.append(f"{m.index:>4}  {format_frequency(m.frequency_hz, 7):>16}  "
                      + (f"{_bar(m):>12}  " if bars else "")
                      + (f"{m.symmetry:<{width}}  " if sym else "")
+                     + (f"{m.m:>2}  {m.field_class:<8}  " if axisymmetric else "")
                      + (_q_columns(m) if lossy else "")
                      + f"{c.residual:9.1e}  {c.divergence:10.1e}  {c.orthogonality:13.1e}  "
                      f"{status}")

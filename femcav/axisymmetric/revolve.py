@@ -1,0 +1,105 @@
+"""The modes of the axisymmetric solver revolved into 3D, for the same VTK output as the 3D
+path.
+
+Every triangle of the section sweeps SEGMENTS wedges around the z axis; cell data are the
+fields at each wedge's centre (the triangle's centroid at the wedge's mid-angle), for 1 J
+stored energy, with the same names as the 3D file: ``region``, and per mode K ``mK_E``
+(V/m), ``mK_H`` (A/m, in quadrature with E), ``mK_we`` and ``mK_wm`` (J/m³). For m >= 1
+the cos mφ member of the pair is shown (E_r, E_z ∝ cos mφ, E_φ ∝ sin mφ).
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import numpy as np
+from scipy.constants import epsilon_0, mu_0
+
+from .solve import AxisymmetricResult
+
+SEGMENTS = 36
+
+
+def _centroid_fields(space, dofs):
+    """(e_r, e_φ, e_z) and ∇×E's (r, φ, z) amplitudes at the triangle centroids, without the
+    azimuthal factors; also r, ε_r and μ_r there."""
+    from skfem import CellBasis
+
+    full = np.zeros(space.n_edge + space.node_basis.N)
+    full[space.free] = dofs
+    X, W = np.array([[1 / 3], [1 / 3]]), np.array([1.0])
+    eb = CellBasis(space.edge_basis.mesh, space.edge_basis.elem, quadrature=(X, W))
+    nb = CellBasis(space.node_basis.mesh, space.node_basis.elem, quadrature=(X, W))
+    e = eb.interpolate(full[:space.n_edge])
+    u = nb.interpolate(full[space.n_edge:])
+    r = eb.mapping.F(X)[0][:, 0]
+    e_rz = np.asarray(e.value)[:, :, 0]
+    u0, grad_u = np.asarray(u.value)[:, 0], np.asarray(u.grad)[:, :, 0]
+    m = space.m
+    meridional = (grad_u + m * e_rz) / r
+    E = np.array([e_rz[0], u0 / r, e_rz[1]])
+    curl = np.array([-meridional[1], -np.asarray(e.curl)[:, 0], meridional[0]])
+    section = space.model.section
+    eps = np.empty(r.size)
+    mu = np.empty(r.size)
+    for name, rid in section.region_names.items():
+        cells = section.tri_region == rid
+        material = space.model.materials[name]
+        z = eb.mapping.F(X)[1][cells, 0]
+        eps[cells] = material.eps_at(r[cells], np.zeros(cells.sum()), z)
+        mu[cells] = material.mu_r
+    return E, curl, eps, mu
+
+
+def _stored_energy(space) -> float:
+    """W = (ε0/2) ∫ ε_r |E|² dV of the M-normalised vector: the azimuthal integral of cos²
+    or sin² is π (2π for m = 0) times the section integral, which is xᵀ M x = 1."""
+    return 0.5 * epsilon_0 * (2 * math.pi if space.m == 0 else math.pi)
+
+
+def revolved_grid(result: AxisymmetricResult, segments: int = SEGMENTS):
+    """(points (n, 3), wedges (n_cells, 6), cell data dict) of the revolved part."""
+    space0 = next(iter(result.spaces.values()))
+    section = space0.model.section
+    rz = section.points
+    phis = np.linspace(0.0, 2 * math.pi, segments, endpoint=False)
+    points = np.concatenate([np.column_stack([rz[:, 0] * math.cos(p), rz[:, 0] * math.sin(p),
+                                              rz[:, 1]]) for p in phis])
+    n, tri = rz.shape[0], section.triangles
+    wedges = np.concatenate([np.hstack([tri + k * n, tri + ((k + 1) % segments) * n])
+                             for k in range(segments)])
+    mid = phis + math.pi / segments
+    data = {"region": np.tile(section.tri_region, segments).astype("int32")}
+    for mode in result.modes:
+        space = result.spaces[mode.m]
+        E, curl, eps, mu = _centroid_fields(space, mode.dofs)
+        omega = 2 * math.pi * mode.frequency_hz
+        scale = 1.0 / math.sqrt(_stored_energy(space))
+        m = mode.m
+        c = np.cos(m * mid)[:, None]
+        s = np.sin(m * mid)[:, None] if m else np.ones((segments, 1))
+        # E = (e_r c, e_φ s, e_z c); ∇×E = (curl_r s, curl_φ c, curl_z s)  (m = 0: c = s = 1)
+        E_cyl = [E[0] * c, E[1] * s, E[2] * c]
+        H_cyl = [curl[0] * s, curl[1] * c, curl[2] * s]
+        cos_p, sin_p = np.cos(mid)[:, None], np.sin(mid)[:, None]
+        tag = f"m{mode.index:02d}"
+        for name, (a_r, a_p, a_z), factor in (("E", E_cyl, np.ones_like(mu)),
+                                              ("H", H_cyl, 1.0 / (omega * mu_0 * mu))):
+            vec = (np.stack([a_r * cos_p - a_p * sin_p, a_r * sin_p + a_p * cos_p, a_z],
+                            axis=-1) * (scale * factor)[None, :, None])
+            data[f"{tag}_{name}"] = vec.reshape(-1, 3)
+        e_sq = np.sum(data[f"{tag}_E"] ** 2, axis=1)
+        h_sq = np.sum(data[f"{tag}_H"] ** 2, axis=1)
+        data[f"{tag}_we"] = 0.25 * epsilon_0 * np.tile(eps, segments) * e_sq
+        data[f"{tag}_wm"] = 0.25 * mu_0 * np.tile(mu, segments) * h_sq
+    return points, wedges, data
+
+
+def write_revolved_vtu(result: AxisymmetricResult, path: Path) -> None:
+    import meshio
+
+    points, wedges, data = revolved_grid(result)
+    meshio.write(str(path), meshio.Mesh(points, [("wedge", wedges)],
+                                        cell_data={k: [v] for k, v in data.items()}),
+                 file_format="vtu")

@@ -1,0 +1,43 @@
+"""A case file with [solve] azimuthal_orders: mesh the section, solve every order m."""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+from ..case import Case, case_materials
+from ..errors import InputError
+from ..geometry import builder_layout
+from ..geometry.section import mesh_section
+from ..progress import Progress
+from ..sizing import builder_sizing
+from .model import make_axisymmetric_model
+from .solve import AxisymmetricResult, solve_axisymmetric
+
+# Without [mesh] size or max_frequency: a section mesh this fraction of the part's extent
+# (2D meshes are cheap; at order 3 this puts a pillbox's lowest modes within about 1e-9).
+DEFAULT_SECTION_FRACTION = 0.025
+
+
+def section_sizing(case: Case):
+    layout = builder_layout(case.geometry.builder, case.geometry.parameters)
+    sizing = builder_sizing(case, layout)
+    if case.mesh.size is None and case.mesh.max_frequency_hz is None:
+        sizing = replace(sizing, size=DEFAULT_SECTION_FRACTION * layout.extent())
+    return layout, sizing
+
+
+def solve_axisymmetric_case(case: Case, settings, progress: Progress) -> AxisymmetricResult:
+    try:
+        layout, sizing = section_sizing(case)
+        section = mesh_section(layout, sizing, name=case.geometry.builder)
+        progress.step(f"meridional section: {section.n_triangles} triangles, regions "
+                      f"{', '.join(section.region_names)} (element size "
+                      f"{sizing.size * 1e3:.3g} mm)")
+        model = make_axisymmetric_model(section, case_materials(case, section.region_names),
+                                        case.walls, source=str(case.path))
+        return solve_axisymmetric(model, orders=settings.azimuthal_orders,
+                                  modes=settings.modes, near_hz=settings.near_hz,
+                                  order=settings.order, factorization=settings.factorization,
+                                  complex_check=settings.complex_check, progress=progress)
+    except InputError as exc:
+        raise exc.located(source=str(case.path)) from None
