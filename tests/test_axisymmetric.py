@@ -124,3 +124,120 @@ def test_a_box_has_no_axisymmetric_section():
     layout = BUILDERS["box"].layout(width=0.02, height=0.01, length=0.03)
     with pytest.raises(InputError, match="not a body of revolution"):
         mesh_section(layout, Sizing(size=0.003))
+
+
+def test_radially_graded_permittivity_against_an_ode_solution():
+    # eps_r = 2 + (r/a)²: the TE_0n1 modes from shooting on the radial ODE with scipy's
+    # solve_ivp and brentq (femcav.analytic.graded_cylinder, independent of the FEM code).
+    from femcav.analytic.graded_cylinder import graded_pillbox_te0nl_frequencies
+
+    def eps(r):
+        return 2.0 + (r / A) ** 2
+    expected = graded_pillbox_te0nl_frequencies(eps, A, D, 1, 2, 2.0, 3.0)
+    model = make_axisymmetric_model(pillbox_section(0.0004), {"inside": Material(
+        eps_r=lambda x, y, z: eps(np.sqrt(x**2 + y**2)))}, {})
+    result = solve_axisymmetric(model, orders=(0,), modes=16, order=3)
+    te = [mode.frequency_hz for mode in result.modes if mode.field_class == "TE-like"]
+    for f in expected:
+        assert min(te, key=lambda g: abs(g - f)) == pytest.approx(f, rel=1e-8)
+
+
+def wedge_volumes(points, wedges):
+    """Volumes of the revolved wedges: Δφ r_c A for a triangle of area A, centroid r_c."""
+    bottom = points[wedges[:, :3]]
+    r = np.hypot(bottom[..., 0], bottom[..., 1])
+    z = bottom[..., 2]
+    area = 0.5 * np.abs((r[:, 1] - r[:, 0]) * (z[:, 2] - z[:, 0])
+                        - (r[:, 2] - r[:, 0]) * (z[:, 1] - z[:, 0]))
+    top = points[wedges[:, 3]]
+    dphi = np.abs(np.angle((top[:, 0] + 1j * top[:, 1]) / (bottom[:, 0, 0] + 1j * bottom[:, 0, 1])))
+    # a wedge whose first corner is on the axis: take the angle from its second corner
+    on_axis = r[:, 0] == 0
+    second = points[wedges[:, 4]]
+    dphi[on_axis] = np.abs(np.angle((second[on_axis, 0] + 1j * second[on_axis, 1])
+                                    / (bottom[on_axis, 1, 0] + 1j * bottom[on_axis, 1, 1])))
+    return dphi * r.mean(axis=1) * area
+
+
+def test_revolved_fields_hold_one_joule_split_evenly(tmp_path):
+    # The VTK fields are for 1 J stored; at resonance the time-averaged electric and
+    # magnetic energies are equal (Pozar §6.1, common practice): a check of E, H and the
+    # azimuthal factors of every m.
+    from femcav.axisymmetric.revolve import revolved_grid
+
+    model = make_axisymmetric_model(pillbox_section(0.0008), {"inside": Material()}, {})
+    result = solve_axisymmetric(model, orders=(0, 1, 2), modes=5, order=2)
+    points, wedges, data = revolved_grid(result)
+    volume = wedge_volumes(points, wedges)
+    assert volume.sum() == pytest.approx(math.pi * A**2 * D, rel=2e-3)
+    for mode in result.modes:
+        tag = f"m{mode.index:02d}"
+        w_e = float(np.sum(data[f"{tag}_we"] * volume))
+        w_m = float(np.sum(data[f"{tag}_wm"] * volume))
+        assert w_e == pytest.approx(0.5, rel=2e-2), mode.m
+        assert w_m == pytest.approx(0.5, rel=2e-2), mode.m
+
+
+CASE = """
+title = "Made-up wavemeter cell, axisymmetric"
+[geometry]
+builder = "pillbox"
+radius = "10 mm"
+length = "15 mm"
+[walls.side]
+kind = "metal"
+metal = "copper"
+[solve]
+modes = 5
+azimuthal_orders = [0, 1, 2]
+"""
+
+
+def test_case_file_runs_the_axisymmetric_solver(tmp_path, capsys):
+    import json
+
+    from femcav.cli import main
+
+    case = tmp_path / "cell.toml"
+    case.write_text(CASE)
+    out = tmp_path / "out"
+    assert main(["solve", str(case), "--out", str(out), "-q"]) == 0
+    printed = capsys.readouterr().out
+    assert "triangles (meridional section)" in printed and "TM-like" in printed
+    document = json.loads((out / "modes.json").read_text())
+    assert document["axisymmetric"]["azimuthal_orders"] == [0, 1, 2]
+    first = document["modes"][0]
+    assert first["azimuthal_order"] == 0 and first["field_class"] == "TM-like"
+    assert first["frequency_hz"] == pytest.approx(frequency(jn_zeros(0, 1)[0], 0), rel=1e-8)
+    assert [m["multiplicity"] for m in document["modes"]] == [
+        1 if m["azimuthal_order"] == 0 else 2 for m in document["modes"]]
+    assert (out / "fields.vtu").stat().st_size > 0
+    assert "azimuthal_order" in (out / "modes.csv").read_text().splitlines()[0]
+
+
+@pytest.mark.parametrize("extra, message", [
+    ("[symmetry]\nx = \"pec\"\n", "symmetry cuts are for 3D"),
+    ("", "not a body of revolution"),
+])
+def test_case_file_refusals(tmp_path, extra, message):
+    from femcav.case import load_case
+
+    text = CASE + extra
+    if not extra:
+        text = text.replace('builder = "pillbox"\nradius = "10 mm"\nlength = "15 mm"',
+                            'builder = "box"\nwidth = "20 mm"\nheight = "10 mm"\n'
+                            'length = "30 mm"').replace("[walls.side]", "[walls.x_min]")
+    case = tmp_path / "bad.toml"
+    case.write_text(text)
+    with pytest.raises(InputError, match=message):
+        load_case(case)
+
+
+@pytest.mark.parametrize("value", ["[0, 0]", "[-1]", "[]", "[1.5]", "\"0-2\""])
+def test_bad_azimuthal_orders(tmp_path, value):
+    from femcav.case import load_case
+
+    case = tmp_path / "bad.toml"
+    case.write_text(CASE.replace("azimuthal_orders = [0, 1, 2]", f"azimuthal_orders = {value}"))
+    with pytest.raises(InputError, match="azimuthal_orders"):
+        load_case(case)
