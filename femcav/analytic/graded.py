@@ -14,7 +14,7 @@ is the n-th eigenvalue (Sturm oscillation: the n-th eigenfunction has n - 1 inte
 from __future__ import annotations
 
 import math
-from typing import Callable
+from collections.abc import Callable
 
 import numpy as np
 from scipy.constants import c as C0
@@ -36,14 +36,20 @@ def graded_te_m0p_frequencies(eps: Callable[[float], float], a: float, d: float,
     beta = p * math.pi / d
     k_lo = beta / math.sqrt(eps_max)
     k_hi = math.hypot((count + 1) * math.pi / a, beta) / math.sqrt(eps_min)
-    # Bracket the roots on a grid with a looser tolerance (only signs matter there), then
-    # refine each with the tight one.
+    roots = shooting_roots(_end_value, (eps, a, beta), k_lo, k_hi, count)
+    return [C0 * k / (2 * math.pi) for k in roots]
+
+
+def shooting_roots(end_value, args: tuple, k_lo: float, k_hi: float, count: int) -> list[float]:
+    """The lowest ``count`` zeros of ``end_value(k, *args)`` in (k_lo, k_hi): brackets from a
+    grid with a looser tolerance (only signs matter there; ``end_value`` takes ``rtol``),
+    each refined with brentq at the tight one."""
     grid = np.linspace(k_lo, k_hi, 60 * (count + 1))
-    values = [_end_value(k, eps, a, beta, rtol=1e-7) for k in grid]
+    values = [end_value(k, *args, rtol=1e-7) for k in grid]
     roots = []
     for k1, k2, v1, v2 in zip(grid[:-1], grid[1:], values[:-1], values[1:]):
         if v1 * v2 < 0:
-            roots.append(brentq(_end_value, k1, k2, args=(eps, a, beta), xtol=1e-13, rtol=1e-14))
+            roots.append(brentq(end_value, k1, k2, args=args, xtol=1e-14 * k2, rtol=1e-14))
             if len(roots) == count:
                 break
-    return [C0 * k / (2 * math.pi) for k in roots]
+    return roots

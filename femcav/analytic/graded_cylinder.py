@@ -15,12 +15,12 @@ rtol 1e-12), and find the k0 where E_φ(a) = 0 with brentq. The n-th root is the
 from __future__ import annotations
 
 import math
-from typing import Callable
+from collections.abc import Callable
 
-import numpy as np
 from scipy.constants import c as C0
 from scipy.integrate import solve_ivp
-from scipy.optimize import brentq
+
+from .graded import shooting_roots
 
 
 def _end_value(k0: float, eps: Callable[[float], float], a: float, beta: float,
@@ -40,12 +40,5 @@ def graded_pillbox_te0nl_frequencies(eps: Callable[[float], float], a: float, d:
     beta = l * math.pi / d
     k_lo = beta / math.sqrt(eps_max)
     k_hi = math.hypot((count + 1.5) * math.pi / a, beta) / math.sqrt(eps_min)
-    grid = np.linspace(k_lo, k_hi, 60 * (count + 1))
-    values = [_end_value(k, eps, a, beta, rtol=1e-7) for k in grid]
-    roots = []
-    for k1, k2, v1, v2 in zip(grid[:-1], grid[1:], values[:-1], values[1:]):
-        if v1 * v2 < 0:
-            roots.append(brentq(_end_value, k1, k2, args=(eps, a, beta), xtol=1e-14, rtol=1e-15))
-            if len(roots) == count:
-                break
+    roots = shooting_roots(_end_value, (eps, a, beta), k_lo, k_hi, count)
     return [C0 * k / (2 * math.pi) for k in roots]
