@@ -17,9 +17,10 @@ from .memory import available_bytes, direct_peak_bytes, format_bytes, iterative_
 METHODS = ("auto", "direct", "iterative")
 # With "auto", the lowest modes of problems this large go to the iterative backend when the
 # factorisation is SuperLU; with PARDISO only when its factor would not fit. Measured (box,
-# order 1, 10 modes, one thread; benchmarks/scale.py): at 50k / 200k DOFs LOBPCG + HX took
-# 15 / 95 s, SuperLU shift-invert 9.5 / 89 s, PARDISO shift-invert 4.8 / 36 s.
-ITERATIVE_FROM_DOFS = {"superlu": 250_000, "pardiso": None}
+# order 1, 10 modes, one thread; benchmarks/scale.py): at 50k / 200k / 1M DOFs LOBPCG + HX
+# took 5.7 / 29.7 / 236 s, SuperLU shift-invert 5.7 / 52.7 s, PARDISO shift-invert
+# 2.6 / 17.8 / 224 s (8.7 GB at 1M against 6.1 GB iterative).
+ITERATIVE_FROM_DOFS = {"superlu": 100_000, "pardiso": None}
 # Leave this share of the free memory to everything else.
 MEMORY_SHARE = 0.85
 # Orders the iterative method handles; "auto" sends only order 1 there (at order 3 the point
