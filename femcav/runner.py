@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import itertools
 import math
+from functools import partial
 from dataclasses import replace
 from pathlib import Path
 
@@ -69,6 +70,7 @@ def solve_with_error_bars(case: Case, walls: dict[str, Wall], settings,
     until every bar is within it or the next mesh would exceed max_dofs."""
     from .geometry import build_part, builder_layout
     from .post.error_estimate import estimate_errors
+    from .post.singularity import bar_rate
     from .sizing import builder_sizing
 
     g = case.geometry
@@ -87,7 +89,8 @@ def solve_with_error_bars(case: Case, walls: dict[str, Wall], settings,
     while True:
         estimated = estimate_errors(build_model, sizes, modes=settings.modes,
                                     near_hz=settings.near_hz, form=settings.form,
-                                    order_rate=2.0 * settings.order, progress=progress,
+                                    order_rate=partial(bar_rate, order=settings.order),
+                                    progress=progress,
                                     order=settings.order,
                                     complex_check=settings.complex_check,
                                     factorization=settings.factorization,

@@ -144,15 +144,18 @@ def _estimate(index, sizes, use, mean, matched, overlaps, j, group, order_rate) 
 
 def estimate_errors(build_model: Callable[[float], Model], sizes: Sequence[float], *,
                     modes: int, near_hz: float | None = None, form: str = "E",
-                    order_rate: float = 2.0, size_measure: str = "nominal",
-                    progress: Progress = SILENT, **solve_options) -> EstimatedResult:
+                    order_rate: float | Callable[[Model], float] = 2.0,
+                    size_measure: str = "nominal", progress: Progress = SILENT,
+                    **solve_options) -> EstimatedResult:
     """Solve ``build_model(size)`` at every size (metres, any order; at least two, three for
     an observed rate) and give each of the ``modes`` requested modes of the finest mesh an
     error estimate. ``order_rate`` is the theoretical rate of the frequency error, 2k for
     Nédélec elements of order k on a smooth part (the eigenvalue error goes like h^(2k);
     D. Boffi, Acta Numerica 19 (2010), from memory); it is the fallback when the observed rate
-    cannot be trusted. ``size_measure`` "dofs" extrapolates in N^(-1/3) instead of the nominal
-    size. ``solve_options`` go to ``solve_model`` unchanged (e.g. ``order``)."""
+    cannot be trusted; it may be a function of the model (femcav.post.singularity.bar_rate
+    lowers it for parts with singular edges), called on the first mesh's. ``size_measure``
+    "dofs" extrapolates in N^(-1/3) instead of the nominal size. ``solve_options`` go to
+    ``solve_model`` unchanged (e.g. ``order``)."""
     if size_measure not in SIZE_MEASURES:
         raise ValueError(f"size_measure must be one of {SIZE_MEASURES}, got {size_measure!r}")
     sizes = sorted((float(s) for s in sizes), reverse=True)
@@ -162,8 +165,11 @@ def estimate_errors(build_model: Callable[[float], Model], sizes: Sequence[float
     results = []
     for k, size in enumerate(sizes, start=1):
         t0 = time.perf_counter()
-        result = solve_model(build_model(size), modes=asked, near_hz=near_hz, form=form,
-                             **solve_options)
+        model = build_model(size)
+        if callable(order_rate):
+            order_rate = float(order_rate(model))
+            progress.step(f"error estimate: theoretical rate h^{order_rate:.3g}")
+        result = solve_model(model, modes=asked, near_hz=near_hz, form=form, **solve_options)
         results.append(result)
         progress.step(f"error estimate: mesh {k} of {len(sizes)}, size "
                       f"{format_length(size, 3)}: {result.dofs} DOFs, {len(result.modes)} "
