@@ -422,11 +422,8 @@ def _check_axisymmetric(solve: SolveSpec, geometry: GeometrySpec, symmetry: dict
     """What the axisymmetric path cannot take, refused before any meshing."""
     from .geometry.section import axisymmetric_layout_check
 
-    if geometry.builder is None:
-        raise InputError("the axisymmetric solver meshes the section of a builder's part; "
-                         "an imported mesh is solved in 3D (drop azimuthal_orders)",
-                         field="solve.azimuthal_orders")
-    axisymmetric_layout_check(builder_layout(geometry.builder, geometry.parameters))
+    if geometry.builder is not None:
+        axisymmetric_layout_check(builder_layout(geometry.builder, geometry.parameters))
     if symmetry:
         raise InputError("symmetry cuts are for 3D solves; the azimuthal orders already "
                          "separate the field classes of a body of revolution",

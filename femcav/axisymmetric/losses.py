@@ -128,7 +128,7 @@ def _wall_powers(space: OrderSpace, dofs, omega: float) -> dict[str, float]:
             meridional = np.asarray(u.grad) + space.m * np.asarray(e.value)
             # |curl E|_t² r: the azimuthal part and the meridional part along the wall
             curl_t_sq = (r * np.asarray(e.curl) ** 2
-                         + np.einsum("ctq,ct->tq", meridional, normal) ** 2 / r)
+                         + np.einsum("ctq,ctq->tq", meridional, normal) ** 2 / r)
             total += float(np.sum(curl_t_sq / (omega * mu_0 * mu_r[:, None]) ** 2 * dl))
         wall = model.walls[name]
         out[name] = 0.5 * surface_resistance(omega, wall.conductivity, wall.roughness) * total
@@ -144,7 +144,8 @@ def _edge_bases(space: OrderSpace, facets: np.ndarray):
     """Cell bases that evaluate the order space on boundary facets: one per local edge
     index, with Gauss points on that edge of the reference triangle (scikit-fem's facet
     bases do not take its higher-order Nédélec elements). Yields (edge basis, node basis,
-    outward unit normals (2, n), length weights (n, n_points))."""
+    outward unit normals (2, n, n_points), length weights (n, n_points)); on curved
+    triangles both come from the element map's derivative along the edge."""
     from skfem import CellBasis
 
     mesh = space.edge_basis.mesh
@@ -160,10 +161,11 @@ def _edge_bases(space: OrderSpace, facets: np.ndarray):
         X = (a[:, None] + np.outer(b - a, s))
         eb = CellBasis(mesh, space.edge_basis.elem, elements=cells[chosen], quadrature=(X, w))
         nb = CellBasis(mesh, space.node_basis.elem, elements=cells[chosen], quadrature=(X, w))
+        DF = eb.mapping.DF(X, tind=cells[chosen])                 # (2, 2, n, n_points)
+        tangent = np.einsum("ijtq,j->itq", DF, b - a)
+        speed = np.linalg.norm(tangent, axis=0)                    # dl / ds
+        normal = np.array([tangent[1], -tangent[0]]) / speed
         ends = mesh.p[:, mesh.facets[:, facets[chosen]]]          # (2, 2, n)
-        tangent = ends[:, 1] - ends[:, 0]
-        length = np.linalg.norm(tangent, axis=0)
-        normal = np.array([tangent[1], -tangent[0]]) / length
         inward = mesh.p[:, mesh.t[:, cells[chosen]]].mean(axis=1) - ends.mean(axis=1)
-        normal *= np.where(np.sum(normal * inward, axis=0) > 0, -1.0, 1.0)
-        yield eb, nb, normal, length[:, None] * w[None, :]
+        normal *= np.where(np.einsum("itq,it->tq", normal, inward)[:, :1] > 0, -1.0, 1.0)
+        yield eb, nb, normal, speed * w[None, :]

@@ -1,4 +1,5 @@
-"""A case file with [solve] azimuthal_orders: mesh the section, solve every order m."""
+"""A case file with [solve] azimuthal_orders: mesh the section (or read it: an imported
+mesh is then a 2D section), solve every order m."""
 
 from __future__ import annotations
 
@@ -8,6 +9,7 @@ from ..case import Case, case_materials
 from ..errors import InputError
 from ..geometry import builder_layout
 from ..geometry.section import mesh_section
+from ..geometry.section_import import read_section
 from ..progress import Progress
 from ..sizing import builder_sizing
 from .model import make_axisymmetric_model
@@ -28,11 +30,16 @@ def section_sizing(case: Case):
 
 def solve_axisymmetric_case(case: Case, settings, progress: Progress) -> AxisymmetricResult:
     try:
-        layout, sizing = section_sizing(case)
-        section = mesh_section(layout, sizing, name=case.geometry.builder)
-        progress.step(f"meridional section: {section.n_triangles} triangles, regions "
-                      f"{', '.join(section.region_names)} (element size "
-                      f"{sizing.size * 1e3:.3g} mm)")
+        if case.geometry.mesh_path is not None:
+            section = read_section(case.geometry.mesh_path, scale=case.geometry.mesh_unit_m)
+            how = f"read from {case.geometry.mesh_path}"
+        else:
+            layout, sizing = section_sizing(case)
+            section = mesh_section(layout, sizing, name=case.geometry.builder)
+            how = f"element size {sizing.size * 1e3:.3g} mm"
+        kind = "curved " if section.triangles6 is not None else ""
+        progress.step(f"meridional section: {section.n_triangles} {kind}triangles, regions "
+                      f"{', '.join(section.region_names)} ({how})")
         model = make_axisymmetric_model(section, case_materials(case, section.region_names),
                                         case.walls, source=str(case.path))
         return solve_axisymmetric(model, orders=settings.azimuthal_orders,

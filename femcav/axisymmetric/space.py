@@ -88,8 +88,26 @@ def quadrature_order(order: int) -> int:
 
 
 def skfem_mesh(model: AxisymmetricModel) -> MeshTri:
+    """A scikit-fem mesh of the section; quadratic (isoparametric) when it has 6-node
+    triangles, with the edge midpoints placed where the section's nodes are."""
     section = model.section
-    return MeshTri(section.points.T.copy(), section.triangles.T.copy())
+    n_corners = int(section.triangles.max()) + 1     # corners come first in points
+    linear = MeshTri(np.ascontiguousarray(section.points[:n_corners].T),
+                     np.ascontiguousarray(section.triangles.T))
+    if section.triangles6 is None:
+        return linear
+    from skfem import MeshTri2
+
+    def key(a, b):
+        return np.minimum(a, b) * n_corners + np.maximum(a, b)
+    facet_keys = key(linear.facets[0], linear.facets[1])
+    order = np.argsort(facet_keys)
+    midpoints = np.empty((2, linear.facets.shape[1]))
+    for k, (a, b) in enumerate(((0, 1), (1, 2), (2, 0))):
+        t6 = section.triangles6
+        where = order[np.searchsorted(facet_keys[order], key(t6[:, a], t6[:, b]))]
+        midpoints[:, where] = section.points[t6[:, 3 + k]].T
+    return MeshTri2(np.hstack([linear.p, midpoints]), linear.t)
 
 
 def build_order_space(model: AxisymmetricModel, m: int, order: int,

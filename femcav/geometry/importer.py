@@ -29,23 +29,16 @@ def read_mesh(path: str | Path, *, scale: float = 1.0) -> TaggedMesh:
         raise InputError("mesh file not found", source=str(path))
     raw = _read_with_meshio(path)
 
-    tag_key = next((k for k in _TAG_KEYS if k in raw.cell_data), None)
-    names_by_dim: dict[int, dict[int, str]] = {2: {}, 3: {}}
-    for name, (tag, dim) in getattr(raw, "field_data", {}).items():
-        if int(dim) in names_by_dim:
-            names_by_dim[int(dim)][int(tag)] = name
-
+    names_by_dim = group_names(raw, (2, 3))
     tets, tet_tags, faces, face_tags = [], [], [], []
     kinds = set()
-    for i, block in enumerate(raw.cells):
-        tags = (np.asarray(raw.cell_data[tag_key][i], dtype=int).reshape(-1)
-                if tag_key else np.zeros(len(block.data), dtype=int))
-        if block.type in ("tetra", "tetra10"):
-            kinds.add(block.type)
-            tets.append(block.data)
+    for kind, data, tags, tagged in tagged_blocks(raw):
+        if kind in ("tetra", "tetra10"):
+            kinds.add(kind)
+            tets.append(data)
             tet_tags.append(tags)
-        elif block.type in ("triangle", "triangle6") and tag_key:
-            faces.append(block.data[:, :3])   # a curved face is named by its corners
+        elif kind in ("triangle", "triangle6") and tagged:
+            faces.append(data[:, :3])   # a curved face is named by its corners
             face_tags.append(tags)
     if not tets:
         raise InputError("the mesh has no tetrahedra (femcav needs a 3D tetrahedral mesh)",
@@ -143,6 +136,25 @@ def _read_with_meshio(path: Path):
             f"{type(exc).__name__}: {exc}")
         detail = f" ({reason})" if reason else ""
         raise InputError(f"meshio cannot read this file{detail}", source=str(path)) from None
+
+
+def group_names(raw, dims) -> dict[int, dict[int, str]]:
+    """Physical group names by dimension and tag, from the file's field data (gmsh)."""
+    out: dict[int, dict[int, str]] = {d: {} for d in dims}
+    for name, (tag, dim) in getattr(raw, "field_data", {}).items():
+        if int(dim) in out:
+            out[int(dim)][int(tag)] = name
+    return out
+
+
+def tagged_blocks(raw):
+    """(cell type, node array, integer tags, whether the file had tags) per cell block;
+    without tags every cell gets tag 0."""
+    tag_key = next((k for k in _TAG_KEYS if k in raw.cell_data), None)
+    for i, block in enumerate(raw.cells):
+        tags = (np.asarray(raw.cell_data[tag_key][i], dtype=int).reshape(-1)
+                if tag_key else np.zeros(len(block.data), dtype=int))
+        yield block.type, block.data, tags, tag_key is not None
 
 
 def _name(names: dict[int, str], tag: int, kind: str) -> str:

@@ -28,6 +28,10 @@ class MeridionalMesh:
     edge_tag: np.ndarray        # (n_edges,) int
     wall_names: dict[str, int]  # includes AXIS when the section touches the axis
     source: str = "<memory>"
+    # Curved (quadratic) triangles: (n_triangles, 6) node numbers, the corners (as in
+    # ``triangles``) then the midpoints of the edges 01, 12, 20; corners come first in
+    # ``points``. None for straight triangles.
+    triangles6: np.ndarray | None = None
 
     @property
     def n_triangles(self) -> int:
@@ -64,9 +68,15 @@ def checked_section(mesh: MeridionalMesh) -> MeridionalMesh:
         raise InputError(f"{int(np.sum(np.abs(area) <= 1e-14 * size**2))} degenerate "
                          "triangle(s) in the section", source=mesh.source)
     triangles[area < 0] = triangles[area < 0][:, [0, 2, 1]]
+    triangles6 = None
+    if mesh.triangles6 is not None:
+        # turned over, edge 01 becomes 02 (the old 20), 12 stays 21, 20 becomes 10
+        triangles6 = mesh.triangles6.copy()
+        triangles6[area < 0] = triangles6[area < 0][:, [0, 2, 1, 5, 4, 3]]
     if AXIS in mesh.wall_names:
         on_axis = mesh.edges[mesh.edge_tag == mesh.wall_names[AXIS]]
         if on_axis.size and np.any(points[on_axis, 0] != 0.0):
             raise InputError("edges named 'axis' must lie on r = 0", source=mesh.source)
     return MeridionalMesh(points, triangles, mesh.tri_region, dict(mesh.region_names),
-                          mesh.edges, mesh.edge_tag, dict(mesh.wall_names), mesh.source)
+                          mesh.edges, mesh.edge_tag, dict(mesh.wall_names), mesh.source,
+                          triangles6)
