@@ -383,3 +383,39 @@ def test_imported_section_case_file(tmp_path):
     # TM_101 of a sphere: kR = 2.7437 (the first root of (x j_1(x))' = 0)
     assert modes[0]["frequency_hz"] * 2 * math.pi / c * 0.01 == pytest.approx(
         spherical_cavity_roots(1, 1)[0], rel=1e-5)
+
+
+@pytest.mark.parametrize("m", [0, 1])
+def test_pmc_lid_gives_the_odd_modes_of_a_pillbox_twice_as_long(m):
+    # A PMC wall at z = D is the midplane of a pillbox of length 2D for the modes whose
+    # tangential H vanishes there: TM and TE with β = (2q + 1) π / (2D) (image theory,
+    # common practice; Pozar §6.4 for the modes of the long pillbox).
+    model = make_axisymmetric_model(pillbox_section(0.0005), {"inside": Material()},
+                                    {"top": Wall("pmc")})
+    result = solve_axisymmetric(model, orders=(m,), modes=5, order=3)
+    # (for m = 0, jnp_zeros(0, k) are the zeros of J1, as the TE0n modes need)
+    expected = sorted(c / (2 * math.pi) * math.hypot(x / A, (2 * q + 1) * math.pi / (2 * D))
+                      for q in range(4) for x in [*jn_zeros(m, 3), *jnp_zeros(m, 3)])[:5]
+    np.testing.assert_allclose([mode.frequency_hz for mode in result.modes], expected,
+                               rtol=1e-8)
+
+
+def test_unnamed_boundary_of_an_imported_section_is_metal(tmp_path):
+    # As in 3D, a boundary the file leaves unnamed is the (perfectly conducting) enclosure.
+    import meshio
+
+    from femcav.geometry.section_import import read_section
+
+    named = half_disc_msh(tmp_path / "named.msh", 0.01, 0.002)
+    raw = meshio.read(named)
+    unnamed = tmp_path / "unnamed.vtu"
+    meshio.write(unnamed, meshio.Mesh(raw.points, [b for b in raw.cells
+                                                   if b.type.startswith("triangle")]))
+    solved = []
+    for path in (named, unnamed):
+        section = read_section(path)
+        materials = {name: Material() for name in section.region_names}
+        result = solve_axisymmetric(make_axisymmetric_model(section, materials, {}),
+                                    orders=(0,), modes=3, order=2)
+        solved.append([mode.frequency_hz for mode in result.modes])
+    np.testing.assert_allclose(solved[1], solved[0], rtol=1e-12)

@@ -124,32 +124,30 @@ def build_order_space(model: AxisymmetricModel, m: int, order: int,
     edge_basis = Basis(mesh, edge_element(), intorder=intorder)
     node_basis = Basis(mesh, node_element(), intorder=intorder)
 
+    # Boundary facets: on the axis (both ends at r = 0), on a PMC wall (natural), and all
+    # others PEC or metal, named or not (an unnamed boundary is the metal enclosure, as in 3D).
     section = model.section
-    fixed_edge, fixed_node = set(), set()
-    for name, tag in section.wall_names.items():
-        facets = facets_of(mesh, section.edges[section.edge_tag == tag])
-        if name == "axis":
-            continue
-        if model.wall_kind(name) != PMC:
-            fixed_edge.update(edge_basis.get_dofs(facets).all().tolist())
-            fixed_node.update(node_basis.get_dofs(facets).all().tolist())
-    # The axis, found from the geometry: boundary facets with both ends on r = 0.
     boundary = mesh.boundary_facets()
-    ends = mesh.p[0, mesh.facets[:, boundary]]
-    axis = boundary[np.all(ends == 0.0, axis=0)]
-    # p may be nonzero on the axis for m = 0 (only its gradient enters), never on fixed walls
-    wall_nodes = set(fixed_node)
+    on_axis = np.all(mesh.p[0, mesh.facets[:, boundary]] == 0.0, axis=0)
+    axis = boundary[on_axis]
+    pmc = [facets_of(mesh, section.edges[section.edge_tag == tag])
+           for name, tag in section.wall_names.items()
+           if name != "axis" and model.wall_kind(name) == PMC]
+    walls = np.setdiff1d(boundary[~on_axis], np.concatenate([np.zeros(0, np.int64), *pmc]))
+    fixed_edge = set(edge_basis.get_dofs(walls).all().tolist())
+    wall_nodes = set(node_basis.get_dofs(walls).all().tolist())
     axis_nodes = set(node_basis.get_dofs(axis).all().tolist())
-    fixed_node |= axis_nodes
     if m >= 1:
-        fixed_edge.update(edge_basis.get_dofs(axis).all().tolist())
-    free_edge = np.setdiff1d(np.arange(edge_basis.N), np.fromiter(fixed_edge, int, len(fixed_edge)))
-    free_node = np.setdiff1d(np.arange(node_basis.N), np.fromiter(fixed_node, int, len(fixed_node)))
+        fixed_edge |= set(edge_basis.get_dofs(axis).all().tolist())
+    fixed_node = wall_nodes | axis_nodes
+    free_edge = np.setdiff1d(np.arange(edge_basis.N), np.array(sorted(fixed_edge), dtype=int))
+    free_node = np.setdiff1d(np.arange(node_basis.N), np.array(sorted(fixed_node), dtype=int))
     free = np.concatenate([free_edge, edge_basis.N + free_node])
-    if m >= 1:
-        wall_nodes |= axis_nodes
+    # A kernel field (∇p, -m p) must vanish where the DOFs are fixed: p = 0 on the walls, and
+    # for m >= 1 on the axis too; for m = 0 only ∇p enters there, and e_t is free on the axis.
+    zero_potential = wall_nodes | (axis_nodes if m >= 1 else set())
     potentials = np.setdiff1d(np.arange(node_basis.N),
-                              np.fromiter(wall_nodes, int, len(wall_nodes)))
+                              np.array(sorted(zero_potential), dtype=int))
 
     eps, inv_mu = _coefficients(model, edge_basis)
     return OrderSpace(model=model, m=m, order=order, edge_basis=edge_basis,
