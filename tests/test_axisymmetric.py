@@ -419,3 +419,16 @@ def test_unnamed_boundary_of_an_imported_section_is_metal(tmp_path):
                                     orders=(0,), modes=3, order=2)
         solved.append([mode.frequency_hz for mode in result.modes])
     np.testing.assert_allclose(solved[1], solved[0], rtol=1e-12)
+
+
+def test_coaxial_resonator_line_modes():
+    # A coaxial line shorted at both ends resonates at p c / (2 L) in its TEM modes (Pozar
+    # §6.2, common practice), whatever the radii.
+    layout = BUILDERS["coax"].layout(outer_radius=0.010, inner_radius=0.003, length=0.060,
+                                     gap=0.0)
+    model = make_axisymmetric_model(mesh_section(layout, Sizing(size=0.001)),
+                                    {"inside": Material()}, {})
+    result = solve_axisymmetric(model, orders=(0,), modes=3, order=3)
+    for p, mode in enumerate(result.modes, start=1):
+        assert mode.frequency_hz == pytest.approx(p * c / (2 * 0.060), rel=1e-8)
+        assert mode.field_class == "TEM-like"

@@ -14,8 +14,8 @@ for the meridional part of H_t). Q_wall = ω W / P_wall, W = 2 W_e, P_wall =
 
 Field class (a heuristic, stated as such): the share of the electric energy in E_z and of
 the magnetic energy in H_z. "TE-like" when E_z holds under CLASS_SHARE of it, "TM-like"
-when H_z does, "hybrid" otherwise. For m = 0 exactly one of e_t and u is nonzero, so the
-class is exact there.
+when H_z does, "TEM-like" when both do (a coaxial line's modes), "hybrid" otherwise. For
+m = 0 exactly one of e_t and u is nonzero, so TE and TM are exact there.
 """
 
 from __future__ import annotations
@@ -72,6 +72,8 @@ def axial_magnetic_share(space: OrderSpace, dofs) -> float:
 def field_class(space: OrderSpace, dofs) -> str:
     _, e_axial = electric_energy_by_region(space, dofs)
     h_axial = axial_magnetic_share(space, dofs)
+    if e_axial < CLASS_SHARE and h_axial < CLASS_SHARE:
+        return "TEM-like"
     if e_axial < CLASS_SHARE <= h_axial:
         return "TE-like"
     if h_axial < CLASS_SHARE <= e_axial:

@@ -11,7 +11,6 @@ from __future__ import annotations
 import math
 import time
 from dataclasses import dataclass, field, replace
-from functools import partial
 
 import numpy as np
 from scipy.constants import c as C0
@@ -44,7 +43,7 @@ class AxisymmetricMode:
     m: int                      # azimuthal order
     frequency_hz: float
     k0_squared: float
-    field_class: str            # TE-like, TM-like or hybrid (see losses.field_class)
+    field_class: str            # TE-like, TM-like, TEM-like or hybrid (losses.field_class)
     checks: ModeChecks
     dofs: np.ndarray            # over the free DOFs of the order-m space, M-normalised
     losses: LossReport | None = None
@@ -96,7 +95,7 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
     also gets its complex frequency from a solve with ε_r (1 - j tan δ)."""
     orders = _checked_orders(orders)
     check_request(modes, near_hz)
-    factorize = partial(get_factorizer(factorization))
+    factorize = get_factorizer(factorization)
     mesh = skfem_mesh(model)
     eps_mu = max(float(np.max(m.eps_at(*_probe(model)) * m.mu_r))
                  for m in model.materials.values())

@@ -12,7 +12,7 @@ loss), ``wall_loss_share``, ``region_loss_share`` (name -> fraction of that loss
 ``q_dielectric_complex`` after a complex check, and ``symmetry`` (the class label, e.g. "x:PMC y:PEC")
 when the model was cut by symmetry planes; then the top level has ``symmetry_classes``.
 A mode of the axisymmetric solver also has ``azimuthal_order``, ``field_class`` (TE-like,
-TM-like, hybrid) and ``multiplicity`` (2 for m >= 1: the cos mφ and sin mφ pair); then the
+TM-like, TEM-like, hybrid) and ``multiplicity`` (2 for m >= 1: the cos mφ and sin mφ pair); then the
 top level has ``axisymmetric`` (the orders solved and the DOFs of each).
 """
 
