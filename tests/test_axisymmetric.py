@@ -432,3 +432,15 @@ def test_coaxial_resonator_line_modes():
     for p, mode in enumerate(result.modes, start=1):
         assert mode.frequency_hz == pytest.approx(p * c / (2 * 0.060), rel=1e-8)
         assert mode.field_class == "TEM-like"
+
+
+def test_complex_check_of_a_filled_pillbox():
+    # Completely filled with a lossy dielectric: Q_d = 1 / tan δ for every mode, by
+    # perturbation and from the complex eigenvalue alike (Pozar §6.3, common practice).
+    model = make_axisymmetric_model(pillbox_section(0.002),
+                                    {"inside": Material(eps_r=2.0, tan_delta=1e-3)}, {})
+    result = solve_axisymmetric(model, orders=(0, 1), modes=3, order=2, complex_check=True)
+    for mode in result.modes:
+        assert mode.losses.q_dielectric == pytest.approx(1000, rel=1e-9)
+        assert mode.q_dielectric_complex == pytest.approx(1000, rel=1e-6)
+        assert mode.complex_frequency_hz == pytest.approx(mode.frequency_hz, rel=1e-6)
