@@ -24,7 +24,8 @@ from .model import FORMS, Model, make_model
 from .units import UNITS, parse_quantity
 from .walls import KINDS, Wall
 
-TOP_KEYS = {"title", "geometry", "mesh", "regions", "walls", "symmetry", "solve"}
+TOP_KEYS = {"title", "geometry", "mesh", "regions", "walls", "symmetry", "solve", "sweep",
+            "tune", "extract"}
 REGION_KEYS = {"eps_r", "mu_r", "tan_delta", "mesh_size"}
 MESH_KEYS = {"size", "max_frequency", "per_wavelength", "edge_refinement", "curved"}
 SYMMETRY_CHOICES = {"pec": ("pec",), "pmc": ("pmc",), "both": ("pec", "pmc")}
@@ -85,17 +86,28 @@ class Case:
     symmetry: dict[str, tuple[str, ...]] = field(default_factory=dict)  # axis -> wall kinds
 
 
-def load_case(path: str | Path) -> Case:
+def read_case_data(path: str | Path) -> dict:
+    """The raw TOML tables of a case file (for studies that vary them before validation)."""
     path = Path(path)
     source = str(path)
     if not path.is_file():
         raise InputError("case file not found", source=source)
     try:
-        data = tomllib.loads(path.read_text(encoding="utf-8"))
+        return tomllib.loads(path.read_text(encoding="utf-8"))
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"not valid TOML: {exc}", source=source) from None
     except UnicodeDecodeError:
         raise InputError("not a UTF-8 text file", source=source) from None
+
+
+def load_case(path: str | Path) -> Case:
+    return case_from_data(read_case_data(path), Path(path))
+
+
+def case_from_data(data: dict, path: Path) -> Case:
+    """Validate raw case tables; ``path`` names the source and anchors relative files. The
+    study tables ([sweep], [tune], [extract]) are read by femcav.study, not here."""
+    source = str(path)
     try:
         _known(data, TOP_KEYS, "")
         title = data.get("title", path.stem)

@@ -141,10 +141,29 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
     overrides = dict(modes=modes, near_hz=near_hz, form=form, order=order,
                      factorization=factorization, method=method)
     settings = replace(case.solve, **{k: v for k, v in overrides.items() if v is not None})
-
     progress.step(f"case {case.path}: {case.title}")
+    result = solve_case(case, settings, progress)
+    folder = Path(out) if out is not None else default_output_folder(case.path)
+    with staged_output(folder) as files:
+        _write_tables(files, case, result)
+        if settings.azimuthal_orders is not None:
+            from .axisymmetric.revolve import write_revolved_vtu
+            files.write_with("fields.vtu", lambda p: write_revolved_vtu(result, p),
+                             suffix=".vtu")
+        else:
+            files.write_with("fields.vtu", lambda p: write_vtu(result, p), suffix=".vtu")
+        if any(getattr(m.losses, "wall_loss_density", None) is not None for m in result.modes):
+            files.write_with("wall_loss.vtu", lambda p: write_wall_loss_vtu(result, p),
+                             suffix=".vtu")
+    progress.step(f"results written to {folder}")
+    return case, result, folder
+
+
+def solve_case(case: Case, settings, progress: Progress = SILENT):
+    """The modes of a loaded case with ``settings`` (its [solve] table, perhaps overridden):
+    a SolveResult, or an AxisymmetricResult with azimuthal orders; nothing is written."""
     if settings.azimuthal_orders is not None:
-        return case, *_run_axisymmetric(case, settings, out, progress)
+        return _solve_axisymmetric(case, settings, progress)
     # With error bars every mesh, the finest included, is built by solve_with_error_bars.
     mesh = None if settings.error_estimate else build_mesh(case)
     if mesh is not None:
@@ -153,9 +172,8 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
                       + (f", coordinates in units of {case.geometry.mesh_unit_m:g} m)"
                          if case.geometry.mesh_path else ")"))
     settings = replace(settings, form=choose_form(case, settings.form, progress))
-    classes = symmetry_classes(case.symmetry)
     labelled = []
-    for walls in classes:
+    for walls in symmetry_classes(case.symmetry):
         label = symmetry_label(walls)
         if label:
             progress.step(f"symmetry class {label}")
@@ -172,16 +190,7 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
               else merge_classes(labelled, settings.modes, settings.near_hz))
     if settings.accuracy is not None:
         result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
-
-    folder = Path(out) if out is not None else default_output_folder(case.path)
-    with staged_output(folder) as files:
-        _write_tables(files, case, result)
-        files.write_with("fields.vtu", lambda p: write_vtu(result, p), suffix=".vtu")
-        if any(m.losses and m.losses.wall_loss_density is not None for m in result.modes):
-            files.write_with("wall_loss.vtu", lambda p: write_wall_loss_vtu(result, p),
-                             suffix=".vtu")
-    progress.step(f"results written to {folder}")
-    return case, result, folder
+    return result
 
 
 def _write_tables(files, case: Case, result) -> None:
@@ -190,10 +199,7 @@ def _write_tables(files, case: Case, result) -> None:
     files.write_text("modes.json", to_json(result, title=case.title, case=str(case.path)))
 
 
-def _run_axisymmetric(case: Case, settings, out, progress: Progress):
-    """The axisymmetric path of run_case: the same table files; fields.vtu holds the modes
-    revolved into 3D."""
-    from .axisymmetric.revolve import write_revolved_vtu
+def _solve_axisymmetric(case: Case, settings, progress: Progress):
     from .axisymmetric.runner import solve_axisymmetric_case
 
     for key, bad, why in (("--form", settings.form == "H", "works in the E form"),
@@ -202,10 +208,4 @@ def _run_axisymmetric(case: Case, settings, out, progress: Progress):
         if bad:
             raise InputError(f"the axisymmetric solver {why}", source=str(case.path),
                              field=key)
-    result = solve_axisymmetric_case(case, settings, progress)
-    folder = Path(out) if out is not None else default_output_folder(case.path)
-    with staged_output(folder) as files:
-        _write_tables(files, case, result)
-        files.write_with("fields.vtu", lambda p: write_revolved_vtu(result, p), suffix=".vtu")
-    progress.step(f"results written to {folder}")
-    return result, folder
+    return solve_axisymmetric_case(case, settings, progress)
