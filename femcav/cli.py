@@ -39,6 +39,18 @@ def _parser() -> argparse.ArgumentParser:
                        help="eigen backend (overrides the case; auto: by request and size, "
                             "the choice and its reason are printed)")
     solve.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
+    sweep = commands.add_parser(
+        "sweep", help="solve the case over the values of its [sweep] table and track the modes",
+        description="Re-mesh and solve CASE at every point of its [sweep] table, follow the "
+                    "modes from point to point by field overlap, and write sweep.json, "
+                    "sweep.csv and mode_chart.png into the output folder. Points already in "
+                    "the folder are reused: an interrupted sweep resumes.")
+    sweep.add_argument("case", metavar="CASE.toml", help="the case file")
+    sweep.add_argument("--out", metavar="DIR",
+                       help="output folder (default: CASE-sweep next to the case file)")
+    sweep.add_argument("--jobs", metavar="N", type=int, default=1,
+                       help="points solved at once in separate processes (default 1)")
+    sweep.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
     mesh = commands.add_parser(
         "mesh", help="mesh without solving; print quality, write mesh and picture",
         description="Mesh CASE without solving. Print the element count, the minimum element "
@@ -57,7 +69,7 @@ def main(argv: list[str] | None = None) -> int:
         _parser().print_help()
         return EXIT_INPUT_ERROR
     try:
-        return _mesh(args) if args.command == "mesh" else _solve(args)
+        return {"mesh": _mesh, "sweep": _sweep}.get(args.command, _solve)(args)
     except InputError as exc:
         print(f"femcav: error: {exc}", file=sys.stderr)
         return EXIT_INPUT_ERROR
@@ -90,6 +102,25 @@ def _solve(args) -> int:
         print("femcav: warning: at least one mode FAILED its checks; do not trust those "
               "frequencies (see the check column)", file=sys.stderr)
         return EXIT_CHECKS_FAILED
+    return 0
+
+
+def _sweep(args) -> int:
+    from .progress import Progress
+    from .study.sweep import run_sweep
+
+    document, folder = run_sweep(args.case, out=args.out, jobs=args.jobs,
+                                 progress=Progress(quiet=args.quiet))
+    axes = " x ".join(f"{a['parameter']} ({len(a['values'])} values)"
+                      for a in document["parameters"])
+    print(f"sweep of {axes}: {len(document['points'])} points, "
+          f"{len(document['tracks'])} tracks")
+    for t in document["tracks"][:12]:
+        f = [v for v in t["frequency_hz"] if v is not None]
+        span = f"{min(f) / 1e9:.6g} to {max(f) / 1e9:.6g} GHz" if f else "-"
+        ended = "" if len(f) == len(t["frequency_hz"]) else " (lost before the end)"
+        print(f"  track {t['track']}: {span}{ended}")
+    print(f"results: {folder}")
     return 0
 
 

@@ -1,0 +1,1 @@
+"""Design studies on a case: sweeps with mode tracking, tuning, sensitivities, extraction."""
