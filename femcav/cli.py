@@ -51,6 +51,15 @@ def _parser() -> argparse.ArgumentParser:
     sweep.add_argument("--jobs", metavar="N", type=int, default=1,
                        help="points solved at once in separate processes (default 1)")
     sweep.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
+    tune = commands.add_parser(
+        "tune", help="find the parameter value that puts a mode on a target frequency",
+        description="Solve CASE at the values Brent's method asks for inside the bracket of "
+                    "its [tune] table until the chosen mode (followed by field overlap) sits "
+                    "on the target; solve the result again with error bars; write tune.json.")
+    tune.add_argument("case", metavar="CASE.toml", help="the case file")
+    tune.add_argument("--out", metavar="DIR",
+                      help="output folder (default: CASE-tune next to the case file)")
+    tune.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
     mesh = commands.add_parser(
         "mesh", help="mesh without solving; print quality, write mesh and picture",
         description="Mesh CASE without solving. Print the element count, the minimum element "
@@ -69,7 +78,7 @@ def main(argv: list[str] | None = None) -> int:
         _parser().print_help()
         return EXIT_INPUT_ERROR
     try:
-        return {"mesh": _mesh, "sweep": _sweep}.get(args.command, _solve)(args)
+        return {"mesh": _mesh, "sweep": _sweep, "tune": _tune}.get(args.command, _solve)(args)
     except InputError as exc:
         print(f"femcav: error: {exc}", file=sys.stderr)
         return EXIT_INPUT_ERROR
@@ -120,6 +129,25 @@ def _sweep(args) -> int:
         span = f"{min(f) / 1e9:.6g} to {max(f) / 1e9:.6g} GHz" if f else "-"
         ended = "" if len(f) == len(t["frequency_hz"]) else " (lost before the end)"
         print(f"  track {t['track']}: {span}{ended}")
+    print(f"results: {folder}")
+    return 0
+
+
+def _tune(args) -> int:
+    from .progress import Progress
+    from .study.tune import run_tune
+    from .units import format_frequency
+
+    document, folder = run_tune(args.case, out=args.out, progress=Progress(quiet=args.quiet))
+    unit = document["unit"]
+    shown = (f"{document['value'] * 1e3:.7g} mm" if unit == "m"
+             else f"{document['value']:.7g} {unit}".rstrip())
+    bar = document["error_estimate_hz"]
+    print(f"{document['parameter']} = {shown} puts mode {document['mode']} at "
+          f"{format_frequency(document['frequency_hz'], 9)}"
+          + (f" ± {format_frequency(bar, 3)}" if bar is not None else "")
+          + f" (target {format_frequency(document['target_hz'], 9)}; "
+          f"{document['iterations']} root-finder steps)")
     print(f"results: {folder}")
     return 0
 

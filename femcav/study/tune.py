@@ -1,0 +1,236 @@
+"""Tuning: the value of one parameter that puts a chosen mode on a target frequency.
+
+The case file's [tune] table names the parameter, a bracket (two values the answer lies
+between), the target frequency and the mode: its index in the case as written (the
+reference point, whose parameter value is the case's own). Brent's method (scipy's brentq:
+R. P. Brent, Algorithms for Minimization without Derivatives, 1973) brackets the root of
+f_mode(value) - target; at every value the chosen mode is found by field overlap with the
+nearest value already solved (femcav.study.tracking), never by its place in the list. The
+result is solved once more with error bars (three meshes, femcav.post.error_estimate) so the
+final frequency carries its discretisation error.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import time
+from dataclasses import dataclass, replace
+from pathlib import Path
+
+from scipy.optimize import brentq
+
+from ..case import read_case_data
+from ..errors import InputError
+from ..io.atomic import staged_output
+from ..progress import SILENT, Progress
+from ..units import format_frequency, parse_quantity
+from .parameters import format_value, parameter_kind, with_value
+from .sweep import TRACKING_SPARE, checked_for_tracking, study_case
+from .tracking import step_partners
+
+TUNE_KEYS = {"parameter", "bracket", "target", "mode", "tolerance"}
+DEFAULT_TOLERANCE = 1e-6      # relative, on the frequency
+
+
+@dataclass(frozen=True)
+class TuneSpec:
+    path: str
+    kind: str
+    bracket: tuple[float, float]
+    target_hz: float
+    mode: int                   # 1-based, at the reference point
+    tolerance: float
+
+
+def parse_tune(data: dict) -> TuneSpec:
+    spec = data.get("tune")
+    if not isinstance(spec, dict):
+        raise InputError("the case has no [tune] table (parameter, bracket, target, mode)",
+                         field="tune")
+    for key in spec:
+        if key not in TUNE_KEYS:
+            raise InputError(f"unknown key; allowed here: {', '.join(sorted(TUNE_KEYS))}",
+                             field=f"tune.{key}")
+    missing = [k for k in ("parameter", "bracket", "target") if k not in spec]
+    if missing:
+        raise InputError(f"missing {', '.join(missing)}", field="tune")
+    kind = parameter_kind(spec["parameter"], "tune.parameter")
+    bracket = spec["bracket"]
+    if not isinstance(bracket, list) or len(bracket) != 2:
+        raise InputError('must be a list of two values, e.g. ["9 mm", "11 mm"]',
+                         field="tune.bracket")
+
+    def value(raw, field):
+        if kind == "number":
+            if isinstance(raw, bool) or not isinstance(raw, (int, float)):
+                raise InputError(f"must be a number, got {raw!r}", field=field)
+            return float(raw)
+        return parse_quantity(raw, kind, field=field)
+    lo, hi = sorted(value(b, f"tune.bracket[{i}]") for i, b in enumerate(bracket))
+    if lo == hi:
+        raise InputError("the two ends of the bracket are equal", field="tune.bracket")
+    target = parse_quantity(spec["target"], "frequency", field="tune.target")
+    if not target > 0:
+        raise InputError("must be a positive frequency", field="tune.target")
+    mode = spec.get("mode", 1)
+    if isinstance(mode, bool) or not isinstance(mode, int) or mode < 1:
+        raise InputError(f"must be a mode number >= 1, got {mode!r}", field="tune.mode")
+    tolerance = spec.get("tolerance", DEFAULT_TOLERANCE)
+    if isinstance(tolerance, bool) or not isinstance(tolerance, (int, float)) \
+            or not 0 < tolerance < 0.1:
+        raise InputError("must be a relative tolerance between 0 and 0.1",
+                         field="tune.tolerance")
+    return TuneSpec(path=spec["parameter"], kind=kind, bracket=(lo, hi), target_hz=target,
+                    mode=mode, tolerance=float(tolerance))
+
+
+def _reference_value(data: dict, spec: TuneSpec, case) -> float:
+    """The parameter's value in the case as written (SI)."""
+    head, _, rest = spec.path.partition(".")
+    if head == "geometry":
+        name, _, index = rest.partition("[")
+        value = case.geometry.parameters[name]
+        return float(value[int(index[:-1])] if index else value)
+    if head == "regions":
+        region, _, prop = rest.partition(".")
+        material = case.regions.get(region)
+        if material is None:
+            raise InputError(f"region {region!r} has no table in the case", field="tune")
+        if prop == "eps_r" and callable(material.eps_r):
+            raise InputError("cannot tune an eps_r given as an expression", field="tune")
+        return float(getattr(material, prop))
+    wall = case.walls.get(rest.partition(".")[0])
+    if wall is None or wall.conductivity is None:
+        raise InputError("the wall has no conductivity to start from", field="tune")
+    return float(wall.conductivity)
+
+
+class _Evaluations:
+    """Solved values and, at each, the position of the tuned mode in its mode list."""
+
+    def __init__(self, data, path, spec: TuneSpec, progress: Progress):
+        from ..runner import solve_case
+
+        self._solve = solve_case
+        self.data, self.path, self.spec, self.progress = data, path, spec, progress
+        self.points: list[tuple[float, object, int]] = []   # (value, result, mode index)
+
+    def solve(self, value: float):
+        case = study_case(with_value(self.data, self.spec.path, value), self.path)
+        checked_for_tracking(case)
+        settings = replace(case.solve, modes=max(case.solve.modes, self.spec.mode)
+                           + TRACKING_SPARE)
+        return self._solve(case, settings, SILENT)
+
+    def start(self, reference: float) -> None:
+        result = self.solve(reference)
+        if len(result.modes) < self.spec.mode:
+            raise InputError(f"the case has only {len(result.modes)} modes", field="tune.mode")
+        self.points.append((reference, result, self.spec.mode - 1))
+
+    def frequency(self, value: float) -> float:
+        t0 = time.perf_counter()
+        result = self.solve(value)
+        near_value, near_result, near_index = min(self.points, key=lambda p: abs(p[0] - value))
+        partner = step_partners(near_result, result)
+        found = [j for j, p in enumerate(partner) if p == near_index]
+        if not found:
+            raise InputError(f"mode {self.spec.mode} could not be followed from "
+                             f"{format_value(_axis(self.spec), near_value)} to "
+                             f"{format_value(_axis(self.spec), value)} (its field changed "
+                             "too much); narrow the bracket", field="tune.bracket")
+        index = found[0]
+        self.points.append((value, result, index))
+        f = result.modes[index].frequency_hz
+        self.progress.step(f"tune: {self.spec.path} = {format_value(_axis(self.spec), value)}"
+                           f": mode at {format_frequency(f, 9)} "
+                           f"({time.perf_counter() - t0:.1f} s)")
+        return f
+
+
+def _axis(spec: TuneSpec):
+    from .parameters import Axis
+    return Axis(path=spec.path, values=spec.bracket, kind=spec.kind)
+
+
+def run_tune(path: str | Path, *, out: str | Path | None = None,
+             progress: Progress = SILENT) -> tuple[dict, Path]:
+    path = Path(path)
+    data = read_case_data(path)
+    try:
+        spec = parse_tune(data)
+        base = study_case(data, path)
+        checked_for_tracking(base)
+        reference = _reference_value(data, spec, base)
+        runs = _Evaluations(data, path, spec, progress)
+        runs.start(reference)
+        progress.step(f"tune: mode {spec.mode} at the case's own {spec.path} = "
+                      f"{format_value(_axis(spec), reference)}: "
+                      f"{format_frequency(runs.points[0][1].modes[spec.mode - 1].frequency_hz, 9)}")
+        lo, hi = spec.bracket
+        f_lo, f_hi = runs.frequency(lo), runs.frequency(hi)
+        if (f_lo - spec.target_hz) * (f_hi - spec.target_hz) > 0:
+            raise InputError(f"the mode is at {format_frequency(f_lo, 7)} and "
+                             f"{format_frequency(f_hi, 7)} at the two ends of the bracket: "
+                             f"{format_frequency(spec.target_hz, 7)} is not between them; "
+                             "widen or move the bracket", field="tune.bracket")
+        before = len(runs.points)
+        value = _root(runs, spec)
+        iterations = len(runs.points) - before
+        final = _final_with_error_bar(runs, value, progress)
+    except InputError as exc:
+        raise exc.located(source=str(path)) from None
+    document = {"format": "femcav-tune", "format_version": 1, "case": str(path),
+                "parameter": spec.path, "unit": _axis(spec).unit,
+                "target_hz": spec.target_hz, "mode": spec.mode, "value": value,
+                "bracket": list(spec.bracket), "iterations": iterations,
+                "evaluations": [{"value": v, "frequency_hz": r.modes[j].frequency_hz}
+                                for v, r, j in runs.points], **final}
+    folder = Path(out) if out is not None else path.parent / f"{path.stem}-tune"
+    with staged_output(folder) as files:
+        files.write_text("tune.json", json.dumps(document, indent=1) + "\n")
+    return document, folder
+
+
+class _Close(Exception):
+    def __init__(self, value: float):
+        self.value = value
+
+
+def _root(runs: _Evaluations, spec: TuneSpec) -> float:
+    """Brent's method on f(value) - target, stopped as soon as a solved frequency is within
+    the relative tolerance of the target: each point is a new mesh, so below the mesh noise
+    (about 1e-5 at usual sizes) further steps only chase it."""
+    def miss(v: float) -> float:
+        f = runs.frequency(v)
+        if abs(f - spec.target_hz) <= spec.tolerance * spec.target_hz:
+            raise _Close(v)
+        return f - spec.target_hz
+    lo, hi = spec.bracket
+    try:
+        return brentq(miss, lo, hi, xtol=1e-12 * max(abs(lo), abs(hi)), rtol=1e-15, maxiter=60)
+    except _Close as close:
+        return close.value
+
+
+def _final_with_error_bar(runs: _Evaluations, value: float, progress: Progress) -> dict:
+    """The tuned mode at ``value`` with an error bar from three meshes (builders only)."""
+    from ..runner import solve_case
+
+    case = study_case(with_value(runs.data, runs.spec.path, value), runs.path)
+    last_value, last_result, last_index = min(runs.points, key=lambda p: abs(p[0] - value))
+    f_last = last_result.modes[last_index].frequency_hz
+    if case.geometry.builder is None:
+        return {"frequency_hz": f_last, "error_estimate_hz": None}
+    settings = replace(case.solve, error_estimate=True,
+                       modes=max(case.solve.modes, runs.spec.mode) + TRACKING_SPARE)
+    result = solve_case(case, settings, SILENT)
+    partner = step_partners(last_result, result)
+    found = [j for j, p in enumerate(partner) if p == last_index]
+    mode = result.modes[found[0]] if found else min(
+        result.modes, key=lambda m: abs(m.frequency_hz - f_last))
+    progress.step(f"tune: final {format_frequency(mode.frequency_hz, 9)} ± "
+                  f"{format_frequency(mode.error_estimate_hz or math.nan, 3)}")
+    return {"frequency_hz": mode.frequency_hz, "error_estimate_hz": mode.error_estimate_hz,
+            "error_estimate_dofs": result.dofs}

@@ -1,0 +1,69 @@
+"""Tuning a pillbox's radius onto a target: against the Bessel-zero formula inverted."""
+
+from __future__ import annotations
+
+import json
+import math
+
+import pytest
+from scipy.constants import c
+from scipy.special import jn_zeros
+
+from femcav.cli import main
+from femcav.errors import InputError
+from femcav.study.tune import run_tune
+
+CASE = """
+title = "Made-up wavemeter, tuned onto 11 GHz"
+[geometry]
+builder = "pillbox"
+radius = "10 mm"
+length = "15 mm"
+[mesh]
+size = "2.5 mm"
+curved = true
+[solve]
+modes = 3
+order = 2
+[tune]
+parameter = "geometry.radius"
+bracket = ["9.5 mm", "11 mm"]
+target = "11 GHz"
+mode = 1
+"""
+
+
+def test_tuned_radius_inverts_the_tm010_formula(tmp_path, capsys):
+    # TM010: f = p01 c / (2π a), so a = p01 c / (2π f) (Pozar, Microwave Engineering, 4th ed.,
+    # §6.4, from memory). Since f ∝ 1/a, the radius is as accurate as the frequency: within
+    # the final error bar (plus the root finder's tolerance).
+    case = tmp_path / "tune.toml"
+    case.write_text(CASE)
+    assert main(["tune", str(case), "--out", str(tmp_path / "out"), "-q"]) == 0
+    document = json.loads((tmp_path / "out" / "tune.json").read_text())
+    exact = jn_zeros(0, 1)[0] * c / (2 * math.pi * 11e9)
+    allowed = document["error_estimate_hz"] / 11e9 + 1e-6
+    assert abs(document["value"] / exact - 1) <= allowed
+    assert abs(document["value"] / exact - 1) < 2e-4
+    assert document["frequency_hz"] == pytest.approx(11e9, rel=allowed)
+    assert document["iterations"] >= 1
+    assert "puts mode 1 at" in capsys.readouterr().out
+
+
+def test_target_outside_the_bracket_is_refused(tmp_path):
+    case = tmp_path / "tune.toml"
+    case.write_text(CASE.replace('target = "11 GHz"', 'target = "30 GHz"'))
+    with pytest.raises(InputError, match="not between them"):
+        run_tune(case, out=tmp_path / "out")
+
+
+@pytest.mark.parametrize("change, message", [
+    (('bracket = ["9.5 mm", "11 mm"]', 'bracket = ["9.5 mm"]'), "list of two values"),
+    (('mode = 1', 'mode = 0'), "mode number"),
+    (('target = "11 GHz"', 'target = "11 mm"'), "target"),
+])
+def test_bad_tune_tables(tmp_path, change, message):
+    case = tmp_path / "tune.toml"
+    case.write_text(CASE.replace(*change))
+    with pytest.raises(InputError, match=message):
+        run_tune(case, out=tmp_path / "out")
