@@ -31,7 +31,7 @@ MESH_KEYS = {"size", "max_frequency", "per_wavelength", "edge_refinement", "curv
 SYMMETRY_CHOICES = {"pec": ("pec",), "pmc": ("pmc",), "both": ("pec", "pmc")}
 WALL_KEYS = {"kind", "conductivity", "metal", "roughness"}
 SOLVE_KEYS = {"modes", "near", "form", "order", "complex_check", "error_estimate", "accuracy",
-              "max_dofs", "factorization", "method", "azimuthal_orders"}
+              "max_dofs", "factorization", "method", "azimuthal_orders", "sensitivities"}
 MAX_AZIMUTHAL_ORDER = 100
 AXISYMMETRIC_ORDER = 3   # element order of the axisymmetric solver unless the case sets one
 DEFAULT_MODES = 10
@@ -72,6 +72,7 @@ class SolveSpec:
     # the azimuthal orders m of a body of revolution: solve its meridional section instead
     # of the 3D part (femcav.axisymmetric); None for a 3D solve
     azimuthal_orders: tuple[int, ...] | None = None
+    sensitivities: bool = False        # df/dε_r and df/dμ_r of every region, per mode
 
 
 @dataclass(frozen=True)
@@ -405,6 +406,9 @@ def _solve(spec: dict) -> SolveSpec:
     if method not in METHODS:
         raise InputError(f"must be one of {', '.join(map(repr, METHODS))}, got {method!r}",
                          field="solve.method")
+    sensitivities = spec.get("sensitivities", False)
+    if not isinstance(sensitivities, bool):
+        raise InputError("must be true or false", field="solve.sensitivities")
     orders = spec.get("azimuthal_orders")
     if orders is not None:
         orders = _azimuthal_orders(orders)
@@ -413,7 +417,7 @@ def _solve(spec: dict) -> SolveSpec:
     return SolveSpec(modes=modes, near_hz=near_hz, form=form, order=order,
                      complex_check=complex_check, error_estimate=estimate or accuracy is not None,
                      accuracy=accuracy, max_dofs=max_dofs, factorization=factorization,
-                     method=method, azimuthal_orders=orders)
+                     method=method, azimuthal_orders=orders, sensitivities=sensitivities)
 
 
 def _azimuthal_orders(value) -> tuple[int, ...]:
@@ -441,12 +445,14 @@ def _check_axisymmetric(solve: SolveSpec, geometry: GeometrySpec, symmetry: dict
                          "separate the field classes of a body of revolution",
                          field="symmetry")
     refused = {"form": solve.form == "H", "method": solve.method == "iterative",
-               "error_estimate": solve.error_estimate}
+               "error_estimate": solve.error_estimate, "sensitivities": solve.sensitivities}
     reasons = {"form": "the axisymmetric solver works in the E form",
                "method": "the axisymmetric solver uses the direct shift-invert path (its "
                          "problems are small)",
                "error_estimate": "error bars are not yet available for axisymmetric solves; "
-                                 "compare two [mesh] sizes"}
+                                 "compare two [mesh] sizes",
+               "sensitivities": "material sensitivities are not yet available for "
+                                "axisymmetric solves"}
     for key, bad in refused.items():
         if bad:
             where = "accuracy" if key == "error_estimate" and "accuracy" in spec else key

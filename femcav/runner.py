@@ -186,11 +186,21 @@ def solve_case(case: Case, settings, progress: Progress = SILENT):
                                                     progress=progress)))
         except InputError as exc:
             raise exc.located(source=str(case.path)) from None
+    if settings.sensitivities:
+        labelled = [(label, _with_sensitivities(r)) for label, r in labelled]
     result = (labelled[0][1] if len(labelled) == 1 and not labelled[0][0]
               else merge_classes(labelled, settings.modes, settings.near_hz))
     if settings.accuracy is not None:
         result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
     return result
+
+
+def _with_sensitivities(result: SolveResult) -> SolveResult:
+    from .post.sensitivity import material_sensitivities
+
+    return replace(result, modes=[
+        replace(m, sensitivity=material_sensitivities(result.space, m.dofs, m.frequency_hz))
+        for m in result.modes])
 
 
 def _write_tables(files, case: Case, result) -> None:

@@ -40,6 +40,8 @@ class Mode:
     q_dielectric_complex: float | None = None
     error_estimate_hz: float | None = None   # from a mesh sequence ([solve] error_estimate)
     extrapolated_hz: float | None = None
+    # df/dε_r and df/dμ_r per region, Hz ([solve] sensitivities; post.sensitivity)
+    sensitivity: dict | None = None
 
 
 @dataclass(frozen=True)

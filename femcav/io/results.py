@@ -13,7 +13,9 @@ loss), ``wall_loss_share``, ``region_loss_share`` (name -> fraction of that loss
 when the model was cut by symmetry planes; then the top level has ``symmetry_classes``.
 A mode of the axisymmetric solver also has ``azimuthal_order``, ``field_class`` (TE-like,
 TM-like, TEM-like, hybrid) and ``multiplicity`` (2 for m >= 1: the cos mφ and sin mφ pair); then the
-top level has ``axisymmetric`` (the orders solved and the DOFs of each).
+top level has ``axisymmetric`` (the orders solved and the DOFs of each). With [solve]
+sensitivities, each mode has ``sensitivity_hz``: ``eps_r`` and ``mu_r``, each a region ->
+df/dε_r (df/dμ_r) in Hz per unit change.
 """
 
 from __future__ import annotations
@@ -56,6 +58,8 @@ def mode_rows(result: SolveResult) -> list[dict]:
         row["error_estimate_hz"] = m.error_estimate_hz
         if m.extrapolated_hz is not None:
             row["extrapolated_hz"] = m.extrapolated_hz
+        if getattr(m, "sensitivity", None) is not None:
+            row["sensitivity_hz"] = m.sensitivity
         if m.q_dielectric_complex is not None:
             row["complex_frequency_hz"] = m.complex_frequency_hz
             row["q_dielectric_complex"] = m.q_dielectric_complex

@@ -1,0 +1,44 @@
+"""How a mode's frequency moves with the permittivity or permeability of a region, without
+solving again: first-order perturbation of the eigenvalue.
+
+For K x = λ M x with x the mode, dλ = xᵀ (dK - λ dM) x / xᵀ M x (design.md §2). In the E form
+M = Σ_i ε_i M_i, so adding δ to ε_r in region i gives dλ/λ = -δ xᵀ M_i x / xᵀ M x; and
+K = Σ_i K_i / μ_i gives dλ/λ = -δ xᵀ K_i x / (μ_i² xᵀ K x). With f ∝ sqrt(λ):
+
+    df/dε_r,i = -(f/2) ∫_i ε0 |E|² dV / ∫ ε0 ε_r |E|² dV,
+    df/dμ_r,i = -(f/2) ∫_i μ0 |H|² dV / ∫ μ0 μ_r |H|² dV,
+
+the classic material-perturbation result (R. F. Harrington, Time-Harmonic Electromagnetic
+Fields, 1961, §7-2; D. M. Pozar, Microwave Engineering, 4th ed., §6.7, both from memory),
+here for a uniform change δ of ε_r or μ_r across the whole region (also where ε_r is an
+expression). In the H form the roles of E and H swap, and the field not solved for comes
+from the curl of the one that is.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+
+def material_sensitivities(space, dofs: np.ndarray, frequency_hz: float) -> dict:
+    """{"eps_r": {region: df/dε_r in Hz}, "mu_r": {region: df/dμ_r in Hz}} for one mode."""
+    values = space.basis.interpolate(dofs)
+    u_sq = np.sum(np.asarray(values) ** 2, axis=0)
+    curl_sq = np.sum(np.asarray(values.curl) ** 2, axis=0)
+    s, m = space.stiffness_coef, space.mass_coef
+    if space.form == "E":        # u = E, curl u ∝ μ_r H
+        electric_unit, electric = u_sq, m * u_sq
+        magnetic_unit, magnetic = s**2 * curl_sq, s * curl_sq
+    else:                        # u = H, curl u ∝ ε_r E
+        electric_unit, electric = s**2 * curl_sq, s * curl_sq
+        magnetic_unit, magnetic = u_sq, m * u_sq
+    dx = space.basis.dx
+    mesh = space.model.mesh
+
+    def per_region(unit, total):
+        cells = np.sum(unit * dx, axis=1)
+        whole = float(np.sum(total * dx))
+        return {name: -0.5 * frequency_hz * float(cells[mesh.tet_region == rid].sum()) / whole
+                for name, rid in mesh.region_names.items()}
+    return {"eps_r": per_region(electric_unit, electric),
+            "mu_r": per_region(magnetic_unit, magnetic)}
