@@ -39,27 +39,28 @@ def _parser() -> argparse.ArgumentParser:
                        help="eigen backend (overrides the case; auto: by request and size, "
                             "the choice and its reason are printed)")
     solve.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
-    sweep = commands.add_parser(
-        "sweep", help="solve the case over the values of its [sweep] table and track the modes",
-        description="Re-mesh and solve CASE at every point of its [sweep] table, follow the "
-                    "modes from point to point by field overlap, and write sweep.json, "
-                    "sweep.csv and mode_chart.png into the output folder. Points already in "
-                    "the folder are reused: an interrupted sweep resumes.")
-    sweep.add_argument("case", metavar="CASE.toml", help="the case file")
-    sweep.add_argument("--out", metavar="DIR",
-                       help="output folder (default: CASE-sweep next to the case file)")
+    sweep = _study_parser(
+        commands, "sweep",
+        "solve the case over the values of its [sweep] table and track the modes",
+        "Re-mesh and solve CASE at every point of its [sweep] table, follow the modes from "
+        "point to point by field overlap, and write sweep.json, sweep.csv and mode_chart.png "
+        "into the output folder. Points already in the folder are reused: an interrupted "
+        "sweep resumes.")
     sweep.add_argument("--jobs", metavar="N", type=int, default=1,
                        help="points solved at once in separate processes (default 1)")
-    sweep.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
-    tune = commands.add_parser(
-        "tune", help="find the parameter value that puts a mode on a target frequency",
-        description="Solve CASE at the values Brent's method asks for inside the bracket of "
-                    "its [tune] table until the chosen mode (followed by field overlap) sits "
-                    "on the target; solve the result again with error bars; write tune.json.")
-    tune.add_argument("case", metavar="CASE.toml", help="the case file")
-    tune.add_argument("--out", metavar="DIR",
-                      help="output folder (default: CASE-tune next to the case file)")
-    tune.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
+    _study_parser(
+        commands, "tune",
+        "find the parameter value that puts a mode on a target frequency",
+        "Solve CASE at the values Brent's method asks for inside the bracket of its [tune] "
+        "table until the chosen mode (followed by field overlap) sits on the target; solve "
+        "the result again with error bars; write tune.json.")
+    _study_parser(
+        commands, "extract",
+        "find a sample's eps_r and loss tangent from measured f and Q, by the full model",
+        "From the measured frequency and Q of one mode with and without the sample (the "
+        "[extract] table), calibrate on the empty fixture, find the sample's eps_r by "
+        "Brent's method on the full model and its tan delta from the Q; report the classic "
+        "small-sample perturbation estimate beside it; write extract.json.")
     mesh = commands.add_parser(
         "mesh", help="mesh without solving; print quality, write mesh and picture",
         description="Mesh CASE without solving. Print the element count, the minimum element "
@@ -72,13 +73,24 @@ def _parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _study_parser(commands, name: str, summary: str, description: str):
+    """A study command: CASE, --out (default CASE-<name>) and --quiet."""
+    study = commands.add_parser(name, help=summary, description=description)
+    study.add_argument("case", metavar="CASE.toml", help="the case file")
+    study.add_argument("--out", metavar="DIR",
+                       help=f"output folder (default: CASE-{name} next to the case file)")
+    study.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
+    return study
+
+
 def main(argv: list[str] | None = None) -> int:
     args = _parser().parse_args(argv)
     if args.command is None:
         _parser().print_help()
         return EXIT_INPUT_ERROR
     try:
-        return {"mesh": _mesh, "sweep": _sweep, "tune": _tune}.get(args.command, _solve)(args)
+        return {"mesh": _mesh, "sweep": _sweep, "tune": _tune,
+                "extract": _extract}.get(args.command, _solve)(args)
     except InputError as exc:
         print(f"femcav: error: {exc}", file=sys.stderr)
         return EXIT_INPUT_ERROR
@@ -148,6 +160,20 @@ def _tune(args) -> int:
           + (f" ± {format_frequency(bar, 3)}" if bar is not None else "")
           + f" (target {format_frequency(document['target_hz'], 9)}; "
           f"{document['iterations']} root-finder steps)")
+    print(f"results: {folder}")
+    return 0
+
+
+def _extract(args) -> int:
+    from .progress import Progress
+    from .study.extract import run_extract
+
+    d, folder = run_extract(args.case, out=args.out, progress=Progress(quiet=args.quiet))
+    p = d["perturbation_estimate"]
+    print(f"sample {d['sample']!r}: eps_r = {d['eps_r']:.6g}, tan delta = {d['tan_delta']:.4g} "
+          f"(full model, {d['solves']} solves; filling factor {d['filling_factor']:.4g})")
+    print(f"small-sample perturbation formula: eps_r = {p['eps_r']:.6g}, "
+          f"tan delta = {p['tan_delta']:.4g} (field share F = {p['field_share']:.4g})")
     print(f"results: {folder}")
     return 0
 

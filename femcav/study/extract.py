@@ -1,0 +1,181 @@
+"""Permittivity and loss tangent of a sample from a cavity measurement, by the full model.
+
+The case file describes the fixture with the sample in one region ([extract] sample = NAME;
+its eps_r in the case is the starting guess and picks the mode with ``mode``). Measured: the
+resonance frequency and unloaded Q of that mode without the sample (the region empty) and
+with it. Procedure:
+
+1. Solve the empty fixture. Its measured frequency over the solved one is a calibration
+   factor applied to every solved frequency (it absorbs machining and mesh offsets); its
+   measured Q over the solved wall Q calibrates the wall loss (surface finish, plating).
+2. Find ε_r' at which the calibrated frequency of the mode (followed by field overlap, as in
+   femcav.study.tune) equals the loaded measurement: Brent's method on the full model.
+3. At that ε_r', 1/Q_loaded = (1/Q_wall) (calibrated) + Σ_i p_i tan δ_i; the sample's
+   electric filling factor p from the same solve gives its tan δ.
+
+For comparison, the classic small-sample perturbation estimate from the empty mode alone
+(H. A. Bethe and J. Schwinger, "Perturbation theory for cavities", NDRC report D1-117, 1943;
+Pozar, Microwave Engineering, 4th ed., §6.7; both from memory):
+ε_r' - 1 = 2 (f_0 - f_s) / (f_0 F) and ε_r'' = (1/Q_s - 1/Q_0) / F, with F = ∫_sample |E_0|²
+/ ∫_cavity |E_0|² of the empty mode. It neglects the change of the field inside and around
+the sample, so its error grows with (ε_r' - 1) F (and with depolarisation, for a sample
+across the field lines).
+"""
+
+from __future__ import annotations
+
+import json
+import re
+from dataclasses import dataclass, replace
+from pathlib import Path
+
+from ..errors import InputError
+from ..io.atomic import staged_output
+from ..post.sensitivity import material_sensitivities
+from ..progress import SILENT, Progress
+from ..units import format_frequency, parse_quantity
+from .parameters import with_value
+from .sweep import TRACKING_SPARE, load_study, study_case
+from .tracking import step_partners
+from .tune import TuneSpec, _Evaluations, _root
+
+EXTRACT_KEYS = {"sample", "mode", "empty_frequency", "empty_q", "loaded_frequency",
+                "loaded_q", "eps_bracket", "tolerance"}
+
+
+@dataclass(frozen=True)
+class ExtractSpec:
+    sample: str
+    mode: int
+    empty_hz: float
+    empty_q: float
+    loaded_hz: float
+    loaded_q: float
+    eps_bracket: tuple[float, float]
+    tolerance: float
+
+
+def parse_extract(data: dict) -> ExtractSpec:
+    spec = data.get("extract")
+    if not isinstance(spec, dict):
+        raise InputError("the case has no [extract] table", field="extract")
+    for key in spec:
+        if key not in EXTRACT_KEYS:
+            raise InputError(f"unknown key; allowed here: {', '.join(sorted(EXTRACT_KEYS))}",
+                             field=f"extract.{key}")
+    missing = sorted(k for k in EXTRACT_KEYS - {"mode", "eps_bracket", "tolerance"}
+                     if k not in spec)
+    if missing:
+        raise InputError(f"missing {', '.join(missing)}", field="extract")
+    sample = spec["sample"]
+    if not isinstance(sample, str) or not re.fullmatch(r"\w+", sample):
+        raise InputError("must be the name of the sample's region", field="extract.sample")
+    if sample not in data.get("regions", {}):
+        raise InputError(f"give [regions.{sample}] with eps_r (the starting guess)",
+                         field="extract.sample")
+    freq = {k: parse_quantity(spec[k], "frequency", field=f"extract.{k}")
+            for k in ("empty_frequency", "loaded_frequency")}
+    qs = {}
+    for k in ("empty_q", "loaded_q"):
+        q = spec[k]
+        if isinstance(q, bool) or not isinstance(q, (int, float)) or not q > 0:
+            raise InputError(f"must be a positive number, got {q!r}", field=f"extract.{k}")
+        qs[k] = float(q)
+    if not qs["loaded_q"] < qs["empty_q"]:
+        raise InputError("a lossless-or-lossy sample cannot raise the Q: loaded_q must be "
+                         "below empty_q", field="extract.loaded_q")
+    bracket = spec.get("eps_bracket", [1.0, 100.0])
+    if (not isinstance(bracket, list) or len(bracket) != 2
+            or not all(isinstance(b, (int, float)) and not isinstance(b, bool) and b >= 1
+                       for b in bracket) or bracket[0] == bracket[1]):
+        raise InputError("must be two different numbers >= 1, e.g. [1.5, 20]",
+                         field="extract.eps_bracket")
+    mode = spec.get("mode", 1)
+    if isinstance(mode, bool) or not isinstance(mode, int) or mode < 1:
+        raise InputError(f"must be a mode number >= 1, got {mode!r}", field="extract.mode")
+    tolerance = spec.get("tolerance", 1e-9)
+    if isinstance(tolerance, bool) or not isinstance(tolerance, (int, float)) \
+            or not 0 < tolerance < 1e-2:
+        raise InputError("must be a relative frequency tolerance below 1e-2",
+                         field="extract.tolerance")
+    return ExtractSpec(sample=sample, mode=mode, empty_hz=freq["empty_frequency"],
+                       empty_q=qs["empty_q"], loaded_hz=freq["loaded_frequency"],
+                       loaded_q=qs["loaded_q"], eps_bracket=tuple(sorted(map(float, bracket))),
+                       tolerance=float(tolerance))
+
+
+def run_extract(path: str | Path, *, out: str | Path | None = None,
+                progress: Progress = SILENT) -> tuple[dict, Path]:
+    from ..runner import solve_case
+
+    path = Path(path)
+    data, spec, base = load_study(path, parse_extract)
+    eps_path = f"regions.{spec.sample}.eps_r"
+    try:
+        # 1. the empty fixture, its mode found from the case as written
+        lossless = with_value(data, f"regions.{spec.sample}.tan_delta", 0.0)
+        runs = _Evaluations(lossless, path, TuneSpec(
+            path=eps_path, kind="number", bracket=spec.eps_bracket, target_hz=spec.loaded_hz,
+            mode=spec.mode, tolerance=spec.tolerance), progress)
+        runs.start(float(base.regions[spec.sample].eps_r))
+        f_empty = runs.frequency(1.0)
+        empty = next(r for v, r, _ in runs.points if v == 1.0)
+        empty_mode = empty.modes[next(j for v, _, j in runs.points if v == 1.0)]
+        freq_scale = spec.empty_hz / f_empty
+        q_wall_empty = empty_mode.losses.q_wall if empty_mode.losses else None
+        if q_wall_empty is None:
+            raise InputError("the fixture has no metal walls, so the empty Q cannot calibrate "
+                             "the wall loss; give the walls kind = \"metal\"", field="walls")
+        other = (1.0 / empty_mode.losses.q_dielectric) if empty_mode.losses.q_dielectric else 0
+        q_wall_scale = (1.0 / (1.0 / spec.empty_q - other)) / q_wall_empty
+        progress.step(f"extract: empty fixture solved at {format_frequency(f_empty, 9)} "
+                      f"(measured {format_frequency(spec.empty_hz, 9)}: frequency factor "
+                      f"{freq_scale:.8f}); wall Q factor {q_wall_scale:.5f}")
+        # 2. ε_r' from the loaded frequency
+        runs.spec = replace(runs.spec, target_hz=spec.loaded_hz / freq_scale)
+        f_lo, f_hi = (runs.frequency(e) for e in spec.eps_bracket)
+        target = runs.spec.target_hz
+        if (f_lo - target) * (f_hi - target) > 0:
+            raise InputError(f"the mode is at {format_frequency(f_lo * freq_scale, 7)} and "
+                             f"{format_frequency(f_hi * freq_scale, 7)} (calibrated) at the "
+                             "ends of eps_bracket; the loaded frequency is not between them",
+                             field="extract.eps_bracket")
+        eps = _root(runs, runs.spec)
+        # 3. tan δ at that ε_r', from the same model with the sample's loss switched on
+        case = study_case(with_value(lossless, eps_path, eps), path)
+        result = solve_case(case, replace(case.solve, modes=case.solve.modes + TRACKING_SPARE
+                                          + spec.mode), SILENT)
+        _, near, index = min(runs.points, key=lambda p: abs(p[0] - eps))
+        found = [j for j, p in enumerate(step_partners(near, result)) if p == index]
+        mode = result.modes[found[0]]
+        losses = mode.losses
+        q_wall = losses.q_wall * q_wall_scale
+        others = sum(losses.filling_factor[r] * case.regions[r].tan_delta
+                     for r in losses.filling_factor if r != spec.sample and r in case.regions)
+        p_sample = losses.filling_factor[spec.sample]
+        tan_delta = (1.0 / spec.loaded_q - 1.0 / q_wall - others) / p_sample
+        perturbation = _perturbation_estimate(empty, empty_mode, spec)
+    except InputError as exc:
+        raise exc.located(source=str(path)) from None
+    document = {"format": "femcav-extract", "format_version": 1, "case": str(path),
+                "sample": spec.sample, "mode": spec.mode, "eps_r": eps, "tan_delta": tan_delta,
+                "filling_factor": p_sample, "q_wall_calibrated": q_wall,
+                "frequency_factor": freq_scale, "wall_q_factor": q_wall_scale,
+                "solves": len(runs.points) + 1,
+                "solved_frequency_hz": mode.frequency_hz * freq_scale,
+                "perturbation_estimate": perturbation,
+                "measured": {"empty_frequency_hz": spec.empty_hz, "empty_q": spec.empty_q,
+                             "loaded_frequency_hz": spec.loaded_hz, "loaded_q": spec.loaded_q}}
+    folder = Path(out) if out is not None else path.parent / f"{path.stem}-extract"
+    with staged_output(folder) as files:
+        files.write_text("extract.json", json.dumps(document, indent=1) + "\n")
+    return document, folder
+
+
+def _perturbation_estimate(empty, empty_mode, spec: ExtractSpec) -> dict:
+    """The small-sample formulas with F from the empty mode (see the module notes)."""
+    s = material_sensitivities(empty.space, empty_mode.dofs, empty_mode.frequency_hz)
+    share = -2.0 * s["eps_r"][spec.sample] / empty_mode.frequency_hz       # F
+    eps1 = 1.0 + 2.0 * (spec.empty_hz - spec.loaded_hz) / (spec.empty_hz * share)
+    eps2 = (1.0 / spec.loaded_q - 1.0 / spec.empty_q) / share
+    return {"eps_r": eps1, "tan_delta": eps2 / eps1, "field_share": share}
