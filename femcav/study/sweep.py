@@ -83,6 +83,19 @@ def study_case(data: dict, path: Path, *, sweep_keys=("sweep", "tune", "extract"
     return case_from_data({k: v for k, v in data.items() if k not in sweep_keys}, path)
 
 
+def load_study(path: Path, parse):
+    """(raw tables, the study's own table parsed by ``parse``, the base case), each
+    mistake located in the file."""
+    data = read_case_data(path)
+    try:
+        spec = parse(data)
+        base = study_case(data, path)
+        checked_for_tracking(base)
+    except InputError as exc:
+        raise exc.located(source=str(path)) from None
+    return data, spec, base
+
+
 def checked_for_tracking(case) -> None:
     """What tracking by field overlap needs of a case, refused with the reason."""
     if case.symmetry:
@@ -185,13 +198,7 @@ def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
     """Solve every point of the case's [sweep] (reusing points already in the output
     folder), track the modes, and write sweep.json, sweep.csv and mode_chart.png."""
     path = Path(path)
-    data = read_case_data(path)
-    try:
-        spec = parse_sweep(data)
-        base = study_case(data, path)
-        checked_for_tracking(base)
-    except InputError as exc:
-        raise exc.located(source=str(path)) from None
+    data, spec, base = load_study(path, parse_sweep)
     folder = Path(out) if out is not None else path.parent / f"{path.stem}-sweep"
     points = spec.points()
     if not isinstance(jobs, int) or jobs < 1:

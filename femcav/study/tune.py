@@ -20,13 +20,12 @@ from pathlib import Path
 
 from scipy.optimize import brentq
 
-from ..case import read_case_data
 from ..errors import InputError
 from ..io.atomic import staged_output
 from ..progress import SILENT, Progress
 from ..units import format_frequency, parse_quantity
 from .parameters import format_value, parameter_kind, with_value
-from .sweep import TRACKING_SPARE, checked_for_tracking, study_case
+from .sweep import TRACKING_SPARE, checked_for_tracking, load_study, study_case
 from .tracking import step_partners
 
 TUNE_KEYS = {"parameter", "bracket", "target", "mode", "tolerance"}
@@ -157,11 +156,8 @@ def _axis(spec: TuneSpec):
 def run_tune(path: str | Path, *, out: str | Path | None = None,
              progress: Progress = SILENT) -> tuple[dict, Path]:
     path = Path(path)
-    data = read_case_data(path)
+    data, spec, base = load_study(path, parse_tune)
     try:
-        spec = parse_tune(data)
-        base = study_case(data, path)
-        checked_for_tracking(base)
         reference = _reference_value(data, spec, base)
         runs = _Evaluations(data, path, spec, progress)
         runs.start(reference)
@@ -219,7 +215,7 @@ def _final_with_error_bar(runs: _Evaluations, value: float, progress: Progress) 
     from ..runner import solve_case
 
     case = study_case(with_value(runs.data, runs.spec.path, value), runs.path)
-    last_value, last_result, last_index = min(runs.points, key=lambda p: abs(p[0] - value))
+    _, last_result, last_index = min(runs.points, key=lambda p: abs(p[0] - value))
     f_last = last_result.modes[last_index].frequency_hz
     if case.geometry.builder is None:
         return {"frequency_hz": f_last, "error_estimate_hz": None}
