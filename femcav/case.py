@@ -25,7 +25,7 @@ from .units import UNITS, parse_quantity
 from .walls import KINDS, Wall
 
 TOP_KEYS = {"title", "geometry", "mesh", "regions", "walls", "symmetry", "solve", "sweep",
-            "tune", "extract"}
+            "tune", "extract", "tolerances"}
 REGION_KEYS = {"eps_r", "mu_r", "tan_delta", "mesh_size"}
 MESH_KEYS = {"size", "max_frequency", "per_wavelength", "edge_refinement", "curved"}
 SYMMETRY_CHOICES = {"pec": ("pec",), "pmc": ("pmc",), "both": ("pec", "pmc")}
@@ -85,6 +85,7 @@ class Case:
     solve: SolveSpec
     mesh: MeshSpec = field(default_factory=MeshSpec)
     symmetry: dict[str, tuple[str, ...]] = field(default_factory=dict)  # axis -> wall kinds
+    tolerances: dict[str, float] = field(default_factory=dict)   # builder length -> m
 
 
 def read_case_data(path: str | Path) -> dict:
@@ -128,10 +129,42 @@ def case_from_data(data: dict, path: Path) -> Case:
         symmetry = _symmetry(_table(data, "symmetry"), geometry, walls)
         if solve.azimuthal_orders is not None:
             _check_axisymmetric(solve, geometry, symmetry, _table(data, "solve"))
+        tolerances = _tolerances(_table(data, "tolerances"), geometry, symmetry, solve)
     except InputError as exc:
         raise exc.located(source=source) from None
     return Case(path=path, title=title, geometry=geometry, regions=regions, walls=walls,
-                solve=solve, mesh=mesh, symmetry=symmetry)
+                solve=solve, mesh=mesh, symmetry=symmetry, tolerances=tolerances)
+
+
+def _tolerances(spec: dict, geometry: GeometrySpec, symmetry: dict,
+                solve: SolveSpec) -> dict[str, float]:
+    """Builder length (a name, or NAME[i] for a point's coordinate) -> its tolerance (m)."""
+    if not spec:
+        return {}
+    if geometry.builder is None:
+        raise InputError("dimension tolerances move a builder's part; an imported mesh has "
+                         "no parameters", field="tolerances")
+    if symmetry or solve.azimuthal_orders is not None or solve.error_estimate:
+        raise InputError("dimension tolerances are for whole-part 3D solves without error "
+                         "bars (drop [symmetry], azimuthal_orders or error_estimate)",
+                         field="tolerances")
+    out = {}
+    for name, raw in spec.items():
+        key, _, index = name.partition("[")
+        value = geometry.parameters.get(key)
+        if key not in BUILDERS[geometry.builder].PARAMETERS or value is None:
+            raise InputError(f"{geometry.builder} has no length {key!r} set; its parameters "
+                             f"are {', '.join(BUILDERS[geometry.builder].PARAMETERS)}",
+                             field=f"tolerances.{name}")
+        if isinstance(value, tuple) != bool(index) or (index and index not in ("0]", "1]",
+                                                                               "2]")):
+            raise InputError("a point's coordinate is named NAME[0], NAME[1] or NAME[2]; a "
+                             "length by its name", field=f"tolerances.{name}")
+        tolerance = parse_quantity(raw, "length", field=f"tolerances.{name}")
+        if not tolerance > 0:
+            raise InputError("must be positive", field=f"tolerances.{name}")
+        out[name] = tolerance
+    return out
 
 
 def build_mesh(case: Case) -> TaggedMesh:

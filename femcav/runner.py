@@ -192,7 +192,28 @@ def solve_case(case: Case, settings, progress: Progress = SILENT):
               else merge_classes(labelled, settings.modes, settings.near_hz))
     if settings.accuracy is not None:
         result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
+    if case.tolerances:
+        result = _with_tolerances(case, result, progress)
     return result
+
+
+def _with_tolerances(case: Case, result: SolveResult, progress: Progress) -> SolveResult:
+    """Each mode's df/dp for the toleranced lengths and the spread they imply: each
+    |df/dp| tol alone, their sum (worst case) and root-sum-square (independent errors)."""
+    import math
+
+    from .study.morph import dimension_derivatives
+
+    derivatives = dimension_derivatives(case, result, list(case.tolerances), progress)
+    modes = []
+    for k, mode in enumerate(result.modes):
+        spread = {n: abs(derivatives[n][k]) * tol for n, tol in case.tolerances.items()}
+        modes.append(replace(mode, tolerance={
+            "df_dp_hz_per_m": {n: derivatives[n][k] for n in case.tolerances},
+            "tolerance_m": dict(case.tolerances), "delta_f_hz": spread,
+            "worst_case_hz": sum(spread.values()),
+            "rss_hz": math.sqrt(sum(v * v for v in spread.values()))}))
+    return replace(result, modes=modes)
 
 
 def _with_sensitivities(result: SolveResult) -> SolveResult:

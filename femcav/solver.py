@@ -42,6 +42,8 @@ class Mode:
     extrapolated_hz: float | None = None
     # df/dε_r and df/dμ_r per region, Hz ([solve] sensitivities; post.sensitivity)
     sensitivity: dict | None = None
+    # per builder length: df/dp (Hz/m) and the frequency tolerance it implies ([tolerances])
+    tolerance: dict | None = None
 
 
 @dataclass(frozen=True)

@@ -15,7 +15,9 @@ A mode of the axisymmetric solver also has ``azimuthal_order``, ``field_class`` 
 TM-like, TEM-like, hybrid) and ``multiplicity`` (2 for m >= 1: the cos mφ and sin mφ pair); then the
 top level has ``axisymmetric`` (the orders solved and the DOFs of each). With [solve]
 sensitivities, each mode has ``sensitivity_hz``: ``eps_r`` and ``mu_r``, each a region ->
-df/dε_r (df/dμ_r) in Hz per unit change.
+df/dε_r (df/dμ_r) in Hz per unit change. With [tolerances], each mode has ``tolerance``:
+``df_dp_hz_per_m``, ``tolerance_m`` and ``delta_f_hz`` per length, ``worst_case_hz`` and
+``rss_hz``.
 """
 
 from __future__ import annotations
@@ -60,6 +62,8 @@ def mode_rows(result: SolveResult) -> list[dict]:
             row["extrapolated_hz"] = m.extrapolated_hz
         if getattr(m, "sensitivity", None) is not None:
             row["sensitivity_hz"] = m.sensitivity
+        if getattr(m, "tolerance", None) is not None:
+            row["tolerance"] = m.tolerance
         if m.q_dielectric_complex is not None:
             row["complex_frequency_hz"] = m.complex_frequency_hz
             row["q_dielectric_complex"] = m.q_dielectric_complex

@@ -30,7 +30,7 @@ import scipy.sparse.linalg as spla
 from ..errors import InputError
 from ..geometry.mesh import TaggedMesh
 from ..geometry.parts import Layout
-from ..geometry.solids import Box, Cylinder
+from ..geometry.solids import Box
 
 # δ relative to the part's extent for the central difference
 STEP = 1e-3
@@ -149,4 +149,48 @@ def _harmonic(mesh: TaggedMesh, n: int, known: np.ndarray, values: np.ndarray) -
     if free.size:
         rhs = -A[free][:, known] @ values
         out[free] = spla.splu(sp.csc_matrix(A[free][:, free])).solve(rhs)
+    return out
+
+
+def parameter_step(layout: Layout) -> float:
+    return STEP * layout.extent()
+
+
+def dimension_derivatives(case, result, names, progress=None) -> dict[str, list[float]]:
+    """df/dp (Hz/m) of every mode of ``result`` (a 3D solve of ``case``, one symmetry class)
+    for each builder length ``names`` (e.g. "radius", "block_corner[0]"), by central
+    differences on morphed meshes."""
+    from ..case import case_model
+    from ..geometry import builder_layout
+    from ..solver import solve_model
+    from .tracking import step_partners
+
+    g = case.geometry
+    old = builder_layout(g.builder, g.parameters)
+    mesh = result.space.model.mesh
+    step = parameter_step(old)
+    out = {}
+    for name in names:
+        key, _, index = name.partition("[")
+        frequencies = []
+        for sign in (+1, -1):
+            params = dict(g.parameters)
+            if index:
+                point = list(params[key])
+                point[int(index[:-1])] += sign * step
+                params[key] = tuple(point)
+            else:
+                params[key] = params[key] + sign * step
+            new = builder_layout(g.builder, params)
+            model = case_model(case, morph(mesh, old, new))
+            moved = solve_model(model, modes=len(result.modes) + 3, near_hz=result.near_hz,
+                                form=result.form, order=result.order)
+            partner = step_partners(result, moved)
+            successor = {int(p): j for j, p in enumerate(partner) if p >= 0}
+            frequencies.append([moved.modes[successor[k]].frequency_hz if k in successor
+                                else np.nan for k in range(len(result.modes))])
+        out[name] = [(fp - fm) / (2 * step) for fp, fm in zip(*frequencies)]
+        if progress:
+            progress.step(f"tolerances: df/d{name} from two morphed meshes (step "
+                          f"{step * 1e6:.3g} µm)")
     return out
