@@ -53,3 +53,13 @@ class Material:
 
 
 VACUUM = Material()
+
+
+def tan_delta_by_cell(materials: dict[str, Material], region_names: dict[str, int],
+                      cell_region: np.ndarray, like: np.ndarray) -> np.ndarray:
+    """tan δ of each cell's material, broadcast like ``like`` (cells first, e.g. the
+    quadrature-point arrays of a space)."""
+    out = np.zeros_like(like, dtype=float)
+    for name, rid in region_names.items():
+        out[cell_region == rid] = materials[name].tan_delta
+    return out

@@ -20,6 +20,7 @@ from .errors import InputError
 from .fem.assembly import assemble, assemble_mass, assemble_stiffness
 from .fem.gradient import GradientProjector, discrete_gradient
 from .fem.space import EdgeSpace, build_space
+from .materials import tan_delta_by_cell
 from .model import Model
 from .post.checks import ModeChecks, check_modes
 from .post.losses import LossReport, has_losses, metal_faces, mode_losses
@@ -199,10 +200,8 @@ def _complex_check(space: EdgeSpace, K, M, G, factorize, modes: list[Mode], shif
 
 def _tan_delta_at_quadrature(space: EdgeSpace) -> np.ndarray:
     tm = space.model.mesh
-    out = np.zeros_like(space.mass_coef)
-    for name, rid in tm.region_names.items():
-        out[tm.tet_region == rid] = space.model.materials[name].tan_delta
-    return out
+    return tan_delta_by_cell(space.model.materials, tm.region_names, tm.tet_region,
+                             space.mass_coef)
 
 
 def _select(ascending: np.ndarray, count: int, target: float | None) -> np.ndarray:

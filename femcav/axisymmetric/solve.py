@@ -21,6 +21,7 @@ from ..eigen.factorization import describe, get_factorizer
 from ..eigen.interface import STATIC_FRACTION, EigenRequest
 from ..errors import InputError
 from ..fem.gradient import GradientProjector
+from ..materials import tan_delta_by_cell
 from ..post.checks import ModeChecks, check_modes
 from ..post.losses import LossReport
 from ..progress import SILENT, Progress
@@ -195,7 +196,5 @@ def _complex_check(spaces: dict[int, OrderSpace], modes: list[AxisymmetricMode],
 
 def _tan_delta_at_quadrature(space: OrderSpace) -> np.ndarray:
     section = space.model.section
-    out = np.zeros_like(space.eps)
-    for name, rid in section.region_names.items():
-        out[section.tri_region == rid] = space.model.materials[name].tan_delta
-    return out
+    return tan_delta_by_cell(space.model.materials, section.region_names, section.tri_region,
+                             space.eps)

@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import json
 import math
+import multiprocessing
 import time
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, replace
@@ -213,7 +214,10 @@ def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
     try:
         if jobs > 1 and len(todo) > 1:
             tasks = [(data, path, spec.axes, points[i], folder, i) for i in todo]
-            with ProcessPoolExecutor(max_workers=jobs) as pool:
+            # "spawn", not fork: a forked child inherits the locks of the parent's BLAS,
+            # OpenMP and gmsh threads and can hang on them (seen in a long test session)
+            with ProcessPoolExecutor(max_workers=jobs,
+                                     mp_context=multiprocessing.get_context("spawn")) as pool:
                 for k, index in enumerate(pool.map(_solve_and_save, tasks), start=1):
                     progress.step(f"point {index + 1} of {len(points)} solved "
                                   f"({k} of {len(todo)}, {time.perf_counter() - t0:.1f} s)")
