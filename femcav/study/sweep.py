@@ -79,8 +79,10 @@ class PointResult:
     seconds: float
 
 
-def study_case(data: dict, path: Path, *, sweep_keys=("sweep", "tune", "extract")):
-    """The case of a study point: the tables without the study's own."""
+def study_case(data: dict, path: Path, *,
+               sweep_keys=("sweep", "tune", "extract", "tolerances")):
+    """The case of a study point: the tables without the studies' own (nor [tolerances],
+    whose extra solves a study point does not need)."""
     return case_from_data({k: v for k, v in data.items() if k not in sweep_keys}, path)
 
 
