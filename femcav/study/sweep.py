@@ -20,7 +20,6 @@ parameter, one curve per track; Q on a second panel when the case has losses).
 from __future__ import annotations
 
 import json
-import math
 import multiprocessing
 import time
 from concurrent.futures import ProcessPoolExecutor
@@ -295,7 +294,3 @@ def sweep_csv(document: dict) -> str:
                                                    else f"{v:.6g}"))
         lines.append(",".join(cells))
     return "\n".join(lines) + "\n"
-
-
-def finite(values) -> list[float]:
-    return [v for v in values if v is not None and math.isfinite(v)]
