@@ -61,6 +61,15 @@ def _parser() -> argparse.ArgumentParser:
         "[extract] table), calibrate on the empty fixture, find the sample's eps_r by "
         "Brent's method on the full model and its tan delta from the Q; report the classic "
         "small-sample perturbation estimate beside it; write extract.json.")
+    show = commands.add_parser(
+        "show", help="draw pictures of the modes in a result folder, without solving",
+        description="Draw mode_KK.png for every mode of OUTDIR (or for one) from its "
+                    "modes.json and fields.vtu: |E| on the three principal cut planes, and "
+                    "field arrows on the plane through the field's maximum.")
+    show.add_argument("folder", metavar="OUTDIR", help="a folder written by femcav solve")
+    show.add_argument("--mode", metavar="K", type=int, help="only mode K")
+    show.add_argument("--arrows", choices=("E", "H"), default="E",
+                      help="which field the arrows show (default E)")
     mesh = commands.add_parser(
         "mesh", help="mesh without solving; print quality, write mesh and picture",
         description="Mesh CASE without solving. Print the element count, the minimum element "
@@ -89,8 +98,8 @@ def main(argv: list[str] | None = None) -> int:
         _parser().print_help()
         return EXIT_INPUT_ERROR
     try:
-        return {"mesh": _mesh, "sweep": _sweep, "tune": _tune,
-                "extract": _extract}.get(args.command, _solve)(args)
+        return {"mesh": _mesh, "sweep": _sweep, "tune": _tune, "extract": _extract,
+                "show": _show}.get(args.command, _solve)(args)
     except InputError as exc:
         print(f"femcav: error: {exc}", file=sys.stderr)
         return EXIT_INPUT_ERROR
@@ -175,6 +184,14 @@ def _extract(args) -> int:
     print(f"small-sample perturbation formula: eps_r = {p['eps_r']:.6g}, "
           f"tan delta = {p['tan_delta']:.4g} (field share F = {p['field_share']:.4g})")
     print(f"results: {folder}")
+    return 0
+
+
+def _show(args) -> int:
+    from .viz.show import show
+
+    for path in show(args.folder, mode=args.mode, arrows=args.arrows):
+        print(path)
     return 0
 
 

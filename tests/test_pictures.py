@@ -1,0 +1,67 @@
+"""Mode pictures from saved results, off-screen: real PNGs of the set size that differ
+between modes, made again from a result folder without solving."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from femcav.cli import main
+from femcav.errors import InputError
+from femcav.viz.mode_picture import IMAGE_SIZE
+from femcav.viz.show import show
+
+CASE = """
+title = "Made-up test box"
+[geometry]
+builder = "box"
+width = "22.86 mm"
+height = "10.16 mm"
+length = "30 mm"
+[mesh]
+size = "3 mm"
+[solve]
+modes = 3
+"""
+
+
+@pytest.fixture(scope="module")
+def folder(tmp_path_factory):
+    where = tmp_path_factory.mktemp("pictures")
+    case = where / "box.toml"
+    case.write_text(CASE)
+    assert main(["solve", str(case), "--out", str(where / "out"), "-q"]) == 0
+    return where / "out"
+
+
+def test_show_draws_every_mode(folder, capsys):
+    from PIL import Image
+
+    assert main(["show", str(folder)]) == 0
+    paths = [folder / f"mode_{k:02d}.png" for k in (1, 2, 3)]
+    images = []
+    for path in paths:
+        with Image.open(path) as image:
+            assert image.format == "PNG" and image.size == IMAGE_SIZE
+            images.append(np.asarray(image.convert("RGB"), dtype=float))
+        assert images[-1].std() > 10          # not a blank canvas
+    # two different modes give clearly different pictures (TE101 and TE102 here)
+    assert np.abs(images[0] - images[1]).mean() > 2.0
+    assert str(paths[0]) in capsys.readouterr().out
+
+
+def test_show_one_mode_with_h_arrows(folder):
+    for name in folder.glob("mode_*.png"):
+        name.unlink()
+    written = show(folder, mode=2, arrows="H")
+    assert [p.name for p in written] == ["mode_02.png"]
+    assert not (folder / "mode_01.png").exists()
+
+
+def test_show_refuses_a_folder_without_results(tmp_path):
+    with pytest.raises(InputError, match="not a femcav result folder"):
+        show(tmp_path)
+    (tmp_path / "modes.json").write_text('{"modes": []}')
+    (tmp_path / "fields.vtu").write_text("")
+    with pytest.raises(InputError, match="not 3"):
+        show(tmp_path, mode=3)
