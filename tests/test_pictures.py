@@ -65,3 +65,30 @@ def test_show_refuses_a_folder_without_results(tmp_path):
     (tmp_path / "fields.vtu").write_text("")
     with pytest.raises(InputError, match="not 3"):
         show(tmp_path, mode=3)
+
+
+def test_spectrum_picture_and_weyl_summary(folder):
+    import json
+
+    from PIL import Image
+
+    show(folder)
+    with Image.open(folder / "spectrum.png") as image:
+        assert image.format == "PNG" and image.size[0] > 600
+    weyl = json.loads((folder / "modes.json").read_text())["weyl"]
+    assert weyl["optical_volume_m3"] == pytest.approx(0.02286 * 0.01016 * 0.030, rel=1e-9)
+    assert weyl["listed_share"] == 1.0
+
+
+def test_mode_count_approaches_weyl_from_below(tmp_path):
+    # N(k) ≈ V k³ / (3π²) (Weyl 1912, from memory); for a box the count of the closed form
+    # stays near it, mostly below (the next term is negative), and closes in as the modes
+    # grow dense: measured 0.63 to 1.02 of it from the 6th to the 120th mode.
+    from femcav.analytic.box import lowest_box_frequencies
+    from femcav.viz.spectrum import weyl_count
+
+    a, b, d = 0.02286, 0.01016, 0.030
+    frequencies = lowest_box_frequencies(a, b, d, 120)
+    ratios = np.array([(k + 1) / weyl_count(f, a * b * d) for k, f in enumerate(frequencies)])
+    assert ratios[5:].min() > 0.55 and ratios[5:].max() < 1.1
+    assert 0.85 < ratios[-20:].mean() < 1.05 and ratios[-20:].mean() > ratios[5:25].mean()

@@ -1,6 +1,6 @@
 """Pictures of a result folder, made from its saved files (modes.json and fields.vtu)
 without solving again: ``femcav show OUTDIR [--mode K]`` writes mode_KK.png for each mode
-(or the one asked for)."""
+(or the one asked for) and, for all modes, spectrum.png."""
 
 from __future__ import annotations
 
@@ -32,6 +32,11 @@ def show(folder: str | Path, *, mode: int | None = None, arrows: str = "E") -> l
     grid = pv.read(fields)
     written = []
     with staged_output(folder) as files:
+        if mode is None and modes:
+            from .spectrum import write_spectrum
+            files.write_with("spectrum.png", lambda p: write_spectrum(document, p),
+                             suffix=".png")
+            written.append(folder / "spectrum.png")
         for row in modes:
             if mode is not None and row["index"] != mode:
                 continue

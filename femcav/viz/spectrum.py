@@ -1,0 +1,85 @@
+"""The spectrum of a result folder: every mode on a frequency axis, coloured by its class,
+at its Q where the case has losses; and the count of modes below f against the Weyl
+estimate, a check that no mode is missing or spurious.
+
+Weyl's law for the electromagnetic modes of a cavity (both polarisations): the number of
+modes below wavenumber k is N(k) ≈ V k³ / (3π²), with V the volume (H. Weyl, 1912; see
+also H. P. Baltes and E. R. Hilf, Spectra of Finite Systems, 1976; from memory); in a
+dielectric, V becomes ∫ (ε_r μ_r)^(3/2) dV. It is the leading term only: the count of a
+real part stays near it, mostly below (the next terms depend on the edges; a box's closed
+form gives 0.63 to 1.02 of it from its 6th to its 120th mode), so the check is a curve to
+compare with: a count far above it means spurious modes, far below it missing ones.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import numpy as np
+from scipy.constants import c as C0
+
+from ..study.chart import MARKERS, PALETTE
+
+SIZE_INCHES = (8.0, 6.2)
+
+
+def weyl_count(frequency_hz: np.ndarray, optical_volume_m3: float) -> np.ndarray:
+    k = 2 * math.pi * np.asarray(frequency_hz) / C0
+    return optical_volume_m3 * k**3 / (3 * math.pi**2)
+
+
+def mode_class(row: dict) -> str:
+    if row.get("azimuthal_order") is not None:
+        return f"m = {row['azimuthal_order']} {row['field_class']}"
+    return row.get("symmetry") or row.get("label") or "unclassified"
+
+
+def write_spectrum(document: dict, path: Path) -> None:
+    import matplotlib
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    modes = document["modes"]
+    f = np.array([m["frequency_hz"] for m in modes]) / 1e9
+    classes = list(dict.fromkeys(mode_class(m) for m in modes))
+    has_q = any(m.get("q_total") for m in modes)
+    fig, (top, bottom) = plt.subplots(2, 1, figsize=SIZE_INCHES, sharex=True,
+                                      gridspec_kw={"height_ratios": (1, 1.2)})
+    for k, name in enumerate(classes):
+        rows = [m for m in modes if mode_class(m) == name]
+        x = [m["frequency_hz"] / 1e9 for m in rows]
+        y = [m.get("q_total") or 1.0 for m in rows] if has_q else [1.0] * len(rows)
+        top.scatter(x, y, color=PALETTE[k % len(PALETTE)], marker=MARKERS[k % len(MARKERS)],
+                    s=36, label=name, zorder=3)
+        top.vlines(x, 0 if not has_q else min(y) / 3, y, color=PALETTE[k % len(PALETTE)],
+                   linewidth=0.8, alpha=0.6)
+    if has_q:
+        top.set_yscale("log")
+        top.set_ylabel("Q (unloaded)")
+    else:
+        top.set_yticks([])
+    top.legend(fontsize=7, frameon=False, ncol=2)
+    top.set_title(f"{document.get('title', '')}: {len(modes)} modes", fontsize=10)
+    top.grid(True, color="#dddddd", linewidth=0.6)
+
+    multiplicity = np.array([m.get("multiplicity", 1) for m in modes])
+    counted = np.cumsum(multiplicity)
+    bottom.step(f, counted, where="post", color=PALETTE[0], label="modes solved (with pairs)")
+    weyl = document.get("weyl") or {}
+    if weyl.get("optical_volume_m3"):
+        grid = np.linspace(0, f.max() * 1.02, 200)
+        share = weyl.get("listed_share") or 1.0
+        bottom.plot(grid, share * weyl_count(grid * 1e9, weyl["optical_volume_m3"]),
+                    color=PALETTE[1], linestyle="--",
+                    label="Weyl estimate V k³ / 3π²" + (f" x {share:g}" if share != 1 else ""))
+        if weyl.get("note"):
+            bottom.text(0.02, 0.9, weyl["note"], transform=bottom.transAxes, fontsize=7)
+    bottom.set_xlabel("frequency (GHz)")
+    bottom.set_ylabel("number of modes below f")
+    bottom.legend(fontsize=8, frameon=False, loc="upper left" if not weyl.get("note")
+                  else "center left")
+    bottom.grid(True, color="#dddddd", linewidth=0.6)
+    fig.tight_layout()
+    fig.savefig(path, dpi=110, format="png")
+    plt.close(fig)
