@@ -38,6 +38,8 @@ def _parser() -> argparse.ArgumentParser:
     solve.add_argument("--method", choices=("auto", "direct", "iterative"),
                        help="eigen backend (overrides the case; auto: by request and size, "
                             "the choice and its reason are printed)")
+    solve.add_argument("--no-report", action="store_true",
+                       help="skip the pictures and report.html (femcav show makes them later)")
     solve.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
     sweep = _study_parser(
         commands, "sweep",
@@ -128,6 +130,8 @@ def _solve(args) -> int:
     if result.static_fields_dropped:
         print(f"({result.static_fields_dropped} static field(s) at zero frequency left out)")
     print(f"results: {folder}")
+    if not args.no_report:
+        _report(folder, quiet=args.quiet)
     if not result.passed:
         print("femcav: warning: at least one mode FAILED its checks; do not trust those "
               "frequencies (see the check column)", file=sys.stderr)
@@ -185,6 +189,26 @@ def _extract(args) -> int:
           f"tan delta = {p['tan_delta']:.4g} (field share F = {p['field_share']:.4g})")
     print(f"results: {folder}")
     return 0
+
+
+def _report(folder, *, quiet: bool) -> None:
+    """Pictures and report.html after a solve; the results are already safe, so a failure
+    here is a warning, not an error."""
+    import time
+
+    from .viz.show import show
+
+    t0 = time.perf_counter()
+    try:
+        show(folder)
+    except Exception as exc:  # noqa: BLE001 - rendering must never cost the results
+        print(f"femcav: warning: pictures and report not made ({type(exc).__name__}: {exc}); "
+              f"try femcav show {folder}", file=sys.stderr)
+        return
+    if not quiet:
+        print(f"[report] pictures and report.html in {time.perf_counter() - t0:.1f} s",
+              file=sys.stderr)
+    print(f"report: {folder / 'report.html'}")
 
 
 def _show(args) -> int:

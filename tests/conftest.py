@@ -78,3 +78,14 @@ def sorted_rows(a):
     """The rows of a 2D array in lexicographic order: compares point sets whatever their
     numbering (the mesh reader renumbers vertices)."""
     return a[np.lexsort(a.T[::-1])]
+
+
+def solved_folder(where: Path, case_text: str, *options: str) -> Path:
+    """Write ``case_text`` to where/case.toml, run ``femcav solve`` on it (with ``options``)
+    and return the result folder."""
+    from femcav.cli import main
+
+    case = where / "case.toml"
+    case.write_text(case_text)
+    assert main(["solve", str(case), "--out", str(where / "out"), "-q", *options]) == 0
+    return where / "out"

@@ -27,11 +27,8 @@ modes = 3
 
 @pytest.fixture(scope="module")
 def folder(tmp_path_factory):
-    where = tmp_path_factory.mktemp("pictures")
-    case = where / "box.toml"
-    case.write_text(CASE)
-    assert main(["solve", str(case), "--out", str(where / "out"), "-q"]) == 0
-    return where / "out"
+    from conftest import solved_folder
+    return solved_folder(tmp_path_factory.mktemp("pictures"), CASE, "--no-report")
 
 
 def test_show_draws_every_mode(folder, capsys):

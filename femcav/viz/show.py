@@ -1,6 +1,7 @@
 """Pictures of a result folder, made from its saved files (modes.json and fields.vtu)
 without solving again: ``femcav show OUTDIR [--mode K]`` writes mode_KK.png for each mode
-(or the one asked for) and, for all modes, spectrum.png."""
+(or the one asked for) and, for all modes, spectrum.png and report.html (one page with
+the table, the pictures and the checks)."""
 
 from __future__ import annotations
 
@@ -50,4 +51,11 @@ def show(folder: str | Path, *, mode: int | None = None, arrows: str = "E") -> l
             files.write_with(name, lambda p, r=row, t=title: draw_mode_picture(
                 grid, r["index"], t, p, arrows=arrows), suffix=".png")
             written.append(folder / name)
+    if mode is None:
+        from .report import write_report
+
+        pictures = {p.stem: p for p in written}
+        with staged_output(folder) as files:
+            files.write_with("report.html", lambda p: write_report(document, pictures, p))
+        written.append(folder / "report.html")
     return written

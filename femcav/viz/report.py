@@ -1,0 +1,121 @@
+"""report.html: one self-contained page per result folder (no network; the pictures are
+embedded as data URIs), from modes.json and the pictures that femcav.viz.show draws.
+
+Sections: the caution, the case summary (geometry source, element order and form, DOFs,
+elements, solver and timings, the Weyl check), the mode table, the spectrum, each mode's
+picture, and the limits of the per-mode checks.
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+from pathlib import Path
+
+from ..units import format_frequency
+
+CAUTION = ("Results are engineering estimates from a finite-element model: check them "
+           "against measurement before relying on them. High-power RF and microwave exposure, "
+           "pressure vessels and cryogenics are for licensed practice under local codes.")
+
+STYLE = """
+body { font-family: system-ui, sans-serif; margin: 2em auto; max-width: 70em; color: #1e2328;
+       background: #f6f5f1; line-height: 1.4; }
+h1 { font-size: 1.5em; } h2 { font-size: 1.15em; margin-top: 1.6em; }
+.caution { border-left: 4px solid #d55e00; padding: 0.4em 0.8em; background: #fff; }
+table { border-collapse: collapse; background: #fff; font-size: 0.9em; }
+th, td { border: 1px solid #c8c6bd; padding: 0.25em 0.6em; text-align: right; }
+th { background: #e8e6df; } td.text { text-align: left; }
+.failed { color: #b00020; font-weight: 600; }
+figure { margin: 1em 0; } img { max-width: 100%; border: 1px solid #c8c6bd; }
+figcaption { font-size: 0.9em; }
+"""
+
+
+def _image(path: Path, alt: str) -> str:
+    data = base64.b64encode(path.read_bytes()).decode("ascii")
+    return f'<img src="data:image/png;base64,{data}" alt="{html.escape(alt)}">'
+
+
+def _cell(value, digits: str = ".5g") -> str:
+    return "-" if value is None else format(value, digits)
+
+
+def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
+    """``pictures``: "spectrum" and "mode_KK" -> PNG paths (those that exist are embedded)."""
+    e = html.escape
+    modes = document.get("modes", [])
+    axisymmetric = any(m.get("azimuthal_order") is not None for m in modes)
+    bars = any(m.get("error_estimate_hz") is not None for m in modes)
+    lossy = any(m.get("q_total") is not None for m in modes)
+    head = ["mode", "frequency"] + (["± error"] if bars else []) + (
+        ["m", "class"] if axisymmetric else []) + (["symmetry"] if any(
+            m.get("symmetry") for m in modes) else []) + (
+        ["Q wall", "Q dielectric", "Q total"] if lossy else []) + [
+        "residual", "divergence", "orthogonality", "check"]
+    rows = []
+    for m in modes:
+        cells = [str(m["index"]), e(format_frequency(m["frequency_hz"], 9))]
+        if bars:
+            bar = m.get("error_estimate_hz")
+            cells.append("-" if bar is None else e(format_frequency(bar, 3)))
+        if axisymmetric:
+            cells += [str(m.get("azimuthal_order")), f'<span>{e(str(m.get("field_class")))}</span>']
+        if "symmetry" in head:
+            cells.append(e(m.get("symmetry") or ""))
+        if lossy:
+            cells += [_cell(m.get("q_wall")), _cell(m.get("q_dielectric")),
+                      _cell(m.get("q_total"))]
+        cells += [_cell(m["residual"], ".1e"), _cell(m["divergence"], ".1e"),
+                  _cell(m["orthogonality"], ".1e"),
+                  "ok" if m["passed"] else '<span class="failed">FAILED</span>']
+        rows.append("<tr>" + "".join(f"<td>{c}</td>" for c in cells) + "</tr>")
+    table = ("<table><thead><tr>" + "".join(f"<th>{e(h)}</th>" for h in head)
+             + "</tr></thead><tbody>" + "".join(rows) + "</tbody></table>")
+
+    timings = ", ".join(f"{e(k)} {v:.2f} s" for k, v in (document.get("timings_s") or {}).items())
+    weyl = document.get("weyl") or {}
+    summary = [
+        ("case file", document.get("case") or "-"),
+        ("field form and element order", f"{document.get('form')}, order {document.get('order')}"),
+        ("unknowns (DOFs)", str(document.get("dofs"))),
+        ("elements", str(document.get("elements"))),
+        ("sparse direct library", document.get("factorization") or "-"),
+        ("timings", timings or "-"),
+        ("all checks passed", "yes" if document.get("checks_passed") else "NO"),
+        ("optical volume for the Weyl check",
+         f"{weyl['optical_volume_m3'] * 1e6:.5g} cm³" if weyl.get("optical_volume_m3") else "-"),
+    ]
+    if document.get("axisymmetric"):
+        summary.append(("azimuthal orders solved",
+                        ", ".join(map(str, document["axisymmetric"]["azimuthal_orders"]))))
+    summary_html = "<table>" + "".join(
+        f'<tr><th>{e(k)}</th><td class="text">{e(v)}</td></tr>' for k, v in summary) + "</table>"
+
+    figures = []
+    if "spectrum" in pictures and pictures["spectrum"].is_file():
+        figures.append("<h2>Spectrum</h2><figure>" + _image(pictures["spectrum"], "spectrum")
+                       + "<figcaption>Every mode by class (at its Q where known); the count "
+                       "of modes below f against Weyl's estimate V k³ / 3π².</figcaption>"
+                       "</figure>")
+    mode_figures = []
+    for m in modes:
+        picture = pictures.get(f"mode_{m['index']:02d}")
+        if picture is not None and picture.is_file():
+            caption = f"Mode {m['index']}: {format_frequency(m['frequency_hz'], 7)}"
+            mode_figures.append(f"<figure>{_image(picture, caption)}<figcaption>{e(caption)}"
+                                "</figcaption></figure>")
+    if mode_figures:
+        figures.append("<h2>Fields</h2>" + "".join(mode_figures))
+    limits = document.get("limits") or {}
+    checks = ("<p>Each mode is checked: relative residual ‖Kx − λMx‖/‖λMx‖ ≤ "
+              f"{limits.get('residual', '-')}, gradient (divergence) content ≤ "
+              f"{limits.get('divergence', '-')}, largest M-inner product with another mode ≤ "
+              f"{limits.get('orthogonality', '-')}. A mode outside them is marked FAILED.</p>")
+    title = document.get("title") or "femcav results"
+    page = ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
+            f"<title>{e(title)}</title>\n<style>{STYLE}</style>\n</head>\n<body>\n"
+            f"<h1>{e(title)}</h1>\n<p class=\"caution\">{e(CAUTION)}</p>\n"
+            f"<h2>Case</h2>\n{summary_html}\n<h2>Modes</h2>\n{table}\n"
+            + "\n".join(figures) + f"\n<h2>Checks</h2>\n{checks}\n</body>\n</html>\n")
+    path.write_text(page, encoding="utf-8")
