@@ -188,6 +188,7 @@ def solve_case(case: Case, settings, progress: Progress = SILENT):
             raise exc.located(source=str(case.path)) from None
     if settings.sensitivities:
         labelled = [(label, _with_sensitivities(r)) for label, r in labelled]
+    labelled = [(label, _with_labels(case, r)) for label, r in labelled]
     result = (labelled[0][1] if len(labelled) == 1 and not labelled[0][0]
               else merge_classes(labelled, settings.modes, settings.near_hz))
     if settings.accuracy is not None:
@@ -213,6 +214,46 @@ def _with_tolerances(case: Case, result: SolveResult, progress: Progress) -> Sol
             "tolerance_m": dict(case.tolerances), "delta_f_hz": spread,
             "worst_case_hz": sum(spread.values()),
             "rss_hz": math.sqrt(sum(v * v for v in spread.values()))}))
+    return replace(result, modes=modes)
+
+
+def _with_labels(case: Case, result: SolveResult) -> SolveResult:
+    """Mode labels from the fields (post.classify) for boxes and uncut bodies of revolution;
+    other parts keep none."""
+    import numpy as np
+
+    from .geometry import builder_layout
+    from .geometry.section import axisymmetric_layout_check
+    from .post import classify
+    from .post.fields import centroid_materials, mode_fields
+
+    g = case.geometry
+    if g.builder is None:
+        return result
+    if g.builder == "box" and not case.symmetry:
+        def label(points, w, f):
+            return classify.box_label(points, w, f.E, f.H, (g.parameters["width"],
+                                                            g.parameters["height"],
+                                                            g.parameters["length"]))
+    elif not case.symmetry:
+        try:
+            axisymmetric_layout_check(builder_layout(g.builder, g.parameters))
+        except InputError:
+            return result
+
+        def label(points, w, f):
+            return classify.azimuthal_label(points, w, f.E, f.H)
+    else:
+        return result
+    space = result.space
+    mesh = space.model.mesh
+    points = mesh.points[mesh.tets].mean(axis=1)
+    w = np.abs(mesh.tet_volumes())
+    materials = centroid_materials(space)
+    modes = []
+    for mode in result.modes:
+        fields = mode_fields(space, mode.dofs, 2 * math.pi * mode.frequency_hz, materials)
+        modes.append(replace(mode, label=label(points, w, fields)))
     return replace(result, modes=modes)
 
 

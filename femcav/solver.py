@@ -45,6 +45,7 @@ class Mode:
     sensitivity: dict | None = None
     # per builder length: df/dp (Hz/m) and the frequency tolerance it implies ([tolerances])
     tolerance: dict | None = None
+    label: str | None = None      # from the field (post.classify), e.g. "TE101"
 
 
 @dataclass(frozen=True)

@@ -64,6 +64,8 @@ def mode_rows(result: SolveResult) -> list[dict]:
             row["sensitivity_hz"] = m.sensitivity
         if getattr(m, "tolerance", None) is not None:
             row["tolerance"] = m.tolerance
+        if getattr(m, "label", None) is not None:
+            row["label"] = m.label
         if m.q_dielectric_complex is not None:
             row["complex_frequency_hz"] = m.complex_frequency_hz
             row["q_dielectric_complex"] = m.q_dielectric_complex

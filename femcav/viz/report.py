@@ -48,8 +48,10 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
     axisymmetric = any(m.get("azimuthal_order") is not None for m in modes)
     bars = any(m.get("error_estimate_hz") is not None for m in modes)
     lossy = any(m.get("q_total") is not None for m in modes)
+    labels = any(m.get("label") for m in modes)
     head = ["mode", "frequency"] + (["± error"] if bars else []) + (
-        ["m", "class"] if axisymmetric else []) + (["symmetry"] if any(
+        ["m", "class"] if axisymmetric else []) + (["label"] if labels else []) + (
+        ["symmetry"] if any(
             m.get("symmetry") for m in modes) else []) + (
         ["Q wall", "Q dielectric", "Q total"] if lossy else []) + [
         "residual", "divergence", "orthogonality", "check"]
@@ -61,6 +63,8 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
             cells.append("-" if bar is None else e(format_frequency(bar, 3)))
         if axisymmetric:
             cells += [str(m.get("azimuthal_order")), f'<span>{e(str(m.get("field_class")))}</span>']
+        if labels:
+            cells.append(e(m.get("label") or "unclassified"))
         if "symmetry" in head:
             cells.append(e(m.get("symmetry") or ""))
         if lossy:
