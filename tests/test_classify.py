@@ -6,7 +6,6 @@ from __future__ import annotations
 
 from pathlib import Path
 
-
 from femcav.analytic.box import box_modes
 from femcav.case import case_from_data
 from femcav.runner import solve_case
