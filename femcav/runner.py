@@ -268,7 +268,28 @@ def _with_sensitivities(result: SolveResult) -> SolveResult:
 def _write_tables(files, case: Case, result) -> None:
     files.write_text("table.txt", to_table(result) + "\n")
     files.write_text("modes.csv", to_csv(result))
-    files.write_text("modes.json", to_json(result, title=case.title, case=str(case.path)))
+    files.write_text("modes.json", to_json(result, title=case.title, case=str(case.path),
+                                           model=model_summary(case, result)))
+
+
+def model_summary(case: Case, result) -> dict:
+    """What the part is, for the report: geometry, regions with their materials, walls."""
+    g = case.geometry
+    geometry = ({"builder": g.builder, "parameters": {k: (list(v) if isinstance(v, tuple) else v)
+                                                      for k, v in g.parameters.items()}}
+                if g.builder else {"mesh": str(g.mesh_path), "unit_m": g.mesh_unit_m})
+    if settings_orders := case.solve.azimuthal_orders:
+        geometry["section"] = f"meridional, azimuthal orders {list(settings_orders)}"
+    regions = {}
+    for name, material in case.regions.items():
+        regions[name] = {"eps_r": "expression" if callable(material.eps_r)
+                         else material.eps_r, "mu_r": material.mu_r,
+                         "tan_delta": material.tan_delta}
+    walls = {name: {"kind": w.kind, "conductivity_s_per_m": w.conductivity,
+                    "metal": w.metal, "roughness_m": w.roughness}
+             for name, w in case.walls.items()}
+    return {"geometry": geometry, "regions": regions, "walls": walls,
+            "symmetry": {axis: list(kinds) for axis, kinds in case.symmetry.items()}}
 
 
 def _solve_axisymmetric(case: Case, settings, progress: Progress):

@@ -66,6 +66,7 @@ def test_report_is_well_formed_and_self_contained(report):
     assert all(i["src"].startswith("data:image/png;base64,") for i in parser.images)
     assert "http://" not in text and "https://" not in text   # nothing to fetch
     assert "engineering estimates" in text
+    assert "wall x_min" in text and "copper" in text and "box: width = 22.86 mm" in text
     assert parser.rows >= 3 + 1
 
 

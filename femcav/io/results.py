@@ -17,7 +17,8 @@ top level has ``axisymmetric`` (the orders solved and the DOFs of each). With [s
 sensitivities, each mode has ``sensitivity_hz``: ``eps_r`` and ``mu_r``, each a region ->
 df/dε_r (df/dμ_r) in Hz per unit change. With [tolerances], each mode has ``tolerance``:
 ``df_dp_hz_per_m``, ``tolerance_m`` and ``delta_f_hz`` per length, ``worst_case_hz`` and
-``rss_hz``.
+``rss_hz``. ``weyl`` holds the optical volume for the mode-count check and ``model`` the
+part (geometry, regions with their materials, walls, symmetry) when written by a case run.
 """
 
 from __future__ import annotations
@@ -81,7 +82,8 @@ def _is_axisymmetric(result) -> bool:
     return any(getattr(m, "m", None) is not None for m in result.modes)
 
 
-def to_json(result: SolveResult, *, title: str, case: str | None) -> str:
+def to_json(result: SolveResult, *, title: str, case: str | None,
+            model: dict | None = None) -> str:
     request = result.request
     document = {
         "format": FORMAT_NAME, "format_version": FORMAT_VERSION, "title": title, "case": case,
@@ -100,6 +102,8 @@ def to_json(result: SolveResult, *, title: str, case: str | None) -> str:
     if result.classes:
         document["symmetry_classes"] = result.classes
     document["weyl"] = weyl_summary(result)
+    if model is not None:
+        document["model"] = model
     if getattr(result, "dofs_by_order", None):
         document["axisymmetric"] = {"azimuthal_orders": list(result.dofs_by_order),
                                     "dofs_by_order": {str(k): v for k, v

@@ -37,6 +37,12 @@ def _image(path: Path, alt: str) -> str:
     return f'<img src="data:image/png;base64,{data}" alt="{html.escape(alt)}">'
 
 
+def _length(value) -> str:
+    if isinstance(value, list):
+        return "(" + ", ".join(_length(v) for v in value) + ")"
+    return f"{value * 1e3:.6g} mm" if isinstance(value, (int, float)) else str(value)
+
+
 def _cell(value, digits: str = ".5g") -> str:
     return "-" if value is None else format(value, digits)
 
@@ -93,6 +99,27 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
     if document.get("axisymmetric"):
         summary.append(("azimuthal orders solved",
                         ", ".join(map(str, document["axisymmetric"]["azimuthal_orders"]))))
+    model = document.get("model") or {}
+    geometry = model.get("geometry") or {}
+    if geometry.get("builder"):
+        params = ", ".join(f"{k} = {_length(v)}" for k, v in geometry["parameters"].items()
+                           if v is not None)
+        summary.insert(1, ("geometry", f"{geometry['builder']}: {params}"
+                           + (f"; {geometry['section']}" if geometry.get("section") else "")))
+    elif geometry.get("mesh"):
+        summary.insert(1, ("geometry", f"imported mesh {geometry['mesh']}"))
+    for name, m in (model.get("regions") or {}).items():
+        material = f"eps_r {m['eps_r']}, mu_r {m['mu_r']}, tan delta {m['tan_delta']}"
+        summary.append((f"region {name}", material))
+    for name, w in (model.get("walls") or {}).items():
+        what = (w["kind"].upper() if w["kind"] != "metal" else
+                f"metal{', ' + w['metal'] if w['metal'] else ''}, "
+                f"{w['conductivity_s_per_m'] / 1e6:.4g} MS/m")
+        summary.append((f"wall {name}", what))
+    if model.get("symmetry"):
+        summary.append(("symmetry cuts", ", ".join(f"{a}: {'/'.join(k)}"
+                                                  for a, k in model["symmetry"].items())))
+    summary.append(("unnamed boundaries", "PEC (the metal enclosure)"))
     summary_html = "<table>" + "".join(
         f'<tr><th>{e(k)}</th><td class="text">{e(v)}</td></tr>' for k, v in summary) + "</table>"
 
