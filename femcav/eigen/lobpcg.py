@@ -25,7 +25,9 @@ times of the eigen solve with the gradient projector, peak resident memory of th
 3e-14. At these sizes the factorisation is still cheaper; this backend's cost grows about
 linearly with the DOFs and its memory has no fill-in (HX set-up adds ~3 kB per DOF at peak).
 After the mesh reader's locality renumbering (benchmarks/scale.py, box, one thread): 50k DOFs
-6.6 s against 3.1 s (PARDISO), 200k 40.1 s against 22.1 s, 1M 338 s, 33 iterations, 6.3 GB.
+6.6 s against 3.1 s (PARDISO), 200k 40.1 s against 22.1 s, 1M 338 s, 33 iterations, 6.3 GB;
+with the second orthogonalisation pass only where needed and the hybrid HX cycle: 5.7 s,
+29.7 s, and 236 s at 1M (PARDISO 2.6, 17.8, 224 s).
 
 Deflation: the gradients G p are exact eigenvectors with eigenvalue 0 and would be found first.
 The start block and every preconditioned residual are made M-orthogonal to range(G) with
