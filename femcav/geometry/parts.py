@@ -160,16 +160,7 @@ def _name_walls(gmsh, layout: Layout, cuts: dict[str, float], tol: float) -> dic
 def _set_sizes(gmsh, layout: Layout, sizing: Sizing, region_of: dict[int, str],
                walls: dict[int, str]) -> None:
     """A background field: the smallest of the per-region sizes and the edge refinement."""
-    field_ids = []
-    for region in dict.fromkeys(region_of.values()):
-        size = min(sizing.size, sizing.region_sizes.get(region, math.inf))
-        f = gmsh.model.mesh.field.add("Constant")
-        gmsh.model.mesh.field.setNumbers(f, "VolumesList",
-                                         [t for t, r in region_of.items() if r == region])
-        gmsh.model.mesh.field.setNumber(f, "VIn", size)
-        gmsh.model.mesh.field.setNumber(f, "VOut", 1e22)
-        gmsh.model.mesh.field.setNumber(f, "IncludeBoundary", 1)
-        field_ids.append(f)
+    field_ids = region_size_fields(gmsh, sizing, region_of, "VolumesList")
     metal_names = {n for n, _ in layout.metal}
     metal_faces = [t for t, w in walls.items() if w in metal_names]
     near = sizing.size * sizing.edge_factor
@@ -188,10 +179,32 @@ def _set_sizes(gmsh, layout: Layout, sizing: Sizing, region_of: dict[int, str],
         gmsh.model.mesh.field.setNumber(threshold, "DistMin", near)
         gmsh.model.mesh.field.setNumber(threshold, "DistMax", 4 * sizing.size)
         field_ids.append(threshold)
+    use_smallest(gmsh, field_ids, sizing.size, ("Algorithm3D", 1))
+
+
+def region_size_fields(gmsh, sizing: Sizing, region_of: dict[int, str], entities: str
+                       ) -> list[int]:
+    """One constant size field per region (its own size or the global one, the smaller)
+    over its entities (``entities``: "VolumesList" in 3D, "SurfacesList" in 2D)."""
+    fields = []
+    for region in dict.fromkeys(region_of.values()):
+        f = gmsh.model.mesh.field.add("Constant")
+        gmsh.model.mesh.field.setNumbers(f, entities,
+                                         [t for t, r in region_of.items() if r == region])
+        gmsh.model.mesh.field.setNumber(f, "VIn", min(sizing.size,
+                                                      sizing.region_sizes.get(region, math.inf)))
+        gmsh.model.mesh.field.setNumber(f, "VOut", 1e22)
+        gmsh.model.mesh.field.setNumber(f, "IncludeBoundary", 1)
+        fields.append(f)
+    return fields
+
+
+def use_smallest(gmsh, fields: list[int], size: float, algorithm: tuple[str, int]) -> None:
+    """The smallest of ``fields`` as the background size, and nothing else sizing the mesh."""
     smallest = gmsh.model.mesh.field.add("Min")
-    gmsh.model.mesh.field.setNumbers(smallest, "FieldsList", field_ids)
+    gmsh.model.mesh.field.setNumbers(smallest, "FieldsList", fields)
     gmsh.model.mesh.field.setAsBackgroundMesh(smallest)
     for option, value in (("MeshSizeFromPoints", 0), ("MeshSizeFromCurvature", 0),
-                          ("MeshSizeExtendFromBoundary", 0), ("MeshSizeMax", sizing.size),
-                          ("MeshSizeMin", 0.0), ("Algorithm3D", 1)):
+                          ("MeshSizeExtendFromBoundary", 0), ("MeshSizeMax", size),
+                          ("MeshSizeMin", 0.0), algorithm):
         gmsh.option.setNumber(f"Mesh.{option}", value)

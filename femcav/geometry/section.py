@@ -17,7 +17,7 @@ import numpy as np
 from ..errors import InputError
 from .gmsh_session import gmsh_model
 from .meridional import AXIS, MeridionalMesh, checked_section
-from .parts import Layout, Sizing, fragment_by_fills
+from .parts import Layout, Sizing, fragment_by_fills, region_size_fields, use_smallest
 from .solids import Cylinder
 
 
@@ -123,7 +123,7 @@ def _singular_corners(gmsh, region_of: dict[int, str], size: float) -> list[int]
 
 
 def _set_sizes(gmsh, sizing: Sizing, region_of: dict[int, str]) -> None:
-    fields = []
+    fields = region_size_fields(gmsh, sizing, region_of, "SurfacesList")
     corners = _singular_corners(gmsh, region_of, sizing.size)
     if corners and CORNER_FACTOR < 1:
         distance = gmsh.model.mesh.field.add("Distance")
@@ -135,23 +135,7 @@ def _set_sizes(gmsh, sizing: Sizing, region_of: dict[int, str]) -> None:
         gmsh.model.mesh.field.setNumber(threshold, "DistMin", 0.0)
         gmsh.model.mesh.field.setNumber(threshold, "DistMax", CORNER_REACH * sizing.size)
         fields.append(threshold)
-    for region in dict.fromkeys(region_of.values()):
-        f = gmsh.model.mesh.field.add("Constant")
-        gmsh.model.mesh.field.setNumbers(f, "SurfacesList",
-                                         [t for t, r in region_of.items() if r == region])
-        gmsh.model.mesh.field.setNumber(f, "VIn",
-                                        min(sizing.size, sizing.region_sizes.get(region,
-                                                                                 math.inf)))
-        gmsh.model.mesh.field.setNumber(f, "VOut", 1e22)
-        gmsh.model.mesh.field.setNumber(f, "IncludeBoundary", 1)
-        fields.append(f)
-    smallest = gmsh.model.mesh.field.add("Min")
-    gmsh.model.mesh.field.setNumbers(smallest, "FieldsList", fields)
-    gmsh.model.mesh.field.setAsBackgroundMesh(smallest)
-    for option, value in (("MeshSizeFromPoints", 0), ("MeshSizeFromCurvature", 0),
-                          ("MeshSizeExtendFromBoundary", 0), ("MeshSizeMax", sizing.size),
-                          ("MeshSizeMin", 0.0), ("Algorithm", 6)):
-        gmsh.option.setNumber(f"Mesh.{option}", value)
+    use_smallest(gmsh, fields, sizing.size, ("Algorithm", 6))
 
 
 def _read(gmsh, region_of: dict[int, str], walls: dict[int, str], source: str
