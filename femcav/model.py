@@ -9,19 +9,16 @@ import numpy as np
 from .errors import InputError
 from .geometry.mesh import TaggedMesh
 from .materials import Material
-from .walls import KINDS, METAL, Wall, kind_of
+from .walls import KINDS, METAL, Wall, WallKinds
 
 FORMS = ("E", "H")
 
 
 @dataclass(frozen=True)
-class Model:
+class Model(WallKinds):
     mesh: TaggedMesh
     materials: dict[str, Material]
     walls: dict[str, Wall] = field(default_factory=dict)
-
-    def wall_kind(self, wall_name: str) -> str:
-        return kind_of(self.walls, wall_name)
 
 
 def make_model(mesh: TaggedMesh, materials: dict[str, Material], walls: dict[str, Wall],

@@ -225,7 +225,7 @@ def _with_labels(case: Case, result: SolveResult) -> SolveResult:
     from .geometry import builder_layout
     from .geometry.section import axisymmetric_layout_check
     from .post import classify
-    from .post.fields import centroid_materials, mode_fields
+    from .post.fields import centroid_basis, centroid_materials, mode_fields
 
     g = case.geometry
     if g.builder is None:
@@ -249,10 +249,11 @@ def _with_labels(case: Case, result: SolveResult) -> SolveResult:
     mesh = space.model.mesh
     points = mesh.points[mesh.tets].mean(axis=1)
     w = np.abs(mesh.tet_volumes())
-    materials = centroid_materials(space)
+    materials, basis = centroid_materials(space), centroid_basis(space)
     modes = []
     for mode in result.modes:
-        fields = mode_fields(space, mode.dofs, 2 * math.pi * mode.frequency_hz, materials)
+        fields = mode_fields(space, mode.dofs, 2 * math.pi * mode.frequency_hz, materials,
+                             basis)
         modes.append(replace(mode, label=label(points, w, fields)))
     return replace(result, modes=modes)
 

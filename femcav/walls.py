@@ -33,3 +33,12 @@ def essential_kinds(form: str) -> tuple[str, ...]:
 def kind_of(walls: dict[str, Wall], name: str) -> str:
     """The kind of the wall ``name``; an unnamed or unlisted boundary is DEFAULT_KIND."""
     return walls.get(name, Wall(DEFAULT_KIND)).kind
+
+
+class WallKinds:
+    """``wall_kind`` for a model (3D or axisymmetric) with a ``walls`` mapping."""
+
+    walls: dict[str, Wall]
+
+    def wall_kind(self, wall_name: str) -> str:
+        return kind_of(self.walls, wall_name)

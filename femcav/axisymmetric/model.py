@@ -11,20 +11,17 @@ import numpy as np
 from ..errors import InputError
 from ..geometry.meridional import AXIS, MeridionalMesh
 from ..materials import Material
-from ..walls import KINDS, METAL, Wall, kind_of
+from ..walls import KINDS, METAL, Wall, WallKinds
 
 # eps_r(r cos φ, r sin φ, z) must not depend on φ by more than this, relatively
 ROTATION_TOLERANCE = 1e-9
 
 
 @dataclass(frozen=True)
-class AxisymmetricModel:
+class AxisymmetricModel(WallKinds):
     section: MeridionalMesh
     materials: dict[str, Material]
     walls: dict[str, Wall] = field(default_factory=dict)
-
-    def wall_kind(self, wall_name: str) -> str:
-        return kind_of(self.walls, wall_name)
 
 
 def make_axisymmetric_model(section: MeridionalMesh, materials: dict[str, Material],

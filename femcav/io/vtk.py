@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 from pathlib import Path
 
-from ..post.fields import centroid_materials, mode_fields
+from ..post.fields import centroid_basis, centroid_materials, mode_fields
 from ..solver import SolveResult
 
 
@@ -21,9 +21,11 @@ def write_vtu(result: SolveResult, path: Path) -> None:
     space = result.space
     tm = space.model.mesh
     materials = centroid_materials(space)
+    basis = centroid_basis(space)
     data = {"region": [tm.tet_region.astype("int32")]}
     for mode in result.modes:
-        fields = mode_fields(space, mode.dofs, 2 * math.pi * mode.frequency_hz, materials)
+        fields = mode_fields(space, mode.dofs, 2 * math.pi * mode.frequency_hz, materials,
+                             basis)
         tag = f"m{mode.index:02d}"
         data[f"{tag}_E"] = [fields.E]
         data[f"{tag}_H"] = [fields.H]

@@ -38,12 +38,20 @@ def centroid_materials(space: EdgeSpace) -> tuple[np.ndarray, np.ndarray]:
     return eps, mu
 
 
-def mode_fields(space: EdgeSpace, dofs: np.ndarray, omega: float,
-                materials: tuple[np.ndarray, np.ndarray] | None = None) -> CentroidFields:
-    """Fields of one mode; ``dofs`` are over all edges and M-normalised (xᵀ M x = 1)."""
+def centroid_basis(space: EdgeSpace):
+    """The space's basis at the element centroids (one point per element). Build it once
+    for all the modes of a result: it costs about 15 interpolations (0.3 s at 50k DOFs)."""
     from skfem import Basis
 
-    centroid = Basis(space.mesh, space.basis.elem, intorder=1)
+    return Basis(space.mesh, space.basis.elem, intorder=1)
+
+
+def mode_fields(space: EdgeSpace, dofs: np.ndarray, omega: float,
+                materials: tuple[np.ndarray, np.ndarray] | None = None,
+                basis=None) -> CentroidFields:
+    """Fields of one mode; ``dofs`` are over all edges and M-normalised (xᵀ M x = 1);
+    ``basis`` is centroid_basis(space), built here when not given."""
+    centroid = centroid_basis(space) if basis is None else basis
     field = centroid.interpolate(dofs)
     value = np.asarray(field)[:, :, 0].T
     curl = field.curl[:, :, 0].T
