@@ -11,7 +11,7 @@ import numpy as np
 from scipy.constants import c as C0
 
 from .eigen import selection, shift_invert
-from .eigen.complex_shift_invert import complex_eigenvalues
+from .eigen.complex_shift_invert import complex_eigenvalues, with_complex_frequencies
 from .eigen.factorization import describe, get_factorizer, library
 from .eigen.interface import STATIC_FRACTION, EigenRequest
 from .eigen.memory import format_bytes
@@ -189,14 +189,7 @@ def _complex_check(space: EdgeSpace, K, M, G, factorize, modes: list[Mode], shif
         K_c, M_c = K_re + 1j * K_im, M.astype(complex)
     values = complex_eigenvalues(K_c, M_c, G.astype(complex), factorize, shift=shift,
                                  count=len(modes) + max(4, len(modes) // 2))
-    omegas = C0 * np.sqrt(values)
-    out = []
-    for mode in modes:
-        w = omegas[np.argmin(np.abs(omegas.real - 2 * math.pi * mode.frequency_hz))]
-        q = w.real / (2 * abs(w.imag)) if w.imag != 0 else math.inf
-        out.append(replace(mode, complex_frequency_hz=float(w.real / (2 * math.pi)),
-                           q_dielectric_complex=float(q)))
-    return out
+    return with_complex_frequencies(modes, values)
 
 
 def _tan_delta_at_quadrature(space: EdgeSpace) -> np.ndarray:

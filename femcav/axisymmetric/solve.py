@@ -10,13 +10,13 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy.constants import c as C0
 
 from ..eigen import shift_invert
-from ..eigen.complex_shift_invert import complex_eigenvalues
+from ..eigen.complex_shift_invert import complex_eigenvalues, with_complex_frequencies
 from ..eigen.factorization import describe, get_factorizer
 from ..eigen.interface import STATIC_FRACTION, EigenRequest
 from ..errors import InputError
@@ -185,12 +185,7 @@ def _complex_check(spaces: dict[int, OrderSpace], modes: list[AxisymmetricMode],
         G = kernel_basis(space).astype(complex)
         values = complex_eigenvalues(K.astype(complex), M - 1j * M_loss, G, factorize,
                                      shift=-scale, count=len(own) + max(4, len(own) // 2))
-        omegas = C0 * np.sqrt(values)
-        for mode in own:
-            w = omegas[np.argmin(np.abs(omegas.real - 2 * math.pi * mode.frequency_hz))]
-            q = w.real / (2 * abs(w.imag)) if w.imag != 0 else math.inf
-            out[mode.index] = replace(mode, complex_frequency_hz=float(w.real / (2 * math.pi)),
-                                      q_dielectric_complex=float(q))
+        out.update({mode.index: mode for mode in with_complex_frequencies(own, values)})
     return [out.get(mode.index, mode) for mode in modes]
 
 

@@ -27,3 +27,22 @@ def complex_eigenvalues(K, M, G, factorize, *, shift: float, count: int) -> np.n
               ncv=min(n - 1, max(2 * count + 1, 20)), return_eigenvectors=False)
     nu = nu[np.abs(nu) > 0]
     return shift + 1.0 / nu
+
+
+def with_complex_frequencies(modes: list, k0_squared: np.ndarray) -> list:
+    """Each mode (a dataclass with frequency_hz) given the complex frequency nearest its real
+    one among the complex eigenvalues ``k0_squared``, and the Q it implies,
+    Q = Re ω / (2 Im ω)."""
+    import math
+    from dataclasses import replace
+
+    from scipy.constants import c
+
+    omegas = c * np.sqrt(k0_squared)
+    out = []
+    for mode in modes:
+        w = omegas[np.argmin(np.abs(omegas.real - 2 * math.pi * mode.frequency_hz))]
+        q = w.real / (2 * abs(w.imag)) if w.imag != 0 else math.inf
+        out.append(replace(mode, complex_frequency_hz=float(w.real / (2 * math.pi)),
+                           q_dielectric_complex=float(q)))
+    return out
