@@ -103,7 +103,7 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
     scale = (math.pi / model.section.bounding_size()) ** 2 / eps_mu
     target = None if near_hz is None else frequency_to_k0_squared(near_hz)
     timings = {"assembly_s": 0.0, "eigen_s": 0.0}
-    found, spaces, dofs, stats = [], {}, {}, {}
+    found, spaces, dofs, stats, matrices = [], {}, {}, {}, {}
     for m in orders:
         t0 = time.perf_counter()
         space = build_order_space(model, m, order, mesh)
@@ -111,6 +111,8 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
         G = kernel_basis(space)
         timings["assembly_s"] += time.perf_counter() - t0
         spaces[m], dofs[m] = space, space.n_dofs
+        if complex_check:
+            matrices[m] = (K, M, G)
         progress.step(f"m = {m}: {space.n_dofs} DOFs (order {order}), "
                       f"{G.shape[1]} kernel fields")
         count = min(modes, max(space.n_dofs - G.shape[1] - 2, 0))
@@ -144,7 +146,7 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
             losses=mode_losses(space, vector, frequency) if lossy else None))
     if complex_check:
         t0 = time.perf_counter()
-        result_modes = _complex_check(spaces, result_modes, factorize, scale)
+        result_modes = _complex_check(spaces, matrices, result_modes, factorize, scale)
         timings["complex_check_s"] = time.perf_counter() - t0
     progress.step(f"{len(result_modes)} modes over m = {', '.join(map(str, orders))} in "
                   f"{timings['eigen_s']:.2f} s ({describe(factorization)})")
@@ -171,18 +173,19 @@ def _probe(model: AxisymmetricModel):
     return rz[:, 0], np.zeros(len(rz)), rz[:, 1]
 
 
-def _complex_check(spaces: dict[int, OrderSpace], modes: list[AxisymmetricMode], factorize,
-                   scale: float) -> list[AxisymmetricMode]:
-    """Per order m: the complex k0² of K x = k0² (M - j M_tanδ) x, paired with the real
-    modes of that m by nearest frequency; Q_d = Re ω / (2 Im ω)."""
+def _complex_check(spaces: dict[int, OrderSpace], matrices: dict, modes: list[AxisymmetricMode],
+                   factorize, scale: float) -> list[AxisymmetricMode]:
+    """Per order m: the complex k0² of K x = k0² (M - j M_tanδ) x (``matrices[m]`` = K, M, G
+    of the real solve), paired with the real modes of that m by nearest frequency;
+    Q_d = Re ω / (2 Im ω)."""
     out = {}
     for m, space in spaces.items():
         own = [mode for mode in modes if mode.m == m]
         if not own:
             continue
-        K, M = assemble_order(space)
+        K, M, G = matrices[m]
         M_loss = assemble_mass(space, space.eps * _tan_delta_at_quadrature(space))
-        G = kernel_basis(space).astype(complex)
+        G = G.astype(complex)
         values = complex_eigenvalues(K.astype(complex), M - 1j * M_loss, G, factorize,
                                      shift=-scale, count=len(own) + max(4, len(own) // 2))
         out.update({mode.index: mode for mode in with_complex_frequencies(own, values)})
