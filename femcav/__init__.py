@@ -1,13 +1,34 @@
-"""femcav: resonant modes of closed microwave cavities by the finite element method."""
+"""femcav: resonant modes of closed microwave cavities by the finite element method.
+
+The public names are imported on first use (PEP 562), so that `femcav --help`, a case-file
+error or `import femcav.units` does not pay for scikit-fem, gmsh and the solver stack.
+"""
+
+from importlib import import_module
 
 __version__ = "0.1.0"
 
-from .case import case_model, load_case  # noqa: E402
-from .materials import Material  # noqa: E402
-from .model import make_model  # noqa: E402
-from .runner import run_case  # noqa: E402
-from .solver import solve_model  # noqa: E402
-from .walls import Wall  # noqa: E402
+# public name -> module that defines it
+_PUBLIC = {
+    "Material": ".materials",
+    "Wall": ".walls",
+    "case_model": ".case",
+    "load_case": ".case",
+    "make_model": ".model",
+    "run_case": ".runner",
+    "solve_model": ".solver",
+}
 
-__all__ = ["Material", "Wall", "case_model", "load_case", "make_model", "run_case",
-           "solve_model", "__version__"]
+__all__ = [*_PUBLIC, "__version__"]
+
+
+def __getattr__(name: str):
+    if name not in _PUBLIC:
+        raise AttributeError(f"module 'femcav' has no attribute {name!r}")
+    value = getattr(import_module(_PUBLIC[name], __name__), name)
+    globals()[name] = value  # later look-ups skip this function
+    return value
+
+
+def __dir__():
+    return sorted(set(globals()) | set(_PUBLIC))
