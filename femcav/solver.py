@@ -10,15 +10,17 @@ from functools import partial
 import numpy as np
 from scipy.constants import c as C0
 
-from .eigen import selection, shift_invert
-from .eigen.complex_shift_invert import complex_eigenvalues, with_complex_frequencies
+from .eigen import backends, selection
+from .eigen.complex_shift_invert import with_complex_frequencies
 from .eigen.factorization import describe, get_factorizer, library
 from .eigen.interface import STATIC_FRACTION, EigenRequest
 from .eigen.memory import format_bytes
 from .eigen.pardiso import TooLarge
+from .eigen.problem import EigenProblem
 from .errors import InputError
 from .fem.assembly import assemble, assemble_mass, assemble_stiffness
-from .fem.gradient import GradientProjector, discrete_gradient
+from .fem.auxiliary import auxiliary_space
+from .fem.gradient import discrete_gradient
 from .fem.space import EdgeSpace, build_space
 from .materials import tan_delta_by_cell
 from .model import Model
@@ -118,14 +120,11 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     # In either form mass_coef.max() / stiffness_coef.min() is eps_max * mu_max.
     scale = ((math.pi / model.mesh.bounding_size()) ** 2
              / (space.mass_coef.max() / space.stiffness_coef.min()))
+    problem = EigenProblem(K, M, G, lowest_scale=scale, auxiliary=partial(auxiliary_space, space))
     t0 = time.perf_counter()
     try:
-        projector = GradientProjector(M, G, factorize)
-        if choice.method == "iterative":
-            pairs = _lobpcg_pairs(space, K, M, G, projector, request, scale, progress)
-        else:
-            pairs = shift_invert.solve(K, M, projector, request, factorize, lowest_scale=scale,
-                                       progress=progress)
+        setting = backends.setting_for(problem, factorize, progress)
+        pairs = backends.solve(choice.method, problem, request, setting)
     except TooLarge as error:
         raise InputError(f"the factorisation of {K.shape[0]} DOFs needs "
                          f"{format_bytes(error.needed)} but only {format_bytes(error.limit)} "
@@ -140,7 +139,7 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     keep = _select(np.sqrt(np.maximum(values, 0)), modes,
                    None if request.target is None else math.sqrt(request.target))
     values, vectors = values[keep], vectors[:, keep]
-    checks = check_modes(K, M, projector, values, vectors)
+    checks = check_modes(K, M, setting.projector, values, vectors)
 
     full = np.zeros((space.dofs.N, values.size))
     full[space.free] = vectors
@@ -164,17 +163,6 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
                        near_hz=near_hz)
 
 
-def _lobpcg_pairs(space, K, M, G, projector, request, scale, progress):
-    """The lowest modes by LOBPCG with the auxiliary-space multigrid preconditioner of
-    K + τM, τ the lowest-mode scale (where the preconditioner's nodal parts are built)."""
-    from .eigen import hx, lobpcg
-
-    preconditioner = hx.hx_preconditioner(space, K, M, G, shift=scale)
-    progress.step(f"multigrid preconditioner set up in {preconditioner.setup_seconds:.2f} s")
-    return lobpcg.solve(K, M, projector, request, preconditioner, lowest_scale=scale,
-                        progress=progress)
-
-
 def _complex_check(space: EdgeSpace, K, M, G, factorize, modes: list[Mode], shift: float
                    ) -> list[Mode]:
     """Solve again with eps_r (1 - j tan δ) and give each mode its complex frequency and the
@@ -187,9 +175,18 @@ def _complex_check(space: EdgeSpace, K, M, G, factorize, modes: list[Mode], shif
         K_re = assemble_stiffness(space, space.stiffness_coef / (1 + tan_delta**2))
         K_im = assemble_stiffness(space, space.stiffness_coef * tan_delta / (1 + tan_delta**2))
         K_c, M_c = K_re + 1j * K_im, M.astype(complex)
-    values = complex_eigenvalues(K_c, M_c, G.astype(complex), factorize, shift=shift,
-                                 count=len(modes) + max(4, len(modes) // 2))
-    return with_complex_frequencies(modes, values)
+    return with_complex_frequencies(modes, complex_eigenvalues(K_c, M_c, G, factorize,
+                                                               shift=shift, count=len(modes)))
+
+
+def complex_eigenvalues(K, M, G, factorize, *, shift: float, count: int) -> np.ndarray:
+    """The complex k0² of the complex-symmetric pencil K x = k0² M x nearest the real
+    ``shift`` (the real solve's), a few more than ``count`` so that every real mode finds
+    its partner; the kernel range(G) deflated."""
+    problem = EigenProblem(K, M, G, lowest_scale=abs(shift), hermitian=False)
+    request = EigenRequest(count + max(4, count // 2), target=shift)
+    return backends.solve("arnoldi", problem, request,
+                          backends.setting_for(problem, factorize)).values
 
 
 def _tan_delta_at_quadrature(space: EdgeSpace) -> np.ndarray:

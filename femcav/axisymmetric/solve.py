@@ -15,17 +15,17 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.constants import c as C0
 
-from ..eigen import shift_invert
-from ..eigen.complex_shift_invert import complex_eigenvalues, with_complex_frequencies
+from ..eigen import backends
+from ..eigen.complex_shift_invert import with_complex_frequencies
 from ..eigen.factorization import describe, get_factorizer
 from ..eigen.interface import STATIC_FRACTION, EigenRequest
 from ..errors import InputError
-from ..fem.gradient import GradientProjector
+from ..eigen.problem import EigenProblem
 from ..materials import tan_delta_by_cell
 from ..post.checks import ModeChecks, check_modes
 from ..post.losses import LossReport
 from ..progress import SILENT, Progress
-from ..solver import check_request, frequency_to_k0_squared
+from ..solver import check_request, complex_eigenvalues, frequency_to_k0_squared
 from .losses import field_class, has_losses, mode_losses
 from .model import AxisymmetricModel
 from .space import (
@@ -119,14 +119,14 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
         if count < 1:
             continue
         t0 = time.perf_counter()
-        projector = GradientProjector(M, G, factorize)
-        pairs = shift_invert.solve(K, M, projector, EigenRequest(count, target), factorize,
-                                   lowest_scale=scale, progress=progress)
+        problem = EigenProblem(K, M, G, lowest_scale=scale)
+        setting = backends.setting_for(problem, factorize, progress)
+        pairs = backends.solve("direct", problem, EigenRequest(count, target), setting)
         timings["eigen_s"] += time.perf_counter() - t0
         stats[m] = {**pairs.stats, "factorization": describe(factorization)}
         keep = pairs.values >= STATIC_FRACTION * scale
         values, vectors = pairs.values[keep], pairs.vectors[:, keep]
-        checks = check_modes(K, M, projector, values, vectors)
+        checks = check_modes(K, M, setting.projector, values, vectors)
         for value, vector, check in zip(values, vectors.T, checks):
             found.append((m, float(value), vector, check))
     found.sort(key=lambda item: item[1])
@@ -185,9 +185,8 @@ def _complex_check(spaces: dict[int, OrderSpace], matrices: dict, modes: list[Ax
             continue
         K, M, G = matrices[m]
         M_loss = assemble_mass(space, space.eps * _tan_delta_at_quadrature(space))
-        G = G.astype(complex)
         values = complex_eigenvalues(K.astype(complex), M - 1j * M_loss, G, factorize,
-                                     shift=-scale, count=len(own) + max(4, len(own) // 2))
+                                     shift=-scale, count=len(own))
         out.update({mode.index: mode for mode in with_complex_frequencies(own, values)})
     return [out.get(mode.index, mode) for mode in modes]
 

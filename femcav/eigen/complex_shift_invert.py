@@ -12,21 +12,27 @@ from __future__ import annotations
 import numpy as np
 from scipy.sparse.linalg import LinearOperator, eigs
 
-from ..fem.gradient import GradientProjector
+from .interface import EigenPairs
 
 
-def complex_eigenvalues(K, M, G, factorize, *, shift: float, count: int) -> np.ndarray:
-    """``count`` complex k0² nearest the real ``shift`` in the shift-invert sense."""
+def solve(K, M, projector, factorize, *, shift: float, count: int) -> EigenPairs:
+    """The ``count`` complex k0² nearest the real ``shift`` in the shift-invert sense, with
+    their vectors (normalised so that xᵀ M x = 1, the complex-symmetric counterpart of
+    M-normalisation), ascending by real part; ``projector`` removes the kernel."""
     n = K.shape[0]
-    projector = GradientProjector(M, G, factorize)
     solve_shifted = factorize((K - shift * M).tocsc())
     operator = LinearOperator((n, n), dtype=complex,
                               matvec=lambda v: projector.remove(solve_shifted(M @ v)))
     start = projector.remove(np.random.default_rng(12345).standard_normal(n).astype(complex))
-    nu = eigs(operator, k=min(count, n - 2), which="LM", v0=start,
-              ncv=min(n - 1, max(2 * count + 1, 20)), return_eigenvectors=False)
-    nu = nu[np.abs(nu) > 0]
-    return shift + 1.0 / nu
+    nu, vectors = eigs(operator, k=min(count, n - 2), which="LM", v0=start,
+                       ncv=min(n - 1, max(2 * count + 1, 20)))
+    keep = np.abs(nu) > 0
+    values, vectors = shift + 1.0 / nu[keep], vectors[:, keep]
+    scale = np.sqrt(np.einsum("ij,ij->j", vectors, M @ vectors))
+    vectors = vectors / np.where(scale != 0, scale, 1.0)
+    order = np.argsort(values.real)
+    return EigenPairs(values=values[order], vectors=vectors[:, order],
+                      stats={"shift": shift, "requested": int(min(count, n - 2))})
 
 
 def with_complex_frequencies(modes: list, k0_squared: np.ndarray) -> list:

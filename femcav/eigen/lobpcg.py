@@ -110,7 +110,7 @@ def solve(K, M, projector, request: EigenRequest, preconditioner, *, lowest_scal
     """The ``request.count`` lowest eigenpairs of K x = λ M x with x ⟂_M range(G).
 
     ``preconditioner`` approximates (K + τM)⁻¹ for some τ > 0 on vectors and blocks (e.g.
-    femcav.eigen.hx.hx_preconditioner(..., shift=lowest_scale)); an attribute
+    femcav.eigen.hx.hx_preconditioner of K + lowest_scale·M); an attribute
     ``setup_seconds`` on it is reported in the stats. ``lowest_scale`` is a rough estimate
     of the first eigenvalue: Ritz values far below it (static fields the deflation cannot
     remove) are returned as additional pairs so that the caller can drop them.

@@ -14,8 +14,8 @@ import time
 import numpy as np
 from scipy.sparse.linalg import LinearOperator, eigsh
 
-from ..fem.gradient import GradientProjector
 from .interface import EigenPairs, EigenRequest
+from .projection import GradientProjector
 
 ARPACK_TOLERANCE = 1e-10
 

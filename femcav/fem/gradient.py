@@ -1,9 +1,10 @@
-"""The discrete gradient and the M-orthogonal projection that removes gradient fields.
+"""The discrete gradient: the kernel basis of the curl-curl operator on the edge space.
 
 The gradient of every order-k Lagrange function is exactly a Nédélec field of order k; for
 k = 1 a DOF is the line integral along its edge, so G[e, head] = +1 and G[e, tail] = -1.
 Every such field lies in the kernel of the curl-curl operator; removing the component in
-range(G) keeps eigen iterations away from that large, degenerate kernel.
+range(G) (femcav.eigen.projection) keeps eigen iterations away from that large, degenerate
+kernel.
 """
 
 from __future__ import annotations
@@ -39,26 +40,3 @@ def _reference_gradient(k: int) -> np.ndarray:
     local = dofs_of(k, lambda X: lagrange.reference_tables(X)[1])
     local[np.abs(local) < 1e-12] = 0.0
     return local
-
-
-class GradientProjector:
-    """Split a field x into its gradient part G (GᵀMG)⁻¹ GᵀM x and the rest.
-
-    ``G`` and ``M`` are already restricted to the free DOFs and free nodes. ``factorize``
-    takes a sparse matrix and returns a solve function (see femcav.eigen.factorization).
-    """
-
-    def __init__(self, M, G, factorize):
-        self.G = G.tocsr()
-        self._GtM = (self.G.T @ M).tocsr()   # one product per application instead of two
-        # A mesh too coarse to have an interior node has no gradient fields to remove.
-        self._solve = (factorize((self._GtM @ self.G).tocsc(), definite=not np.iscomplexobj(M))
-                       if G.shape[1] else None)
-
-    def gradient_part(self, x: np.ndarray) -> np.ndarray:
-        if self._solve is None:
-            return np.zeros_like(x)
-        return self.G @ self._solve(self._GtM @ x)
-
-    def remove(self, x: np.ndarray) -> np.ndarray:
-        return x - self.gradient_part(x)
