@@ -104,3 +104,45 @@ def test_complex_symmetric_lossy_box_gives_q_and_fields(box_problem):
     X = pairs.vectors[:, :4]
     residual = lossy.K @ X - (lossy.M @ X) * values
     assert np.linalg.norm(residual, axis=0).max() < 1e-8 * np.linalg.norm(lossy.K @ X, axis=0).min()
+
+
+def _gauged(problem, seed=3):
+    """The same pencil in a unitary gauge x = D y, D = diag(e^{jθ}) with a random phase per
+    DOF: Dᴴ K D y = λ Dᴴ M D y is complex Hermitian with exactly the same spectrum, its
+    kernel is Dᴴ range(G) and its nodal transfer Dᴴ Π."""
+    import scipy.sparse as sp
+
+    n = problem.size
+    D = sp.diags(np.exp(1j * np.random.default_rng(seed).uniform(0, 2 * np.pi, n)))
+    Dh = D.conj()
+    aux = problem.auxiliary
+
+    def gauged_auxiliary(tau):
+        real = aux(tau)
+        return type(real)(interpolation=(Dh @ real.interpolation).tocsr(), points=real.points,
+                          nodal_matrix=real.nodal_matrix,
+                          smoothing_degree=real.smoothing_degree)
+
+    return D, EigenProblem((Dh @ problem.K @ D).tocsr(), (Dh @ problem.M @ D).tocsr(),
+                           (Dh @ problem.kernel).tocsr(), lowest_scale=problem.lowest_scale,
+                           auxiliary=gauged_auxiliary)
+
+
+@pytest.mark.parametrize("name", ["iterative", "direct"])
+def test_complex_hermitian_problem_gives_the_real_spectrum(box_problem, name):
+    _, problem = box_problem
+    D, gauged = _gauged(problem)
+    assert gauged.dtype == np.complex128
+    request = EigenRequest(4)
+    real = backends.solve(name, problem, request,
+                          backends.setting_for(problem, get_factorizer("auto")))
+    found = backends.solve(name, gauged, request,
+                           backends.setting_for(gauged, get_factorizer("auto")))
+    assert np.isrealobj(found.values)
+    assert np.allclose(found.values[:4], real.values[:4], rtol=1e-9)
+    if name == "iterative":   # the gauge changes nothing the iteration sees
+        assert abs(found.stats["iterations"] - real.stats["iterations"]) <= 1
+    # the vectors are the real modes in the new gauge: |<D y, x>_M| = 1 for a simple mode
+    y = D @ found.vectors[:, 0]
+    x = real.vectors[:, 0]
+    assert abs(abs(np.vdot(y, problem.M @ x)) - 1) < 1e-6

@@ -62,6 +62,7 @@ import numpy as np
 import scipy.linalg as la
 import scipy.sparse as sp
 
+from .hermitian import ct
 from .problem import AuxiliarySpace
 
 CYCLES = ("additive", "multiplicative", "hybrid")
@@ -79,7 +80,7 @@ class ChebyshevSmoother:
         from pyamg.util.linalg import approximate_spectral_radius
 
         self.A = A.tocsr()
-        diag = self.A.diagonal()
+        diag = self.A.diagonal().real     # real for a Hermitian A
         self.dinv = 1.0 / np.where(diag > 0, diag, 1.0)
         scaled = sp.diags(self.dinv) @ self.A
         # a fixed start vector: pyamg's default is random, which made the preconditioner
@@ -196,7 +197,7 @@ class AuxiliarySpacePreconditioner:
         self.cycle = cycle
         self.smoother = ChebyshevSmoother(self.A, smoothing_degree)
         self.G = sp.csr_matrix(G)
-        self.Gt = self.G.T.tocsr()
+        self.Gt = ct(self.G).tocsr()
         self.gradient_cycle = (BlockVCycle(_regularised(self.Gt @ (self.A @ self.G)))
                                if self.G.shape[1] else None)
         self.n_vertices = n_v = Pi.shape[1] // 3
@@ -209,11 +210,11 @@ class AuxiliarySpacePreconditioner:
             # with the three constant fields as the near-null space.
             node_major = np.arange(3 * n_v).reshape(3, n_v).T.ravel()
             self.Pi = sp.csr_matrix(Pi)[:, node_major]
-            self.nodal_cycle = BlockVCycle(_regularised(self.Pi.T @ (self.A @ self.Pi)),
+            self.nodal_cycle = BlockVCycle(_regularised(ct(self.Pi) @ (self.A @ self.Pi)),
                                            near_null=(np.tile(np.eye(3), (n_v, 1))
                                                       if near_null is None else near_null),
                                            blocksize=3)
-        self.Pit = self.Pi.T.tocsr()
+        self.Pit = ct(self.Pi).tocsr()
         self.setup_seconds = time.perf_counter() - t0
         self.applications = 0
 
@@ -240,7 +241,7 @@ class AuxiliarySpacePreconditioner:
 
     def __call__(self, r: np.ndarray) -> np.ndarray:
         self.applications += 1 if r.ndim == 1 else r.shape[1]
-        r = np.asarray(r, dtype=float)
+        r = np.asarray(r, dtype=np.result_type(r, self.A.dtype, float))
         if self.cycle == "additive":
             return self.smoother(r) + self._gradient(r) + self._nodal(r)
         x = self.smoother(r)
@@ -255,7 +256,7 @@ class AuxiliarySpacePreconditioner:
 
     def aslinearoperator(self):
         from scipy.sparse.linalg import LinearOperator
-        return LinearOperator(self.A.shape, matvec=self, matmat=self, dtype=float)
+        return LinearOperator(self.A.shape, matvec=self, matmat=self, dtype=self.A.dtype)
 
     def describe(self) -> str:
         g = self.gradient_cycle

@@ -46,6 +46,7 @@ import time
 import numpy as np
 import scipy.linalg as la
 
+from .hermitian import column_dots, ct, hermitian_part
 from .interface import STATIC_FRACTION, EigenPairs, EigenRequest
 
 TOLERANCE = 1e-9
@@ -60,9 +61,8 @@ def _svqb(Q, MQ):
     """M-orthonormalise the columns of Q (MQ = M Q), dropping numerically dependent
     directions. Returns the new Q, M Q, and the square root of the condition number of the
     kept part of the scaled Gram matrix (by which the step magnifies earlier round-off)."""
-    gram = Q.T @ MQ
-    gram = (gram + gram.T) / 2
-    d = np.diag(gram)
+    gram = hermitian_part(ct(Q) @ MQ)
+    d = np.diag(gram).real
     keep_cols = d > 0
     scale = np.zeros_like(d)
     scale[keep_cols] = 1.0 / np.sqrt(d[keep_cols])
@@ -76,7 +76,7 @@ def _svqb(Q, MQ):
 
 def _orthogonalize(Q, MQ, X, MX):
     """Q minus its M-projection onto the M-orthonormal X, and M Q updated alike."""
-    Y = MX.T @ Q
+    Y = ct(MX) @ Q
     return Q - X @ Y, MQ - MX @ Y
 
 
@@ -91,9 +91,9 @@ def _orthonormal_complement(Q, M, X, MX):
     so the second pass is needed near the end, rarely before. Returns Q, M Q and whether
     the second pass ran."""
     MQ = M @ Q
-    before = np.einsum("ij,ij->j", Q, MQ)
+    before = column_dots(Q, MQ)
     Q, MQ = _orthogonalize(Q, MQ, X, MX)
-    after = np.einsum("ij,ij->j", Q, MQ)
+    after = column_dots(Q, MQ)
     ok = after > 0
     shrink = float(np.sqrt(np.max(before[ok] / after[ok]))) if ok.any() else np.inf
     Q, MQ, conditioning = _svqb(Q, MQ)
@@ -133,7 +133,7 @@ def solve(K, M, projector, request: EigenRequest, preconditioner, *, lowest_scal
     X = projector.remove(preconditioner(rng.standard_normal((n, m))))
     X, MX, _ = _svqb(X, M @ X)
     KX = K @ X
-    values, C = la.eigh(X.T @ KX, X.T @ MX)
+    values, C = la.eigh(hermitian_part(ct(X) @ KX), hermitian_part(ct(X) @ MX))
     X, KX, MX = X @ C, KX @ C, MX @ C
     P = None
     history = []
@@ -156,7 +156,7 @@ def solve(K, M, projector, request: EigenRequest, preconditioner, *, lowest_scal
                 break
             # Confirm on products recomputed from X: the updated ones carry round-off.
             KX, MX = K @ X, M @ X
-            values = np.einsum("ij,ij->j", X, KX) / np.einsum("ij,ij->j", X, MX)
+            values = column_dots(X, KX) / column_dots(X, MX)
             fresh = True
             continue
         if iteration >= maxiter:
@@ -175,9 +175,9 @@ def solve(K, M, projector, request: EigenRequest, preconditioner, *, lowest_scal
         second_passes += again
         KQ = K @ Q
 
-        S_K = np.block([[X.T @ KX, X.T @ KQ], [KQ.T @ X, Q.T @ KQ]])
-        S_M = np.block([[X.T @ MX, X.T @ MQ], [MQ.T @ X, Q.T @ MQ]])
-        S_K, S_M = (S_K + S_K.T) / 2, (S_M + S_M.T) / 2
+        Xh, Qh = ct(X), ct(Q)
+        S_K = hermitian_part(np.block([[Xh @ KX, Xh @ KQ], [ct(KQ) @ X, Qh @ KQ]]))
+        S_M = hermitian_part(np.block([[Xh @ MX, Xh @ MQ], [ct(MQ) @ X, Qh @ MQ]]))
         theta, C = la.eigh(S_K, S_M, subset_by_index=(0, m - 1))
         Cx, Cq = C[:m], C[m:]
         values = theta
@@ -190,9 +190,9 @@ def solve(K, M, projector, request: EigenRequest, preconditioner, *, lowest_scal
 
     wanted = min(wanted, m)
     X, KX, MX = X[:, :wanted], KX[:, :wanted], MX[:, :wanted]
-    norms = np.sqrt(np.einsum("ij,ij->j", X, MX))
+    norms = np.sqrt(column_dots(X, MX))
     X = X / norms
-    values = np.einsum("ij,ij->j", X, K @ X)
+    values = column_dots(X, K @ X)
     order = np.argsort(values)
     if progress:
         progress.step(f"LOBPCG {'converged' if converged else 'stopped'} after {iteration} "

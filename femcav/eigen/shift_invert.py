@@ -14,6 +14,7 @@ import time
 import numpy as np
 from scipy.sparse.linalg import LinearOperator, eigsh
 
+from .hermitian import column_dots
 from .interface import EigenPairs, EigenRequest
 from .projection import GradientProjector
 
@@ -47,8 +48,9 @@ def solve(K, M, projector: GradientProjector, request: EigenRequest, factorize,
             progress.step(f"Lanczos: {applications[0]} operator applications")
         return projector.remove(solve_shifted(v))
 
-    operator = LinearOperator((n, n), matvec=apply, dtype=float)
-    start = projector.remove(np.random.default_rng(12345).standard_normal(n))
+    dtype = np.result_type(K.dtype, M.dtype, float)
+    operator = LinearOperator((n, n), matvec=apply, dtype=dtype)
+    start = projector.remove(np.random.default_rng(12345).standard_normal(n).astype(dtype))
     t0 = time.perf_counter()
     # ARPACK's default tolerance is machine precision; 1e-10 on the Ritz values leaves
     # residuals near 1e-10 (the checks allow 1e-6) and Rayleigh quotients accurate to about
@@ -59,9 +61,9 @@ def solve(K, M, projector: GradientProjector, request: EigenRequest, factorize,
 
     # Rayleigh quotients are more accurate than the back-transformed Ritz values. The vectors
     # are not projected again here, so that the divergence check measures what ARPACK gave.
-    norms = np.sqrt(np.einsum("ij,ij->j", vectors, M @ vectors))
+    norms = np.sqrt(column_dots(vectors, M @ vectors))
     vectors = vectors / norms
-    values = np.einsum("ij,ij->j", vectors, K @ vectors)
+    values = column_dots(vectors, K @ vectors)
     order = np.argsort(values)
     return EigenPairs(values=values[order], vectors=vectors[:, order],
                       stats={"factor_seconds": t_factor, "iteration_seconds": t_iter,

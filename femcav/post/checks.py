@@ -8,6 +8,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..eigen.hermitian import column_dots, ct
+
 # Limits for a pass. ARPACK converges to near machine precision, so a healthy mode is many
 # orders of magnitude below these; values near a limit mean the solve went wrong.
 RESIDUAL_LIMIT = 1e-6
@@ -42,10 +44,10 @@ def check_modes(K, M, projector, values: np.ndarray, vectors: np.ndarray) -> lis
     KX = K @ vectors
     residual = (np.linalg.norm(KX - MX * values, axis=0)
                 / np.maximum(np.linalg.norm(MX * values, axis=0), np.finfo(float).tiny))
-    norms = np.sqrt(np.einsum("ij,ij->j", vectors, MX))
+    norms = np.sqrt(column_dots(vectors, MX))
     grad = projector.gradient_part(vectors)
-    divergence = np.sqrt(np.abs(np.einsum("ij,ij->j", grad, M @ grad))) / norms
-    gram = np.abs(vectors.T @ MX) / np.outer(norms, norms)
+    divergence = np.sqrt(np.abs(column_dots(grad, M @ grad))) / norms
+    gram = np.abs(ct(vectors) @ MX) / np.outer(norms, norms)
     np.fill_diagonal(gram, 0.0)
     orthogonality = gram.max(axis=1) if len(values) > 1 else np.zeros(len(values))
     return [ModeChecks(float(r), float(d), float(o))
