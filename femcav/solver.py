@@ -20,7 +20,7 @@ from .eigen.problem import EigenProblem
 from .errors import InputError
 from .fem.assembly import assemble, assemble_mass, assemble_stiffness
 from .fem.auxiliary import auxiliary_space
-from .fem.gradient import discrete_gradient
+from .fem.gradient import kernel_basis
 from .fem.space import EdgeSpace, build_space
 from .materials import tan_delta_by_cell
 from .model import Model
@@ -101,10 +101,10 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     t0 = time.perf_counter()
     space = build_space(model, form, order)
     K, M = assemble(space)
-    G = discrete_gradient(space)[space.free][:, space.free_nodes]
+    G = kernel_basis(space)
     timings["assembly_s"] = time.perf_counter() - t0
     progress.step(f"assembled {form} form, order {order}: {space.n_dofs} DOFs, {space.mesh.nelements} "
-                  f"tetrahedra, {space.free_nodes.size} gradient DOFs")
+                  f"tetrahedra, {G.shape[1]} gradient DOFs")
     if space.n_dofs < modes + 2:
         raise InputError(f"the mesh has only {space.n_dofs} free DOFs, too few for {modes} "
                          "modes; refine the mesh", field="solve.modes")
@@ -141,8 +141,7 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     values, vectors = values[keep], vectors[:, keep]
     checks = check_modes(K, M, setting.projector, values, vectors)
 
-    full = np.zeros((space.dofs.N, values.size))
-    full[space.free] = vectors
+    full = space.constraint.expand(vectors)
     frequencies = C0 * np.sqrt(np.maximum(values, 0.0)) / (2 * math.pi)
     lossy = has_losses(space)
     faces = metal_faces(space) if lossy else None

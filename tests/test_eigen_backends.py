@@ -19,7 +19,7 @@ from femcav.eigen.interface import EigenPairs, EigenRequest
 from femcav.eigen.problem import EigenProblem
 from femcav.fem.assembly import assemble
 from femcav.fem.auxiliary import auxiliary_space
-from femcav.fem.gradient import discrete_gradient
+from femcav.fem.gradient import kernel_basis
 from femcav.fem.space import build_space
 from femcav.geometry import build_part
 from femcav.materials import Material
@@ -34,7 +34,7 @@ def box_problem():
     mesh = build_part("box", width=A, height=B, length=D, mesh_size=0.004)
     space = build_space(make_model(mesh, {"inside": Material()}, {}), "E", 1)
     K, M = assemble(space)
-    G = discrete_gradient(space)[space.free][:, space.free_nodes]
+    G = kernel_basis(space)
     scale = (math.pi / max(A, B, D)) ** 2
     return space, EigenProblem(K, M, G, lowest_scale=scale,
                                auxiliary=lambda tau: auxiliary_space(space, tau))

@@ -34,8 +34,7 @@ CLASS_SHARE = 1e-2
 
 
 def _split(space: OrderSpace, dofs: np.ndarray):
-    full = np.zeros(space.n_edge + space.node_basis.N)
-    full[space.free] = dofs
+    full = space.constraint.expand(dofs)
     return full[:space.n_edge], full[space.n_edge:]
 
 

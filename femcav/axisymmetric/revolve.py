@@ -26,8 +26,7 @@ def _centroid_fields(space, dofs):
     azimuthal factors; also r, ε_r and μ_r there."""
     from skfem import CellBasis
 
-    full = np.zeros(space.n_edge + space.node_basis.N)
-    full[space.free] = dofs
+    full = space.constraint.expand(dofs)
     X, W = np.array([[1 / 3], [1 / 3]]), np.array([1.0])
     eb = CellBasis(space.edge_basis.mesh, space.edge_basis.elem, quadrature=(X, W))
     nb = CellBasis(space.node_basis.mesh, space.node_basis.elem, quadrature=(X, W))

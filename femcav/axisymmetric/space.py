@@ -52,6 +52,7 @@ from skfem.helpers import dot
 
 from ..errors import InputError
 from ..fem.assembly import shared_entries_csr
+from ..fem.constraints import Constraint
 from ..walls import PMC
 from .model import AxisymmetricModel
 
@@ -68,8 +69,8 @@ class OrderSpace:
     order: int
     edge_basis: Basis
     node_basis: Basis
-    free: np.ndarray            # free DOFs of the stacked vector
-    free_potentials: np.ndarray  # node DOFs p whose (∇p, -m p) is a free kernel field
+    constraint: Constraint      # the kept DOFs of the stacked vector
+    potential_constraint: Constraint  # node DOFs p whose (∇p, -m p) is a kept kernel field
     eps: np.ndarray             # ε_r at the quadrature points (n_triangles, n_points)
     inv_mu: np.ndarray
 
@@ -79,7 +80,7 @@ class OrderSpace:
 
     @property
     def n_dofs(self) -> int:
-        return int(self.free.size)
+        return self.constraint.size
 
 
 def quadrature_order(order: int) -> int:
@@ -142,7 +143,8 @@ def build_order_space(model: AxisymmetricModel, m: int, order: int,
     fixed_node = wall_nodes | axis_nodes
     free_edge = np.setdiff1d(np.arange(edge_basis.N), np.array(sorted(fixed_edge), dtype=int))
     free_node = np.setdiff1d(np.arange(node_basis.N), np.array(sorted(fixed_node), dtype=int))
-    free = np.concatenate([free_edge, edge_basis.N + free_node])
+    constraint = Constraint.keeping(edge_basis.N + node_basis.N,
+                                    np.concatenate([free_edge, edge_basis.N + free_node]))
     # A kernel field (∇p, -m p) must vanish where the DOFs are fixed: p = 0 on the walls, and
     # for m >= 1 on the axis too; for m = 0 only ∇p enters there, and e_t is free on the axis.
     zero_potential = wall_nodes | (axis_nodes if m >= 1 else set())
@@ -151,7 +153,8 @@ def build_order_space(model: AxisymmetricModel, m: int, order: int,
 
     eps, inv_mu = _coefficients(model, edge_basis)
     return OrderSpace(model=model, m=m, order=order, edge_basis=edge_basis,
-                      node_basis=node_basis, free=free, free_potentials=potentials,
+                      node_basis=node_basis, constraint=constraint,
+                      potential_constraint=Constraint.keeping(node_basis.N, potentials),
                       eps=eps, inv_mu=inv_mu)
 
 
@@ -214,27 +217,26 @@ def _node_mass(u, v, w):
 
 
 def assemble_order(space: OrderSpace):
-    """(K, M) over the free DOFs."""
+    """(K, M) over the kept DOFs."""
     eb, nb = space.edge_basis, space.node_basis
     coefficient = {"m": float(space.m), "inv_mu": space.inv_mu}
     K_ee = _edge_edge.assemble(eb, **coefficient)
     K_ue = _node_edge.assemble(nb, eb, **coefficient)        # rows edge, columns node
     K_uu = _node_node.assemble(nb, **coefficient)
     K = sp.bmat([[K_ee, K_ue], [K_ue.T, K_uu]], format="csr")
-    f = space.free
-    return K[f][:, f].tocsr(), assemble_mass(space, space.eps)
+    return space.constraint.reduce(K), assemble_mass(space, space.eps)
 
 
 def assemble_mass(space: OrderSpace, eps: np.ndarray):
-    """M over the free DOFs with ε_r replaced by ``eps`` at the quadrature points (the
+    """M over the kept DOFs with ε_r replaced by ``eps`` at the quadrature points (the
     lossy part of a complex permittivity, for one)."""
     M = sp.block_diag([_edge_mass.assemble(space.edge_basis, eps=eps),
                        _node_mass.assemble(space.node_basis, eps=eps)], format="csr")
-    return M[space.free][:, space.free].tocsr()
+    return space.constraint.reduce(M)
 
 
 def kernel_basis(space: OrderSpace) -> sp.csr_matrix:
-    """G (free DOFs x free potentials): the fields (∇p, -m p) of the node basis functions p,
+    """G (kept DOFs x kept potentials): the fields (∇p, -m p) of the node basis functions p,
     which span the kernel of K. The edge part is the local L2 projection of ∇p on every
     triangle, exact because ∇p is a Nédélec field there."""
     eb, nb = space.edge_basis, space.node_basis
@@ -249,4 +251,4 @@ def kernel_basis(space: OrderSpace) -> sp.csr_matrix:
     keep = np.abs(local) > 1e-10 * np.abs(local).max()
     G_edge = shared_entries_csr(rows[keep], cols[keep], local[keep], (eb.N, nb.N))
     G = sp.vstack([G_edge, -space.m * sp.identity(nb.N, format="csr")], format="csr")
-    return G[space.free][:, space.free_potentials].tocsr()
+    return (space.constraint.restrict_rows(G) @ space.potential_constraint.P).tocsr()

@@ -24,22 +24,26 @@ BLOCK = 4096
 
 
 def assemble_stiffness(space: EdgeSpace, coefficient):
-    """∫ a curl u · curl v over the free DOFs, a given at the quadrature points."""
-    return _free_csr(space, _element_matrices(space, coefficient, curl=True))
+    """∫ a curl u · curl v over the kept DOFs, a given at the quadrature points."""
+    return _reduced_csr(space, _element_matrices(space, coefficient, curl=True))
 
 
 def assemble_mass(space: EdgeSpace, coefficient):
-    """∫ b u · v over the free DOFs, b given at the quadrature points."""
-    return _free_csr(space, _element_matrices(space, coefficient, curl=False))
+    """∫ b u · v over the kept DOFs, b given at the quadrature points."""
+    return _reduced_csr(space, _element_matrices(space, coefficient, curl=False))
 
 
 def assemble(space: EdgeSpace):
-    """(K, M) over the free DOFs (``space.free``), as CSR matrices with one sparsity pattern.
+    """(K, M) over the kept DOFs (``space.constraint``), as CSR matrices with one sparsity
+    pattern, in the dtype the coefficients need.
 
-    Both are gathered as the real and imaginary parts of one complex matrix, so that the
-    summation of element contributions runs once (it is most of the assembly time on
-    high-order meshes)."""
-    combined = _free_csr(space, _element_matrices(space, space.stiffness_coef, curl=True)
+    Real coefficients are gathered as the real and imaginary parts of one complex matrix,
+    so that the summation of element contributions runs once (it is most of the assembly
+    time on high-order meshes); complex ones are summed apart."""
+    if np.iscomplexobj(space.stiffness_coef) or np.iscomplexobj(space.mass_coef):
+        return (assemble_stiffness(space, space.stiffness_coef),
+                assemble_mass(space, space.mass_coef))
+    combined = _reduced_csr(space, _element_matrices(space, space.stiffness_coef, curl=True)
                          + 1j * _element_matrices(space, space.mass_coef, curl=False))
     pattern = (combined.indices, combined.indptr)
     return (sp.csr_matrix((combined.data.real.copy(), *pattern), shape=combined.shape),
@@ -71,17 +75,22 @@ def _element_matrices(space: EdgeSpace, coefficient, *, curl: bool) -> np.ndarra
     return local
 
 
-def _free_csr(space: EdgeSpace, local: np.ndarray):
-    """Sum element matrices into a CSR matrix over the free DOFs; entries of fixed DOFs
-    (essential walls) are dropped before the summation."""
-    index = np.full(space.dofs.N, -1, dtype=np.int64)
-    index[space.free] = np.arange(space.free.size)
-    element_dofs = index[space.dofs.element_dofs.T]            # (n_elements, n_basis)
+def _reduced_csr(space: EdgeSpace, local: np.ndarray):
+    """Sum element matrices into the reduced operator Pᴴ A P of the space's constraint. When
+    the constraint only drops DOFs (essential walls), their entries are dropped before the
+    summation instead of forming the full matrix."""
+    constraint = space.constraint
+    element_dofs = space.dofs.element_dofs.T                    # (n_elements, n_basis)
+    if constraint.selects_only:
+        element_dofs = constraint.reduced_index[element_dofs]
+        n = constraint.size
+    else:
+        n = constraint.n_full
     rows = np.broadcast_to(element_dofs[:, :, None], local.shape)
     cols = np.broadcast_to(element_dofs[:, None, :], local.shape)
     keep = (rows >= 0) & (cols >= 0)
-    n = space.free.size
-    return sp.coo_matrix((local[keep], (rows[keep], cols[keep])), shape=(n, n)).tocsr()
+    summed = sp.coo_matrix((local[keep], (rows[keep], cols[keep])), shape=(n, n)).tocsr()
+    return summed if constraint.selects_only else constraint.reduce(summed)
 
 
 def shared_entries_csr(rows, cols, vals, shape) -> sp.csr_matrix:

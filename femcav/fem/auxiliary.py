@@ -45,7 +45,7 @@ def auxiliary_space(space, shift: float, *, nodal: str = "galerkin",
     n_v = int(space.mesh.nvertices)
     kept = off_wall_vertices(space) if wall_vertices == "drop" else np.arange(n_v)
     columns = (np.arange(3)[:, None] * n_v + kept[None, :]).ravel()     # component-major
-    Pi = nodal_vector_interpolation(space)[space.free][:, columns]
+    Pi = space.constraint.restrict_rows(nodal_vector_interpolation(space))[:, columns]
     L = nodal_laplacian(space, shift)[kept][:, kept] if nodal == "laplacian" else None
     # A smoother of degree 6 at order 3 (box, 3.4k DOFs): LOBPCG 137 -> 88 iterations,
     # 4.9 -> 4.5 s; at order 2 degree 6 was slower than 3 (25k DOFs: 8.3 s against 7.0 s).

@@ -40,3 +40,11 @@ def _reference_gradient(k: int) -> np.ndarray:
     local = dofs_of(k, lambda X: lagrange.reference_tables(X)[1])
     local[np.abs(local) < 1e-12] = 0.0
     return local
+
+
+def kernel_basis(space) -> sp.csr_matrix:
+    """The kernel basis of the reduced problem: R G Q, the gradients of the constrained
+    potentials (scalar constraint Q) in the reduced edge DOFs (R the rows the edge constraint
+    keeps)."""
+    G = discrete_gradient(space)
+    return (space.constraint.restrict_rows(G) @ space.scalar_constraint.P).tocsr()

@@ -14,6 +14,7 @@ from scipy.sparse.csgraph import connected_components
 from ..errors import InputError
 from ..model import FORMS, Model
 from ..walls import essential_kinds
+from .constraints import Constraint
 from .lagrange import ElementTetLagrange
 from .nedelec import ElementTetNedelec
 
@@ -24,8 +25,8 @@ class EdgeSpace:
 
     ``stiffness_coef`` and ``mass_coef`` hold the coefficients of the form at the quadrature
     points (n_elements, n_points): 1/mu_r and eps_r in the E form, 1/eps_r and mu_r in the H
-    form. ``free`` are the edge DOFs that remain after the essential walls; ``free_nodes`` the
-    nodes of the matching scalar (gradient) space.
+    form. ``constraint`` keeps the edge DOFs that remain after the essential walls,
+    ``scalar_constraint`` the DOFs of the matching scalar (gradient) space.
     """
 
     model: Model
@@ -37,15 +38,15 @@ class EdgeSpace:
     quadrature: tuple            # reference points (3, n_points) and weights (n_points,)
     dofs: object                 # skfem Dofs of the edge space
     scalar_dofs: object          # skfem Dofs of the scalar (gradient) space
-    free: np.ndarray
-    free_nodes: np.ndarray       # free DOFs of the scalar (gradient) space
+    constraint: Constraint
+    scalar_constraint: Constraint
     stiffness_coef: np.ndarray
     mass_coef: np.ndarray
     facet_wall: dict[int, str]   # boundary facet index -> wall name ("" for unnamed)
 
     @property
     def n_dofs(self) -> int:
-        return int(self.free.size)
+        return self.constraint.size
 
     @cached_property
     def basis(self):
@@ -87,16 +88,18 @@ def build_space(model: Model, form: str = "E", order: int = 1) -> EdgeSpace:
                                  if model.wall_kind(name) in essential], dtype=np.int64)
     fixed = (dofs.get_facet_dofs(essential_facets).all() if essential_facets.size
              else np.zeros(0, dtype=np.int64))
-    free = np.setdiff1d(np.arange(dofs.N), fixed)
+    constraint = Constraint.keeping(dofs.N, np.setdiff1d(np.arange(dofs.N), fixed))
     fixed_scalar = (scalar_dofs.get_facet_dofs(essential_facets).all() if essential_facets.size
                     else np.zeros(0, dtype=np.int64))
-    free_nodes = _ground(mesh, np.setdiff1d(np.arange(scalar_dofs.N), fixed_scalar))
+    scalar_constraint = Constraint.keeping(scalar_dofs.N, _ground(
+        mesh, np.setdiff1d(np.arange(scalar_dofs.N), fixed_scalar)))
 
     eps, mu = _coefficients(model, mesh.mapping().F(quadrature[0]))
     stiffness_coef, mass_coef = (1.0 / mu, eps) if form == "E" else (1.0 / eps, mu)
     return EdgeSpace(model=model, form=form, order=order, mesh=mesh, element=element,
                      scalar_element=scalar_element, quadrature=quadrature, dofs=dofs,
-                     scalar_dofs=scalar_dofs, free=free, free_nodes=free_nodes,
+                     scalar_dofs=scalar_dofs, constraint=constraint,
+                     scalar_constraint=scalar_constraint,
                      stiffness_coef=stiffness_coef, mass_coef=mass_coef, facet_wall=facet_wall)
 
 
