@@ -10,13 +10,27 @@ __version__ = "0.1.0"
 
 # public name -> module that defines it
 _PUBLIC = {
+    # materials, walls and models
     "Material": ".materials",
     "Wall": ".walls",
+    "make_model": ".model",
+    "make_axisymmetric_model": ".axisymmetric.model",
+    # geometry: built parts, layouts and their (r, z) sections
+    "build_part": ".geometry",
+    "builder_layout": ".geometry",
+    "Sizing": ".geometry.parts",
+    "mesh_section": ".geometry.section",
+    # solving
+    "solve_model": ".solver",
+    "solve_axisymmetric": ".axisymmetric.solve",
+    "mode_rows": ".io.results",
+    # case files and the studies
     "case_model": ".case",
     "load_case": ".case",
-    "make_model": ".model",
     "run_case": ".runner",
-    "solve_model": ".solver",
+    "run_sweep": ".study.sweep",
+    "run_tune": ".study.tune",
+    "run_extract": ".study.extract",
 }
 
 __all__ = [*_PUBLIC, "__version__"]
