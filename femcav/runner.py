@@ -296,10 +296,7 @@ def model_summary(case: Case, result) -> dict:
 def _solve_axisymmetric(case: Case, settings, progress: Progress):
     from .axisymmetric.runner import solve_axisymmetric_case
 
-    for key, bad, why in (("--form", settings.form == "H", "works in the E form"),
-                          ("--method", settings.method == "iterative",
-                           "uses the direct shift-invert path")):
-        if bad:
-            raise InputError(f"the axisymmetric solver {why}", source=str(case.path),
-                             field=key)
+    if settings.method == "iterative":
+        raise InputError("the axisymmetric solver uses the direct shift-invert path",
+                         source=str(case.path), field="--method")
     return solve_axisymmetric_case(case, settings, progress)

@@ -2,13 +2,14 @@
 
 All integrals are over the section with the weight r of the volume element; the common
 azimuthal factor (π for m >= 1, 2π for m = 0) cancels in every ratio below, so it is left
-out. Electric energy: ε0 ε_r (r |e_t|² + u² / r). From ∇×E = -jωμ0 μ_r H, with the
-meridional curl (1/r) rot(∇u + m e_t) and the azimuthal one curl e_t:
+out. In the E form, electric energy: ε0 ε_r (r |e_t|² + u² / r). From ∇×E = -jωμ0 μ_r H,
+with the meridional curl (1/r) rot(∇u + m e_t) and the azimuthal one curl e_t:
 
     |H_φ| ∝ |curl e_t|,   H_z ∝ (∂_r u + m e_r) / r,   H·n on a wall ∝ (∇u + m e_t)·n' / r,
 
 n' the in-plane normal turned a quarter (the tangent along the section's boundary curve
-for the meridional part of H_t). Q_wall = ω W / P_wall, W = 2 W_e, P_wall =
+for the meridional part of H_t). In the H form the same expressions give ∇×H = jωε0 ε_r E,
+and H_t on a wall is the field itself. Q_wall = ω W / P_wall, W = 2 W_e, P_wall =
 (R_s / 2) ∮ |H_t|² dS; 1/Q_d = Σ p_i tan δ_i (D. M. Pozar, Microwave Engineering, 4th ed.,
 §6.1 and §6.3; common practice).
 
@@ -38,17 +39,45 @@ def _split(space: OrderSpace, dofs: np.ndarray):
     return full[:space.n_edge], full[space.n_edge:]
 
 
-def electric_energy_by_region(space: OrderSpace, dofs) -> tuple[dict[str, float], float]:
-    """∫ ε0 ε_r |E|² r per region, and the share of it in E_z."""
+def _parts(space: OrderSpace, e, u, r):
+    """Of the field F carried (E or H) and its curl, at the points of ``e``, ``u`` (its
+    interpolated edge and node parts) and radius ``r``: the section densities, weight r
+    included, ∫ |F|² r and ∫ |∇×F|² r with their z parts. With F = (f_t, u / r) and
+    (∇×F) = ((∇u + m f_t)^⊥ / r, curl f_t): |F|² r = r |f_t|² + u² / r and
+    |∇×F|² r = |∇u + m f_t|² / r + r (curl f_t)²."""
+    f_t = np.asarray(e.value)
+    meridional = np.asarray(u.grad) + space.m * f_t
+    field = r * np.sum(f_t**2, axis=0) + np.asarray(u.value) ** 2 / r
+    field_z = r * f_t[1] ** 2
+    curl = np.sum(meridional**2, axis=0) / r + r * np.asarray(e.curl) ** 2
+    curl_z = meridional[0] ** 2 / r
+    return field, field_z, curl, curl_z
+
+
+def _energy_densities(space: OrderSpace, dofs, omega: float):
+    """Electric and magnetic energy densities ε0 ε_r |E|² r and μ0 μ_r |H|² r on the section's
+    quadrature points, and their z parts. The field carried is one of them; the other comes
+    from its curl (∇×E = -jωμ0 μ_r H, ∇×H = jωε0 ε_r E)."""
     e_dofs, u_dofs = _split(space, dofs)
     e = space.edge_basis.interpolate(e_dofs)
     u = space.node_basis.interpolate(u_dofs)
     r = space.edge_basis.mapping.F(space.edge_basis.X)[0]
-    density = epsilon_0 * space.eps * (r * np.sum(np.asarray(e.value) ** 2, axis=0)
-                                       + np.asarray(u.value) ** 2 / r)
-    axial = epsilon_0 * space.eps * r * np.asarray(e.value)[1] ** 2
+    field, field_z, curl, curl_z = _parts(space, e, u, r)
+    if space.form == "E":
+        to_h = 1.0 / (omega**2 * mu_0 * space.mu)
+        return (epsilon_0 * space.eps * field, epsilon_0 * space.eps * field_z,
+                to_h * curl, to_h * curl_z)
+    to_e = 1.0 / (omega**2 * epsilon_0 * space.eps)
+    return to_e * curl, to_e * curl_z, mu_0 * space.mu * field, mu_0 * space.mu * field_z
+
+
+def electric_energy_by_region(space: OrderSpace, dofs, omega: float = 1.0
+                              ) -> tuple[dict[str, float], float]:
+    """∫ ε0 ε_r |E|² r per region (at angular frequency ``omega``, which scales it in the H
+    form only), and the share of it in E_z."""
+    electric, axial, _, _ = _energy_densities(space, dofs, omega)
     dx = space.edge_basis.dx
-    per_cell = np.sum(density * dx, axis=1)
+    per_cell = np.sum(electric * dx, axis=1)
     section = space.model.section
     energy = {name: float(per_cell[section.tri_region == rid].sum())
               for name, rid in section.region_names.items()}
@@ -56,16 +85,10 @@ def electric_energy_by_region(space: OrderSpace, dofs) -> tuple[dict[str, float]
 
 
 def axial_magnetic_share(space: OrderSpace, dofs) -> float:
-    """The share of ∫ μ_r⁻¹ |∇×E|² r in its z component."""
-    e_dofs, u_dofs = _split(space, dofs)
-    e = space.edge_basis.interpolate(e_dofs)
-    u = space.node_basis.interpolate(u_dofs)
-    r = space.edge_basis.mapping.F(space.edge_basis.X)[0]
-    meridional = np.asarray(u.grad) + space.m * np.asarray(e.value)
-    total = space.inv_mu * (np.sum(meridional**2, axis=0) / r + r * np.asarray(e.curl) ** 2)
-    axial = space.inv_mu * meridional[0] ** 2 / r
+    """The share of ∫ μ0 μ_r |H|² r in its z component."""
+    _, _, magnetic, axial = _energy_densities(space, dofs, 1.0)
     dx = space.edge_basis.dx
-    return float(np.sum(axial * dx) / max(np.sum(total * dx), np.finfo(float).tiny))
+    return float(np.sum(axial * dx) / max(np.sum(magnetic * dx), np.finfo(float).tiny))
 
 
 def field_class(space: OrderSpace, dofs) -> str:
@@ -88,7 +111,7 @@ def has_losses(space: OrderSpace) -> bool:
 
 def mode_losses(space: OrderSpace, dofs, frequency_hz: float) -> LossReport:
     omega = 2 * math.pi * frequency_hz
-    energy, _ = electric_energy_by_region(space, dofs)
+    energy, _ = electric_energy_by_region(space, dofs, omega)
     total_e = sum(energy.values())
     filling = {name: value / total_e for name, value in energy.items()}
     stored = 0.5 * total_e
@@ -111,7 +134,9 @@ def mode_losses(space: OrderSpace, dofs, frequency_hz: float) -> LossReport:
 
 
 def _wall_powers(space: OrderSpace, dofs, omega: float) -> dict[str, float]:
-    """(R_s / 2) ∫ |H_t|² r dl on each metal wall of the section, W (same scale as W)."""
+    """(R_s / 2) ∫ |H_t|² r dl on each metal wall of the section, W (same scale as W). H_t
+    has the azimuthal part and the meridional part along the wall; in the E form both come
+    from ∇×E / (ωμ0 μ_r), in the H form they are the field itself."""
     model, section = space.model, space.model.section
     mesh = space.edge_basis.mesh
     e_dofs, u_dofs = _split(space, dofs)
@@ -125,6 +150,11 @@ def _wall_powers(space: OrderSpace, dofs, omega: float) -> dict[str, float]:
                 section.edge_tag == tag])):
             e, u = eb.interpolate(e_dofs), nb.interpolate(u_dofs)
             r = eb.mapping.F(eb.X, tind=eb.tind)[0]
+            if space.form == "H":
+                # |H_t|² r: u² / r (azimuthal) + r (h_t · tangent)², tangent = normal turned
+                along = -np.asarray(e.value)[0] * normal[1] + np.asarray(e.value)[1] * normal[0]
+                total += float(np.sum((np.asarray(u.value) ** 2 / r + r * along**2) * dl))
+                continue
             mu_r = np.array([mu_by_region[t] for t in section.tri_region[eb.tind]])
             meridional = np.asarray(u.grad) + space.m * np.asarray(e.value)
             # |curl E|_t² r: the azimuthal part and the meridional part along the wall

@@ -5,7 +5,8 @@ Every triangle of the section sweeps SEGMENTS wedges around the z axis; cell dat
 fields at each wedge's centre (the triangle's centroid at the wedge's mid-angle), for 1 J
 stored energy, with the same names as the 3D file: ``region``, and per mode K ``mK_E``
 (V/m), ``mK_H`` (A/m, in quadrature with E), ``mK_we`` and ``mK_wm`` (J/m³). For m >= 1
-the cos mφ member of the pair is shown (E_r, E_z ∝ cos mφ, E_φ ∝ sin mφ).
+one member of the pair is shown: the one whose carried field (E in the E form, H in the H
+form) has its r and z components ∝ cos mφ and its φ component ∝ sin mφ.
 """
 
 from __future__ import annotations
@@ -22,8 +23,8 @@ SEGMENTS = 36
 
 
 def _centroid_fields(space, dofs):
-    """(e_r, e_φ, e_z) and ∇×E's (r, φ, z) amplitudes at the triangle centroids, without the
-    azimuthal factors; also r, ε_r and μ_r there."""
+    """The carried field's (f_r, f_φ, f_z) and its curl's (r, φ, z) amplitudes at the
+    triangle centroids, without the azimuthal factors; also ε_r and μ_r there."""
     from skfem import CellBasis
 
     full = space.constraint.expand(dofs)
@@ -52,9 +53,11 @@ def _centroid_fields(space, dofs):
 
 
 def _stored_energy(space) -> float:
-    """W = (ε0/2) ∫ ε_r |E|² dV of the M-normalised vector: the azimuthal integral of cos²
-    or sin² is π (2π for m = 0) times the section integral, which is xᵀ M x = 1."""
-    return 0.5 * epsilon_0 * (2 * math.pi if space.m == 0 else math.pi)
+    """W = (ε0/2) ∫ ε_r |E|² dV (E form) or (μ0/2) ∫ μ_r |H|² dV (H form) of the
+    M-normalised vector: the azimuthal integral of cos² or sin² is π (2π for m = 0) times
+    the section integral, which is xᵀ M x = 1."""
+    constant = epsilon_0 if space.form == "E" else mu_0
+    return 0.5 * constant * (2 * math.pi if space.m == 0 else math.pi)
 
 
 def revolved_grid(result: AxisymmetricResult, segments: int = SEGMENTS):
@@ -72,19 +75,24 @@ def revolved_grid(result: AxisymmetricResult, segments: int = SEGMENTS):
     data = {"region": np.tile(section.tri_region, segments).astype("int32")}
     for mode in result.modes:
         space = result.spaces[mode.m]
-        E, curl, eps, mu = _centroid_fields(space, mode.dofs)
+        F, curl, eps, mu = _centroid_fields(space, mode.dofs)
         omega = 2 * math.pi * mode.frequency_hz
         scale = 1.0 / math.sqrt(_stored_energy(space))
         m = mode.m
         c = np.cos(m * mid)[:, None]
         s = np.sin(m * mid)[:, None] if m else np.ones((segments, 1))
-        # E = (e_r c, e_φ s, e_z c); ∇×E = (curl_r s, curl_φ c, curl_z s)  (m = 0: c = s = 1)
-        E_cyl = [E[0] * c, E[1] * s, E[2] * c]
-        H_cyl = [curl[0] * s, curl[1] * c, curl[2] * s]
+        # F = (f_r c, f_φ s, f_z c); ∇×F = (curl_r s, curl_φ c, curl_z s)  (m = 0: c = s = 1)
+        field = [F[0] * c, F[1] * s, F[2] * c]
+        rotated = [curl[0] * s, curl[1] * c, curl[2] * s]
+        # the other field from the curl: H = j∇×E/(ωμ0 μ_r), E = -j∇×H/(ωε0 ε_r), in
+        # quadrature with the carried one
+        if space.form == "E":
+            parts = (("E", field, np.ones_like(mu)), ("H", rotated, 1.0 / (omega * mu_0 * mu)))
+        else:
+            parts = (("E", rotated, 1.0 / (omega * epsilon_0 * eps)), ("H", field, np.ones_like(mu)))
         cos_p, sin_p = np.cos(mid)[:, None], np.sin(mid)[:, None]
         tag = f"m{mode.index:02d}"
-        for name, (a_r, a_p, a_z), factor in (("E", E_cyl, np.ones_like(mu)),
-                                              ("H", H_cyl, 1.0 / (omega * mu_0 * mu))):
+        for name, (a_r, a_p, a_z), factor in parts:
             vec = (np.stack([a_r * cos_p - a_p * sin_p, a_r * sin_p + a_p * cos_p, a_z],
                             axis=-1) * (scale * factor)[None, :, None])
             data[f"{tag}_{name}"] = vec.reshape(-1, 3)

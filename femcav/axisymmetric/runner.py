@@ -45,6 +45,7 @@ def solve_axisymmetric_case(case: Case, settings, progress: Progress) -> Axisymm
         return solve_axisymmetric(model, orders=settings.azimuthal_orders,
                                   modes=settings.modes, near_hz=settings.near_hz,
                                   order=settings.order, factorization=settings.factorization,
-                                  complex_check=settings.complex_check, progress=progress)
+                                  complex_check=settings.complex_check,
+                                  form=settings.form or "E", progress=progress)
     except InputError as exc:
         raise exc.located(source=str(case.path)) from None

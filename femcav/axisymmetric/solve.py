@@ -32,6 +32,7 @@ from .space import (
     OrderSpace,
     assemble_mass,
     assemble_order,
+    assemble_stiffness,
     build_order_space,
     kernel_basis,
     skfem_mesh,
@@ -72,7 +73,7 @@ class AxisymmetricResult:
     request: EigenRequest
     near_hz: float | None = None
     eigen_stats: dict = field(default_factory=dict)
-    form = "E"
+    form: str = "E"
     element_kind = "triangles (meridional section)"
     static_fields_dropped = 0
     classes = ()
@@ -90,10 +91,11 @@ class AxisymmetricResult:
 def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int = 10,
                        near_hz: float | None = None, order: int = 3,
                        factorization: str = "auto", complex_check: bool = False,
-                       progress: Progress = SILENT) -> AxisymmetricResult:
+                       form: str = "E", progress: Progress = SILENT) -> AxisymmetricResult:
     """The lowest ``modes`` modes over the azimuthal ``orders`` (or those nearest
-    ``near_hz``), Nédélec/Lagrange elements of ``order``; with ``complex_check``, every mode
-    also gets its complex frequency from a solve with ε_r (1 - j tan δ)."""
+    ``near_hz``), Nédélec/Lagrange elements of ``order``, in the E or H ``form``; with
+    ``complex_check``, every mode also gets its complex frequency from a solve with
+    ε_r (1 - j tan δ)."""
     orders = _checked_orders(orders)
     check_request(modes, near_hz)
     factorize = get_factorizer(factorization)
@@ -106,7 +108,7 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
     found, spaces, dofs, stats, matrices = [], {}, {}, {}, {}
     for m in orders:
         t0 = time.perf_counter()
-        space = build_order_space(model, m, order, mesh)
+        space = build_order_space(model, m, order, mesh, form)
         K, M = assemble_order(space)
         G = kernel_basis(space)
         timings["assembly_s"] += time.perf_counter() - t0
@@ -153,7 +155,7 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
     return AxisymmetricResult(modes=result_modes, spaces=spaces, dofs_by_order=dofs,
                               order=order, elements=model.section.n_triangles,
                               timings=timings, request=EigenRequest(modes, target),
-                              near_hz=near_hz, eigen_stats=stats)
+                              near_hz=near_hz, eigen_stats=stats, form=form)
 
 
 def _checked_orders(orders) -> tuple[int, ...]:
@@ -184,9 +186,15 @@ def _complex_check(spaces: dict[int, OrderSpace], matrices: dict, modes: list[Ax
         if not own:
             continue
         K, M, G = matrices[m]
-        M_loss = assemble_mass(space, space.eps * _tan_delta_at_quadrature(space))
-        values = complex_eigenvalues(K.astype(complex), M - 1j * M_loss, G, factorize,
-                                     shift=-scale, count=len(own))
+        tan_delta = _tan_delta_at_quadrature(space)
+        if space.form == "E":   # M becomes ∫ ε_r (1 - j tan δ) ...
+            K_c, M_c = K.astype(complex), M - 1j * assemble_mass(space, space.eps * tan_delta)
+        else:                   # 1/(ε_r (1 - j t)) = (1/ε_r)(1 + j t)/(1 + t²)
+            coef = space.stiffness_coef / (1 + tan_delta**2)
+            K_c = (assemble_stiffness(space, coef)
+                   + 1j * assemble_stiffness(space, coef * tan_delta))
+            M_c = M.astype(complex)
+        values = complex_eigenvalues(K_c, M_c, G, factorize, shift=-scale, count=len(own))
         out.update({mode.index: mode for mode in with_complex_frequencies(own, values)})
     return [out.get(mode.index, mode) for mode in modes]
 

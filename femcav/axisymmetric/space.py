@@ -28,7 +28,13 @@ that breaks it grows without bound near the axis, so the discrete minimiser meet
 the limit. Measured (pillbox, orders 2 and 3, h halved twice): the eigenvalue errors fall
 as h^4 and h^6 for m = 0, 1 and 2 alike, the optimal rates.
 
-Walls: PEC and metal fix the tangential e_t and u (e_φ); PMC is natural.
+The H form, ∇×(ε_r⁻¹∇×H) = k0² μ_r H, has the same structure with the roles of the
+coefficients exchanged (stiffness ε_r⁻¹, mass μ_r) and H = (h_r cos mφ, h_φ sin mφ,
+h_z cos mφ) carried the same way, since the curl-curl operator does not care which field it
+acts on; its spectrum is the same (for m >= 1 a degenerate pair holds both parities).
+
+Walls: in the E form PEC and metal fix the tangential e_t and u (e_φ) and PMC is natural;
+in the H form PMC fixes them and PEC and metal are natural (femcav.walls.essential_kinds).
 """
 
 from __future__ import annotations
@@ -53,7 +59,8 @@ from skfem.helpers import dot
 from ..errors import InputError
 from ..fem.assembly import shared_entries_csr
 from ..fem.constraints import Constraint
-from ..walls import PMC
+from ..model import FORMS
+from ..walls import PEC, PMC, essential_kinds
 from .model import AxisymmetricModel
 
 ELEMENTS = {1: (ElementTriN1, ElementTriP1), 2: (ElementTriN2, ElementTriP2),
@@ -72,7 +79,18 @@ class OrderSpace:
     constraint: Constraint      # the kept DOFs of the stacked vector
     potential_constraint: Constraint  # node DOFs p whose (∇p, -m p) is a kept kernel field
     eps: np.ndarray             # ε_r at the quadrature points (n_triangles, n_points)
-    inv_mu: np.ndarray
+    mu: np.ndarray              # μ_r there
+    form: str = "E"             # the field carried: E or H
+
+    @property
+    def stiffness_coef(self) -> np.ndarray:
+        """1/μ_r in the E form, 1/ε_r in the H form."""
+        return 1.0 / (self.mu if self.form == "E" else self.eps)
+
+    @property
+    def mass_coef(self) -> np.ndarray:
+        """ε_r in the E form, μ_r in the H form."""
+        return self.eps if self.form == "E" else self.mu
 
     @property
     def n_edge(self) -> int:
@@ -112,7 +130,7 @@ def skfem_mesh(model: AxisymmetricModel) -> MeshTri:
 
 
 def build_order_space(model: AxisymmetricModel, m: int, order: int,
-                      mesh: MeshTri | None = None) -> OrderSpace:
+                      mesh: MeshTri | None = None, form: str = "E") -> OrderSpace:
     if order not in ELEMENTS:
         raise InputError(f"the axisymmetric solver has element orders 1, 2 and 3, got "
                          f"{order!r}", field="solve.order")
@@ -125,16 +143,22 @@ def build_order_space(model: AxisymmetricModel, m: int, order: int,
     edge_basis = Basis(mesh, edge_element(), intorder=intorder)
     node_basis = Basis(mesh, node_element(), intorder=intorder)
 
-    # Boundary facets: on the axis (both ends at r = 0), on a PMC wall (natural), and all
-    # others PEC or metal, named or not (an unnamed boundary is the metal enclosure, as in 3D).
+    if form not in FORMS:
+        raise InputError(f"unknown field form {form!r}; allowed: {', '.join(FORMS)}",
+                         field="solve.form")
+    # Boundary facets: on the axis (both ends at r = 0), on a PMC wall, and all others PEC or
+    # metal, named or not (an unnamed boundary is the metal enclosure, as in 3D). The walls
+    # whose kind is essential in this form fix their tangential DOFs.
     section = model.section
     boundary = mesh.boundary_facets()
     on_axis = np.all(mesh.p[0, mesh.facets[:, boundary]] == 0.0, axis=0)
     axis = boundary[on_axis]
-    pmc = [facets_of(mesh, section.edges[section.edge_tag == tag])
-           for name, tag in section.wall_names.items()
-           if name != "axis" and model.wall_kind(name) == PMC]
-    walls = np.setdiff1d(boundary[~on_axis], np.concatenate([np.zeros(0, np.int64), *pmc]))
+    pmc = np.concatenate([np.zeros(0, np.int64)] + [
+        facets_of(mesh, section.edges[section.edge_tag == tag])
+        for name, tag in section.wall_names.items()
+        if name != "axis" and model.wall_kind(name) == PMC])
+    pec = np.setdiff1d(boundary[~on_axis], pmc)
+    walls = pec if PEC in essential_kinds(form) else np.unique(pmc)
     fixed_edge = set(edge_basis.get_dofs(walls).all().tolist())
     wall_nodes = set(node_basis.get_dofs(walls).all().tolist())
     axis_nodes = set(node_basis.get_dofs(axis).all().tolist())
@@ -150,12 +174,16 @@ def build_order_space(model: AxisymmetricModel, m: int, order: int,
     zero_potential = wall_nodes | (axis_nodes if m >= 1 else set())
     potentials = np.setdiff1d(np.arange(node_basis.N),
                               np.array(sorted(zero_potential), dtype=int))
+    if m == 0 and not zero_potential:
+        # nothing grounds the potential (H form, no PMC wall): a constant p has no gradient,
+        # so one node is dropped to keep the kernel basis independent
+        potentials = potentials[1:]
 
-    eps, inv_mu = _coefficients(model, edge_basis)
+    eps, mu = _coefficients(model, edge_basis)
     return OrderSpace(model=model, m=m, order=order, edge_basis=edge_basis,
                       node_basis=node_basis, constraint=constraint,
                       potential_constraint=Constraint.keeping(node_basis.N, potentials),
-                      eps=eps, inv_mu=inv_mu)
+                      eps=eps, mu=mu, form=form)
 
 
 def facets_of(mesh: MeshTri, edges: np.ndarray) -> np.ndarray:
@@ -181,57 +209,63 @@ def _coefficients(model: AxisymmetricModel, basis: Basis):
     x = basis.mapping.F(basis.X)                   # (2, n_triangles, n_points)
     r, z = x[0], x[1]
     eps = np.empty_like(r)
-    inv_mu = np.empty_like(r)
+    mu = np.empty_like(r)
     for name, rid in section.region_names.items():
         cells = section.tri_region == rid
         material = model.materials[name]
         eps[cells] = material.eps_at(r[cells], np.zeros_like(r[cells]), z[cells])
-        inv_mu[cells] = 1.0 / material.mu_r
-    return eps, inv_mu
+        mu[cells] = material.mu_r
+    return eps, mu
 
 
 @BilinearForm
 def _edge_edge(e, f, w):
     r = w.x[0]
-    return w.inv_mu * (w.m**2 * dot(e, f) / r + r * e.curl * f.curl)
+    return w.a * (w.m**2 * dot(e, f) / r + r * e.curl * f.curl)
 
 
 @BilinearForm
 def _node_edge(u, f, w):        # trial u (node), test f (edge)
-    return w.inv_mu * w.m * dot(u.grad, f) / w.x[0]
+    return w.a * w.m * dot(u.grad, f) / w.x[0]
 
 
 @BilinearForm
 def _node_node(u, v, w):
-    return w.inv_mu * dot(u.grad, v.grad) / w.x[0]
+    return w.a * dot(u.grad, v.grad) / w.x[0]
 
 
 @BilinearForm
 def _edge_mass(e, f, w):
-    return w.eps * w.x[0] * dot(e, f)
+    return w.b * w.x[0] * dot(e, f)
 
 
 @BilinearForm
 def _node_mass(u, v, w):
-    return w.eps * u * v / w.x[0]
+    return w.b * u * v / w.x[0]
 
 
 def assemble_order(space: OrderSpace):
     """(K, M) over the kept DOFs."""
+    return (assemble_stiffness(space, space.stiffness_coef),
+            assemble_mass(space, space.mass_coef))
+
+
+def assemble_stiffness(space: OrderSpace, a: np.ndarray):
+    """K over the kept DOFs with the coefficient ``a`` at the quadrature points (1/μ_r in the
+    E form, 1/ε_r in the H form, or a lossy variant of it)."""
     eb, nb = space.edge_basis, space.node_basis
-    coefficient = {"m": float(space.m), "inv_mu": space.inv_mu}
+    coefficient = {"m": float(space.m), "a": a}
     K_ee = _edge_edge.assemble(eb, **coefficient)
     K_ue = _node_edge.assemble(nb, eb, **coefficient)        # rows edge, columns node
     K_uu = _node_node.assemble(nb, **coefficient)
-    K = sp.bmat([[K_ee, K_ue], [K_ue.T, K_uu]], format="csr")
-    return space.constraint.reduce(K), assemble_mass(space, space.eps)
+    return space.constraint.reduce(sp.bmat([[K_ee, K_ue], [K_ue.T, K_uu]], format="csr"))
 
 
-def assemble_mass(space: OrderSpace, eps: np.ndarray):
-    """M over the kept DOFs with ε_r replaced by ``eps`` at the quadrature points (the
-    lossy part of a complex permittivity, for one)."""
-    M = sp.block_diag([_edge_mass.assemble(space.edge_basis, eps=eps),
-                       _node_mass.assemble(space.node_basis, eps=eps)], format="csr")
+def assemble_mass(space: OrderSpace, b: np.ndarray):
+    """M over the kept DOFs with the coefficient ``b`` at the quadrature points (ε_r in the E
+    form, μ_r in the H form, or the lossy part of a complex permittivity)."""
+    M = sp.block_diag([_edge_mass.assemble(space.edge_basis, b=b),
+                       _node_mass.assemble(space.node_basis, b=b)], format="csr")
     return space.constraint.reduce(M)
 
 

@@ -123,7 +123,7 @@ def weyl_summary(result) -> dict:
     if getattr(result, "dofs_by_order", None):
         space = next(iter(result.spaces.values()))
         r = space.edge_basis.mapping.F(space.edge_basis.X)[0]
-        n3 = (space.eps / space.inv_mu) ** 1.5
+        n3 = (space.eps * space.mu) ** 1.5
         volume = float(2 * np.pi * np.sum(r * n3 * space.edge_basis.dx))
         return {"optical_volume_m3": volume, "listed_share": None,
                 "note": f"azimuthal orders {list(result.dofs_by_order)} only"}
