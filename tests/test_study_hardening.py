@@ -254,6 +254,21 @@ def test_a_bad_point_anywhere_stops_the_sweep_before_it_starts(tmp_path, capsys,
     assert not (tmp_path / "out").exists()
 
 
+def test_tune_refuses_a_bad_bracket_end_before_solving(tmp_path, monkeypatch):
+    import femcav.runner
+    from femcav.study.tune import run_tune
+
+    def no_solve(*args, **kwargs):
+        raise AssertionError("solved before the bracket was checked")
+    monkeypatch.setattr(femcav.runner, "solve_case", no_solve)
+    case = tmp_path / "tune.toml"
+    case.write_text(BOX.split("[sweep]")[0] + '[tune]\nparameter = "geometry.length"\n'
+                    'bracket = ["-5 mm", "30 mm"]\ntarget = "8.5 GHz"\n')
+    with pytest.raises(InputError, match="lower end of the bracket"):
+        run_tune(case, out=tmp_path / "out")
+    assert not (tmp_path / "out").exists()
+
+
 # 16. One run per folder; temporary files never shared.
 
 def test_a_second_run_in_a_held_folder_names_the_holder(tmp_path, capsys):
@@ -381,4 +396,5 @@ def test_killed_sweep_takes_its_workers_and_resumes(tmp_path, sig, resume):
     document = json.loads((out / "sweep.json").read_text())
     np.testing.assert_allclose(first_track(document),
                                [te101(0.026 + 0.001 * k) for k in range(6)], rtol=3e-3)
-    assert not list((out / "points").glob(".*"))     # no temporary file left behind
+    assert not list((out / "points").glob(".*")) + list(out.glob(".*.partial*"))  # no
+    # temporary file left behind

@@ -41,6 +41,14 @@ def share_memory_among(processes: int) -> None:
     _sharing_processes = max(1, int(processes))
 
 
+def share_note() -> str:
+    """How the free memory was counted, when it is shared among processes."""
+    if _sharing_processes == 1:
+        return ""
+    return (f" for this process, one of {_sharing_processes} solving at once (fewer --jobs "
+            "leave each more)")
+
+
 def available_bytes() -> int:
     """Memory this process may still use: the machine's and its control group's free memory
     shared among the processes that solve at once, and at most what this process's own

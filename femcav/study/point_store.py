@@ -120,11 +120,13 @@ def _read_summary(summary: Path) -> dict:
     return document
 
 
-def remove_temporaries(folder: Path) -> int:
-    """Delete the temporary files a stopped run left in ``points/`` (call with the folder
-    locked: no other run can be writing them); the number removed."""
-    removed = 0
-    for tmp in (folder / "points").glob(".*.partial*"):    # staged_output's names
+def remove_temporaries(folder: Path, outputs=("sweep.json", "sweep.csv", "mode_chart.png")) -> int:
+    """Delete the temporary files that a stopped run left (staged_output's names: the point
+    files, and ``outputs`` in the folder itself); call with the folder locked, so that no
+    other run can be writing them. The number removed."""
+    stale = list((folder / "points").glob(".*.partial*"))
+    for name in outputs:
+        stale += folder.glob(f".{name}.*.partial*")
+    for tmp in stale:
         tmp.unlink(missing_ok=True)
-        removed += 1
-    return removed
+    return len(stale)
