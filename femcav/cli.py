@@ -6,17 +6,19 @@ import argparse
 import sys
 
 from . import __version__
-from .errors import InputError
+from .errors import InputError, ResourceError
 
 EXIT_INPUT_ERROR = 2
 EXIT_CHECKS_FAILED = 3
+EXIT_OUT_OF_RESOURCES = 4
 
 
 def _parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="femcav",
         description="Resonant modes of closed microwave cavities by finite elements.",
-        epilog="Exit status: 0 success, 2 a mistake in the input, 3 a mode failed its checks.")
+        epilog="Exit status: 0 success, 2 a mistake in the input, 3 a mode failed its checks, "
+               "4 out of memory (or a worker process was killed).")
     parser.add_argument("--version", action="version", version=f"femcav {__version__}")
     commands = parser.add_subparsers(dest="command", metavar="COMMAND", title="commands")
     solve = commands.add_parser(
@@ -105,6 +107,14 @@ def main(argv: list[str] | None = None) -> int:
     except InputError as exc:
         print(f"femcav: error: {exc}", file=sys.stderr)
         return EXIT_INPUT_ERROR
+    except ResourceError as exc:
+        print(f"femcav: error: {exc}", file=sys.stderr)
+        return EXIT_OUT_OF_RESOURCES
+    except MemoryError as exc:
+        detail = f" ({exc})" if str(exc) else ""
+        print(f"femcav: error: out of memory{detail}; use a coarser mesh, fewer modes, symmetry "
+              "planes or fewer --jobs", file=sys.stderr)
+        return EXIT_OUT_OF_RESOURCES
 
 
 def _solve(args) -> int:

@@ -1,8 +1,10 @@
-"""The one exception type for user mistakes.
+"""The exception types the command line turns into one line.
 
 Anything the user can fix (a wrong key, a bad unit, a mesh that does not match the case) is
 raised as :class:`InputError`; the command line prints it as one line and exits with status 2.
-Every other exception is a bug in femcav and keeps its traceback.
+A run that the machine cannot carry (memory ran out, a worker process was killed) raises
+:class:`ResourceError` or MemoryError: one line, exit status 4. Every other exception is a
+bug in femcav and keeps its traceback.
 """
 
 from __future__ import annotations
@@ -24,3 +26,7 @@ class InputError(Exception):
     def __str__(self) -> str:
         where = ": ".join(part for part in (self.source, self.field) if part)
         return f"{where}: {self.message}" if where else self.message
+
+
+class ResourceError(Exception):
+    """The machine could not give what the run needed (memory, a worker process)."""

@@ -1,4 +1,4 @@
-"""Progress lines on stderr for long work; silent when quiet."""
+"""Progress lines on stderr for long work (silent when quiet), and warnings (always)."""
 
 from __future__ import annotations
 
@@ -9,13 +9,22 @@ import time
 class Progress:
     def __init__(self, quiet: bool = False, stream=None):
         self.quiet = quiet
-        self.stream = stream or sys.stderr
+        self._stream = stream
         self.start = time.perf_counter()
+
+    @property
+    def stream(self):
+        # looked up at each line, so that a redirected sys.stderr is honoured
+        return self._stream or sys.stderr
 
     def step(self, message: str) -> None:
         if not self.quiet:
             elapsed = time.perf_counter() - self.start
             print(f"[{elapsed:7.2f} s] {message}", file=self.stream, flush=True)
+
+    def warn(self, message: str) -> None:
+        """A line the user must see even with --quiet (work redone, a request lowered)."""
+        print(f"femcav: warning: {message}", file=self.stream, flush=True)
 
 
 SILENT = Progress(quiet=True)

@@ -133,6 +133,7 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     timings["eigen_s"] = time.perf_counter() - t0
     pairs.stats["factorization"] = describe(factorization)
     pairs.stats["method"] = choice.method
+    pairs.stats["peak_estimate_bytes"] = choice.peak_bytes   # sizes a sweep's --jobs
 
     static = pairs.values < STATIC_FRACTION * scale
     values, vectors = pairs.values[~static], pairs.vectors[:, ~static]

@@ -89,3 +89,14 @@ def solved_folder(where: Path, case_text: str, *options: str) -> Path:
     case.write_text(case_text)
     assert main(["solve", str(case), "--out", str(where / "out"), "-q", *options]) == 0
     return where / "out"
+
+
+def swept_folder(where: Path, case_text: str, **options):
+    """Write ``case_text`` to where/box.toml and run its sweep into where/out: (the sweep
+    document, the output folder, the case file)."""
+    from femcav.study.sweep import run_sweep
+
+    case = where / "box.toml"
+    case.write_text(case_text)
+    document, out = run_sweep(case, out=where / "out", **options)
+    return document, out, case

@@ -7,6 +7,7 @@ import json
 
 import numpy as np
 import pytest
+from conftest import swept_folder
 
 from femcav.analytic.box import box_modes
 from femcav.analytic.slab import slab_te_m0p_frequencies
@@ -40,11 +41,7 @@ def labelled(d):
 
 @pytest.fixture(scope="module")
 def box_sweep(tmp_path_factory):
-    folder = tmp_path_factory.mktemp("sweep")
-    case = folder / "box.toml"
-    case.write_text(BOX_SWEEP)
-    document, out = run_sweep(case, out=folder / "out")
-    return document, out, case
+    return swept_folder(tmp_path_factory.mktemp("sweep"), BOX_SWEEP)
 
 
 def test_tracks_follow_the_crossing_by_field_overlap(box_sweep):

@@ -12,7 +12,8 @@ from dataclasses import dataclass
 
 from ..errors import InputError
 from .interface import EigenRequest
-from .memory import available_bytes, direct_peak_bytes, format_bytes, iterative_peak_bytes
+from .memory import (available_bytes, direct_peak_bytes, format_bytes, iterative_peak_bytes,
+                     share_note)
 
 METHODS = ("auto", "direct", "iterative")
 # With "auto", the lowest modes of problems this large go to the iterative backend when the
@@ -84,6 +85,6 @@ def choose(method: str, *, n: int, nnz: int, request: EigenRequest, order: int, 
                 and iterative <= budget else "")
         raise InputError(f"the {choice.method} solve of {n} DOFs needs about "
                          f"{format_bytes(choice.peak_bytes)} (estimated) but only "
-                         f"{format_bytes(free)} are free; use a coarser mesh, symmetry planes"
-                         f"{hint}", field="solve")
+                         f"{format_bytes(free)} are free{share_note()}; use a coarser mesh, "
+                         f"symmetry planes{hint}", field="solve")
     return choice

@@ -25,6 +25,9 @@ _PATH = re.compile(r"^(geometry)\.(\w+)(?:\[(\d)\])?$|^(regions)\.(\w+)\.(eps_r|
 KINDS = {"eps_r": "number", "mu_r": "number", "tan_delta": "number",
          "conductivity": "conductivity"}
 UNITS = {"length": "m", "number": "", "conductivity": "S/m"}
+# The most values one parameter may take (each is a solve): refused before any list of
+# values is made, so that a typo such as points = 1000000000 costs nothing.
+MAX_VALUES = 10_000
 
 
 @dataclass(frozen=True)
@@ -84,6 +87,9 @@ def parse_axis(spec: dict, where: str) -> Axis:
         raw = spec["values"]
         if not isinstance(raw, list) or not raw:
             raise InputError("must be a non-empty list", field=f"{where}.values")
+        if len(raw) > MAX_VALUES:
+            raise InputError(f"{len(raw)} values; at most {MAX_VALUES} per parameter",
+                             field=f"{where}.values")
         values = tuple(value(v, f"{where}.values[{i}]") for i, v in enumerate(raw))
     else:
         missing = [k for k in ("from", "to", "points") if k not in spec]
@@ -93,6 +99,9 @@ def parse_axis(spec: dict, where: str) -> Axis:
         points = spec["points"]
         if isinstance(points, bool) or not isinstance(points, int) or points < 2:
             raise InputError(f"must be a whole number >= 2, got {points!r}",
+                             field=f"{where}.points")
+        if points > MAX_VALUES:
+            raise InputError(f"{points} points; at most {MAX_VALUES} per parameter",
                              field=f"{where}.points")
         lo, hi = value(spec["from"], f"{where}.from"), value(spec["to"], f"{where}.to")
         values = tuple(float(v) for v in np.linspace(lo, hi, points))

@@ -1,12 +1,16 @@
 """Parameter sweeps: re-mesh and solve the case at every point, track the modes across.
 
 The case file's [sweep] table names the first parameter (see parameters.parse_axis) and an
-optional second one in [sweep.second]; the points are the grid of the two. Every point is
-solved as a case of its own (its raw tables with the value written in, validated again) and
-saved at once into ``points/`` of the output folder: a summary (JSON) and what tracking needs
-(the mesh and the mode vectors, NPZ). A sweep that is run again with the same folder reuses
-the points already there whose values match, so an interrupted sweep resumes where it
-stopped; points can be solved in parallel processes (``jobs``).
+optional second one in [sweep.second]; the points are the grid of the two (at most
+MAX_GRID_POINTS). Every point is a case of its own (its raw tables with the values written
+in); all of them are validated before the first is solved, then each is solved and saved
+at once into ``points/`` of the output folder (femcav.study.point_store). A sweep that is run
+again with the same folder reuses a stored point only when its fingerprint (the point's
+whole case, an imported mesh's contents, the solve options and femcav's results version:
+femcav.study.fingerprint) is the current one, so an interrupted sweep resumes where it
+stopped and a changed case is solved again. One run at a time works in a folder
+(femcav.study.folder_lock); points can be solved in worker processes (``jobs``,
+femcav.study.workers).
 
 Tracking runs along the first parameter (for each value of the second) over the modes of the
 first point: femcav.study.tracking. Each point solves TRACKING_SPARE more modes than the case
@@ -20,24 +24,30 @@ parameter, one curve per track; Q on a second panel when the case has losses).
 from __future__ import annotations
 
 import json
-import multiprocessing
 import time
-from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
 
 from ..case import case_from_data, case_model, read_case_data
-from ..errors import InputError
-from ..geometry.mesh import TaggedMesh
+from ..errors import InputError, ResourceError
 from ..io.atomic import staged_output
 from ..io.results import mode_rows
 from ..progress import SILENT, Progress
+from .fingerprint import point_fingerprint
+from .folder_lock import folder_lock
 from .parameters import Axis, format_value, parse_axis, with_value
+from .point_store import PointResult, load_point, read_point, remove_temporaries, save_point
 from .tracking import track
+from .workers import usable_jobs, worker_pool
 
 TRACKING_SPARE = 3
+# What a study adds to the case's own [solve] options; part of every point's fingerprint.
+POINT_OPTIONS = {"extra_modes": TRACKING_SPARE}
+# The most points a sweep may have (each parameter is capped at parameters.MAX_VALUES).
+MAX_GRID_POINTS = 100_000
 FORMAT_NAME = "femcav-sweep"
 
 
@@ -62,20 +72,11 @@ def parse_sweep(data: dict) -> SweepSpec:
         axes.append(parse_axis(spec["second"], "sweep.second"))
         if axes[1].path == axes[0].path:
             raise InputError("the second parameter is the first one again", field="sweep.second")
+        size = len(axes[0].values) * len(axes[1].values)
+        if size > MAX_GRID_POINTS:
+            raise InputError(f"{len(axes[0].values)} x {len(axes[1].values)} = {size} points; "
+                             f"at most {MAX_GRID_POINTS} in a sweep", field="sweep")
     return SweepSpec(axes=tuple(axes))
-
-
-@dataclass(frozen=True)
-class PointResult:
-    """What a sweep keeps of one solved point."""
-
-    values: tuple[float, ...]
-    rows: list[dict]                # the mode rows of modes.json
-    mesh: TaggedMesh
-    dofs: np.ndarray                # (n_edges, n_modes)
-    form: str
-    order: int
-    seconds: float
 
 
 def study_case(data: dict, path: Path, *,
@@ -112,13 +113,38 @@ def checked_for_tracking(case) -> None:
                          "error_estimate / accuracy", field="solve.error_estimate")
 
 
-def solve_point(data: dict, path: Path, axes, values, spare: int = TRACKING_SPARE,
-                progress: Progress = SILENT) -> PointResult:
-    from ..runner import solve_case
-
+def point_data(data: dict, axes, values) -> dict:
+    """The raw case tables with the point's values written in."""
     for axis, value in zip(axes, values):
         data = with_value(data, axis.path, value)
-    case = study_case(data, path)
+    return data
+
+
+def plan_points(data: dict, path: Path, spec: SweepSpec) -> list[str]:
+    """Every point's fingerprint, after writing its values into the case and validating it
+    like a case of its own: a mistake at any point is refused before anything is solved or
+    written."""
+    digests: dict = {}
+    points = spec.points()
+    fingerprints = []
+    for index, values in enumerate(points):
+        tables = point_data(data, spec.axes, values)
+        try:
+            checked_for_tracking(study_case(tables, path))
+        except InputError as exc:
+            label = ", ".join(f"{a.path} = {format_value(a, v)}"
+                              for a, v in zip(spec.axes, values))
+            raise InputError(f"at point {index + 1} of {len(points)} ({label}): "
+                             f"{exc.message}", source=str(path), field=exc.field) from None
+        fingerprints.append(point_fingerprint(tables, path, POINT_OPTIONS, digests))
+    return fingerprints
+
+
+def solve_point(data: dict, path: Path, axes, values, fingerprint: str,
+                spare: int = TRACKING_SPARE, progress: Progress = SILENT) -> PointResult:
+    from ..runner import solve_case
+
+    case = study_case(point_data(data, axes, values), path)
     checked_for_tracking(case)
     t0 = time.perf_counter()
     settings = replace(case.solve, modes=case.solve.modes + spare)
@@ -126,51 +152,13 @@ def solve_point(data: dict, path: Path, axes, values, spare: int = TRACKING_SPAR
     return PointResult(values=tuple(values), rows=mode_rows(result), mesh=result.space.model.mesh,
                        dofs=np.column_stack([m.dofs for m in result.modes]),
                        form=result.form, order=result.order,
-                       seconds=time.perf_counter() - t0)
-
-
-def _point_files(folder: Path, index: int) -> tuple[Path, Path]:
-    return folder / "points" / f"{index:03d}.json", folder / "points" / f"{index:03d}.npz"
-
-
-def save_point(folder: Path, index: int, point: PointResult) -> None:
-    summary, arrays = _point_files(folder, index)
-    summary.parent.mkdir(parents=True, exist_ok=True)
-    m = point.mesh
-    extra = {} if m.tets10 is None else {"tets10": m.tets10}
-    tmp = arrays.with_suffix(".tmp.npz")
-    np.savez_compressed(tmp, points=m.points, tets=m.tets, tet_region=m.tet_region,
-                        faces=m.faces, face_tag=m.face_tag, dofs=point.dofs, **extra)
-    tmp.replace(arrays)
-    document = {"values": list(point.values), "form": point.form, "order": point.order,
-                "seconds": point.seconds, "region_names": m.region_names,
-                "wall_names": m.wall_names, "modes": point.rows}
-    tmp = summary.with_suffix(".tmp.json")
-    tmp.write_text(json.dumps(document, indent=1) + "\n")
-    tmp.replace(summary)           # the summary last: it marks the point as done
-
-
-def load_point(folder: Path, index: int, values) -> PointResult | None:
-    summary, arrays = _point_files(folder, index)
-    if not (summary.is_file() and arrays.is_file()):
-        return None
-    document = json.loads(summary.read_text())
-    if not np.allclose(document["values"], values, rtol=1e-12, atol=0):
-        return None                # a different sweep used this folder: solve again
-    with np.load(arrays) as z:
-        mesh = TaggedMesh(points=z["points"], tets=z["tets"], tet_region=z["tet_region"],
-                          region_names=document["region_names"], faces=z["faces"],
-                          face_tag=z["face_tag"], wall_names=document["wall_names"],
-                          tets10=z.get("tets10"))
-        dofs = z["dofs"]
-    return PointResult(values=tuple(values), rows=document["modes"], mesh=mesh, dofs=dofs,
-                       form=document["form"], order=document["order"],
-                       seconds=document["seconds"])
+                       seconds=time.perf_counter() - t0, fingerprint=fingerprint,
+                       peak_estimate_bytes=result.eigen_stats.get("peak_estimate_bytes"))
 
 
 def _solve_and_save(args) -> int:
-    data, path, axes, values, folder, index = args
-    save_point(folder, index, solve_point(data, path, axes, values))
+    data, path, axes, values, fingerprint, folder, index = args
+    save_point(folder, index, solve_point(data, path, axes, values, fingerprint))
     return index
 
 
@@ -197,52 +185,100 @@ class _Mode:
 
 def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
               progress: Progress = SILENT) -> tuple[dict, Path]:
-    """Solve every point of the case's [sweep] (reusing points already in the output
-    folder), track the modes, and write sweep.json, sweep.csv and mode_chart.png."""
+    """Solve every point of the case's [sweep] (reusing the points already in the output
+    folder that were solved for the same case), track the modes, and write sweep.json,
+    sweep.csv and mode_chart.png."""
     path = Path(path)
     data, spec, base = load_study(path, parse_sweep)
+    if isinstance(jobs, bool) or not isinstance(jobs, int) or jobs < 1:
+        raise InputError(f"must be a whole number >= 1, got {jobs!r}", field="--jobs")
     folder = Path(out) if out is not None else path.parent / f"{path.stem}-sweep"
     points = spec.points()
-    if not isinstance(jobs, int) or jobs < 1:
-        raise InputError(f"must be a whole number >= 1, got {jobs!r}", field="--jobs")
-    done = {i: p for i, values in enumerate(points)
-            if (p := load_point(folder, i, values)) is not None}
-    todo = [i for i in range(len(points)) if i not in done]
-    progress.step(f"sweep of {' x '.join(a.path for a in spec.axes)}: {len(points)} points, "
-                  f"{len(done)} already solved in {folder}, {len(todo)} to solve"
-                  + (f" in {jobs} processes" if jobs > 1 and todo else ""))
-    t0 = time.perf_counter()
-    try:
-        if jobs > 1 and len(todo) > 1:
-            tasks = [(data, path, spec.axes, points[i], folder, i) for i in todo]
-            # "spawn", not fork: a forked child inherits the locks of the parent's BLAS,
-            # OpenMP and gmsh threads and can hang on them (seen in a long test session)
-            with ProcessPoolExecutor(max_workers=jobs,
-                                     mp_context=multiprocessing.get_context("spawn")) as pool:
-                for k, index in enumerate(pool.map(_solve_and_save, tasks), start=1):
-                    progress.step(f"point {index + 1} of {len(points)} solved "
-                                  f"({k} of {len(todo)}, {time.perf_counter() - t0:.1f} s)")
-        else:
-            for k, index in enumerate(todo, start=1):
-                label = ", ".join(f"{a.path} = {format_value(a, v)}"
-                                  for a, v in zip(spec.axes, points[index]))
-                point = solve_point(data, path, spec.axes, points[index])
-                save_point(folder, index, point)
-                progress.step(f"point {index + 1} of {len(points)} ({label}): "
-                              f"{len(point.rows)} modes in {point.seconds:.1f} s "
-                              f"({k} of {len(todo)} to solve)")
-    except InputError as exc:
-        raise exc.located(source=str(path)) from None
-    results = [load_point(folder, i, values) for i, values in enumerate(points)]
-    document = _tracked_document(data, path, spec, base, results, progress)
-    with staged_output(folder) as files:
-        files.write_text("sweep.json", json.dumps(document, indent=1) + "\n")
-        files.write_text("sweep.csv", sweep_csv(document))
-        from .chart import write_mode_chart
-        files.write_with("mode_chart.png", lambda p: write_mode_chart(document, p),
-                         suffix=".png")
+    fingerprints = plan_points(data, path, spec)
+    with folder_lock(folder):
+        remove_temporaries(folder)          # left by a run that was stopped
+        done = _reusable_points(folder, fingerprints, progress)
+        todo = [i for i in range(len(points)) if i not in done]
+        progress.step(f"sweep of {' x '.join(a.path for a in spec.axes)}: {len(points)} "
+                      f"points, {len(done)} already solved in {folder}, {len(todo)} to solve")
+        try:
+            _solve_points(data, path, spec, fingerprints, todo, folder, jobs, progress)
+        except InputError as exc:
+            raise exc.located(source=str(path)) from None
+        results = [done[i] if i in done else read_point(folder, i) for i in range(len(points))]
+        document = _tracked_document(data, path, spec, base, results, progress)
+        with staged_output(folder) as files:
+            files.write_text("sweep.json", json.dumps(document, indent=1) + "\n")
+            files.write_text("sweep.csv", sweep_csv(document))
+            from .chart import write_mode_chart
+            files.write_with("mode_chart.png", lambda p: write_mode_chart(document, p),
+                             suffix=".png")
     progress.step(f"sweep written to {folder}")
     return document, folder
+
+
+def _reusable_points(folder: Path, fingerprints: list[str], progress: Progress) -> dict:
+    """index -> PointResult for the stored points solved for the same fingerprint; says on
+    stderr how many are solved again because the case changed or their files are damaged."""
+    done, changed, unreadable = {}, 0, []
+    for index, fingerprint in enumerate(fingerprints):
+        point, status = load_point(folder, index, fingerprint)
+        if point is not None:
+            done[index] = point
+        elif status == "changed":
+            changed += 1
+        elif status.startswith("unreadable"):
+            unreadable.append(f"point {index + 1} ({status})")
+    if changed:
+        progress.warn(f"{changed} of {len(fingerprints)} points in {folder} were solved for "
+                      "another case, other solve options or another femcav results version: "
+                      "solving them again")
+    if unreadable:
+        progress.warn(f"{len(unreadable)} point files in {folder / 'points'} cannot be read, "
+                      f"solving those points again: {'; '.join(unreadable[:3])}"
+                      + (" ..." if len(unreadable) > 3 else ""))
+    return done
+
+
+def _solve_points(data, path, spec: SweepSpec, fingerprints, todo, folder, jobs,
+                  progress) -> None:
+    points = spec.points()
+    t0 = time.perf_counter()
+
+    def solve_here(k, index):
+        label = ", ".join(f"{a.path} = {format_value(a, v)}"
+                          for a, v in zip(spec.axes, points[index]))
+        point = solve_point(data, path, spec.axes, points[index], fingerprints[index])
+        save_point(folder, index, point)
+        progress.step(f"point {index + 1} of {len(points)} ({label}): {len(point.rows)} modes "
+                      f"in {point.seconds:.1f} s ({k} of {len(todo)} to solve)")
+        return point
+
+    if jobs == 1 or len(todo) < 2:
+        for k, index in enumerate(todo, start=1):
+            solve_here(k, index)
+        return
+    # The first point here alone: the solver's memory estimate for it sizes the workers.
+    first = solve_here(1, todo[0])
+    rest = todo[1:]
+    usable, why = usable_jobs(jobs, len(rest), first.peak_estimate_bytes)
+    if why is not None:
+        progress.warn(f"--jobs {jobs} lowered to {usable}: {usable} {why}")
+    if usable == 1:
+        for k, index in enumerate(rest, start=2):
+            solve_here(k, index)
+        return
+    progress.step(f"solving the other {len(rest)} points in {usable} processes")
+    tasks = [(data, path, spec.axes, points[i], fingerprints[i], folder, i) for i in rest]
+    try:
+        with worker_pool(usable) as pool:
+            for k, index in enumerate(pool.map(_solve_and_save, tasks), start=2):
+                progress.step(f"point {index + 1} of {len(points)} solved "
+                              f"({k} of {len(todo)}, {time.perf_counter() - t0:.1f} s)")
+    except BrokenProcessPool:
+        raise ResourceError("a worker process ended abruptly (killed, perhaps by the "
+                            "system for lack of memory); the points solved so far are kept: "
+                            "run the sweep again to go on, perhaps with fewer --jobs") from None
 
 
 def _tracked_document(data, path, spec: SweepSpec, base, results, progress) -> dict:

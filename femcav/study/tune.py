@@ -159,6 +159,13 @@ def run_tune(path: str | Path, *, out: str | Path | None = None,
     data, spec, base = load_study(path, parse_tune)
     try:
         reference = _reference_value(data, spec, base)
+        for end, value in zip(("lower", "upper"), spec.bracket):
+            try:        # both ends are solved: refuse a bad one before the first solve
+                checked_for_tracking(study_case(with_value(data, spec.path, value), path))
+            except InputError as exc:
+                raise InputError(f"at the {end} end of the bracket ({spec.path} = "
+                                 f"{format_value(_axis(spec), value)}): {exc.message}",
+                                 field=exc.field) from None
         runs = _Evaluations(data, path, spec, progress)
         runs.start(reference)
         progress.step(f"tune: mode {spec.mode} at the case's own {spec.path} = "

@@ -1,0 +1,132 @@
+"""A sweep's solved points on disk: ``points/NNN.json`` and ``points/NNN.npz`` per point.
+
+The JSON holds the summary (values, fingerprint, mode rows), the NPZ what tracking needs
+(the mesh and the mode vectors). Both are written through staged_output (unique temporary
+names in the same folder, renamed into place, the summary last): a point whose summary is
+there is complete, and two writers never share a temporary file. A point is reused only when its
+stored fingerprint (femcav.study.fingerprint) equals the one the current run computes; a
+file that cannot be read (cut short, damaged) counts as missing.
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from ..geometry.mesh import TaggedMesh
+from ..io.atomic import staged_output
+
+
+@dataclass(frozen=True)
+class PointResult:
+    """What a sweep keeps of one solved point."""
+
+    values: tuple[float, ...]
+    rows: list[dict]                # the mode rows of modes.json
+    mesh: TaggedMesh
+    dofs: np.ndarray                # (n_edges, n_modes)
+    form: str
+    order: int
+    seconds: float
+    fingerprint: str
+    peak_estimate_bytes: float | None = None    # the solver's memory estimate
+
+
+class UnreadablePoint(Exception):
+    """A point file that is there but cannot be read back."""
+
+
+def point_files(folder: Path, index: int) -> tuple[Path, Path]:
+    return folder / "points" / f"{index:03d}.json", folder / "points" / f"{index:03d}.npz"
+
+
+def save_point(folder: Path, index: int, point: PointResult) -> None:
+    summary, arrays = point_files(folder, index)
+    m = point.mesh
+    extra = {} if m.tets10 is None else {"tets10": m.tets10}
+    document = {"values": list(point.values), "fingerprint": point.fingerprint,
+                "form": point.form, "order": point.order, "seconds": point.seconds,
+                "region_names": m.region_names, "wall_names": m.wall_names,
+                "modes": point.rows}
+    # staged_output renames in the order written: the summary last, as it marks the point
+    # done. The NPZ carries the fingerprint too, so that an NPZ renamed in just before a
+    # stop is never paired with an older summary.
+    with staged_output(summary.parent) as files:
+        files.write_with(arrays.name, lambda p: np.savez_compressed(
+            p, points=m.points, tets=m.tets, tet_region=m.tet_region, faces=m.faces,
+            face_tag=m.face_tag, dofs=point.dofs, fingerprint=np.array(point.fingerprint),
+            **extra), suffix=".npz")
+        files.write_text(summary.name, json.dumps(document, indent=1) + "\n")
+
+
+def load_point(folder: Path, index: int, fingerprint: str) -> tuple[PointResult | None, str]:
+    """(the stored point, "reused") when it was solved for ``fingerprint``; else (None, why):
+    "missing", "changed" (solved for another case, options or femcav) or "unreadable: ..."."""
+    summary, arrays = point_files(folder, index)
+    if not summary.is_file():
+        return None, "missing"
+    try:
+        document = _read_summary(summary)
+        if document.get("fingerprint") != fingerprint:
+            return None, "changed"
+        return _read_arrays(arrays, document), "reused"
+    except UnreadablePoint as exc:
+        return None, f"unreadable: {exc}"
+
+
+def read_point(folder: Path, index: int) -> PointResult:
+    """The stored point, whatever its fingerprint; UnreadablePoint if it cannot be read."""
+    summary, arrays = point_files(folder, index)
+    return _read_arrays(arrays, _read_summary(summary))
+
+
+def _read_arrays(arrays: Path, document: dict) -> PointResult:
+    try:
+        with np.load(arrays) as z:
+            if str(z["fingerprint"]) != document["fingerprint"]:
+                raise ValueError("its fingerprint is not the summary's (a run stopped "
+                                 "between the two files)")
+            mesh = TaggedMesh(points=z["points"], tets=z["tets"], tet_region=z["tet_region"],
+                              region_names=document["region_names"], faces=z["faces"],
+                              face_tag=z["face_tag"], wall_names=document["wall_names"],
+                              tets10=z["tets10"] if "tets10" in z.files else None)
+            dofs = z["dofs"]
+        point = PointResult(values=tuple(document["values"]), rows=document["modes"],
+                            mesh=mesh, dofs=dofs, form=document["form"],
+                            order=document["order"], seconds=document["seconds"],
+                            fingerprint=document["fingerprint"])
+    except Exception as exc:  # noqa: BLE001 - any damage to a point file means "solve again"
+        raise UnreadablePoint(f"{arrays.name}: {type(exc).__name__}: {exc}") from None
+    rows = point.rows
+    if not (isinstance(rows, list) and all(isinstance(r, dict) and isinstance(
+            r.get("frequency_hz"), (int, float)) for r in rows)):
+        raise UnreadablePoint(f"{arrays.name[:-4]}.json: the mode rows are damaged")
+    if dofs.ndim != 2 or dofs.shape[1] != len(rows):
+        raise UnreadablePoint(f"{arrays.name}: {dofs.shape} mode vectors for "
+                              f"{len(rows)} modes")
+    return point
+
+
+def _read_summary(summary: Path) -> dict:
+    try:
+        document = json.loads(summary.read_text(encoding="utf-8"))
+    except (OSError, ValueError) as exc:
+        raise UnreadablePoint(f"{summary.name}: {type(exc).__name__}: {exc}") from None
+    if not isinstance(document, dict):
+        raise UnreadablePoint(f"{summary.name}: not a point summary")
+    return document
+
+
+def remove_temporaries(folder: Path, outputs=("sweep.json", "sweep.csv", "mode_chart.png")) -> int:
+    """Delete the temporary files that a stopped run left (staged_output's names: the point
+    files, and ``outputs`` in the folder itself); call with the folder locked, so that no
+    other run can be writing them. The number removed."""
+    stale = list((folder / "points").glob(".*.partial*"))
+    for name in outputs:
+        stale += folder.glob(f".{name}.*.partial*")
+    for tmp in stale:
+        tmp.unlink(missing_ok=True)
+    return len(stale)
