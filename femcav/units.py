@@ -36,6 +36,7 @@ UNITS: dict[str, dict[str, float]] = {
     "conductivity": _with_prefixes("S/m", "GMk"),
 }
 
+LENGTH_UNITS = UNITS["length"]
 SI_NAME = {"length": "m", "frequency": "Hz", "conductivity": "S/m"}
 
 _QUANTITY = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([^\s\d].*?)?\s*$")

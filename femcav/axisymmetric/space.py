@@ -52,6 +52,7 @@ from skfem.helpers import dot
 
 from ..errors import InputError
 from ..fem.assembly import shared_entries_csr
+from ..materials import check_permittivity
 from ..walls import PMC
 from .model import AxisymmetricModel
 
@@ -183,6 +184,8 @@ def _coefficients(model: AxisymmetricModel, basis: Basis):
         cells = section.tri_region == rid
         material = model.materials[name]
         eps[cells] = material.eps_at(r[cells], np.zeros_like(r[cells]), z[cells])
+        check_permittivity(eps[cells], (r[cells], np.zeros_like(r[cells]), z[cells]),
+                           field=f"regions.{name}.eps_r")
         inv_mu[cells] = 1.0 / material.mu_r
     return eps, inv_mu
 

@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import json
 import multiprocessing
+import os
 import time
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, replace
@@ -30,11 +31,12 @@ import numpy as np
 
 from ..case import case_from_data, case_model, read_case_data
 from ..errors import InputError
+from ..schema import MAX_STUDY_VALUES, SWEEP, check_table
 from ..geometry.mesh import TaggedMesh
 from ..io.atomic import staged_output
 from ..io.results import mode_rows
 from ..progress import SILENT, Progress
-from .parameters import Axis, format_value, parse_axis, with_value
+from .parameters import Axis, check_parameter_exists, format_value, parse_axis, with_value
 from .tracking import track
 
 TRACKING_SPARE = 3
@@ -53,16 +55,29 @@ class SweepSpec:
 
 def parse_sweep(data: dict) -> SweepSpec:
     spec = data.get("sweep")
-    if not isinstance(spec, dict):
+    if spec is None:
         raise InputError("the case has no [sweep] table (parameter and values, or from, to "
                          "and points)", field="sweep")
+    check_table(spec, SWEEP, "sweep")
     first = {k: v for k, v in spec.items() if k != "second"}
     axes = [parse_axis(first, "sweep")]
     if "second" in spec:
         axes.append(parse_axis(spec["second"], "sweep.second"))
         if axes[1].path == axes[0].path:
             raise InputError("the second parameter is the first one again", field="sweep.second")
+        if len(axes[0].values) * len(axes[1].values) > MAX_STUDY_VALUES:
+            raise InputError(f"the grid has {len(axes[0].values) * len(axes[1].values)} points; "
+                             f"at most {MAX_STUDY_VALUES} are allowed (with sweep's "
+                             f"{len(axes[0].values)})", field="sweep.second")
     return SweepSpec(axes=tuple(axes))
+
+
+def sweep_trials(spec: SweepSpec) -> list[tuple[tuple[Axis, float, str], ...]]:
+    """Every point of the grid as (axis, value, the key the value comes from) per axis."""
+    per_axis = [list(zip([a] * len(a.values), a.values, a.origins)) for a in spec.axes]
+    if len(per_axis) == 1:
+        return [(t,) for t in per_axis[0]]
+    return [(a, b) for b in per_axis[1] for a in per_axis[0]]
 
 
 @dataclass(frozen=True)
@@ -85,14 +100,30 @@ def study_case(data: dict, path: Path, *,
     return case_from_data({k: v for k, v in data.items() if k not in sweep_keys}, path)
 
 
-def load_study(path: Path, parse):
+def load_study(path: Path, parse, trials=lambda spec: ()):
     """(raw tables, the study's own table parsed by ``parse``, the base case), each
-    mistake located in the file."""
+    mistake located in the file. Every trial point (``trials(spec)``: tuples of (axis,
+    value, the key the value comes from)) is validated as a case of its own now, before
+    anything is solved or written; a refused point is reported at the key of its value."""
     data = read_case_data(path)
     try:
         spec = parse(data)
         base = study_case(data, path)
         checked_for_tracking(base)
+        for trial in trials(spec):
+            for axis, _, _ in trial:
+                check_parameter_exists(axis, base)
+            point = data
+            for axis, value, _ in trial:
+                point = with_value(point, axis.path, value)
+            try:
+                study_case(point, path)
+            except InputError as exc:
+                at = ", ".join(f"{a.path} = {format_value(a, v)}" for a, v, _ in trial)
+                culprit = next((origin for axis, _, origin in trial if axis.path == exc.field),
+                               trial[0][2])
+                raise InputError(f"the point {at} is refused: {exc.field}: {exc.message}",
+                                 field=culprit) from None
     except InputError as exc:
         raise exc.located(source=str(path)) from None
     return data, spec, base
@@ -200,11 +231,13 @@ def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
     """Solve every point of the case's [sweep] (reusing points already in the output
     folder), track the modes, and write sweep.json, sweep.csv and mode_chart.png."""
     path = Path(path)
-    data, spec, base = load_study(path, parse_sweep)
+    data, spec, base = load_study(path, parse_sweep, sweep_trials)
     folder = Path(out) if out is not None else path.parent / f"{path.stem}-sweep"
     points = spec.points()
-    if not isinstance(jobs, int) or jobs < 1:
-        raise InputError(f"must be a whole number >= 1, got {jobs!r}", field="--jobs")
+    most = os.cpu_count() or 1
+    if not isinstance(jobs, int) or not 1 <= jobs <= most:
+        raise InputError(f"must be a whole number from 1 to {most} (the processors of this "
+                         f"machine), got {jobs!r}", field="--jobs")
     done = {i: p for i, values in enumerate(points)
             if (p := load_point(folder, i, values)) is not None}
     todo = [i for i in range(len(points)) if i not in done]
