@@ -93,6 +93,12 @@ def read_case_data(path: str | Path) -> dict:
         raise InputError(f"not valid TOML: {exc}", source=source) from None
     except UnicodeDecodeError:
         raise InputError("not a UTF-8 text file", source=source) from None
+    except RecursionError:
+        raise InputError("not a case file: its arrays or tables nest too deeply to read",
+                         source=source) from None
+    except OSError as exc:
+        raise InputError(f"cannot read the case file ({exc.strerror or exc})",
+                         source=source) from None
 
 
 def load_case(path: str | Path) -> Case:

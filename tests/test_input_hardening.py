@@ -475,3 +475,13 @@ def test_progress_lines_escape_the_title():
     stream = io.StringIO()
     Progress(stream=stream).step("case a.toml: LMW\x1b[2J title\nsecond line")
     assert stream.getvalue().count("\n") == 1 and "\x1b" not in stream.getvalue()
+
+
+# --- 6. a file that cannot be read as a case --------------------------------------------------
+
+@pytest.mark.parametrize("text", ["a = " + "[" * 5000 + "1" + "]" * 5000,
+                                  "a = " + "{b = " * 3000 + "1" + "}" * 3000])
+def test_a_toml_file_nested_too_deeply_is_refused(tmp_path, capsys, text):
+    # tomllib reads nesting by recursion: 5000 levels used to end in a RecursionError
+    err = refused_by_the_command_line(tmp_path, capsys, text + "\n")
+    assert "nest too deeply" in err
