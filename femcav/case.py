@@ -93,6 +93,9 @@ def read_case_data(path: str | Path) -> dict:
         raise InputError(f"not valid TOML: {exc}", source=source) from None
     except UnicodeDecodeError:
         raise InputError("not a UTF-8 text file", source=source) from None
+    except ValueError:              # an integer beyond Python's digit limit
+        raise InputError("not valid TOML: a number has too many digits to read",
+                         source=source) from None
     except RecursionError:
         raise InputError("not a case file: its arrays or tables nest too deeply to read",
                          source=source) from None
@@ -330,8 +333,8 @@ def _wall(name: str, spec: dict) -> Wall:
     check_table(spec, schema.WALL, where)
     kind = spec.get("kind")
     if kind is None:
-        raise InputError(f"missing: kind = one of {', '.join(map(repr, schema.WALL.keys['kind'].allowed()))}",
-                         field=where + ".kind")
+        kinds = ", ".join(map(repr, schema.WALL.keys["kind"].allowed()))
+        raise InputError(f"missing: kind = one of {kinds}", field=where + ".kind")
     if kind != "metal":
         extra = next((k for k in ("conductivity", "metal", "roughness") if k in spec), None)
         if extra:

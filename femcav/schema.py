@@ -77,7 +77,10 @@ class Range:
     high_open: bool = False
 
     def contains(self, value: float) -> bool:
-        if not math.isfinite(value):
+        try:
+            if not math.isfinite(value):
+                return False
+        except OverflowError:       # an integer beyond float
             return False
         if self.low is not None and (value <= self.low if self.low_open else value < self.low):
             return False
@@ -293,8 +296,8 @@ def check_table(value, table: Table, where: str, *, unknown: str = "") -> dict:
     for name, item in value.items():
         key = table.each if table.each is not None else table.keys.get(name)
         if key is None:
-            raise InputError(f"unknown key; {unknown or 'allowed here: ' + ', '.join(sorted(table.keys))}",
-                             field=f"{prefix}{name}")
+            hint = unknown or f"allowed here: {', '.join(sorted(table.keys))}"
+            raise InputError(f"unknown key; {hint}", field=f"{prefix}{name}")
         check_value(item, key, f"{prefix}{name}")
     return value
 

@@ -91,7 +91,7 @@ STRINGS = ["", " ", "12 mm", "12", "nan GHz", "1e999 mm", "-3 MS/m", "4-nanj", "
            "0.01 %", "10 ppm", "x" * 3000, "\x1b[31mRED\x1b]0;owned\x07", "r\u202eeversed",
            "line\nbreak", "µm", "1e-300 m", "1 parsec", "geometry.radius",
            "regions.inside.eps_r", "walls.x_min.conductivity", "__import__('os')", "ü" * 5]
-NUMBERS = [0, -1, 1, 2, 3, 7, 10**20, -(10**18), 2**63 - 1, 0.0, -0.0, 1e-300, 5e-324, 1e300,
+NUMBERS = [0, -1, 1, 2, 3, 7, 10**20, -(10**18), 2**63 - 1, 10**400, -(10**400), 0.0, -0.0, 1e-300, 5e-324, 1e300,
            -1e300, math.nan, math.inf, -math.inf, 0.5, 1e-9, 1e5, 1e9, 1e12, 1e13, 100.5]
 KEY_NAMES = ["eps_r", "modes", "size", "kind", "x", "builder", "radius", "parameter",
              "unknown", "\x1b[2J", "ключ", "a.b", "", " ", "solids", "second", "[0]"]

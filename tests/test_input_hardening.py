@@ -268,6 +268,17 @@ def test_command_line_overrides_have_the_case_file_ranges(tmp_path, capsys):
         assert f"{field}: " in refused_by_the_command_line(tmp_path, capsys, BOX_TEXT, *extra)
 
 
+@pytest.mark.parametrize("line, field", [
+    ("[solve]\nmodes = " + "9" * 400, "solve.modes"),            # an int beyond float
+    ("[regions.inside]\nmu_r = -" + "9" * 400, "regions.inside.mu_r"),
+    ("[solve]\nnear = " + "9" * 400, "solve.near"),
+    ("[solve]\nmodes = " + "9" * 5000, None),                  # beyond Python's digit limit
+])
+def test_integers_beyond_float_are_refused(tmp_path, capsys, line, field):
+    err = refused_by_the_command_line(tmp_path, capsys, BOX_TEXT + line + "\n")
+    assert (f"{field}: " in err) if field else "too many digits" in err
+
+
 def _one_tetrahedron_model(eps):
     from femcav.geometry.mesh import TaggedMesh
     from femcav.materials import Material
