@@ -279,6 +279,17 @@ def test_integers_beyond_float_are_refused(tmp_path, capsys, line, field):
     assert (f"{field}: " in err) if field else "too many digits" in err
 
 
+@pytest.mark.filterwarnings("error::RuntimeWarning")     # a warning is a second line
+def test_an_expression_that_is_nowhere_finite_is_one_line_even_with_sizes_from_it(tmp_path,
+                                                                                 capsys):
+    # the element sizes sample eps_r before the mesh exists; a NaN there used to print a
+    # numpy warning before the error
+    err = refused_by_the_command_line(
+        tmp_path, capsys, BOX_TEXT + '[mesh]\nmax_frequency = "12 GHz"\n[regions.inside]\n'
+                                     'eps_r = "sqrt(-1 + 0*x)"\n')
+    assert "regions.inside.eps_r: eps_r must be from 0.01 to 100000 everywhere" in err
+
+
 def _one_tetrahedron_model(eps):
     from femcav.geometry.mesh import TaggedMesh
     from femcav.materials import Material
