@@ -1,40 +1,33 @@
 """The TOML case file: reading, validation, and turning it into a model.
 
 Every mistake becomes one InputError naming the file and the key path, so the command line can
-print it as one line. See README.md ("Case-file reference") for the keys.
+print it as one line. Every table is checked against its declaration in femcav.schema (keys,
+types, ranges) before its values are used. See README.md ("Case-file reference") for the keys.
 """
 
 from __future__ import annotations
 
+import math
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .eigen.factorization import FACTORIZERS
-from .eigen.selection import METHODS
+from . import schema
 from .errors import InputError
 from .expressions import Expression
-from .fem.space import ORDERS
 from .geometry import BUILDERS, build_part, builder_layout, read_mesh
 from .geometry.mesh import TaggedMesh
 from .geometry.params import parse_params
 from .materials import VACUUM, Material
 from .metals import CONDUCTIVITY_S_PER_M
-from .model import FORMS, Model, make_model
-from .units import UNITS, parse_quantity
-from .walls import KINDS, Wall
+from .model import Model, make_model
+from .schema import check_table, read
+from .units import UNITS
+from .walls import Wall
 
-TOP_KEYS = {"title", "geometry", "mesh", "regions", "walls", "symmetry", "solve", "sweep",
-            "tune", "extract", "tolerances"}
-REGION_KEYS = {"eps_r", "mu_r", "tan_delta", "mesh_size"}
-MESH_KEYS = {"size", "max_frequency", "per_wavelength", "edge_refinement", "curved"}
 SYMMETRY_CHOICES = {"pec": ("pec",), "pmc": ("pmc",), "both": ("pec", "pmc")}
-WALL_KEYS = {"kind", "conductivity", "metal", "roughness"}
-SOLVE_KEYS = {"modes", "near", "form", "order", "complex_check", "error_estimate", "accuracy",
-              "max_dofs", "factorization", "method", "azimuthal_orders", "sensitivities"}
-MAX_AZIMUTHAL_ORDER = 100
 AXISYMMETRIC_ORDER = 3   # element order of the axisymmetric solver unless the case sets one
-DEFAULT_MODES = 10
+DEFAULT_MODES = schema.SOLVE.keys["modes"].default
 
 
 @dataclass(frozen=True)
@@ -100,6 +93,15 @@ def read_case_data(path: str | Path) -> dict:
         raise InputError(f"not valid TOML: {exc}", source=source) from None
     except UnicodeDecodeError:
         raise InputError("not a UTF-8 text file", source=source) from None
+    except ValueError:              # an integer beyond Python's digit limit
+        raise InputError("not valid TOML: a number has too many digits to read",
+                         source=source) from None
+    except RecursionError:
+        raise InputError("not a case file: its arrays or tables nest too deeply to read",
+                         source=source) from None
+    except OSError as exc:
+        raise InputError(f"cannot read the case file ({exc.strerror or exc})",
+                         source=source) from None
 
 
 def load_case(path: str | Path) -> Case:
@@ -111,14 +113,13 @@ def case_from_data(data: dict, path: Path) -> Case:
     study tables ([sweep], [tune], [extract]) are read by femcav.study, not here."""
     source = str(path)
     try:
-        _known(data, TOP_KEYS, "")
+        check_table(data, schema.TOP, "")
         title = data.get("title", path.stem)
-        if not isinstance(title, str):
-            raise InputError("must be a string", field="title")
         geometry = _geometry(_table(data, "geometry", required=True), path.parent)
-        region_tables = _table(data, "regions")
+        region_tables = check_table(_table(data, "regions"), schema.REGIONS, "regions")
         regions = {name: _region(name, spec) for name, spec in region_tables.items()}
-        walls = {name: _wall(name, spec) for name, spec in _table(data, "walls").items()}
+        walls = {name: _wall(name, spec) for name, spec in
+                 check_table(_table(data, "walls"), schema.WALLS, "walls").items()}
         solve = _solve(_table(data, "solve"))
         mesh = _mesh(_table(data, "mesh"), region_tables, geometry)
         if solve.error_estimate and geometry.builder is None:
@@ -148,6 +149,7 @@ def _tolerances(spec: dict, geometry: GeometrySpec, symmetry: dict,
         raise InputError("dimension tolerances are for whole-part 3D solves without error "
                          "bars (drop [symmetry], azimuthal_orders or error_estimate)",
                          field="tolerances")
+    check_table(spec, schema.TOLERANCES, "tolerances")
     out = {}
     for name, raw in spec.items():
         key, _, index = name.partition("[")
@@ -160,10 +162,7 @@ def _tolerances(spec: dict, geometry: GeometrySpec, symmetry: dict,
                                                                                "2]")):
             raise InputError("a point's coordinate is named NAME[0], NAME[1] or NAME[2]; a "
                              "length by its name", field=f"tolerances.{name}")
-        tolerance = parse_quantity(raw, "length", field=f"tolerances.{name}")
-        if not tolerance > 0:
-            raise InputError("must be positive", field=f"tolerances.{name}")
-        out[name] = tolerance
+        out[name] = schema.parse_value(raw, schema.TOLERANCES.each, f"tolerances.{name}")
     return out
 
 
@@ -206,21 +205,12 @@ def case_materials(case: Case, region_names) -> dict[str, Material]:
 
 
 def _table(data: dict, key: str, required: bool = False) -> dict:
+    """A top-level table of ``data`` (already checked against schema.TOP), {} when absent."""
     if key not in data:
         if required:
             raise InputError(f"the [{key}] table is missing", field=key)
         return {}
-    value = data[key]
-    if not isinstance(value, dict):
-        raise InputError("must be a table", field=key)
-    return value
-
-
-def _known(table: dict, allowed: set[str], prefix: str) -> None:
-    for key in table:
-        if key not in allowed:
-            raise InputError(f"unknown key; allowed here: {', '.join(sorted(allowed))}",
-                             field=f"{prefix}{key}")
+    return data[key]
 
 
 def _geometry(spec: dict, base: Path) -> GeometrySpec:
@@ -228,25 +218,19 @@ def _geometry(spec: dict, base: Path) -> GeometrySpec:
         raise InputError("give exactly one of mesh = \"file.msh\" or builder = "
                          f"{' | '.join(map(repr, BUILDERS))}", field="geometry")
     if "mesh" in spec:
-        _known(spec, {"mesh", "mesh_unit"}, "geometry.")
-        if not isinstance(spec["mesh"], str):
-            raise InputError("must be a file name string", field="geometry.mesh")
-        unit = spec.get("mesh_unit", "m")
-        if not isinstance(unit, str) or unit not in UNITS["length"]:
-            raise InputError(f"unknown length unit {unit!r}; known: "
-                             f"{', '.join(UNITS['length'])}", field="geometry.mesh_unit")
+        check_table(spec, schema.GEOMETRY_MESH, "geometry")
+        unit = read(spec, "mesh_unit", schema.GEOMETRY_MESH, "geometry")
         mesh_path = Path(spec["mesh"])
         return GeometrySpec(mesh_path=mesh_path if mesh_path.is_absolute() else base / mesh_path,
                             mesh_unit_m=UNITS["length"][unit])
-    name = spec["builder"]
-    if name not in BUILDERS:
-        raise InputError(f"unknown builder {name!r}; known: {', '.join(BUILDERS)}",
-                         field="geometry.builder")
-    given = {k: v for k, v in spec.items() if k != "builder"}
-    if "mesh_size" in given:
+    name = read(spec, "builder", schema.GEOMETRY_BUILDER, "geometry")
+    if "mesh_size" in spec:
         raise InputError("element sizes go in the [mesh] table (size = ...)",
                          field="geometry.mesh_size")
     builder = BUILDERS[name]
+    check_table(spec, schema.builder_table(builder), "geometry",
+                unknown=f"this builder takes {', '.join(builder.PARAMETERS) or 'solids'}")
+    given = {k: v for k, v in spec.items() if k != "builder"}
     parameters = (builder.parse(given, "geometry") if hasattr(builder, "parse")
                   else parse_params(builder.PARAMETERS, given, "geometry"))
     builder_layout(name, parameters)  # refuse parameters that do not fit together, now
@@ -254,41 +238,20 @@ def _geometry(spec: dict, base: Path) -> GeometrySpec:
 
 
 def _mesh(spec: dict, region_tables: dict, geometry: GeometrySpec) -> MeshSpec:
-    region_sizes = {name: parse_quantity(t["mesh_size"], "length",
-                                         field=f"regions.{name}.mesh_size")
-                    for name, t in region_tables.items() if isinstance(t, dict) and "mesh_size" in t}
+    """[mesh] and the regions' mesh_size (the region tables are checked by _region)."""
+    region_sizes = {name: read(t, "mesh_size", schema.REGION, f"regions.{name}")
+                    for name, t in region_tables.items() if "mesh_size" in t}
     if geometry.mesh_path is not None and (spec or region_sizes):
         raise InputError("element sizes apply to builders; an imported mesh is used as it is",
-                         field="mesh" if spec else "regions")
-    _known(spec, MESH_KEYS, "mesh.")
-    size = spec.get("size")
-    size = None if size is None else parse_quantity(size, "length", field="mesh.size")
-    f_max = spec.get("max_frequency")
-    f_max = None if f_max is None else parse_quantity(f_max, "frequency",
-                                                       field="mesh.max_frequency")
-    per_wavelength = spec.get("per_wavelength")
-    if per_wavelength is not None and (isinstance(per_wavelength, bool) or
-                                       not isinstance(per_wavelength, (int, float))
-                                       or not per_wavelength >= 2):
-        raise InputError(f"must be a number >= 2, got {per_wavelength!r}",
-                         field="mesh.per_wavelength")
-    if per_wavelength is not None and f_max is None:
+                         field="mesh" if spec else f"regions.{next(iter(region_sizes))}.mesh_size")
+    check_table(spec, schema.MESH, "mesh")
+    values = {key: read(spec, key, schema.MESH, "mesh") for key in schema.MESH.keys}
+    if values["per_wavelength"] is not None and values["max_frequency"] is None:
         raise InputError("needs max_frequency, the highest frequency of interest",
                          field="mesh.per_wavelength")
-    edge = spec.get("edge_refinement", 0.5)
-    if isinstance(edge, bool) or not isinstance(edge, (int, float)) or not 0 < edge <= 1:
-        raise InputError(f"must be a number in (0, 1] (1 = no refinement), got {edge!r}",
-                         field="mesh.edge_refinement")
-    for value, where in [(size, "mesh.size"), (f_max, "mesh.max_frequency"),
-                         *[(v, f"regions.{k}.mesh_size") for k, v in region_sizes.items()]]:
-        if value is not None and value <= 0:
-            raise InputError("must be positive", field=where)
-    curved = spec.get("curved", False)
-    if not isinstance(curved, bool):
-        raise InputError("must be true or false", field="mesh.curved")
-    return MeshSpec(size=size, max_frequency_hz=f_max, curved=curved,
-                    per_wavelength=None if per_wavelength is None else float(per_wavelength),
-                    edge_refinement=float(edge), region_sizes=region_sizes)
+    return MeshSpec(size=values["size"], max_frequency_hz=values["max_frequency"],
+                    curved=values["curved"], per_wavelength=values["per_wavelength"],
+                    edge_refinement=values["edge_refinement"], region_sizes=region_sizes)
 
 
 def _symmetry(spec: dict, geometry: GeometrySpec, walls: dict) -> dict[str, tuple[str, ...]]:
@@ -297,12 +260,9 @@ def _symmetry(spec: dict, geometry: GeometrySpec, walls: dict) -> dict[str, tupl
     if geometry.builder is None:
         raise InputError("symmetry cuts apply to builders; for an imported mesh, mesh the "
                          "part already cut and give the cut faces a wall kind", field="symmetry")
-    _known(spec, {"x", "y", "z"}, "symmetry.")
+    check_table(spec, schema.SYMMETRY, "symmetry")
     out = {}
     for axis, choice in spec.items():
-        if choice not in SYMMETRY_CHOICES:
-            raise InputError(f"must be one of {', '.join(map(repr, SYMMETRY_CHOICES))}, got "
-                             f"{choice!r}", field=f"symmetry.{axis}")
         if f"symmetry_{axis}" in walls:
             raise InputError("the cut face's kind is set by [symmetry], not [walls]",
                              field=f"walls.symmetry_{axis}")
@@ -315,42 +275,46 @@ def _symmetry(spec: dict, geometry: GeometrySpec, walls: dict) -> dict[str, tupl
     return out
 
 
-def _region(name: str, spec) -> Material:
+def _region(name: str, spec: dict) -> Material:
     where = f"regions.{name}"
-    if not isinstance(spec, dict):
-        raise InputError("must be a table with eps_r (and optionally mu_r, tan_delta)",
-                         field=where)
-    _known(spec, REGION_KEYS, where + ".")
-    eps = spec.get("eps_r", 1.0)
-    tan_delta = spec.get("tan_delta", 0.0)
-    if isinstance(tan_delta, bool) or not isinstance(tan_delta, (int, float)) or tan_delta < 0:
-        raise InputError(f"must be a number >= 0, got {tan_delta!r}", field=where + ".tan_delta")
-    complex_eps = _complex_literal(eps) if isinstance(eps, str) else None
-    if complex_eps is not None:
-        # eps_r' (1 - j tan δ) with e^{jωt}: a lossy material has a negative imaginary part.
-        if "tan_delta" in spec:
-            raise InputError("give the loss either as a complex eps_r or as tan_delta, not both",
-                             field=where + ".tan_delta")
-        if not complex_eps.real > 0 or complex_eps.imag > 0:
-            raise InputError(f"a complex eps_r needs a positive real part and an imaginary part "
-                             f"<= 0 (loss, with time dependence e^(jwt)); got {eps!r}",
-                             field=where + ".eps_r")
-        eps, tan_delta = complex_eps.real, -complex_eps.imag / complex_eps.real
+    check_table(spec, schema.REGION, where)
+    eps = spec.get("eps_r", schema.REGION.keys["eps_r"].default)
+    tan_delta = read(spec, "tan_delta", schema.REGION, where)
+    if isinstance(eps, str) and (complex_eps := _complex_literal(eps)) is not None:
+        eps, tan_delta = _complex_permittivity(complex_eps, eps, spec, where)
     elif isinstance(eps, str):
         try:
             eps = Expression(eps)
         except InputError as exc:
             raise exc.located(field=where + ".eps_r") from None
-    elif isinstance(eps, bool) or not isinstance(eps, (int, float)):
-        raise InputError("must be a number, an expression string in x, y, z (metres), or a "
-                         "complex number string such as \"9.8-0.001j\"", field=where + ".eps_r")
-    elif not eps > 0:
-        raise InputError(f"must be positive, got {eps!r}", field=where + ".eps_r")
-    mu = spec.get("mu_r", 1.0)  # mesh_size is read by _mesh
-    if isinstance(mu, bool) or not isinstance(mu, (int, float)) or not mu > 0:
-        raise InputError(f"must be a positive number, got {mu!r}", field=where + ".mu_r")
-    return Material(eps_r=eps if callable(eps) else float(eps), mu_r=float(mu),
-                    tan_delta=float(tan_delta))
+    else:
+        eps = read(spec, "eps_r", schema.REGION, where)
+    mu = read(spec, "mu_r", schema.REGION, where)  # mesh_size is read by _mesh
+    return Material(eps_r=eps, mu_r=mu, tan_delta=tan_delta)
+
+
+def _complex_permittivity(value: complex, text: str, spec: dict, where: str
+                          ) -> tuple[float, float]:
+    """(eps_r', tan δ) of a complex eps_r = eps_r' (1 - j tan δ) with e^{jωt}: a lossy
+    material has a negative imaginary part. Every refusal names eps_r, the key that holds
+    both numbers."""
+    field = where + ".eps_r"
+    if "tan_delta" in spec:
+        raise InputError("give the loss either as a complex eps_r or as tan_delta, not both",
+                         field=where + ".tan_delta")
+    if not (math.isfinite(value.real) and math.isfinite(value.imag)):
+        raise InputError(f"a complex eps_r needs finite real and imaginary parts; got {text!r}",
+                         field=field)
+    if not value.real > 0 or value.imag > 0:
+        raise InputError(f"a complex eps_r needs a positive real part and an imaginary part "
+                         f"<= 0 (loss, with time dependence e^(jwt)); got {text!r}",
+                         field=field)
+    schema.check_range(value.real, schema.REGION.keys["eps_r"], field,
+                       shown=f"real part {value.real:g} of {text!r}")
+    tan_delta = -value.imag / value.real
+    schema.check_range(tan_delta, schema.REGION.keys["tan_delta"], field,
+                       shown=f"tan_delta = {tan_delta:g} from {text!r}")
+    return value.real, tan_delta
 
 
 def _complex_literal(text: str) -> complex | None:
@@ -364,103 +328,59 @@ def _complex_literal(text: str) -> complex | None:
         return None
 
 
-def _wall(name: str, spec) -> Wall:
+def _wall(name: str, spec: dict) -> Wall:
     where = f"walls.{name}"
-    if not isinstance(spec, dict):
-        raise InputError('must be a table with kind = "pec", "pmc" or "metal"', field=where)
-    _known(spec, WALL_KEYS, where + ".")
+    check_table(spec, schema.WALL, where)
     kind = spec.get("kind")
-    if kind not in KINDS:
-        raise InputError(f"kind must be one of {', '.join(map(repr, KINDS))}, got {kind!r}",
-                         field=where + ".kind")
+    if kind is None:
+        kinds = ", ".join(map(repr, schema.WALL.keys["kind"].allowed()))
+        raise InputError(f"missing: kind = one of {kinds}", field=where + ".kind")
     if kind != "metal":
         extra = next((k for k in ("conductivity", "metal", "roughness") if k in spec), None)
         if extra:
             raise InputError(f'{extra} belongs to kind = "metal"; a {kind.upper()} wall has no '
                              "loss", field=f"{where}.{extra}")
         return Wall(kind=kind)
-    if ("conductivity" in spec) == ("metal" in spec):
-        raise InputError('a metal wall needs exactly one of conductivity = "58 MS/m" or metal = '
-                         f"one of {', '.join(map(repr, CONDUCTIVITY_S_PER_M))}", field=where)
+    if "conductivity" in spec and "metal" in spec:
+        raise InputError("give either metal or conductivity, not both (conductivity is also "
+                         "set)", field=where + ".metal")
+    if "conductivity" not in spec and "metal" not in spec:
+        raise InputError('a metal wall needs conductivity = "58 MS/m" or metal = one of '
+                         f"{', '.join(map(repr, CONDUCTIVITY_S_PER_M))}", field=where)
     preset = spec.get("metal")
-    if preset is not None:
-        if preset not in CONDUCTIVITY_S_PER_M:
-            raise InputError(f"unknown metal {preset!r}; known: "
-                             f"{', '.join(CONDUCTIVITY_S_PER_M)}", field=where + ".metal")
-        sigma = CONDUCTIVITY_S_PER_M[preset]
-    else:
-        sigma = parse_quantity(spec["conductivity"], "conductivity", field=where + ".conductivity")
-        if not sigma > 0:
-            raise InputError(f"must be positive, got {spec['conductivity']!r}",
-                             field=where + ".conductivity")
-    roughness = spec.get("roughness")
-    if roughness is not None:
-        roughness = parse_quantity(roughness, "length", field=where + ".roughness")
-        if roughness < 0:
-            raise InputError("must not be negative", field=where + ".roughness")
-    return Wall(kind=kind, conductivity=sigma, roughness=roughness, metal=preset)
+    sigma = (CONDUCTIVITY_S_PER_M[preset] if preset is not None
+             else read(spec, "conductivity", schema.WALL, where))
+    return Wall(kind=kind, conductivity=sigma, roughness=read(spec, "roughness", schema.WALL,
+                                                               where), metal=preset)
 
 
 def _solve(spec: dict) -> SolveSpec:
-    _known(spec, SOLVE_KEYS, "solve.")
-    modes = spec.get("modes", DEFAULT_MODES)
-    if isinstance(modes, bool) or not isinstance(modes, int) or modes < 1:
-        raise InputError(f"must be a whole number >= 1, got {modes!r}", field="solve.modes")
-    near = spec.get("near")
-    near_hz = None if near is None else parse_quantity(near, "frequency", field="solve.near")
-    if near_hz is not None and near_hz <= 0:
-        raise InputError(f"must be a positive frequency, got {near!r}", field="solve.near")
-    form = spec.get("form")
-    if form is not None and form not in FORMS:
-        raise InputError(f"must be one of {', '.join(map(repr, FORMS))}, got {form!r}",
-                         field="solve.form")
-    complex_check = spec.get("complex_check", False)
-    if not isinstance(complex_check, bool):
-        raise InputError("must be true or false", field="solve.complex_check")
-    order = spec.get("order", 1)
-    if isinstance(order, bool) or order not in ORDERS:
-        raise InputError(f"must be one of {', '.join(map(str, ORDERS))}, got {order!r}",
-                         field="solve.order")
-    estimate = spec.get("error_estimate", False)
-    if not isinstance(estimate, bool):
-        raise InputError("must be true or false", field="solve.error_estimate")
+    check_table(spec, schema.SOLVE, "solve")
+    v = {key: read(spec, key, schema.SOLVE, "solve") for key in schema.SOLVE.keys
+         if key != "accuracy"}
     accuracy = spec.get("accuracy")
     if accuracy is not None:
         accuracy = _relative(accuracy, "solve.accuracy")
-    max_dofs = spec.get("max_dofs", 400_000)
-    if isinstance(max_dofs, bool) or not isinstance(max_dofs, int) or max_dofs < 1000:
-        raise InputError(f"must be a whole number >= 1000, got {max_dofs!r}",
-                         field="solve.max_dofs")
-    factorization = spec.get("factorization", "auto")
-    if factorization not in FACTORIZERS:
-        raise InputError(f"must be one of {', '.join(map(repr, FACTORIZERS))}, got "
-                         f"{factorization!r}", field="solve.factorization")
-    method = spec.get("method", "auto")
-    if method not in METHODS:
-        raise InputError(f"must be one of {', '.join(map(repr, METHODS))}, got {method!r}",
-                         field="solve.method")
-    sensitivities = spec.get("sensitivities", False)
-    if not isinstance(sensitivities, bool):
-        raise InputError("must be true or false", field="solve.sensitivities")
-    orders = spec.get("azimuthal_orders")
+    orders = read(spec, "azimuthal_orders", schema.SOLVE, "solve")
     if orders is not None:
         orders = _azimuthal_orders(orders)
         if "order" not in spec:
-            order = AXISYMMETRIC_ORDER
-    return SolveSpec(modes=modes, near_hz=near_hz, form=form, order=order,
-                     complex_check=complex_check, error_estimate=estimate or accuracy is not None,
-                     accuracy=accuracy, max_dofs=max_dofs, factorization=factorization,
-                     method=method, azimuthal_orders=orders, sensitivities=sensitivities)
+            v["order"] = AXISYMMETRIC_ORDER
+    return SolveSpec(modes=v["modes"], near_hz=v["near"], form=v["form"], order=v["order"],
+                     complex_check=v["complex_check"],
+                     error_estimate=v["error_estimate"] or accuracy is not None,
+                     accuracy=accuracy, max_dofs=v["max_dofs"],
+                     factorization=v["factorization"], method=v["method"],
+                     azimuthal_orders=orders, sensitivities=v["sensitivities"])
 
 
 def _azimuthal_orders(value) -> tuple[int, ...]:
-    """A list of whole numbers m >= 0; a single number is a list of one."""
-    items = [value] if isinstance(value, int) and not isinstance(value, bool) else value
-    if (not isinstance(items, list) or not items
-            or not all(isinstance(m, int) and not isinstance(m, bool)
-                       and 0 <= m <= MAX_AZIMUTHAL_ORDER for m in items)):
-        raise InputError(f"must be a list of whole numbers from 0 to {MAX_AZIMUTHAL_ORDER}, "
-                         f"e.g. [0, 1, 2]; got {value!r}", field="solve.azimuthal_orders")
+    """A list of whole numbers m >= 0 (each checked by schema.SOLVE); a single number is a
+    list of one."""
+    items = [value] if not isinstance(value, list) else value
+    if not items:
+        raise InputError("must be a list of whole numbers such as [0, 1, 2]; got []",
+                         field="solve.azimuthal_orders")
     if len(set(items)) != len(items):
         raise InputError(f"lists an order twice: {value!r}", field="solve.azimuthal_orders")
     return tuple(sorted(items))
@@ -497,9 +417,7 @@ _RELATIVE_UNITS = {"ppm": 1e-6, "ppb": 1e-9, "%": 1e-2}
 
 def _relative(value, field: str) -> float:
     """A relative accuracy: a number (1e-5), or a string such as "10 ppm" or "0.01 %"."""
-    if isinstance(value, (int, float)) and not isinstance(value, bool):
-        number = float(value)
-    elif isinstance(value, str):
+    if isinstance(value, str):
         text = value.strip()
         unit = next((u for u in _RELATIVE_UNITS if text.endswith(u)), None)
         try:
@@ -509,7 +427,6 @@ def _relative(value, field: str) -> float:
             raise InputError(f"cannot read {value!r}; write e.g. \"10 ppm\", \"0.01 %\" or "
                              "1e-5", field=field) from None
     else:
-        raise InputError('must be a relative accuracy such as "10 ppm"', field=field)
-    if not 0 < number < 0.5:
-        raise InputError(f"must be between 0 and 50 %, got {value!r}", field=field)
+        number = float(value)            # the type is checked against schema.SOLVE
+    schema.check_range(number, schema.SOLVE.keys["accuracy"], field, shown=value)
     return number

@@ -6,7 +6,7 @@ import argparse
 import sys
 
 from . import __version__
-from .errors import InputError, ResourceError
+from .errors import InputError, ResourceError, printable
 
 EXIT_INPUT_ERROR = 2
 EXIT_CHECKS_FAILED = 3
@@ -121,12 +121,13 @@ def _solve(args) -> int:
     from .io.results import to_table
     from .progress import Progress
     from .runner import run_case
-    from .units import format_frequency, parse_quantity
+    from .schema import SOLVE, check_range, parse_value
+    from .units import format_frequency
 
-    near_hz = None if args.near is None else parse_quantity(args.near, "frequency",
-                                                            field="--near")
-    if args.modes is not None and args.modes < 1:
-        raise InputError(f"must be a whole number >= 1, got {args.modes}", field="--modes")
+    # the same declarations as the case file's [solve] near and modes
+    near_hz = None if args.near is None else parse_value(args.near, SOLVE.keys["near"], "--near")
+    if args.modes is not None:
+        check_range(args.modes, SOLVE.keys["modes"], "--modes")
     case, result, folder = run_case(args.case, out=args.out, modes=args.modes, near_hz=near_hz,
                                     form=args.form, order=args.order,
                                     factorization=args.factorization, method=args.method,
@@ -134,7 +135,7 @@ def _solve(args) -> int:
     count = len(result.modes)
     what = (f"{count} modes nearest {format_frequency(result.near_hz)}" if result.near_hz
             else f"lowest {count} modes")
-    print(f"{case.title}: {what}, {result.form} form, order {result.order}, "
+    print(f"{printable(case.title)}: {what}, {result.form} form, order {result.order}, "
           f"{result.dofs} DOFs, {result.elements} {result.element_kind}")
     print(to_table(result))
     if result.static_fields_dropped:
@@ -235,7 +236,7 @@ def _mesh(args) -> int:
     from .progress import Progress
 
     run = mesh_case(args.case, out=args.out, progress=Progress(quiet=args.quiet))
-    print(mesh_summary(run.case.title, run.quality))
+    print(mesh_summary(printable(run.case.title), run.quality))
     print(f"mesh files: {run.folder}")
     return 0
 

@@ -25,7 +25,17 @@ class InputError(Exception):
 
     def __str__(self) -> str:
         where = ": ".join(part for part in (self.source, self.field) if part)
-        return f"{where}: {self.message}" if where else self.message
+        # Keys, file names and values in a message come from the user: escaped here, in the
+        # one place every message is formatted, so no raise site can forget it.
+        return printable(f"{where}: {self.message}" if where else self.message)
+
+
+def printable(text: str) -> str:
+    """``text`` with every control or other non-printable character written as its escape
+    (ESC as \\x1b, a newline as \\n, a right-to-left override as \\u202e), so that text from
+    a case file can neither drive the terminal nor break a one-line message."""
+    return "".join(ch if ch.isprintable() else ch.encode("unicode_escape").decode("ascii")
+                   for ch in str(text))
 
 
 class ResourceError(Exception):

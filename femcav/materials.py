@@ -9,6 +9,7 @@ from typing import Callable, Union
 import numpy as np
 
 from .errors import InputError
+from .schema import REGION, check_range
 
 # A permittivity is a number or a vectorised callable f(x, y, z) of coordinates in metres.
 Permittivity = Union[float, Callable[[np.ndarray, np.ndarray, np.ndarray], np.ndarray]]
@@ -35,21 +36,27 @@ class Material:
         return np.full(np.shape(x), float(self.eps_r))
 
     def check(self, points: np.ndarray, *, field: str) -> None:
-        """Refuse a non-positive or non-finite eps_r or mu_r; ``points`` is (n, 3)."""
-        if not (np.isfinite(self.tan_delta) and self.tan_delta >= 0):
-            raise InputError(f"tan_delta must be zero or positive, got {self.tan_delta!r}",
-                             field=f"{field}.tan_delta")
-        if not (np.isfinite(self.mu_r) and self.mu_r > 0):
-            raise InputError(f"mu_r must be a positive number, got {self.mu_r!r}",
-                             field=f"{field}.mu_r")
-        eps = self.eps_at(points[:, 0], points[:, 1], points[:, 2])
-        bad = ~np.isfinite(eps) | (eps <= 0)
-        if np.any(bad):
-            where = points[np.argmax(bad)]
-            raise InputError(
-                f"eps_r must be positive and finite everywhere in the region; it is "
-                f"{eps[np.argmax(bad)]:g} at (x, y, z) = ({where[0]:g}, {where[1]:g}, "
-                f"{where[2]:g}) m", field=f"{field}.eps_r")
+        """Refuse eps_r, mu_r or tan_delta outside their ranges (femcav.schema) or not
+        finite; ``points`` is (n, 3), where an eps_r expression is evaluated."""
+        for name in ("tan_delta", "mu_r"):
+            check_range(getattr(self, name), REGION.keys[name], f"{field}.{name}")
+        check_permittivity(self.eps_at(points[:, 0], points[:, 1], points[:, 2]), points.T,
+                           field=f"{field}.eps_r")
+
+
+def check_permittivity(eps: np.ndarray, coordinates, *, field: str) -> None:
+    """Refuse eps_r values (an expression's, at mesh nodes or quadrature points) outside the
+    range of schema.REGION's eps_r or not finite; ``coordinates``: x, y, z arrays like eps."""
+    rng = REGION.keys["eps_r"].range
+    eps = np.asarray(eps, dtype=float)
+    with np.errstate(invalid="ignore"):
+        bad = ~(np.isfinite(eps) & (eps >= rng.low) & (eps <= rng.high))
+    if np.any(bad):
+        first = int(np.argmax(bad.reshape(-1)))
+        x, y, z = (float(np.asarray(c, dtype=float).reshape(-1)[first]) for c in coordinates)
+        raise InputError(
+            f"eps_r must be {rng.describe()} everywhere in the region; it is "
+            f"{eps.reshape(-1)[first]:g} at (x, y, z) = ({x:g}, {y:g}, {z:g}) m", field=field)
 
 
 VACUUM = Material()

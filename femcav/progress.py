@@ -5,6 +5,8 @@ from __future__ import annotations
 import sys
 import time
 
+from .errors import printable
+
 
 class Progress:
     def __init__(self, quiet: bool = False, stream=None):
@@ -20,7 +22,8 @@ class Progress:
     def step(self, message: str) -> None:
         if not self.quiet:
             elapsed = time.perf_counter() - self.start
-            print(f"[{elapsed:7.2f} s] {message}", file=self.stream, flush=True)
+            # messages carry titles and file names from the case: escaped, one line each
+            print(f"[{elapsed:7.2f} s] {printable(message)}", file=self.stream, flush=True)
 
     def warn(self, message: str) -> None:
         """A line the user must see even with --quiet (work redone, a request lowered)."""

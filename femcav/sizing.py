@@ -19,6 +19,7 @@ from scipy.constants import c as C0
 
 from .geometry.parts import Layout, Sizing
 from .materials import VACUUM, Material
+from .schema import EPS_R
 
 DEFAULT_PER_WAVELENGTH = 15.0
 DEFAULT_SIZE_FRACTION = 0.1
@@ -32,7 +33,11 @@ def max_refractive_index(material: Material, layout: Layout) -> float:
         lo, hi = layout.bounds()
         axes = [np.linspace(lo[i], hi[i], 9) for i in range(3)]
         x, y, z = np.meshgrid(*axes, indexing="ij")
-        eps = float(np.nanmax(material.eps_at(x, y, z)))
+        values = material.eps_at(x, y, z)
+        values = values[np.isfinite(values)]
+        # values outside the eps_r range are refused at the mesh nodes (Material.check);
+        # here they must only not turn the sizes into NaN or a runaway
+        eps = float(np.clip(values, EPS_R.low, EPS_R.high).max()) if values.size else 1.0
     return math.sqrt(max(eps, 1.0) * material.mu_r)
 
 

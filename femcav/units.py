@@ -36,6 +36,7 @@ UNITS: dict[str, dict[str, float]] = {
     "conductivity": _with_prefixes("S/m", "GMk"),
 }
 
+LENGTH_UNITS = UNITS["length"]
 SI_NAME = {"length": "m", "frequency": "Hz", "conductivity": "S/m"}
 
 _QUANTITY = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([^\s\d].*?)?\s*$")
@@ -47,7 +48,10 @@ def parse_quantity(value: object, kind: str, *, field: str | None = None) -> flo
     if isinstance(value, bool):
         raise InputError(f"expected a {kind}, got a true/false value", field=field)
     if isinstance(value, (int, float)):
-        number = float(value)
+        try:
+            number = float(value)
+        except OverflowError:       # an integer beyond float
+            number = math.inf
     elif isinstance(value, str):
         match = _QUANTITY.match(value)
         if not match:

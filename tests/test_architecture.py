@@ -19,7 +19,7 @@ PACKAGE = Path(__file__).resolve().parent.parent / "femcav"
 
 # lower number = lower layer; a module may import from its own layer or below
 LAYERS = {
-    "errors": 0, "units": 0, "progress": 0, "metals": 0, "analytic": 0,
+    "errors": 0, "units": 0, "progress": 0, "metals": 0, "analytic": 0, "schema": 0,
     "expressions": 1, "materials": 1, "walls": 1,
     "geometry": 2, "model": 2, "sizing": 3,
     "fem": 3, "eigen": 3,
@@ -69,11 +69,19 @@ def _imports() -> set[tuple[str, str]]:
                 else:
                     target = node.module or ""
                 if target.split(".")[0] == "femcav":
-                    found.add((module, target))
+                    # `from .. import schema` imports the module femcav.schema
+                    found.update((module, f"{target}.{alias.name}"
+                                  if _is_module(f"{target}.{alias.name}") else target)
+                                 for alias in node.names)
             elif isinstance(node, ast.Import):
                 found.update((module, a.name) for a in node.names
                              if a.name.split(".")[0] == "femcav")
     return found
+
+
+def _is_module(name: str) -> bool:
+    path = PACKAGE.parent.joinpath(*name.split("."))
+    return path.with_suffix(".py").is_file() or (path / "__init__.py").is_file()
 
 
 def _unit_edges() -> set[tuple[str, str]]:

@@ -141,7 +141,7 @@ BAD = {
     "composite solid without name": (L_SHAPE.replace('name = "bar"\n', ""),
                                      "geometry.solids[2].name: a metal solid needs a name"),
     "composite bad shape": (L_SHAPE.replace('shape = "box"', 'shape = "sphere"', 1),
-                            "geometry.solids[0].shape: shape must be one of"),
+                            "geometry.solids[0].shape: must be one of"),
 }
 
 

@@ -62,7 +62,7 @@ def test_target_outside_the_bracket_is_refused(tmp_path):
 
 @pytest.mark.parametrize("change, message", [
     (('bracket = ["9.5 mm", "11 mm"]', 'bracket = ["9.5 mm"]'), "list of two values"),
-    (('mode = 1', 'mode = 0'), "mode number"),
+    (('mode = 1', 'mode = 0'), "tune.mode: must be a whole number from 1"),
     (('target = "11 GHz"', 'target = "11 mm"'), "target"),
 ])
 def test_bad_tune_tables(tmp_path, change, message):

@@ -59,6 +59,7 @@ from skfem.helpers import dot
 from ..errors import InputError
 from ..fem.assembly import shared_entries_csr
 from ..fem.constraints import Constraint
+from ..materials import check_permittivity
 from ..model import FORMS
 from ..walls import PEC, PMC, essential_kinds
 from .model import AxisymmetricModel
@@ -214,6 +215,8 @@ def _coefficients(model: AxisymmetricModel, basis: Basis):
         cells = section.tri_region == rid
         material = model.materials[name]
         eps[cells] = material.eps_at(r[cells], np.zeros_like(r[cells]), z[cells])
+        check_permittivity(eps[cells], (r[cells], np.zeros_like(r[cells]), z[cells]),
+                           field=f"regions.{name}.eps_r")
         mu[cells] = material.mu_r
     return eps, mu
 

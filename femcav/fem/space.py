@@ -12,6 +12,7 @@ import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
 from ..errors import InputError
+from ..materials import check_permittivity
 from ..model import FORMS, Model
 from ..walls import essential_kinds
 from .constraints import Constraint
@@ -172,7 +173,6 @@ def _coefficients(model: Model, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         rows = tm.tet_region == region_id
         eps[rows] = material.eps_at(x[0][rows], x[1][rows], x[2][rows])
         mu[rows] = material.mu_r
-        if not np.all(np.isfinite(eps[rows]) & (eps[rows] > 0)):
-            raise InputError("eps_r must be positive and finite everywhere in the region; "
-                             "it is not at some quadrature points", field=f"regions.{name}.eps_r")
+        check_permittivity(eps[rows], (x[0][rows], x[1][rows], x[2][rows]),
+                           field=f"regions.{name}.eps_r")
     return eps, mu

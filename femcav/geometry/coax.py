@@ -23,9 +23,10 @@ WALLS = ("outer", "inner", "bottom", "top")
 
 
 def layout(outer_radius, inner_radius, length, gap) -> Layout:
-    require(inner_radius < outer_radius, "inner_radius must be smaller than outer_radius",
-            "geometry.inner_radius")
-    require(gap < length, "gap must be shorter than the cavity length", "geometry.gap")
+    require(inner_radius < outer_radius, f"inner_radius must be smaller than outer_radius "
+            f"({outer_radius:g} m)", "geometry.inner_radius")
+    require(gap < length, f"gap must be shorter than the cavity length ({length:g} m)",
+            "geometry.gap")
     tol = 1e-7 * max(outer_radius, length)
     # A shorted rod is made a little longer than the cavity so that the cut goes cleanly
     # through both end walls.

@@ -20,12 +20,14 @@ from __future__ import annotations
 
 import numpy as np
 
+from .. import schema
 from ..errors import InputError
 from ..units import parse_quantity
 from .parts import Layout
 from .solids import Box, Cylinder
 
 PARAMETERS: dict = {}
+TABLE = schema.COMPOSITE          # [geometry] keys besides builder
 REGIONS: tuple = ()
 WALLS: tuple = ()
 ROLES = ("space", "metal", "fill")
@@ -51,8 +53,7 @@ def parse(given: dict, where: str) -> dict:
 
 
 def _solid(entry, where: str):
-    if not isinstance(entry, dict):
-        raise InputError("must be a table", field=where)
+    schema.check_table(entry, schema.SOLID, where)
     shape, role, name = entry.get("shape"), entry.get("role"), entry.get("name", "")
     if shape not in SHAPE_KEYS:
         raise InputError(f"shape must be one of {', '.join(map(repr, SHAPE_KEYS))}, got "

@@ -32,11 +32,20 @@ WALLS = ("side", "bottom", "top")
 def layout(shield_radius, shield_height, puck_radius, puck_height, puck_hole_radius,
            support_radius, support_height, puck_offset) -> Layout:
     support_radius = puck_radius / 2 if support_radius is None else support_radius
+    # a relation is reported at the key whose value breaks it, the others named in the text
     top = support_height + puck_height
-    require(top < shield_height, "the puck (on its support) reaches the lid; lower it or raise "
-            "shield_height", "geometry.puck_height")
+    require(support_height < shield_height, f"the support reaches the lid: support_height must "
+            f"be below shield_height ({shield_height:g} m)", "geometry.support_height")
+    require(top < shield_height, f"the puck (on its support) reaches the lid: puck_height + "
+            f"support_height ({support_height:g} m) must stay below shield_height "
+            f"({shield_height:g} m)", "geometry.puck_height")
+    for name, r in (("puck_radius", puck_radius), ("support_radius", support_radius)):
+        require(r < shield_radius, f"{name} ({r:g} m) must be smaller than shield_radius "
+                f"({shield_radius:g} m)", f"geometry.{name}")
     require(abs(puck_offset) + max(puck_radius, support_radius) < shield_radius,
-            "the puck or support touches the shield side wall", "geometry.puck_radius")
+            f"the puck or support touches the shield side wall: |puck_offset| + "
+            f"max(puck_radius, support_radius) ({max(puck_radius, support_radius):g} m) must "
+            f"stay below shield_radius ({shield_radius:g} m)", "geometry.puck_offset")
     require(puck_hole_radius < puck_radius, "puck_hole_radius must be smaller than puck_radius",
             "geometry.puck_hole_radius")
     centre = (puck_offset, 0.0)

@@ -24,8 +24,10 @@ WALLS = ("x_min", "x_max", "y_min", "y_max", "z_min", "z_max")
 def layout(width, height, length, block_corner, block_size) -> Layout:
     size = (width, height, length)
     for i, axis in enumerate("xyz"):
-        require(block_corner[i] < size[i], f"the block starts outside the box along {axis}",
-                "geometry.block_corner")
+        side = ("width", "height", "length")[i]
+        require(block_corner[i] < size[i], f"the block starts outside the box along {axis}: "
+                f"block_corner[{i}] must be below {side} ({size[i]:g} m)",
+                f"geometry.block_corner[{i}]")
     return Layout(space=[Box((0, 0, 0), size)], background="air",
                   fills=[("block", Box(block_corner, block_size))],
                   outer_wall=box_face_namer(size, 1e-7 * max(size)),

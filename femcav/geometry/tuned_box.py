@@ -30,8 +30,14 @@ def layout(width, height, length, post_radius, post_depth, post_x, post_z) -> La
     px, pz = _post_position(width, length, post_x, post_z)
     require(post_depth < height, "post_depth must be less than the height (the post would "
             "touch the opposite wall)", "geometry.post_depth")
-    require(post_radius < min(px, width - px, pz, length - pz),
-            "the post touches a side wall; move it or make it thinner", "geometry.post_radius")
+    # a relation is reported at the key whose value breaks it, the others named in the text
+    require(2 * post_radius < min(width, length), f"the post ({2 * post_radius:g} m across) "
+            f"does not fit between the walls: post_radius must be below half of width and of "
+            f"length ({min(width, length) / 2:g} m)", "geometry.post_radius")
+    for axis, p, side in (("x", px, width), ("z", pz, length)):
+        require(post_radius < min(p, side - p), f"the post touches a side wall: post_{axis} "
+                f"must keep post_radius ({post_radius:g} m) from both walls, between "
+                f"{post_radius:g} and {side - post_radius:g} m", f"geometry.post_{axis}")
     overhang = 0.1 * height  # the post starts above the wall so that the cut is clean
     post = Cylinder((px, height + overhang, pz), (0, -(post_depth + overhang), 0), post_radius)
     return Layout(space=[Box((0, 0, 0), size)], background="inside", metal=[("post", post)],

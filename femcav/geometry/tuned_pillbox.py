@@ -23,8 +23,12 @@ WALLS = ("side", "bottom", "top", "post")
 def layout(radius, length, post_radius, post_depth, post_offset) -> Layout:
     require(post_depth < length, "post_depth must be less than the length (the post would "
             "touch the bottom)", "geometry.post_depth")
-    require(abs(post_offset) + post_radius < radius, "the post touches the side wall",
-            "geometry.post_offset")
+    # a relation is reported at the key whose value breaks it, the others named in the text
+    require(post_radius < radius, f"post_radius ({post_radius:g} m) must be smaller than "
+            f"radius ({radius:g} m)", "geometry.post_radius")
+    require(abs(post_offset) + post_radius < radius, f"the post touches the side wall: "
+            f"|post_offset| + post_radius ({post_radius:g} m) must stay below radius "
+            f"({radius:g} m)", "geometry.post_offset")
     overhang = 0.1 * length
     post = Cylinder((post_offset, 0, length + overhang), (0, 0, -(post_depth + overhang)),
                     post_radius)

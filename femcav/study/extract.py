@@ -33,15 +33,12 @@ from ..errors import InputError
 from ..io.atomic import staged_output
 from ..post.sensitivity import material_sensitivities
 from ..progress import SILENT, Progress
-from ..units import format_frequency, parse_quantity
+from ..schema import EXTRACT, check_table, read
+from ..units import format_frequency
 from .parameters import with_value
 from .sweep import TRACKING_SPARE, load_study, study_case
 from .tracking import step_partners
 from .tune import TuneSpec, _Evaluations, _root
-
-EXTRACT_KEYS = {"sample", "mode", "empty_frequency", "empty_q", "loaded_frequency",
-                "loaded_q", "eps_bracket", "tolerance"}
-
 
 @dataclass(frozen=True)
 class ExtractSpec:
@@ -57,51 +54,31 @@ class ExtractSpec:
 
 def parse_extract(data: dict) -> ExtractSpec:
     spec = data.get("extract")
-    if not isinstance(spec, dict):
+    if spec is None:
         raise InputError("the case has no [extract] table", field="extract")
-    for key in spec:
-        if key not in EXTRACT_KEYS:
-            raise InputError(f"unknown key; allowed here: {', '.join(sorted(EXTRACT_KEYS))}",
-                             field=f"extract.{key}")
-    missing = sorted(k for k in EXTRACT_KEYS - {"mode", "eps_bracket", "tolerance"}
-                     if k not in spec)
+    check_table(spec, EXTRACT, "extract")
+    missing = sorted(k for k, key in EXTRACT.keys.items() if key.default is None
+                     and k not in spec)
     if missing:
         raise InputError(f"missing {', '.join(missing)}", field="extract")
     sample = spec["sample"]
-    if not isinstance(sample, str) or not re.fullmatch(r"\w+", sample):
+    if not re.fullmatch(r"\w+", sample):
         raise InputError("must be the name of the sample's region", field="extract.sample")
     if sample not in data.get("regions", {}):
         raise InputError(f"give [regions.{sample}] with eps_r (the starting guess)",
                          field="extract.sample")
-    freq = {k: parse_quantity(spec[k], "frequency", field=f"extract.{k}")
-            for k in ("empty_frequency", "loaded_frequency")}
-    qs = {}
-    for k in ("empty_q", "loaded_q"):
-        q = spec[k]
-        if isinstance(q, bool) or not isinstance(q, (int, float)) or not q > 0:
-            raise InputError(f"must be a positive number, got {q!r}", field=f"extract.{k}")
-        qs[k] = float(q)
-    if not qs["loaded_q"] < qs["empty_q"]:
+    v = {k: read(spec, k, EXTRACT, "extract") for k in EXTRACT.keys}
+    if not v["loaded_q"] < v["empty_q"]:
         raise InputError("a lossless-or-lossy sample cannot raise the Q: loaded_q must be "
-                         "below empty_q", field="extract.loaded_q")
-    bracket = spec.get("eps_bracket", [1.0, 100.0])
-    if (not isinstance(bracket, list) or len(bracket) != 2
-            or not all(isinstance(b, (int, float)) and not isinstance(b, bool) and b >= 1
-                       for b in bracket) or bracket[0] == bracket[1]):
-        raise InputError("must be two different numbers >= 1, e.g. [1.5, 20]",
+                         f"below empty_q ({v['empty_q']:g})", field="extract.loaded_q")
+    bracket = [float(b) for b in read(spec, "eps_bracket", EXTRACT, "extract")]
+    if bracket[0] == bracket[1]:
+        raise InputError("the two ends are equal; give two different numbers, e.g. [1.5, 20]",
                          field="extract.eps_bracket")
-    mode = spec.get("mode", 1)
-    if isinstance(mode, bool) or not isinstance(mode, int) or mode < 1:
-        raise InputError(f"must be a mode number >= 1, got {mode!r}", field="extract.mode")
-    tolerance = spec.get("tolerance", 1e-9)
-    if isinstance(tolerance, bool) or not isinstance(tolerance, (int, float)) \
-            or not 0 < tolerance < 1e-2:
-        raise InputError("must be a relative frequency tolerance below 1e-2",
-                         field="extract.tolerance")
-    return ExtractSpec(sample=sample, mode=mode, empty_hz=freq["empty_frequency"],
-                       empty_q=qs["empty_q"], loaded_hz=freq["loaded_frequency"],
-                       loaded_q=qs["loaded_q"], eps_bracket=tuple(sorted(map(float, bracket))),
-                       tolerance=float(tolerance))
+    return ExtractSpec(sample=sample, mode=v["mode"], empty_hz=v["empty_frequency"],
+                       empty_q=v["empty_q"], loaded_hz=v["loaded_frequency"],
+                       loaded_q=v["loaded_q"], eps_bracket=tuple(sorted(bracket)),
+                       tolerance=v["tolerance"])
 
 
 def run_extract(path: str | Path, *, out: str | Path | None = None,

@@ -11,23 +11,21 @@ with the usual message).
 from __future__ import annotations
 
 import copy
-import math
 import re
 from dataclasses import dataclass
 
 import numpy as np
 
 from ..errors import InputError
-from ..units import format_length, format_si, parse_quantity
+from ..schema import MAX_STUDY_VALUES, SWEEP_AXIS, VARIED, check_table, parse_value, read
+from ..units import format_length, format_si
 
 _PATH = re.compile(r"^(geometry)\.(\w+)(?:\[(\d)\])?$|^(regions)\.(\w+)\.(eps_r|mu_r|tan_delta)$"
                    r"|^(walls)\.(\w+)\.(conductivity)$")
 KINDS = {"eps_r": "number", "mu_r": "number", "tan_delta": "number",
          "conductivity": "conductivity"}
 UNITS = {"length": "m", "number": "", "conductivity": "S/m"}
-# The most values one parameter may take (each is a solve): refused before any list of
-# values is made, so that a typo such as points = 1000000000 costs nothing.
-MAX_VALUES = 10_000
+MAX_VALUES = MAX_STUDY_VALUES   # (the schema refuses more, before any list is made)
 
 
 @dataclass(frozen=True)
@@ -37,6 +35,10 @@ class Axis:
     path: str
     values: tuple[float, ...]
     kind: str                   # "length", "number" or "conductivity"
+    # the case-file key each value comes from (sweep.values[2], sweep.from, sweep, ...), for
+    # messages about a point that is refused
+    origins: tuple[str, ...] = ()
+    where: str = ""             # the study table that declares the axis ("sweep", "tune")
 
     @property
     def unit(self) -> str:
@@ -57,17 +59,17 @@ def parameter_kind(path: str, where: str) -> str:
     return KINDS[match.group(6) or match.group(9)]
 
 
+def varied_value(path: str, raw, field: str) -> float:
+    """A value for the parameter ``path``, checked against the declaration of the key it
+    goes to (femcav.schema: eps_r within its range, a conductivity with its unit, ...)."""
+    name = path.rsplit(".", 1)[-1]
+    return parse_value(raw, VARIED.get(name, VARIED["length"]), field)
+
+
 def parse_axis(spec: dict, where: str) -> Axis:
     """``{parameter = "...", from = ..., to = ..., points = N}`` or ``{parameter = "...",
     values = [...]}``; quantities with units as elsewhere in the case file."""
-    if not isinstance(spec, dict):
-        raise InputError("must be a table with parameter and values (or from, to, points)",
-                         field=where)
-    allowed = {"parameter", "values", "from", "to", "points"}
-    for key in spec:
-        if key not in allowed:
-            raise InputError(f"unknown key; allowed here: {', '.join(sorted(allowed))}",
-                             field=f"{where}.{key}")
+    check_table(spec, SWEEP_AXIS, where)
     if "parameter" not in spec:
         raise InputError("missing: the parameter to vary, e.g. \"geometry.radius\"",
                          field=f"{where}.parameter")
@@ -75,39 +77,50 @@ def parse_axis(spec: dict, where: str) -> Axis:
     kind = parameter_kind(path, f"{where}.parameter")
 
     def value(raw, field):
-        if kind == "number":
-            if isinstance(raw, bool) or not isinstance(raw, (int, float)) or not math.isfinite(raw):
-                raise InputError(f"must be a number, got {raw!r}", field=field)
-            return float(raw)
-        return parse_quantity(raw, kind, field=field)
+        return varied_value(path, raw, field)
 
     if "values" in spec:
         if any(k in spec for k in ("from", "to", "points")):
             raise InputError("give either values or from, to and points", field=where)
         raw = spec["values"]
-        if not isinstance(raw, list) or not raw:
+        if not raw:
             raise InputError("must be a non-empty list", field=f"{where}.values")
-        if len(raw) > MAX_VALUES:
-            raise InputError(f"{len(raw)} values; at most {MAX_VALUES} per parameter",
-                             field=f"{where}.values")
-        values = tuple(value(v, f"{where}.values[{i}]") for i, v in enumerate(raw))
+        origins = tuple(f"{where}.values[{i}]" for i in range(len(raw)))
+        values = tuple(value(v, field) for v, field in zip(raw, origins))
     else:
         missing = [k for k in ("from", "to", "points") if k not in spec]
         if missing:
             raise InputError(f"missing {', '.join(missing)} (or give values = [...])",
                              field=where)
-        points = spec["points"]
-        if isinstance(points, bool) or not isinstance(points, int) or points < 2:
-            raise InputError(f"must be a whole number >= 2, got {points!r}",
-                             field=f"{where}.points")
-        if points > MAX_VALUES:
-            raise InputError(f"{points} points; at most {MAX_VALUES} per parameter",
-                             field=f"{where}.points")
+        points = read(spec, "points", SWEEP_AXIS, where)
         lo, hi = value(spec["from"], f"{where}.from"), value(spec["to"], f"{where}.to")
         values = tuple(float(v) for v in np.linspace(lo, hi, points))
+        origins = (f"{where}.from", *[where] * (points - 2), f"{where}.to")
     if len(set(values)) != len(values):
         raise InputError("lists a value twice", field=where)
-    return Axis(path=path, values=values, kind=kind)
+    return Axis(path=path, values=values, kind=kind, origins=origins, where=where)
+
+
+def check_parameter_exists(axis: Axis, case) -> None:
+    """A builder length that the base case's builder has (a region or wall property may name
+    a table the case leaves out: the study writes it in)."""
+    field = f"{axis.where}.parameter"
+    match = _PATH.match(axis.path)
+    if not match.group(1):
+        return
+    builder = case.geometry.builder
+    if builder is None:
+        raise InputError("an imported mesh has no builder lengths to vary", field=field)
+    from ..geometry import BUILDERS
+
+    declared = BUILDERS[builder].PARAMETERS
+    name, index = match.group(2), match.group(3)
+    if name not in declared:
+        raise InputError(f"{builder} has no length {name!r}; this builder takes "
+                         f"{', '.join(declared) or 'no lengths'}", field=field)
+    if (declared[name].kind == "point") != (index is not None):
+        raise InputError("a point's coordinate is named NAME[0], NAME[1] or NAME[2]; a length "
+                         "by its name", field=field)
 
 
 def with_value(data: dict, path: str, value: float) -> dict:

@@ -36,9 +36,10 @@ from ..errors import InputError, ResourceError
 from ..io.atomic import staged_output
 from ..io.results import mode_rows
 from ..progress import SILENT, Progress
+from ..schema import SWEEP, check_table
 from .fingerprint import point_fingerprint
 from .folder_lock import folder_lock
-from .parameters import Axis, format_value, parse_axis, with_value
+from .parameters import Axis, check_parameter_exists, format_value, parse_axis, with_value
 from .point_store import PointResult, load_point, read_point, remove_temporaries, save_point
 from .tracking import track
 from .workers import usable_jobs, worker_pool
@@ -63,9 +64,10 @@ class SweepSpec:
 
 def parse_sweep(data: dict) -> SweepSpec:
     spec = data.get("sweep")
-    if not isinstance(spec, dict):
+    if spec is None:
         raise InputError("the case has no [sweep] table (parameter and values, or from, to "
                          "and points)", field="sweep")
+    check_table(spec, SWEEP, "sweep")
     first = {k: v for k, v in spec.items() if k != "second"}
     axes = [parse_axis(first, "sweep")]
     if "second" in spec:
@@ -75,8 +77,16 @@ def parse_sweep(data: dict) -> SweepSpec:
         size = len(axes[0].values) * len(axes[1].values)
         if size > MAX_GRID_POINTS:
             raise InputError(f"{len(axes[0].values)} x {len(axes[1].values)} = {size} points; "
-                             f"at most {MAX_GRID_POINTS} in a sweep", field="sweep")
+                             f"at most {MAX_GRID_POINTS} in a sweep", field="sweep.second")
     return SweepSpec(axes=tuple(axes))
+
+
+def sweep_trials(spec: SweepSpec) -> list[tuple[tuple[Axis, float, str], ...]]:
+    """Every point of the grid as (axis, value, the key the value comes from) per axis."""
+    per_axis = [list(zip([a] * len(a.values), a.values, a.origins)) for a in spec.axes]
+    if len(per_axis) == 1:
+        return [(t,) for t in per_axis[0]]
+    return [(a, b) for b in per_axis[1] for a in per_axis[0]]
 
 
 def study_case(data: dict, path: Path, *,
@@ -86,14 +96,30 @@ def study_case(data: dict, path: Path, *,
     return case_from_data({k: v for k, v in data.items() if k not in sweep_keys}, path)
 
 
-def load_study(path: Path, parse):
+def load_study(path: Path, parse, trials=lambda spec: ()):
     """(raw tables, the study's own table parsed by ``parse``, the base case), each
-    mistake located in the file."""
+    mistake located in the file. Every trial point (``trials(spec)``: tuples of (axis,
+    value, the key the value comes from)) is validated as a case of its own now, before
+    anything is solved or written; a refused point is reported at the key of its value."""
     data = read_case_data(path)
     try:
         spec = parse(data)
         base = study_case(data, path)
         checked_for_tracking(base)
+        for trial in trials(spec):
+            for axis, _, _ in trial:
+                check_parameter_exists(axis, base)
+            point = data
+            for axis, value, _ in trial:
+                point = with_value(point, axis.path, value)
+            try:
+                checked_for_tracking(study_case(point, path))
+            except InputError as exc:
+                at = ", ".join(f"{a.path} = {format_value(a, v)}" for a, v, _ in trial)
+                culprit = next((origin for axis, _, origin in trial if axis.path == exc.field),
+                               trial[0][2])
+                raise InputError(f"the point {at} is refused: {exc.field}: {exc.message}",
+                                 field=culprit) from None
     except InputError as exc:
         raise exc.located(source=str(path)) from None
     return data, spec, base
@@ -121,23 +147,10 @@ def point_data(data: dict, axes, values) -> dict:
 
 
 def plan_points(data: dict, path: Path, spec: SweepSpec) -> list[str]:
-    """Every point's fingerprint, after writing its values into the case and validating it
-    like a case of its own: a mistake at any point is refused before anything is solved or
-    written."""
+    """Every point's fingerprint (the points were validated by load_study)."""
     digests: dict = {}
-    points = spec.points()
-    fingerprints = []
-    for index, values in enumerate(points):
-        tables = point_data(data, spec.axes, values)
-        try:
-            checked_for_tracking(study_case(tables, path))
-        except InputError as exc:
-            label = ", ".join(f"{a.path} = {format_value(a, v)}"
-                              for a, v in zip(spec.axes, values))
-            raise InputError(f"at point {index + 1} of {len(points)} ({label}): "
-                             f"{exc.message}", source=str(path), field=exc.field) from None
-        fingerprints.append(point_fingerprint(tables, path, POINT_OPTIONS, digests))
-    return fingerprints
+    return [point_fingerprint(point_data(data, spec.axes, values), path, POINT_OPTIONS, digests)
+            for values in spec.points()]
 
 
 def solve_point(data: dict, path: Path, axes, values, fingerprint: str,
@@ -189,7 +202,7 @@ def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
     folder that were solved for the same case), track the modes, and write sweep.json,
     sweep.csv and mode_chart.png."""
     path = Path(path)
-    data, spec, base = load_study(path, parse_sweep)
+    data, spec, base = load_study(path, parse_sweep, sweep_trials)
     if isinstance(jobs, bool) or not isinstance(jobs, int) or jobs < 1:
         raise InputError(f"must be a whole number >= 1, got {jobs!r}", field="--jobs")
     folder = Path(out) if out is not None else path.parent / f"{path.stem}-sweep"

@@ -23,13 +23,12 @@ from scipy.optimize import brentq
 from ..errors import InputError
 from ..io.atomic import staged_output
 from ..progress import SILENT, Progress
-from ..units import format_frequency, parse_quantity
-from .parameters import format_value, parameter_kind, with_value
+from ..schema import TUNE, check_table, read
+from ..units import format_frequency
+from .parameters import format_value, parameter_kind, varied_value, with_value
 from .sweep import TRACKING_SPARE, checked_for_tracking, load_study, study_case
 from .tracking import step_partners
 
-TUNE_KEYS = {"parameter", "bracket", "target", "mode", "tolerance"}
-DEFAULT_TOLERANCE = 1e-6      # relative, on the frequency
 
 
 @dataclass(frozen=True)
@@ -40,48 +39,35 @@ class TuneSpec:
     target_hz: float
     mode: int                   # 1-based, at the reference point
     tolerance: float
+    bracket_keys: tuple[str, str] = ("tune.bracket", "tune.bracket")   # where each end is
 
 
 def parse_tune(data: dict) -> TuneSpec:
     spec = data.get("tune")
-    if not isinstance(spec, dict):
+    if spec is None:
         raise InputError("the case has no [tune] table (parameter, bracket, target, mode)",
                          field="tune")
-    for key in spec:
-        if key not in TUNE_KEYS:
-            raise InputError(f"unknown key; allowed here: {', '.join(sorted(TUNE_KEYS))}",
-                             field=f"tune.{key}")
+    check_table(spec, TUNE, "tune")
     missing = [k for k in ("parameter", "bracket", "target") if k not in spec]
     if missing:
         raise InputError(f"missing {', '.join(missing)}", field="tune")
     kind = parameter_kind(spec["parameter"], "tune.parameter")
-    bracket = spec["bracket"]
-    if not isinstance(bracket, list) or len(bracket) != 2:
-        raise InputError('must be a list of two values, e.g. ["9 mm", "11 mm"]',
-                         field="tune.bracket")
-
-    def value(raw, field):
-        if kind == "number":
-            if isinstance(raw, bool) or not isinstance(raw, (int, float)):
-                raise InputError(f"must be a number, got {raw!r}", field=field)
-            return float(raw)
-        return parse_quantity(raw, kind, field=field)
-    lo, hi = sorted(value(b, f"tune.bracket[{i}]") for i, b in enumerate(bracket))
-    if lo == hi:
+    ends = sorted((varied_value(spec["parameter"], b, f"tune.bracket[{i}]"), f"tune.bracket[{i}]")
+                  for i, b in enumerate(spec["bracket"]))
+    if ends[0][0] == ends[1][0]:
         raise InputError("the two ends of the bracket are equal", field="tune.bracket")
-    target = parse_quantity(spec["target"], "frequency", field="tune.target")
-    if not target > 0:
-        raise InputError("must be a positive frequency", field="tune.target")
-    mode = spec.get("mode", 1)
-    if isinstance(mode, bool) or not isinstance(mode, int) or mode < 1:
-        raise InputError(f"must be a mode number >= 1, got {mode!r}", field="tune.mode")
-    tolerance = spec.get("tolerance", DEFAULT_TOLERANCE)
-    if isinstance(tolerance, bool) or not isinstance(tolerance, (int, float)) \
-            or not 0 < tolerance < 0.1:
-        raise InputError("must be a relative tolerance between 0 and 0.1",
-                         field="tune.tolerance")
-    return TuneSpec(path=spec["parameter"], kind=kind, bracket=(lo, hi), target_hz=target,
-                    mode=mode, tolerance=float(tolerance))
+    return TuneSpec(path=spec["parameter"], kind=kind, bracket=(ends[0][0], ends[1][0]),
+                    target_hz=read(spec, "target", TUNE, "tune"),
+                    mode=read(spec, "mode", TUNE, "tune"),
+                    tolerance=read(spec, "tolerance", TUNE, "tune"),
+                    bracket_keys=(ends[0][1], ends[1][1]))
+
+
+def tune_trials(spec: TuneSpec):
+    """The two ends of the bracket, validated as cases before the first solve (every value
+    Brent's method tries lies between them)."""
+    axis = _axis(spec)
+    return [((axis, value, key),) for value, key in zip(spec.bracket, spec.bracket_keys)]
 
 
 def _reference_value(data: dict, spec: TuneSpec, case) -> float:
@@ -95,13 +81,15 @@ def _reference_value(data: dict, spec: TuneSpec, case) -> float:
         region, _, prop = rest.partition(".")
         material = case.regions.get(region)
         if material is None:
-            raise InputError(f"region {region!r} has no table in the case", field="tune")
+            raise InputError(f"region {region!r} has no table in the case",
+                             field="tune.parameter")
         if prop == "eps_r" and callable(material.eps_r):
-            raise InputError("cannot tune an eps_r given as an expression", field="tune")
+            raise InputError(f"{spec.path} is given as an expression; only a number can be "
+                             "tuned", field="tune.parameter")
         return float(getattr(material, prop))
     wall = case.walls.get(rest.partition(".")[0])
     if wall is None or wall.conductivity is None:
-        raise InputError("the wall has no conductivity to start from", field="tune")
+        raise InputError("the wall has no conductivity to start from", field="tune.parameter")
     return float(wall.conductivity)
 
 
@@ -150,22 +138,15 @@ class _Evaluations:
 
 def _axis(spec: TuneSpec):
     from .parameters import Axis
-    return Axis(path=spec.path, values=spec.bracket, kind=spec.kind)
+    return Axis(path=spec.path, values=spec.bracket, kind=spec.kind, where="tune")
 
 
 def run_tune(path: str | Path, *, out: str | Path | None = None,
              progress: Progress = SILENT) -> tuple[dict, Path]:
     path = Path(path)
-    data, spec, base = load_study(path, parse_tune)
+    data, spec, base = load_study(path, parse_tune, tune_trials)
     try:
         reference = _reference_value(data, spec, base)
-        for end, value in zip(("lower", "upper"), spec.bracket):
-            try:        # both ends are solved: refuse a bad one before the first solve
-                checked_for_tracking(study_case(with_value(data, spec.path, value), path))
-            except InputError as exc:
-                raise InputError(f"at the {end} end of the bracket ({spec.path} = "
-                                 f"{format_value(_axis(spec), value)}): {exc.message}",
-                                 field=exc.field) from None
         runs = _Evaluations(data, path, spec, progress)
         runs.start(reference)
         progress.step(f"tune: mode {spec.mode} at the case's own {spec.path} = "

@@ -1,0 +1,366 @@
+"""The case file's keys, declared once: for every table, each key's type, unit, allowed range
+or values, and default.
+
+The readers (femcav.case, femcav.study, the composite builder) consult these declarations
+before any other use of a value, so a value of the wrong type or outside its range is one
+InputError that names its key and says what is allowed, never a TypeError deep inside.
+Everything here is plain data; the few checks below only read it.
+
+Ranges are "sane" rather than physical limits: wide enough for every real part (ceramics to
+ε_r 10⁵, ferrites to μ_r 10⁵, cryogenic metals, THz cavities), narrow enough that the solvers
+stay in floating-point range (ε_r = 1e-300 stops ARPACK; a conductivity of 1e-300 S/m gives a
+Q of 1e-150 without complaint). README.md ("Case-file reference") lists them.
+"""
+
+from __future__ import annotations
+
+import importlib
+import math
+from dataclasses import dataclass, field
+from typing import Callable
+
+from .errors import InputError
+from .units import SI_NAME, format_si, parse_quantity
+
+
+@dataclass(frozen=True)
+class ValueType:
+    """A TOML value type: its name in messages and the test for it."""
+
+    name: str
+    accepts: Callable[[object], bool]
+
+
+def _is_number(value) -> bool:
+    return isinstance(value, (int, float)) and not isinstance(value, bool)
+
+
+def _is_whole(value) -> bool:
+    return isinstance(value, int) and not isinstance(value, bool)
+
+
+STRING = ValueType("a string", lambda v: isinstance(v, str))
+NUMBER = ValueType("a number", _is_number)
+WHOLE = ValueType("a whole number", _is_whole)
+BOOL = ValueType("true or false", lambda v: isinstance(v, bool))
+TABLE = ValueType("a table", lambda v: isinstance(v, dict))
+
+
+def either(*types: ValueType) -> ValueType:
+    return ValueType(" or ".join(t.name for t in types),
+                     lambda v: any(t.accepts(v) for t in types))
+
+
+def list_of(item: ValueType, length: int | None = None, *, at_most: int | None = None
+            ) -> ValueType:
+    count = ({1: "one value", 2: "two values", 3: "three values"}.get(length, f"{length} values")
+             if length else f"at most {at_most} values" if at_most else "values")
+    return ValueType(
+        f"a list of {count}, each {item.name}",
+        lambda v: (isinstance(v, list) and (length is None or len(v) == length)
+                   and (at_most is None or len(v) <= at_most)
+                   and all(item.accepts(x) for x in v)))
+
+
+# A quantity: a bare number in SI units, or a string with a unit ("12 mm", "9.5 GHz").
+QUANTITY = either(NUMBER, STRING)
+POINT = list_of(QUANTITY, 3)
+
+
+@dataclass(frozen=True)
+class Range:
+    """low <= value <= high (or < with ``*_open``), and always finite."""
+
+    low: float | None = None
+    high: float | None = None
+    low_open: bool = False
+    high_open: bool = False
+
+    def contains(self, value: float) -> bool:
+        try:
+            if not math.isfinite(value):
+                return False
+        except OverflowError:       # an integer beyond float
+            return False
+        if self.low is not None and (value <= self.low if self.low_open else value < self.low):
+            return False
+        return self.high is None or (value < self.high if self.high_open else value <= self.high)
+
+    def describe(self, unit: str = "") -> str:
+        """E.g. "from 0.01 to 100000", "above 0 and below 0.5", "finite"."""
+        def show(v):
+            return format_si(v, unit, 6) if unit else f"{v:g}"
+        if self.low is not None and self.high is not None and not (self.low_open
+                                                                   or self.high_open):
+            return f"from {show(self.low)} to {show(self.high)}"
+        parts = []
+        if self.low is not None:
+            parts.append(f"{'above' if self.low_open else 'at least'} {show(self.low)}")
+        if self.high is not None:
+            parts.append(f"{'below' if self.high_open else 'at most'} {show(self.high)}")
+        return " and ".join(parts) or "finite"
+
+
+@dataclass(frozen=True)
+class Key:
+    """One key: its type, the unit kind of a quantity (femcav.units), its range in SI units
+    (of every number, in a list), its allowed values, its default (None: no default, or
+    absent means "not set")."""
+
+    type: ValueType
+    unit: str | None = None
+    range: Range | None = None
+    # the allowed values, or "module:NAME" of the tuple or dict (its keys) that holds them,
+    # read when checked (so that this module imports no solver code)
+    choices: tuple | str = ()
+    default: object = None
+    doc: str = ""
+
+    def allowed(self) -> tuple:
+        if isinstance(self.choices, str):
+            module, _, name = self.choices.partition(":")
+            return tuple(getattr(importlib.import_module(module), name))
+        return self.choices
+
+
+@dataclass(frozen=True)
+class Table:
+    """The keys of one table; ``each``: the declaration of every entry of a table whose keys
+    are names the user chooses ([regions], [walls], [tolerances])."""
+
+    keys: dict[str, Key] = field(default_factory=dict)
+    each: Key | None = None
+
+
+# --- Ranges (SI) -----------------------------------------------------------------------------
+
+EPS_R = Range(1e-2, 1e5)
+MU_R = Range(1e-2, 1e5)
+TAN_DELTA = Range(0.0, 1.0)
+CONDUCTIVITY = Range(1e4, 1e12)          # S/m: graphite to cryogenic copper
+ROUGHNESS = Range(0.0, 1e-3)             # m, rms
+FREQUENCY = Range(1.0, 1e13)             # Hz: 1 Hz to 10 THz
+POSITIVE = Range(0.0, low_open=True)
+MODES = Range(1, 1000)
+PER_WAVELENGTH = Range(2, 100)
+EDGE_REFINEMENT = Range(0.01, 1)
+MAX_DOFS = Range(1000, 1e9)
+ACCURACY = Range(0.0, 0.5, low_open=True, high_open=True)
+AZIMUTHAL_ORDER = Range(0, 100)
+# The most values one study parameter may take (each is a solve): refused before any list
+# of values is made, so that a typo such as points = 1000000000 costs nothing.
+MAX_STUDY_VALUES = 10_000
+STUDY_POINTS = Range(2, MAX_STUDY_VALUES)
+TUNE_TOLERANCE = Range(1e-12, 0.1, high_open=True)
+EXTRACT_TOLERANCE = Range(1e-15, 1e-2, high_open=True)
+QUALITY_FACTOR = Range(1.0, 1e12)
+# An expression (eps_r in x, y, z) is refused beyond these, before it is compiled.
+EXPRESSION_MAX_CHARS = 2000
+EXPRESSION_MAX_DEPTH = 100
+
+# --- Tables ----------------------------------------------------------------------------------
+
+LENGTH = Key(QUANTITY, unit="length", range=POSITIVE)
+FREQ = Key(QUANTITY, unit="frequency", range=FREQUENCY)
+
+TOP = Table({
+    "title": Key(STRING), "geometry": Key(TABLE), "mesh": Key(TABLE), "regions": Key(TABLE),
+    "walls": Key(TABLE), "symmetry": Key(TABLE), "solve": Key(TABLE), "sweep": Key(TABLE),
+    "tune": Key(TABLE), "extract": Key(TABLE), "tolerances": Key(TABLE),
+})
+
+GEOMETRY_MESH = Table({
+    "mesh": Key(STRING, doc="mesh file, relative to the case file"),
+    "mesh_unit": Key(STRING, choices="femcav.units:LENGTH_UNITS", default="m"),
+})
+
+# The builder's own parameters join this table (see builder_table).
+GEOMETRY_BUILDER = Table({"builder": Key(STRING, choices="femcav.geometry:BUILDERS")})
+
+PARAMETER_TYPES = {"length": QUANTITY, "point": POINT}   # geometry.params.Param.kind
+
+COMPOSITE = Table({"solids": Key(list_of(TABLE)), "background": Key(STRING, default="inside")})
+
+SOLID = Table({
+    "shape": Key(STRING, choices=("box", "cylinder")),
+    "role": Key(STRING, choices=("space", "metal", "fill")),
+    "name": Key(STRING, default=""),
+    "corner": Key(POINT, unit="length"), "size": Key(POINT, unit="length"),
+    "base": Key(POINT, unit="length"), "axis": Key(POINT, unit="length"),
+    "radius": LENGTH,
+})
+
+MESH = Table({
+    "size": LENGTH,
+    "max_frequency": FREQ,
+    "per_wavelength": Key(NUMBER, range=PER_WAVELENGTH),
+    "edge_refinement": Key(NUMBER, range=EDGE_REFINEMENT, default=0.5),
+    "curved": Key(BOOL, default=False),
+})
+
+REGION = Table({
+    "eps_r": Key(either(NUMBER, STRING), range=EPS_R, default=1.0,
+                 doc="a number, a complex number string or an expression in x, y, z"),
+    "mu_r": Key(NUMBER, range=MU_R, default=1.0),
+    "tan_delta": Key(NUMBER, range=TAN_DELTA, default=0.0),
+    "mesh_size": LENGTH,
+})
+REGIONS = Table(each=Key(TABLE, doc="a region: eps_r, mu_r, tan_delta, mesh_size"))
+
+WALL = Table({
+    "kind": Key(STRING, choices="femcav.walls:KINDS"),
+    "conductivity": Key(QUANTITY, unit="conductivity", range=CONDUCTIVITY),
+    "metal": Key(STRING, choices="femcav.metals:CONDUCTIVITY_S_PER_M"),
+    "roughness": Key(QUANTITY, unit="length", range=ROUGHNESS),
+})
+WALLS = Table(each=Key(TABLE, doc='a wall: kind = "pec", "pmc" or "metal"'))
+
+SYMMETRY = Table({axis: Key(STRING, choices=("pec", "pmc", "both")) for axis in "xyz"})
+
+SOLVE = Table({
+    "modes": Key(WHOLE, range=MODES, default=10),
+    "near": FREQ,
+    "form": Key(STRING, choices="femcav.model:FORMS"),
+    "order": Key(WHOLE, choices="femcav.fem.space:ORDERS", default=1),
+    "complex_check": Key(BOOL, default=False),
+    "error_estimate": Key(BOOL, default=False),
+    "accuracy": Key(either(NUMBER, STRING), range=ACCURACY,
+                    doc='relative: 1e-5, "10 ppm", "0.01 %"'),
+    "max_dofs": Key(WHOLE, range=MAX_DOFS, default=400_000),
+    "factorization": Key(STRING, choices="femcav.eigen.factorization:FACTORIZERS",
+                         default="auto"),
+    "method": Key(STRING, choices="femcav.eigen.selection:METHODS", default="auto"),
+    "azimuthal_orders": Key(either(WHOLE, list_of(WHOLE)), range=AZIMUTHAL_ORDER),
+    "sensitivities": Key(BOOL, default=False),
+})
+
+STUDY_VALUE = either(NUMBER, STRING)
+SWEEP_AXIS = Table({
+    "parameter": Key(STRING),
+    "values": Key(list_of(STUDY_VALUE, at_most=MAX_STUDY_VALUES)),
+    "from": Key(STUDY_VALUE), "to": Key(STUDY_VALUE),
+    "points": Key(WHOLE, range=STUDY_POINTS),
+})
+SWEEP = Table({**SWEEP_AXIS.keys, "second": Key(TABLE)})
+
+TUNE = Table({
+    "parameter": Key(STRING),
+    "bracket": Key(list_of(STUDY_VALUE, 2)),
+    "target": FREQ,
+    "mode": Key(WHOLE, range=MODES, default=1),
+    "tolerance": Key(NUMBER, range=TUNE_TOLERANCE, default=1e-6),
+})
+
+EXTRACT = Table({
+    "sample": Key(STRING),
+    "mode": Key(WHOLE, range=MODES, default=1),
+    "empty_frequency": FREQ, "loaded_frequency": FREQ,
+    "empty_q": Key(NUMBER, range=QUALITY_FACTOR), "loaded_q": Key(NUMBER, range=QUALITY_FACTOR),
+    "eps_bracket": Key(list_of(NUMBER, 2), range=Range(1.0, EPS_R.high), default=[1.0, 100.0]),
+    "tolerance": Key(NUMBER, range=EXTRACT_TOLERANCE, default=1e-9),
+})
+
+TOLERANCES = Table(each=LENGTH)
+
+# The quantities a study may vary (femcav.study.parameters): the key each value goes to.
+VARIED = {"eps_r": Key(NUMBER, range=EPS_R), "mu_r": REGION.keys["mu_r"],
+          "tan_delta": REGION.keys["tan_delta"], "conductivity": WALL.keys["conductivity"],
+          "length": Key(QUANTITY, unit="length")}
+
+
+# --- Checks ----------------------------------------------------------------------------------
+
+def type_name(value) -> str:
+    """What a TOML value is, for messages ("a list", "a table", ...)."""
+    for t in (BOOL, WHOLE, NUMBER, STRING, TABLE):
+        if t.accepts(value):
+            return "true/false" if t is BOOL else t.name
+    return "a list" if isinstance(value, list) else f"a {type(value).__name__}"
+
+
+def builder_table(builder) -> Table:
+    """[geometry] for a builder module: ``builder`` and the builder's parameters (its
+    ``PARAMETERS``, or its own ``TABLE`` when it reads a richer description)."""
+    own = getattr(builder, "TABLE", None)
+    keys = own.keys if own is not None else {
+        name: Key(PARAMETER_TYPES[p.kind], unit="length")
+        for name, p in builder.PARAMETERS.items()}
+    return Table({**GEOMETRY_BUILDER.keys, **keys})
+
+
+def check_table(value, table: Table, where: str, *, unknown: str = "") -> dict:
+    """``value`` as a table whose keys are all declared and of their declared types (and,
+    where declared, one of the allowed values); the table itself is returned. ``unknown``:
+    what to say of an undeclared key (default: the keys allowed)."""
+    if not isinstance(value, dict):
+        raise InputError(f"must be a table, got {type_name(value)}", field=where or None)
+    prefix = f"{where}." if where else ""
+    for name, item in value.items():
+        key = table.each if table.each is not None else table.keys.get(name)
+        if key is None:
+            hint = unknown or f"allowed here: {', '.join(sorted(table.keys))}"
+            raise InputError(f"unknown key; {hint}", field=f"{prefix}{name}")
+        check_value(item, key, f"{prefix}{name}")
+    return value
+
+
+def check_value(value, key: Key, field: str) -> None:
+    """The type of ``value`` and, for keys with a fixed set of values, its membership."""
+    allowed = key.allowed()
+    if not key.type.accepts(value):
+        if allowed:
+            raise InputError(f"must be one of {_listing(allowed)}, got {type_name(value)}",
+                             field=field)
+        raise InputError(f"must be {key.type.name}, got {type_name(value)}", field=field)
+    if allowed and value not in allowed:
+        raise InputError(f"must be one of {_listing(allowed)}, got {value!r}", field=field)
+
+
+def _listing(values) -> str:
+    return ", ".join(map(repr, values))
+
+
+def read(spec: dict, name: str, table: Table, where: str):
+    """The value of key ``name`` of the checked table ``spec`` (its default when absent): a
+    quantity in SI units, a number within its range, anything else as given."""
+    if name not in spec:
+        return table.keys[name].default
+    return parse_value(spec[name], table.keys[name], f"{where}.{name}")
+
+
+def parse_value(value, key: Key, field: str):
+    """One value against its declaration: type, unit, range (in SI); a list item by item
+    (``field[i]``)."""
+    check_value(value, key, field)
+    if isinstance(value, list):
+        return [_parse_item(v, key, f"{field}[{i}]") for i, v in enumerate(value)]
+    return _parse_item(value, key, field)
+
+
+def _parse_item(value, key: Key, field: str):
+    if key.unit is not None:
+        number = parse_quantity(value, key.unit, field=field)
+        check_range(number, key, field, shown=value)
+        return number
+    if _is_number(value):
+        check_range(value, key, field)
+        # a whole number stays an int where only whole numbers are allowed
+        return value if isinstance(value, int) and not key.type.accepts(0.5) else float(value)
+    return value
+
+
+def describe_range(key: Key) -> str:
+    """E.g. "a number from 0.01 to 100000", "a frequency from 1 Hz to 10 THz"."""
+    rng = key.range or Range()
+    noun = (f"a {key.unit}" if key.unit else
+            "a whole number" if "whole number" in key.type.name else "a number")
+    return f"{noun} {rng.describe(SI_NAME.get(key.unit, ''))}"
+
+
+def check_range(number: float, key: Key, field: str, *, shown=None) -> None:
+    """Refuse a number (SI) outside the key's range or not finite; ``shown``: the value as
+    written, for the message."""
+    rng = key.range or Range()
+    if not rng.contains(number):
+        raise InputError(f"must be {describe_range(key)}, got "
+                         f"{(shown if shown is not None else number)!r}", field=field)
