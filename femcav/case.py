@@ -17,7 +17,7 @@ from .expressions import Expression
 from .fem.space import ORDERS
 from .geometry import BUILDERS, build_part, builder_layout, read_mesh
 from .geometry.mesh import TaggedMesh
-from .geometry.params import parse_params
+from .geometry.params import checked_length, parse_params
 from .materials import VACUUM, Material
 from .metals import CONDUCTIVITY_S_PER_M
 from .model import FORMS, Model, make_model
@@ -163,6 +163,7 @@ def _tolerances(spec: dict, geometry: GeometrySpec, symmetry: dict,
         tolerance = parse_quantity(raw, "length", field=f"tolerances.{name}")
         if not tolerance > 0:
             raise InputError("must be positive", field=f"tolerances.{name}")
+        checked_length(tolerance, f"tolerances.{name}", positive=False)
         out[name] = tolerance
     return out
 
@@ -283,6 +284,11 @@ def _mesh(spec: dict, region_tables: dict, geometry: GeometrySpec) -> MeshSpec:
                          *[(v, f"regions.{k}.mesh_size") for k, v in region_sizes.items()]]:
         if value is not None and value <= 0:
             raise InputError("must be positive", field=where)
+    for value, where in [(size, "mesh.size"),
+                         *[(v, f"regions.{k}.mesh_size") for k, v in region_sizes.items()]]:
+        if value is not None:
+            # only the upper end: a size too small is refused by the element-count estimate
+            checked_length(value, where, positive=False)
     curved = spec.get("curved", False)
     if not isinstance(curved, bool):
         raise InputError("must be true or false", field="mesh.curved")

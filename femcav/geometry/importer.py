@@ -15,14 +15,20 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
+from .curved_validity import straighten_folded as straighten
 from .mesh import TaggedMesh
 from .validate import check_mesh
 
 _TAG_KEYS = ("gmsh:physical", "medit:ref", "CellEntityIds", "cell_tags", "region", "tag")
 
 
-def read_mesh(path: str | Path, *, scale: float = 1.0) -> TaggedMesh:
-    """Read ``path``; coordinates are multiplied by ``scale`` to give metres."""
+def read_mesh(path: str | Path, *, scale: float = 1.0,
+              straighten_folded: bool = False) -> TaggedMesh:
+    """Read ``path``; coordinates are multiplied by ``scale`` to give metres.
+
+    ``straighten_folded`` (for the builders' own meshes) straightens curved elements folded
+    by gmsh's curving instead of refusing them (curved_validity.straighten_folded).
+    """
 
     path = Path(path)
     if not path.is_file():
@@ -72,12 +78,14 @@ def read_mesh(path: str | Path, *, scale: float = 1.0) -> TaggedMesh:
                          source=str(path))
     cells = renumber[cells]
     faces = renumber[faces]
+    if straighten_folded and cells.shape[1] == 10:
+        points = straighten(points, cells)
     keep = np.all(faces >= 0, axis=1)
     mesh = TaggedMesh(points=points[:, :3], tets=cells[:, :4], tet_region=tet_tags,
                       region_names=region_names, faces=faces[keep], face_tag=face_tags[keep],
                       wall_names=wall_names, source=str(path),
                       tets10=cells if cells.shape[1] == 10 else None)
-    check_mesh(mesh, unit_m=scale)   # before renumbering: messages follow the file's order
+    mesh = check_mesh(mesh, unit_m=scale)  # before renumbering: messages in the file's order
     return in_locality_order(mesh)
 
 

@@ -31,6 +31,7 @@ import numpy as np
 from ..case import case_from_data, case_model, read_case_data
 from ..errors import InputError
 from ..geometry.mesh import TaggedMesh
+from ..io import strict_json
 from ..io.atomic import staged_output
 from ..io.results import mode_rows
 from ..progress import SILENT, Progress
@@ -146,7 +147,7 @@ def save_point(folder: Path, index: int, point: PointResult) -> None:
                 "seconds": point.seconds, "region_names": m.region_names,
                 "wall_names": m.wall_names, "modes": point.rows}
     tmp = summary.with_suffix(".tmp.json")
-    tmp.write_text(json.dumps(document, indent=1) + "\n")
+    tmp.write_text(strict_json.dumps(document, indent=1))
     tmp.replace(summary)           # the summary last: it marks the point as done
 
 
@@ -236,7 +237,7 @@ def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
     results = [load_point(folder, i, values) for i, values in enumerate(points)]
     document = _tracked_document(data, path, spec, base, results, progress)
     with staged_output(folder) as files:
-        files.write_text("sweep.json", json.dumps(document, indent=1) + "\n")
+        files.write_text("sweep.json", strict_json.dumps(document, indent=1))
         files.write_text("sweep.csv", sweep_csv(document))
         from .chart import write_mode_chart
         files.write_with("mode_chart.png", lambda p: write_mode_chart(document, p),
