@@ -5,6 +5,7 @@ size, and curved elements whose midside nodes fold them over. Each is refused wi
 
 import json
 import math
+import re
 
 import meshio
 import numpy as np
@@ -114,3 +115,116 @@ def test_sheet_named_on_one_side_gets_its_kind_on_both(tmp_path):
     # 8 triangles on each side of the crack.
     assert len(below) == 8 and len(named) == 16
     assert np.allclose(mesh.points[named][:, :, 2], 10 * MM)
+
+
+@pytest.mark.parametrize("spoil, words", [
+    (lambda p: p.__setitem__((7, 1), np.nan), "1 of 90 nodes have a coordinate that is not a "
+                                              "finite number"),
+    (lambda p: p.__setitem__((3, 2), np.inf), "1 of 90 nodes have a coordinate that is not a "
+                                              "finite number"),
+    (lambda p: p.__imul__(1e300), "the mesh spans 2.5e+298 m"),   # 25 mm x 1e300, in metres
+])
+def test_coordinates_that_are_not_a_parts(tmp_path, capsys, spoil, words):
+    points, tets = grid_box((4, 2, 5))
+    assert len(points) == 90
+    spoil(points)
+    one_region(tmp_path / "part.msh", points, tets)
+    assert words in mesh_refused(tmp_path, capsys)
+
+
+@pytest.mark.parametrize("value", [np.nan, 1e300])
+def test_section_coordinates_that_are_not_a_parts(tmp_path, capsys, value):
+    # A 10 x 10 mm square section off the axis, two triangles; one coordinate spoiled.
+    points = np.array([[1.0, 0, 0], [11, 0, 0], [11, 10, 0], [1, 10, 0]])
+    points[2, 1] = value
+    write_msh(tmp_path / "part.msh", points, [("triangle", [[0, 1, 2], [0, 2, 3]], [1, 1])],
+              {"inside": (1, 2)})
+    case = tmp_path / "case.toml"
+    case.write_text('[geometry]\nmesh = "part.msh"\nmesh_unit = "mm"\n[regions.inside]\n'
+                    'eps_r = 1\n[solve]\nmodes = 1\nazimuthal_orders = [0]\n')
+    assert main(["solve", str(case), "-q"]) == 2
+    err = capsys.readouterr().err
+    assert len(err.strip().splitlines()) == 1 and "Traceback" not in err
+    assert err.startswith(f"femcav: error: {tmp_path / 'part.msh'}: ")
+    assert ("not a finite number" if np.isnan(value) else "the mesh spans") in err
+
+
+def quadratic_box():
+    """The grid box as 10-node tetrahedra with straight edges (midside nodes at the middle),
+    in meshio's node order: corners, then the edges 01, 12, 02, 03, 13, 23."""
+    points, tets = grid_box((4, 2, 5))
+    pairs = [(0, 1), (1, 2), (0, 2), (0, 3), (1, 3), (2, 3)]
+    edges = np.unique(np.sort(np.concatenate([tets[:, list(e)] for e in pairs]), axis=1),
+                      axis=0)
+    middle = {tuple(e): len(points) + k for k, e in enumerate(edges.tolist())}
+    points = np.vstack([points, points[edges].mean(axis=1)])
+    mids = np.array([[middle[tuple(sorted((t[a], t[b])))] for a, b in pairs]
+                     for t in tets.tolist()])
+    return points, np.hstack([tets, mids])
+
+
+def test_tangled_midside_node_is_refused(tmp_path, capsys):
+    from femcav.geometry import read_mesh
+
+    points, tets10 = quadratic_box()
+    write_msh(tmp_path / "straight.msh", points, [("tetra10", tets10, np.ones(len(tets10)))],
+              {"inside": (1, 3)})
+    read_mesh(tmp_path / "straight.msh", scale=MM)        # straight quadratic: accepted
+    # Move the midside node of one inner edge past the far side of the elements around it:
+    # a quadratic map whose midside node leaves the middle third of its edge's neighbourhood
+    # folds over (its Jacobian changes sign; common practice for quadratic elements).
+    inner = next(m for m in tets10[:, 4:].reshape(-1)
+                 if np.all((points[m] > 0) & (points[m] < [20, 10, 25])))
+    edge_direction = points[inner] - points[tets10[np.argwhere(tets10 == inner)[0][0], 0]]
+    moved = points.copy()
+    moved[inner] = points[inner] + 6.0 * np.cross(edge_direction, [0.3, 0.5, 0.8]) / max(
+        np.linalg.norm(np.cross(edge_direction, [0.3, 0.5, 0.8])), 1e-9)
+    write_msh(tmp_path / "part.msh", moved, [("tetra10", tets10, np.ones(len(tets10)))],
+              {"inside": (1, 3)})
+    err = mesh_refused(tmp_path, capsys)
+    users = np.count_nonzero(np.any(tets10 == inner, axis=1))
+    assert re.search(rf"(\d+) of {len(tets10)} tetrahedra \(in region 'inside'\) (is|are) "
+                     "curved so far", err)
+    count = int(re.search(r"(\d+) of", err).group(1))
+    assert 1 <= count <= users                 # only elements that use the moved node
+    assert "negative: folded over" in err and "down to -" in err
+    (where,) = points_in(err)
+    assert np.linalg.norm(where - moved[inner]) < 12.0   # within the elements around it
+
+
+def test_reader_errors_quote_nothing_of_the_file(tmp_path, capsys):
+    secret = "LARKSPUR-PRIVATE-7731"
+    (tmp_path / "part.msh").write_text(f"$MeshFormat\n2.2 0 8\n$EndMeshFormat\n$Nodes\n"
+                                       f"{secret} 1 2\n")
+    err = mesh_refused(tmp_path, capsys)
+    assert secret not in err and "not a valid mesh" in err
+    (tmp_path / "part.msh").write_text(f"{secret}\n")
+    err = mesh_refused(tmp_path, capsys)
+    assert secret not in err and "ANSYS" in err
+
+
+def strict(text: str):
+    def refuse(token):
+        raise ValueError(f"non-standard JSON token {token}")
+    return json.loads(text, parse_constant=refuse)
+
+
+def test_json_is_strict_even_with_non_finite_values(tmp_path):
+    from dataclasses import replace
+
+    import femcav
+    from femcav.io import strict_json
+    from femcav.io.results import to_json
+
+    assert strict(strict_json.dumps({"a": [float("nan"), np.float64("inf"), 1.5],
+                                     "b": {"c": -np.inf, "d": np.arange(2)}})) == {
+        "a": [None, None, 1.5], "b": {"c": None, "d": [0, 1]}}
+    points, tets = grid_box((4, 2, 5))
+    one_region(tmp_path / "part.msh", points, tets)
+    _, result, _ = femcav.run_case(write_case(tmp_path), out=tmp_path / "out")
+    first = result.modes[0]
+    broken = replace(result, modes=[replace(first, frequency_hz=float("nan"), checks=replace(
+        first.checks, residual=float("inf")))])
+    document = strict(to_json(broken, title="t", case=None))
+    assert document["modes"][0]["frequency_hz"] is None
+    assert document["modes"][0]["residual"] is None

@@ -127,7 +127,9 @@ def _read_with_meshio(path: Path):
 
     For an extension that several formats share, meshio tries each in turn, prints the
     failures to stdout and calls sys.exit when none fits; a gmsh file announces itself on its
-    first line, so we name the format instead.
+    first line, so we name the format instead. meshio's messages (and what it prints) may
+    quote lines of the file, which may be any file the user can read: our message names the
+    file and the kind of problem only.
     """
     import meshio
 
@@ -135,15 +137,31 @@ def _read_with_meshio(path: Path):
     if path.suffix.lower() == ".msh":
         with open(path, "rb") as handle:
             file_format = "gmsh" if handle.read(11) == b"$MeshFormat" else "ansys"
-    said = io.StringIO()
     try:
-        with contextlib.redirect_stdout(said), contextlib.redirect_stderr(said):
+        with contextlib.redirect_stdout(io.StringIO()), contextlib.redirect_stderr(io.StringIO()):
             return meshio.read(path, file_format=file_format)
     except (Exception, SystemExit) as exc:  # meshio raises many types for unreadable files
-        reason = " ".join(said.getvalue().split()) if isinstance(exc, SystemExit) else (
-            f"{type(exc).__name__}: {exc}")
-        detail = f" ({reason})" if reason else ""
-        raise InputError(f"meshio cannot read this file{detail}", source=str(path)) from None
+        raise InputError(_unreadable(path, file_format, exc), source=str(path)) from None
+
+
+def _unreadable(path: Path, file_format: str | None, exc: BaseException) -> str:
+    """What kind of problem meshio had, in our words (never its message)."""
+    import meshio
+
+    known = {ext for ext in meshio.extension_to_filetypes if path.name.lower().endswith(ext)}
+    if file_format is None and not known:
+        return (f"meshio knows no mesh format by the extension "
+                f"{path.suffix or '(none)'!r}; use gmsh .msh or another format meshio reads")
+    if isinstance(exc, MemoryError):
+        kind = "more data than memory holds"
+    elif isinstance(exc, UnicodeDecodeError):
+        kind = "bytes that are not text where text was expected"
+    else:
+        kind = "content that is not a valid mesh of that format (truncated or malformed)"
+    what = {"gmsh": "a gmsh .msh file",
+            "ansys": "an ANSYS .msh file (a gmsh file starts with $MeshFormat)"}.get(
+        file_format, f"a {path.suffix} file")
+    return f"meshio cannot read this file as {what}: {kind}"
 
 
 def group_names(raw, dims) -> dict[int, dict[int, str]]:
