@@ -17,7 +17,7 @@ from .errors import InputError
 from .expressions import Expression
 from .geometry import BUILDERS, build_part, builder_layout, read_mesh
 from .geometry.mesh import TaggedMesh
-from .geometry.params import parse_params
+from .geometry.params import checked_length, parse_params
 from .materials import VACUUM, Material
 from .metals import CONDUCTIVITY_S_PER_M
 from .model import Model, make_model
@@ -163,6 +163,7 @@ def _tolerances(spec: dict, geometry: GeometrySpec, symmetry: dict,
             raise InputError("a point's coordinate is named NAME[0], NAME[1] or NAME[2]; a "
                              "length by its name", field=f"tolerances.{name}")
         out[name] = schema.parse_value(raw, schema.TOLERANCES.each, f"tolerances.{name}")
+        checked_length(out[name], f"tolerances.{name}", positive=False)
     return out
 
 
@@ -249,6 +250,11 @@ def _mesh(spec: dict, region_tables: dict, geometry: GeometrySpec) -> MeshSpec:
     if values["per_wavelength"] is not None and values["max_frequency"] is None:
         raise InputError("needs max_frequency, the highest frequency of interest",
                          field="mesh.per_wavelength")
+    for key, size in [("mesh.size", values["size"]),
+                      *[(f"regions.{k}.mesh_size", v) for k, v in region_sizes.items()]]:
+        if size is not None:
+            # only the upper end: a size too small is refused by the element-count estimate
+            checked_length(size, key, positive=False)
     return MeshSpec(size=values["size"], max_frequency_hz=values["max_frequency"],
                     curved=values["curved"], per_wavelength=values["per_wavelength"],
                     edge_refinement=values["edge_refinement"], region_sizes=region_sizes)

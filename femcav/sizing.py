@@ -41,7 +41,10 @@ def max_refractive_index(material: Material, layout: Layout) -> float:
     return math.sqrt(max(eps, 1.0) * material.mu_r)
 
 
-def builder_sizing(case, layout: Layout) -> Sizing:
+def builder_sizing(case, layout: Layout, *, section: bool = False) -> Sizing:
+    """The sizes for ``layout``'s 3D mesh, or with ``section`` its meridional section; the
+    element budget keeps memory for the case's solve of that mesh (the 3D mesh of an
+    axisymmetric case is only meshed, never solved)."""
     spec = case.mesh
     size = spec.size
     region_sizes = dict(spec.region_sizes)
@@ -57,4 +60,6 @@ def builder_sizing(case, layout: Layout) -> Sizing:
     if size is None:
         size = DEFAULT_SIZE_FRACTION * layout.extent()
     return Sizing(size=size, region_sizes=region_sizes, edge_factor=spec.edge_refinement,
-                  curved=spec.curved)
+                  curved=spec.curved,
+                  solve_order=(case.solve.order if section == (case.solve.azimuthal_orders
+                                                               is not None) else None))

@@ -14,7 +14,7 @@ from .eigen import backends, selection
 from .eigen.complex_shift_invert import with_complex_frequencies
 from .eigen.factorization import describe, get_factorizer, library
 from .eigen.interface import STATIC_FRACTION, EigenRequest
-from .eigen.memory import format_bytes
+from .memory_room import format_bytes
 from .eigen.pardiso import TooLarge
 from .eigen.problem import EigenProblem
 from .errors import InputError

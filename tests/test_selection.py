@@ -11,7 +11,8 @@ from femcav.eigen import pardiso as pardiso_module
 from femcav.eigen import selection
 from femcav.eigen.factorization import nested_dissection
 from femcav.eigen.interface import EigenRequest
-from femcav.eigen.memory import available_bytes, format_bytes, superlu_factor_entries
+from femcav.eigen.memory import superlu_factor_entries
+from femcav.memory_room import available_bytes, format_bytes
 from femcav.errors import InputError
 from femcav.fem.assembly import assemble
 from femcav.fem.space import build_space

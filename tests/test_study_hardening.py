@@ -147,7 +147,7 @@ def test_points_from_an_older_femcav_are_solved_again(solved, tmp_path, capsys):
 def test_address_space_limit_bounds_the_free_memory():
     # ulimit -v of 1 GB above what the process already maps: at most that is free
     script = ("import resource\n"
-              "from femcav.eigen import memory\n"
+              "from femcav import memory_room as memory\n"
               "status = dict(l.split(':', 1) for l in open('/proc/self/status'))\n"
               "used = int(status['VmSize'].split()[0]) * 1024\n"
               "resource.setrlimit(resource.RLIMIT_AS, (used + 10**9, resource.RLIM_INFINITY))\n"
@@ -161,7 +161,7 @@ def test_address_space_limit_bounds_the_free_memory():
 
 @pytest.mark.parametrize("version", ["v1", "v2"])
 def test_control_group_limit_counts_with_its_parents(tmp_path, version):
-    from femcav.eigen.memory import cgroup_room
+    from femcav.memory_room import cgroup_room
     if version == "v2":
         proc, root, names = "0::/outer/inner\n", tmp_path, ("memory.max", "memory.current")
     else:
@@ -180,7 +180,7 @@ def test_control_group_limit_counts_with_its_parents(tmp_path, version):
 
 
 def test_workers_share_the_memory_and_jobs_are_capped(monkeypatch):
-    from femcav.eigen import memory
+    from femcav import memory_room as memory
     from femcav.study import workers
     monkeypatch.setattr(memory, "_sharing_processes", 1)
     monkeypatch.setattr(memory, "shared_room", lambda: 8e9)
@@ -198,7 +198,7 @@ def test_workers_share_the_memory_and_jobs_are_capped(monkeypatch):
 
 
 def test_a_worker_sees_its_share_of_the_memory():
-    from femcav.eigen import memory
+    from femcav import memory_room as memory
     from femcav.study.workers import worker_pool
     with worker_pool(3) as pool:
         share = pool.submit(memory.available_bytes).result(timeout=120)

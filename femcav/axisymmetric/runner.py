@@ -22,7 +22,7 @@ DEFAULT_SECTION_FRACTION = 0.025
 
 def section_sizing(case: Case):
     layout = builder_layout(case.geometry.builder, case.geometry.parameters)
-    sizing = builder_sizing(case, layout)
+    sizing = builder_sizing(case, layout, section=True)
     if case.mesh.size is None and case.mesh.max_frequency_hz is None:
         sizing = replace(sizing, size=DEFAULT_SECTION_FRACTION * layout.extent())
     return layout, sizing

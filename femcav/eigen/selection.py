@@ -12,8 +12,8 @@ from dataclasses import dataclass
 
 from ..errors import InputError
 from .interface import EigenRequest
-from .memory import (available_bytes, direct_peak_bytes, format_bytes, iterative_peak_bytes,
-                     share_note)
+from ..memory_room import available_bytes, format_bytes, share_note
+from .memory import direct_peak_bytes, iterative_peak_bytes
 
 METHODS = ("auto", "direct", "iterative")
 # With "auto", the lowest modes of problems this large go to the iterative backend when the

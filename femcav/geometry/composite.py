@@ -23,6 +23,7 @@ import numpy as np
 from .. import schema
 from ..errors import InputError
 from ..units import parse_quantity
+from .params import check_share, checked_length
 from .parts import Layout
 from .solids import Box, Cylinder
 
@@ -47,6 +48,7 @@ def parse(given: dict, where: str) -> dict:
     if not isinstance(entries, list) or not entries:
         raise InputError("a composite needs [[geometry.solids]] entries", field=f"{where}.solids")
     solids = [_solid(entry, f"{where}.solids[{i}]") for i, entry in enumerate(entries)]
+    _check_proportions(solids, f"{where}.solids")
     if not any(role == "space" for role, _, _ in solids):
         raise InputError('at least one solid needs role = "space"', field=f"{where}.solids")
     return {"solids": solids, "background": background}
@@ -77,10 +79,13 @@ def _solid(entry, where: str):
             values[key] = parse_quantity(raw, "length", field=f"{where}.{key}")
             if values[key] <= 0:
                 raise InputError("must be positive", field=f"{where}.{key}")
+            checked_length(values[key], f"{where}.{key}", positive=True)
             continue
         if not isinstance(raw, list) or len(raw) != 3:
             raise InputError("must be a list of three lengths", field=f"{where}.{key}")
-        values[key] = tuple(parse_quantity(v, "length", field=f"{where}.{key}[{i}]")
+        values[key] = tuple(checked_length(parse_quantity(v, "length",
+                                                          field=f"{where}.{key}[{i}]"),
+                                           f"{where}.{key}[{i}]", positive=key == "size")
                             for i, v in enumerate(raw))
     if shape == "box":
         if not all(s > 0 for s in values["size"]):
@@ -91,6 +96,16 @@ def _solid(entry, where: str):
             raise InputError("the axis must not be zero", field=f"{where}.axis")
         solid = Cylinder(values["base"], values["axis"], values["radius"])
     return role, name, solid
+
+
+def _check_proportions(solids, where: str) -> None:
+    """Every radius and side resolvable beside the largest extent of any solid."""
+    largest = max(float(np.max(s.bounds()[1] - s.bounds()[0])) for _, _, s in solids)
+    for i, (_, _, solid) in enumerate(solids):
+        sides = (("radius", solid.radius),) if isinstance(solid, Cylinder) else tuple(
+            (f"size[{k}]", v) for k, v in enumerate(solid.size))
+        for key, value in sides:
+            check_share(value, largest, f"{where}[{i}].{key}")
 
 
 def layout(solids, background) -> Layout:

@@ -15,14 +15,20 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
+from .curved_validity import straighten_folded as straighten
 from .mesh import TaggedMesh
 from .validate import check_mesh
 
 _TAG_KEYS = ("gmsh:physical", "medit:ref", "CellEntityIds", "cell_tags", "region", "tag")
 
 
-def read_mesh(path: str | Path, *, scale: float = 1.0) -> TaggedMesh:
-    """Read ``path``; coordinates are multiplied by ``scale`` to give metres."""
+def read_mesh(path: str | Path, *, scale: float = 1.0,
+              straighten_folded: bool = False) -> TaggedMesh:
+    """Read ``path``; coordinates are multiplied by ``scale`` to give metres.
+
+    ``straighten_folded`` (for the builders' own meshes) straightens curved elements folded
+    by gmsh's curving instead of refusing them (curved_validity.straighten_folded).
+    """
 
     path = Path(path)
     if not path.is_file():
@@ -72,12 +78,14 @@ def read_mesh(path: str | Path, *, scale: float = 1.0) -> TaggedMesh:
                          source=str(path))
     cells = renumber[cells]
     faces = renumber[faces]
+    if straighten_folded and cells.shape[1] == 10:
+        points = straighten(points, cells)
     keep = np.all(faces >= 0, axis=1)
     mesh = TaggedMesh(points=points[:, :3], tets=cells[:, :4], tet_region=tet_tags,
                       region_names=region_names, faces=faces[keep], face_tag=face_tags[keep],
                       wall_names=wall_names, source=str(path),
                       tets10=cells if cells.shape[1] == 10 else None)
-    check_mesh(mesh, unit_m=scale)   # before renumbering: messages follow the file's order
+    mesh = check_mesh(mesh, unit_m=scale)  # before renumbering: messages in the file's order
     return in_locality_order(mesh)
 
 
@@ -119,7 +127,9 @@ def _read_with_meshio(path: Path):
 
     For an extension that several formats share, meshio tries each in turn, prints the
     failures to stdout and calls sys.exit when none fits; a gmsh file announces itself on its
-    first line, so we name the format instead.
+    first line, so we name the format instead. meshio's messages (and what it prints) may
+    quote lines of the file, which may be any file the user can read: our message names the
+    file and the kind of problem only.
     """
     import meshio
 
@@ -127,15 +137,31 @@ def _read_with_meshio(path: Path):
     if path.suffix.lower() == ".msh":
         with open(path, "rb") as handle:
             file_format = "gmsh" if handle.read(11) == b"$MeshFormat" else "ansys"
-    said = io.StringIO()
     try:
-        with contextlib.redirect_stdout(said), contextlib.redirect_stderr(said):
+        with contextlib.redirect_stdout(io.StringIO()), contextlib.redirect_stderr(io.StringIO()):
             return meshio.read(path, file_format=file_format)
     except (Exception, SystemExit) as exc:  # meshio raises many types for unreadable files
-        reason = " ".join(said.getvalue().split()) if isinstance(exc, SystemExit) else (
-            f"{type(exc).__name__}: {exc}")
-        detail = f" ({reason})" if reason else ""
-        raise InputError(f"meshio cannot read this file{detail}", source=str(path)) from None
+        raise InputError(_unreadable(path, file_format, exc), source=str(path)) from None
+
+
+def _unreadable(path: Path, file_format: str | None, exc: BaseException) -> str:
+    """What kind of problem meshio had, in our words (never its message)."""
+    import meshio
+
+    known = {ext for ext in meshio.extension_to_filetypes if path.name.lower().endswith(ext)}
+    if file_format is None and not known:
+        return (f"meshio knows no mesh format by the extension "
+                f"{path.suffix or '(none)'!r}; use gmsh .msh or another format meshio reads")
+    if isinstance(exc, MemoryError):
+        kind = "more data than memory holds"
+    elif isinstance(exc, UnicodeDecodeError):
+        kind = "bytes that are not text where text was expected"
+    else:
+        kind = "content that is not a valid mesh of that format (truncated or malformed)"
+    what = {"gmsh": "a gmsh .msh file",
+            "ansys": "an ANSYS .msh file (a gmsh file starts with $MeshFormat)"}.get(
+        file_format, f"a {path.suffix} file")
+    return f"meshio cannot read this file as {what}: {kind}"
 
 
 def group_names(raw, dims) -> dict[int, dict[int, str]]:

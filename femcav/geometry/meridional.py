@@ -14,6 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
+from .validate import check_coordinates
 
 AXIS = "axis"
 
@@ -47,13 +48,16 @@ class MeridionalMesh:
         return (d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0]) / 2
 
 
-def checked_section(mesh: MeridionalMesh) -> MeridionalMesh:
+def checked_section(mesh: MeridionalMesh, unit_m: float = 1.0) -> MeridionalMesh:
     """The mesh with triangles turned counter-clockwise; InputError where it cannot be a
-    meridional section (points at r < 0, degenerate triangles, an axis edge off the axis)."""
-    size = mesh.bounding_size()
+    meridional section (coordinates not finite or not of a part's size, points at r < 0,
+    degenerate triangles, an axis edge off the axis). ``unit_m``: the file's unit, for the
+    messages."""
     if mesh.points.shape[1] != 2 or mesh.triangles.shape[1] != 3:
         raise InputError("a meridional mesh needs (r, z) points and 3-node triangles",
                          source=mesh.source)
+    check_coordinates(mesh.points, mesh.source, unit_m)
+    size = mesh.bounding_size()
     r = mesh.points[:, 0]
     if r.min() < -1e-9 * size:
         raise InputError(f"the section reaches r = {r.min():.3g} m < 0; a body of revolution "

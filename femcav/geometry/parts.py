@@ -18,6 +18,7 @@ import numpy as np
 
 from .gmsh_session import gmsh_model, write_and_read
 from .mesh import TaggedMesh
+from .mesh_budget import check_mesh_budget
 from .solids import Box, Solid
 
 AXES = "xyz"
@@ -51,6 +52,9 @@ class Sizing:
     region_sizes: dict[str, float] = field(default_factory=dict)
     edge_factor: float = 0.5   # size at metal edges relative to the local size (1 = off)
     curved: bool = False       # quadratic (10-node) tetrahedra that follow curved surfaces
+    # the element order the mesh will be solved at: the element budget (mesh_budget.py) then
+    # keeps memory for that solve; None: for meshing alone
+    solve_order: int | None = None
 
 
 def symmetry_wall_name(axis: str) -> str:
@@ -62,6 +66,7 @@ def mesh_layout(layout: Layout, sizing: Sizing, cuts: dict[str, float] | None = 
     """Mesh ``layout``; ``cuts`` maps an axis to a plane position: the model keeps the side at
     or above the plane, and the cut face becomes the wall ``symmetry_<axis>``."""
     cuts = cuts or {}
+    check_mesh_budget(layout, sizing, cuts)
     tol = 1e-7 * layout.extent()
     with gmsh_model(name) as gmsh:
         occ = gmsh.model.occ

@@ -17,6 +17,7 @@ import numpy as np
 from ..errors import InputError
 from .gmsh_session import gmsh_model
 from .meridional import AXIS, MeridionalMesh, checked_section
+from .mesh_budget import check_mesh_budget
 from .parts import Layout, Sizing, fragment_by_fills, region_size_fields, use_smallest
 from .solids import Cylinder
 
@@ -44,6 +45,7 @@ def axisymmetric_layout_check(layout: Layout) -> None:
 def mesh_section(layout: Layout, sizing: Sizing, name: str = "section") -> MeridionalMesh:
     """Mesh the meridional section of ``layout`` with triangles of ``sizing``'s sizes."""
     axisymmetric_layout_check(layout)
+    check_mesh_budget(layout, sizing, section=True)
     tol = 1e-7 * layout.extent()
 
     def add(occ, solid) -> int:

@@ -14,6 +14,7 @@ import numpy as np
 from ..errors import InputError
 from .importer import _name, _read_with_meshio, group_names, tagged_blocks
 from .meridional import AXIS, MeridionalMesh, checked_section
+from .validate import check_coordinates
 
 
 def read_section(path: str | Path, *, scale: float = 1.0) -> MeridionalMesh:
@@ -43,6 +44,7 @@ def read_section(path: str | Path, *, scale: float = 1.0) -> MeridionalMesh:
     cells = np.concatenate(triangles).astype(np.int64)
     tri_tags = np.concatenate(tri_tags)
     coords = np.asarray(raw.points, dtype=float) * scale
+    check_coordinates(coords[np.unique(cells)], str(path), scale)
     if coords.shape[1] == 3 and np.any(np.abs(coords[:, 2]) > 1e-9 * np.ptp(coords[:, :2])):
         raise InputError("the section must lie in the plane z = 0 (x is r, y is z)",
                          source=str(path))
@@ -78,7 +80,7 @@ def read_section(path: str | Path, *, scale: float = 1.0) -> MeridionalMesh:
                           region_names=region_names, edges=edges, edge_tag=edge_tags,
                           wall_names=wall_names, source=str(path),
                           triangles6=cells if cells.shape[1] == 6 else None)
-    return checked_section(mesh)
+    return checked_section(mesh, scale)
 
 
 def _boundary_edges(triangles: np.ndarray) -> np.ndarray:

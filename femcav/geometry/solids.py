@@ -23,6 +23,10 @@ class Box:
     def volume(self) -> float:
         return float(np.prod(self.size))
 
+    def contains(self, p: np.ndarray) -> np.ndarray:
+        lo, hi = self.bounds()
+        return np.all((p >= lo) & (p <= hi), axis=1)
+
     def on_surface(self, p: np.ndarray, tol: float) -> np.ndarray:
         lo, hi = np.asarray(self.corner), np.asarray(self.corner) + np.asarray(self.size)
         inside = np.all((p >= lo - tol) & (p <= hi + tol), axis=1)
@@ -52,6 +56,10 @@ class Cylinder:
         along = (p - np.asarray(self.base)) @ (axis / length)
         radial = np.linalg.norm((p - np.asarray(self.base)) - np.outer(along, axis / length), axis=1)
         return along, radial, length
+
+    def contains(self, p: np.ndarray) -> np.ndarray:
+        along, radial, length = self._local(p)
+        return (along >= 0) & (along <= length) & (radial <= self.radius)
 
     def on_surface(self, p: np.ndarray, tol: float) -> np.ndarray:
         along, radial, length = self._local(p)

@@ -8,13 +8,19 @@ of the mesh file, because that is where the user will look for the bad element.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
 from ..errors import InputError
 from ..units import UNITS
+from .curved_validity import CURVED_RATIO, jacobian_ratios, worst_point
+from .inner_faces import FACES as _FACES
+from .inner_faces import inner_faces
 from .mesh import TaggedMesh
+from .params import MAX_LENGTH, MIN_LENGTH
 
 # A tetrahedron is degenerate when 6√2|V| / L³ (L its longest edge; the ratio is 1 for the
 # regular tetrahedron) is below this. Flattening a tetrahedron to a height h ≪ L brings the
@@ -28,20 +34,38 @@ from .mesh import TaggedMesh
 # it; it is then reported as inverted if rounding tipped it over, or not at all.
 DEGENERATE_RATIO = 1e-10
 
-_FACES = np.array([[1, 2, 3], [0, 2, 3], [0, 1, 3], [0, 1, 2]])
 _EDGES = np.array([[0, 1], [0, 2], [0, 3], [1, 2], [1, 3], [2, 3]])
 _LISTED_PIECES = 4
 
 
-def check_mesh(mesh: TaggedMesh, *, unit_m: float = 1.0) -> None:
-    """Raise InputError (source: the mesh file) for the first problem found.
+def check_mesh(mesh: TaggedMesh, *, unit_m: float = 1.0) -> TaggedMesh:
+    """Raise InputError (source: the mesh file) for the first problem found; return the
+    mesh with both faces of every named sheet carrying its wall name.
 
     ``unit_m`` is the length unit of the file in metres, used only to print coordinates.
     """
+    check_coordinates(mesh.points, mesh.source, unit_m)
     where = _Locator(mesh, unit_m)
     _check_regions(mesh, where)
     _check_shapes(mesh, where)
-    _check_faces(mesh, where)
+    _check_curved(mesh, where)
+    return _check_faces(mesh, where)
+
+
+def check_coordinates(points: np.ndarray, source: str, unit_m: float) -> None:
+    """Refuse nodes that are not finite numbers, and a part whose size is out of the range
+    femcav takes (params.MIN_LENGTH to MAX_LENGTH): volumes, element matrices and the
+    solver's shift would overflow, underflow or lose their digits long before an answer."""
+    bad = ~np.all(np.isfinite(points), axis=1)
+    if bad.any():
+        raise InputError(f"{np.count_nonzero(bad)} of {len(points)} nodes have a coordinate "
+                         "that is not a finite number (NaN or infinity)", source=source)
+    extent = float(np.max(np.ptp(points, axis=0))) if len(points) else 0.0
+    if not MIN_LENGTH <= extent <= MAX_LENGTH:
+        raise InputError(f"the mesh spans {extent:.3g} m ({extent / unit_m:.3g} in the file's "
+                         f"unit of {unit_m:g} m); femcav takes parts from {MIN_LENGTH:g} m to "
+                         f"{MAX_LENGTH:g} m across: check the coordinates and mesh_unit",
+                         source=source)
 
 
 def _check_regions(mesh: TaggedMesh, where: _Locator) -> None:
@@ -81,6 +105,24 @@ def _check_shapes(mesh: TaggedMesh, where: _Locator) -> None:
             f"the first is at {where.point(minority)}")
 
 
+def _check_curved(mesh: TaggedMesh, where: _Locator) -> None:
+    """Curved elements folded over (or nearly) by their midside nodes."""
+    if mesh.tets10 is None:
+        return
+    ratio = jacobian_ratios(mesh.points, mesh.tets10)
+    bad = ratio < CURVED_RATIO
+    if bad.any():
+        worst = int(np.argmin(ratio))
+        at = worst_point(mesh.points, mesh.tets10[worst]) / where.unit_m + 0.0
+        raise where.error(
+            f"{where.count(bad)} {where.regions(bad)} {_plural(bad, 'is', 'are')} curved so far "
+            "that the Jacobian of the element's map falls below "
+            f"{CURVED_RATIO:g} of its straight element's (down to {ratio[worst]:.3g}; "
+            "negative: folded over, a midside node on the wrong side), the worst at "
+            f"(x, y, z) = ({', '.join(f'{c:.4g}' for c in at)}) {where.unit}; check the "
+            "midside nodes there, or refine the mesh")
+
+
 def _check_faces(mesh: TaggedMesh, where: _Locator) -> None:
     """Overlapping elements and pieces that share no face, from one sort of all faces."""
     faces = _sorted_rows(mesh.tets[:, _FACES].reshape(-1, 3))
@@ -98,6 +140,7 @@ def _check_faces(mesh: TaggedMesh, where: _Locator) -> None:
             f"{len(shared)} {_plural(len(shared), 'triangle is a face', 'triangles are faces')} "
             "of more than two tetrahedra (overlapping or duplicated elements); the first is in "
             f"the tetrahedron at {where.point(owner)}")
+    sheets = _check_inner_faces(mesh, where, order[~(repeat | np.r_[repeat[1:], False])])
     second = np.flatnonzero(repeat)
     a, b = order[second - 1] // 4, order[second] // 4
     graph = sp.coo_matrix((np.ones(a.size), (a, b)), shape=(mesh.n_tets, mesh.n_tets))
@@ -113,6 +156,29 @@ def _check_faces(mesh: TaggedMesh, where: _Locator) -> None:
             f"{_sizes(sizes[by_size])} tetrahedra; the smaller "
             f"{_plural(len(small), 'piece is', 'pieces are')} at {points}{more}; "
             "one case file models one connected cavity")
+    return sheets
+
+
+def _check_inner_faces(mesh: TaggedMesh, where: _Locator, once: np.ndarray) -> TaggedMesh:
+    """Unnamed boundary faces with mesh volume beyond them would be PEC sheets nobody drew.
+    A named sheet is a thin metal (or other) wall: the face across from each named face gets
+    its name too, so that both sides of the sheet carry the wall's kind."""
+    found = inner_faces(mesh, once)
+    bad = found.faces[~found.named]
+    if len(bad):
+        corners = mesh.points[bad.reshape(-1)]
+        raise where.error(
+            f"{len(bad)} boundary {_plural(len(bad), 'triangle has', 'triangles have')} mesh "
+            "volume on both sides (a crack: nodes duplicated along an interface, or meshes "
+            "that do not match across it) and no wall name, within "
+            f"{where.box(corners)}; unnamed, such faces would be a metal sheet: merge the "
+            "nodes, or to keep the sheet on purpose name its faces as a wall (a physical "
+            "surface group)")
+    twins = found.twin_tag >= 0
+    if not twins.any():
+        return mesh
+    return replace(mesh, faces=np.vstack([mesh.faces, found.faces[twins]]),
+                   face_tag=np.concatenate([mesh.face_tag, found.twin_tag[twins]]))
 
 
 def _sorted_rows(triples: np.ndarray) -> np.ndarray:
@@ -156,6 +222,12 @@ class _Locator:
         ids = np.unique(self.mesh.tet_region[bad])
         names = [self.region_of.get(int(i), str(i)) for i in ids]
         return f"(in {_plural(len(names), 'region', 'regions')} {_quoted(names)})"
+
+    def box(self, points: np.ndarray) -> str:
+        """The bounding box of ``points`` (metres) in the file's unit."""
+        lo, hi = (points.min(axis=0) / self.unit_m + 0.0, points.max(axis=0) / self.unit_m + 0.0)
+        return (f"(x, y, z) = ({', '.join(f'{c:.4g}' for c in lo)}) to "
+                f"({', '.join(f'{c:.4g}' for c in hi)}) {self.unit}")
 
     def point(self, bad: np.ndarray) -> str:
         """The centroid of the first tetrahedron in ``bad``: a point inside it."""

@@ -25,8 +25,8 @@ from __future__ import annotations
 
 import csv
 import io
-import json
 
+from . import strict_json
 from ..post import checks
 from ..solver import SolveResult
 from ..units import format_frequency
@@ -111,7 +111,7 @@ def to_json(result: SolveResult, *, title: str, case: str | None,
                                     "element": "triangles of the meridional section"}
     if result.accuracy is not None:
         document["accuracy"] = result.accuracy
-    return json.dumps(document, indent=2) + "\n"
+    return strict_json.dumps(document, indent=2)
 
 
 def weyl_summary(result) -> dict:

@@ -24,12 +24,12 @@ across the field lines).
 
 from __future__ import annotations
 
-import json
 import re
 from dataclasses import dataclass, replace
 from pathlib import Path
 
 from ..errors import InputError
+from ..io import strict_json
 from ..io.atomic import staged_output
 from ..post.sensitivity import material_sensitivities
 from ..progress import SILENT, Progress
@@ -145,7 +145,7 @@ def run_extract(path: str | Path, *, out: str | Path | None = None,
                              "loaded_frequency_hz": spec.loaded_hz, "loaded_q": spec.loaded_q}}
     folder = Path(out) if out is not None else path.parent / f"{path.stem}-extract"
     with staged_output(folder) as files:
-        files.write_text("extract.json", json.dumps(document, indent=1) + "\n")
+        files.write_text("extract.json", strict_json.dumps(document, indent=1))
     return document, folder
 
 

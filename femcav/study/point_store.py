@@ -17,6 +17,7 @@ from pathlib import Path
 import numpy as np
 
 from ..geometry.mesh import TaggedMesh
+from ..io import strict_json
 from ..io.atomic import staged_output
 
 
@@ -59,7 +60,7 @@ def save_point(folder: Path, index: int, point: PointResult) -> None:
             p, points=m.points, tets=m.tets, tet_region=m.tet_region, faces=m.faces,
             face_tag=m.face_tag, dofs=point.dofs, fingerprint=np.array(point.fingerprint),
             **extra), suffix=".npz")
-        files.write_text(summary.name, json.dumps(document, indent=1) + "\n")
+        files.write_text(summary.name, strict_json.dumps(document, indent=1))
 
 
 def load_point(folder: Path, index: int, fingerprint: str) -> tuple[PointResult | None, str]:

@@ -23,7 +23,6 @@ parameter, one curve per track; Q on a second panel when the case has losses).
 
 from __future__ import annotations
 
-import json
 import time
 from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass, replace
@@ -33,6 +32,7 @@ import numpy as np
 
 from ..case import case_from_data, case_model, read_case_data
 from ..errors import InputError, ResourceError
+from ..io import strict_json
 from ..io.atomic import staged_output
 from ..io.results import mode_rows
 from ..progress import SILENT, Progress
@@ -221,7 +221,7 @@ def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
         results = [done[i] if i in done else read_point(folder, i) for i in range(len(points))]
         document = _tracked_document(data, path, spec, base, results, progress)
         with staged_output(folder) as files:
-            files.write_text("sweep.json", json.dumps(document, indent=1) + "\n")
+            files.write_text("sweep.json", strict_json.dumps(document, indent=1))
             files.write_text("sweep.csv", sweep_csv(document))
             from .chart import write_mode_chart
             files.write_with("mode_chart.png", lambda p: write_mode_chart(document, p),

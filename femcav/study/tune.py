@@ -12,7 +12,6 @@ final frequency carries its discretisation error.
 
 from __future__ import annotations
 
-import json
 import math
 import time
 from dataclasses import dataclass, replace
@@ -21,6 +20,7 @@ from pathlib import Path
 from scipy.optimize import brentq
 
 from ..errors import InputError
+from ..io import strict_json
 from ..io.atomic import staged_output
 from ..progress import SILENT, Progress
 from ..schema import TUNE, check_table, read
@@ -173,7 +173,7 @@ def run_tune(path: str | Path, *, out: str | Path | None = None,
                                 for v, r, j in runs.points], **final}
     folder = Path(out) if out is not None else path.parent / f"{path.stem}-tune"
     with staged_output(folder) as files:
-        files.write_text("tune.json", json.dumps(document, indent=1) + "\n")
+        files.write_text("tune.json", strict_json.dumps(document, indent=1))
     return document, folder
 
 

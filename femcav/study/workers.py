@@ -2,7 +2,7 @@
 
 How many: a request for ``--jobs N`` is lowered to the CPU cores this process may run on
 (os.sched_getaffinity) and to what fits in memory: the free memory shared by all the
-workers (femcav.eigen.memory.shared_room: the machine's, and the control group's limit)
+workers (femcav.memory_room.shared_room: the machine's, and the control group's limit)
 over what one worker needs (its interpreter and libraries, WORKER_BASE_BYTES, plus the
 solver's own peak estimate for a point, with a margin since neighbouring points differ).
 Each worker then guards its solves with its share of that memory.
@@ -25,7 +25,7 @@ import threading
 import time
 from concurrent.futures import ProcessPoolExecutor
 
-from ..eigen import memory
+from .. import memory_room as memory
 
 # Resident size of a worker once femcav, scipy and gmsh are imported: 134 MB measured
 # (Python 3.11, ru_maxrss after the imports); rounded up for the mesh and assembly.
