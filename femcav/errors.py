@@ -1,7 +1,10 @@
-"""The one exception type for user mistakes.
+"""The exceptions the command line turns into one line and an exit status.
 
 Anything the user can fix (a wrong key, a bad unit, a mesh that does not match the case) is
 raised as :class:`InputError`; the command line prints it as one line and exits with status 2.
+A result folder that ``femcav show`` cannot use is :class:`BrokenResultFolder`. The
+environment's failures (OSError: read-only or full disk, no permission; MemoryError;
+Ctrl-C) are caught at the command line's edge (femcav.cli, statuses in femcav.exit_codes).
 Every other exception is a bug in femcav and keeps its traceback.
 """
 
@@ -24,3 +27,16 @@ class InputError(Exception):
     def __str__(self) -> str:
         where = ": ".join(part for part in (self.source, self.field) if part)
         return f"{where}: {self.message}" if where else self.message
+
+
+class BrokenResultFolder(Exception):
+    """A result folder that femcav show cannot use: files missing, garbled or of another
+    kind. The command line prints it as one line and exits with its own status."""
+
+    def __init__(self, folder, message: str):
+        super().__init__(message)
+        self.folder = str(folder)
+        self.message = message
+
+    def __str__(self) -> str:
+        return f"{self.folder}: {self.message}"

@@ -171,3 +171,30 @@ def _edge_bases(space: OrderSpace, facets: np.ndarray):
         inward = mesh.p[:, mesh.t[:, cells[chosen]]].mean(axis=1) - ends.mean(axis=1)
         normal *= np.where(np.einsum("itq,it->tq", normal, inward)[:, :1] > 0, -1.0, 1.0)
         yield eb, nb, normal, speed * w[None, :]
+
+
+def cell_energy(space: OrderSpace, dofs, k0_squared: float) -> np.ndarray:
+    """Electric plus magnetic energy of a mode per triangle of the section (relative scale,
+    with the weight r): ε_r (r |e_t|² + u²/r) plus μ_r⁻¹ (|∇u + m e_t|²/r + r |curl e_t|²)
+    over k0²."""
+    e_dofs, u_dofs = _split(space, dofs)
+    e = space.edge_basis.interpolate(e_dofs)
+    u = space.node_basis.interpolate(u_dofs)
+    r = space.edge_basis.mapping.F(space.edge_basis.X)[0]
+    meridional = np.asarray(u.grad) + space.m * np.asarray(e)
+    electric = space.eps * (r * np.sum(np.asarray(e) ** 2, axis=0)
+                            + np.asarray(u) ** 2 / r)
+    magnetic = space.inv_mu * (np.sum(meridional**2, axis=0) / r + r * np.asarray(e.curl) ** 2)
+    density = electric + magnetic / max(k0_squared, np.finfo(float).tiny)
+    return np.sum(density * space.edge_basis.dx, axis=1)
+
+
+def cell_scales(space: OrderSpace) -> tuple[np.ndarray, np.ndarray]:
+    """Per triangle of the section: mean edge length (m) and sqrt(ε_r μ_r) (mean over its
+    quadrature points). The azimuthal variation e^{jmφ} is exact, so only the section's
+    element size counts."""
+    from ..post.resolution import mean_edge_length
+
+    section = space.model.section
+    h = mean_edge_length(section.points, section.triangles)
+    return h, np.sqrt(np.mean(space.eps / space.inv_mu, axis=1))

@@ -31,7 +31,12 @@ import numpy as np
 from ..case import case_from_data, case_model, read_case_data
 from ..errors import InputError
 from ..geometry.mesh import TaggedMesh
-from ..io.atomic import staged_output
+from ..io.atomic import (
+    check_output_folder,
+    remove_stale_temporaries,
+    staged_output,
+    write_file_atomically,
+)
 from ..io.results import mode_rows
 from ..progress import SILENT, Progress
 from .parameters import Axis, format_value, parse_axis, with_value
@@ -138,16 +143,15 @@ def save_point(folder: Path, index: int, point: PointResult) -> None:
     summary.parent.mkdir(parents=True, exist_ok=True)
     m = point.mesh
     extra = {} if m.tets10 is None else {"tets10": m.tets10}
-    tmp = arrays.with_suffix(".tmp.npz")
-    np.savez_compressed(tmp, points=m.points, tets=m.tets, tet_region=m.tet_region,
-                        faces=m.faces, face_tag=m.face_tag, dofs=point.dofs, **extra)
-    tmp.replace(arrays)
+    write_file_atomically(arrays, lambda tmp: np.savez_compressed(
+        tmp, points=m.points, tets=m.tets, tet_region=m.tet_region, faces=m.faces,
+        face_tag=m.face_tag, dofs=point.dofs, **extra), suffix=".npz")
     document = {"values": list(point.values), "form": point.form, "order": point.order,
                 "seconds": point.seconds, "region_names": m.region_names,
                 "wall_names": m.wall_names, "modes": point.rows}
-    tmp = summary.with_suffix(".tmp.json")
-    tmp.write_text(json.dumps(document, indent=1) + "\n")
-    tmp.replace(summary)           # the summary last: it marks the point as done
+    # the summary last: it marks the point as done
+    write_file_atomically(summary, lambda tmp: tmp.write_text(json.dumps(document, indent=1)
+                                                              + "\n"))
 
 
 def load_point(folder: Path, index: int, values) -> PointResult | None:
@@ -166,6 +170,23 @@ def load_point(folder: Path, index: int, values) -> PointResult | None:
     return PointResult(values=tuple(values), rows=document["modes"], mesh=mesh, dofs=dofs,
                        form=document["form"], order=document["order"],
                        seconds=document["seconds"])
+
+
+def _ignore_ctrl_c() -> None:
+    """In a worker: Ctrl-C is the parent's to handle (it stops the workers); a worker
+    that took it too would print its own traceback."""
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+
+def _stop_workers(pool: ProcessPoolExecutor) -> None:
+    """Cancel the points not started and end the workers now (the executor has no public
+    way to end a running task); their temporaries are removed by the next run."""
+    processes = list((getattr(pool, "_processes", None) or {}).values())
+    pool.shutdown(wait=False, cancel_futures=True)
+    for process in processes:
+        process.terminate()
 
 
 def _solve_and_save(args) -> int:
@@ -201,7 +222,9 @@ def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
     folder), track the modes, and write sweep.json, sweep.csv and mode_chart.png."""
     path = Path(path)
     data, spec, base = load_study(path, parse_sweep)
-    folder = Path(out) if out is not None else path.parent / f"{path.stem}-sweep"
+    folder = check_output_folder(Path(out) if out is not None
+                                 else path.parent / f"{path.stem}-sweep")
+    remove_stale_temporaries(folder / "points")
     points = spec.points()
     if not isinstance(jobs, int) or jobs < 1:
         raise InputError(f"must be a whole number >= 1, got {jobs!r}", field="--jobs")
@@ -217,11 +240,15 @@ def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
             tasks = [(data, path, spec.axes, points[i], folder, i) for i in todo]
             # "spawn", not fork: a forked child inherits the locks of the parent's BLAS,
             # OpenMP and gmsh threads and can hang on them (seen in a long test session)
-            with ProcessPoolExecutor(max_workers=jobs,
+            with ProcessPoolExecutor(max_workers=jobs, initializer=_ignore_ctrl_c,
                                      mp_context=multiprocessing.get_context("spawn")) as pool:
-                for k, index in enumerate(pool.map(_solve_and_save, tasks), start=1):
-                    progress.step(f"point {index + 1} of {len(points)} solved "
-                                  f"({k} of {len(todo)}, {time.perf_counter() - t0:.1f} s)")
+                try:
+                    for k, index in enumerate(pool.map(_solve_and_save, tasks), start=1):
+                        progress.step(f"point {index + 1} of {len(points)} solved "
+                                      f"({k} of {len(todo)}, {time.perf_counter() - t0:.1f} s)")
+                except KeyboardInterrupt:
+                    _stop_workers(pool)
+                    raise
         else:
             for k, index in enumerate(todo, start=1):
                 label = ", ".join(f"{a.path} = {format_value(a, v)}"
@@ -235,7 +262,7 @@ def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
         raise exc.located(source=str(path)) from None
     results = [load_point(folder, i, values) for i, values in enumerate(points)]
     document = _tracked_document(data, path, spec, base, results, progress)
-    with staged_output(folder) as files:
+    with staged_output(folder, kind="sweep") as files:
         files.write_text("sweep.json", json.dumps(document, indent=1) + "\n")
         files.write_text("sweep.csv", sweep_csv(document))
         from .chart import write_mode_chart

@@ -21,7 +21,7 @@ from pathlib import Path
 from scipy.optimize import brentq
 
 from ..errors import InputError
-from ..io.atomic import staged_output
+from ..io.atomic import check_output_folder, staged_output
 from ..progress import SILENT, Progress
 from ..units import format_frequency, parse_quantity
 from .parameters import format_value, parameter_kind, with_value
@@ -157,6 +157,8 @@ def run_tune(path: str | Path, *, out: str | Path | None = None,
              progress: Progress = SILENT) -> tuple[dict, Path]:
     path = Path(path)
     data, spec, base = load_study(path, parse_tune)
+    folder = check_output_folder(Path(out) if out is not None
+                                 else path.parent / f"{path.stem}-tune")
     try:
         reference = _reference_value(data, spec, base)
         runs = _Evaluations(data, path, spec, progress)
@@ -183,8 +185,7 @@ def run_tune(path: str | Path, *, out: str | Path | None = None,
                 "bracket": list(spec.bracket), "iterations": iterations,
                 "evaluations": [{"value": v, "frequency_hz": r.modes[j].frequency_hz}
                                 for v, r, j in runs.points], **final}
-    folder = Path(out) if out is not None else path.parent / f"{path.stem}-tune"
-    with staged_output(folder) as files:
+    with staged_output(folder, kind="tune") as files:
         files.write_text("tune.json", json.dumps(document, indent=1) + "\n")
     return document, folder
 
