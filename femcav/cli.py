@@ -108,8 +108,8 @@ def main(argv: list[str] | None = None) -> int:
     except BrokenResultFolder as exc:
         return _fail(str(exc), exit_codes.BROKEN_RESULT_FOLDER)
     except KeyboardInterrupt:
-        return _fail("interrupted (Ctrl-C); no result files written, temporary files "
-                     "removed", exit_codes.INTERRUPTED)
+        return _fail("interrupted (Ctrl-C); unfinished files removed",
+                     exit_codes.INTERRUPTED)
     except MemoryError:
         return _fail("out of memory; use a coarser mesh, symmetry planes, a lower element "
                      "order or [solve] method = \"iterative\"", exit_codes.OUT_OF_MEMORY)

@@ -89,3 +89,13 @@ def solved_folder(where: Path, case_text: str, *options: str) -> Path:
     case.write_text(case_text)
     assert main(["solve", str(case), "--out", str(where / "out"), "-q", *options]) == 0
     return where / "out"
+
+
+def box_case(size: str = "4 mm", modes: int = 2, extra: str = "",
+             dims: tuple[str, str, str] = ("20 mm", "10 mm", "25 mm")) -> str:
+    """The text of a case file for an empty box (width, height, length ``dims``), mesh
+    ``size``, ``modes`` modes, with ``extra`` tables appended."""
+    width, height, length = dims
+    return (f'[geometry]\nbuilder = "box"\nwidth = "{width}"\nheight = "{height}"\n'
+            f'length = "{length}"\n[mesh]\nsize = "{size}"\n[solve]\nmodes = {modes}\n'
+            + extra)

@@ -8,26 +8,16 @@ import pytest
 from scipy.constants import c as C0
 from scipy.special import jn_zeros
 
+from conftest import box_case
 from femcav import Material, make_model, solve_model
 from femcav.analytic.box import lowest_box_frequencies
 from femcav.cli import main
 from femcav.geometry import build_part
-from femcav.post.resolution import MIN_POINTS_PER_WAVELENGTH, mode_resolution
 
 A, B, D = 0.02286, 0.01016, 0.030     # a WR-90 section 30 mm long
 
-BOX_CASE = f"""
-title = "coarse box"
-[geometry]
-builder = "box"
-width = "{A * 1e3} mm"
-height = "{B * 1e3} mm"
-length = "{D * 1e3} mm"
-[mesh]
-size = "4 mm"
-[solve]
-modes = 60
-"""
+BOX_CASE = 'title = "coarse box"\n' + box_case(
+    "4 mm", 60, dims=(f"{A * 1e3} mm", f"{B * 1e3} mm", f"{D * 1e3} mm"))
 
 
 @pytest.fixture(scope="module")
@@ -56,6 +46,8 @@ def test_resolved_modes_are_close_and_the_others_flagged(coarse_box_modes):
 def test_power_mean_counts_where_the_energy_is():
     import numpy as np
 
+    from femcav.post.resolution import mode_resolution
+
     # two elements: 1 mm where all the energy is, 10 mm where none is (10 GHz, vacuum,
     # λ = 30 mm): the coarse element does not count
     h, n = np.array([1e-3, 10e-3]), np.ones(2)
@@ -72,6 +64,8 @@ def test_power_mean_counts_where_the_energy_is():
 
 
 def test_cli_flags_unresolved_modes_everywhere(tmp_path, capsys):
+    from femcav.post.resolution import MIN_POINTS_PER_WAVELENGTH
+
     case = tmp_path / "case.toml"
     case.write_text(BOX_CASE)
     out = tmp_path / "out"

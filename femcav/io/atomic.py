@@ -26,11 +26,12 @@ from pathlib import Path
 from typing import Callable
 
 MANIFEST = ".femcav-files.json"
-# Temporaries: .NAME.PID.RANDOM.partial[.EXT]; the process id tells a live run's from a
-# killed one's.
-_PARTIAL = re.compile(r"^\..+\.(\d+)\.[^.]+\.partial(\.[A-Za-z0-9]+)?$")
-# Temporaries without a process id (written before it was in the name) count as stale after
-# this long.
+# Temporaries: .NAME.PID.RANDOM.partial[.EXT] (RANDOM: mkstemp's 8 characters); the
+# process id tells a live run's from a killed one's.
+_PARTIAL = re.compile(r"^\..+\.(\d+)\.[A-Za-z0-9_]{8}\.partial(\.[A-Za-z0-9]+)?$")
+# Temporaries of earlier femcav versions, without the process id, count as stale after this
+# long.
+_OLD_PARTIAL = re.compile(r"^\..+\.[A-Za-z0-9_]{8}\.partial(\.[A-Za-z0-9]+)?$")
 _OLD_PARTIAL_S = 3600.0
 _active: set[Path] = set()      # this process's temporaries in use
 
@@ -80,11 +81,13 @@ def remove_stale_temporaries(folder: Path) -> list[Path]:
         match = _PARTIAL.match(path.name)
         if match:
             stale = not _process_alive(int(match.group(1)))
-        else:
+        elif _OLD_PARTIAL.match(path.name):
             try:
                 stale = time.time() - path.stat().st_mtime > _OLD_PARTIAL_S
             except OSError:
                 continue
+        else:            # not a name femcav makes: someone else's file
+            continue
         if stale:
             path.unlink(missing_ok=True)
             removed.append(path)

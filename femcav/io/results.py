@@ -2,14 +2,16 @@
 
 modes.json is a stable, documented format (README, "Output files"): top-level keys
 ``format``, ``title``, ``case``, ``form``, ``order``, ``dofs``, ``elements``, ``request``,
-``static_fields_dropped``, ``checks_passed``, ``limits``, ``timings_s``, ``factorization`` and
-``modes``; each mode
-has ``index``, ``frequency_hz``, ``k0_squared_per_m2``, ``residual``, ``divergence``,
-``orthogonality``, ``passed``, ``error_estimate_hz`` (null unless a mesh sequence was
+``modes_returned``, ``static_fields_dropped``, ``checks_passed``, ``modes_resolved``,
+``min_points_per_wavelength``, ``limits``, ``timings_s``, ``factorization`` and ``modes``;
+each mode has ``index``, ``frequency_hz``, ``k0_squared_per_m2``, ``residual``,
+``divergence``, ``orthogonality``, ``passed``, ``points_per_wavelength`` and ``resolved``
+(post.resolution), ``loss_warnings`` (post.loss_validity), ``error_estimate_hz`` (null unless a mesh sequence was
 solved; then also ``extrapolated_hz``), ``q_wall``, ``q_dielectric``, ``q_total`` (null without such
 loss), ``wall_loss_share``, ``region_loss_share`` (name -> fraction of that loss),
 ``filling_factor`` (region -> share of the electric energy), with ``complex_frequency_hz`` and
-``q_dielectric_complex`` after a complex check, and ``symmetry`` (the class label, e.g. "x:PMC y:PEC")
+``q_dielectric_complex`` after a complex check (null for a mode no complex eigenvalue was
+paired with), and ``symmetry`` (the class label, e.g. "x:PMC y:PEC")
 when the model was cut by symmetry planes; then the top level has ``symmetry_classes``.
 A mode of the axisymmetric solver also has ``azimuthal_order``, ``field_class`` (TE-like,
 TM-like, TEM-like, hybrid) and ``multiplicity`` (2 for m >= 1: the cos mφ and sin mφ pair); then the

@@ -33,7 +33,7 @@ COMPLEX_DISAGREEMENT = 0.1
 
 
 def loss_warnings(frequency_hz: float, losses, walls: dict) -> list[str]:
-    """Plain sentences on the Q factors of one mode that the perturbation formulas do not
+    """Short phrases on the Q factors of one mode that the perturbation formulas do not
     support; [] when they are all within their validity."""
     if losses is None:
         return []
@@ -49,35 +49,32 @@ def loss_warnings(frequency_hz: float, losses, walls: dict) -> list[str]:
                 omega * mu_0)
             delta = skin_depth(omega, wall.conductivity)
             if delta > SKIN_DEPTH_SHARE * length:
-                out.append(f"wall {name}: skin depth {_length(delta)} is not small against "
-                           f"the mode's volume-to-surface length {_length(length)}; the "
-                           "perturbation estimate of Q_wall is not valid here (it needs a "
-                           "good conductor)")
-    for label, q in (("Q_wall", losses.q_wall), ("Q_dielectric", losses.q_dielectric),
-                     ("Q_total", losses.q_total)):
-        if q is not None and q < Q_LIMIT:
-            out.append(f"{label} = {q:.3g} is below {Q_LIMIT:g}: the loss is not small and the "
-                       "perturbation estimate is not valid here"
-                       + (" (the complex check, [solve] complex_check = true, solves the "
-                          "lossy dielectric directly)" if label == "Q_dielectric" else ""))
+                out.append(f"wall {name}: skin depth {_length(delta)} not small against the "
+                           f"mode's volume/surface length {_length(length)}, Q_wall by "
+                           "perturbation not valid")
+    low = [(label, q) for label, q in (("Q_wall", losses.q_wall),
+                                        ("Q_dielectric", losses.q_dielectric)) if q and q < Q_LIMIT]
+    if not low and losses.q_total and losses.q_total < Q_LIMIT:
+        low = [("Q_total", losses.q_total)]
+    out += [f"{label} = {q:.3g} < {Q_LIMIT:g}: loss not small, {label} by perturbation not "
+            "valid" for label, q in low]
     return out
 
 
 def complex_check_warnings(mode) -> list[str]:
-    """Sentences on a mode after the complex check: unpaired, or in disagreement with the
+    """Phrases on a mode after the complex check: unpaired, or in disagreement with the
     perturbation estimate of Q_d."""
     losses = mode.losses
     if mode.q_dielectric_complex is None:
-        return ["no complex eigenvalue was left to pair with this mode (each is paired with "
-                "one mode at most); its complex frequency is unknown"]
+        return ["no complex eigenvalue left to pair with this mode (one mode each at most)"]
     if losses is None or not losses.q_dielectric:
         return []
     exact, estimate = 1.0 / mode.q_dielectric_complex, 1.0 / losses.q_dielectric
     if abs(estimate - exact) > COMPLEX_DISAGREEMENT * max(exact, estimate):
-        return [f"Q_dielectric by perturbation ({losses.q_dielectric:.4g}) and from the "
-                f"complex solve ({mode.q_dielectric_complex:.4g}) disagree by more than "
-                f"{COMPLEX_DISAGREEMENT:.0%}: the loss is too large for the perturbation "
-                "estimate (or the pairing of this mode is ambiguous)"]
+        return [f"Q_dielectric {losses.q_dielectric:.4g} by perturbation against "
+                f"{mode.q_dielectric_complex:.4g} from the complex solve: more than "
+                f"{COMPLEX_DISAGREEMENT:.0%} apart, trust the complex solve (if the pairing "
+                "is clear)"]
     return []
 
 
@@ -89,10 +86,16 @@ def _length(metres: float) -> str:
     return f"{metres * 1e6:.3g} µm"
 
 
+ADVICE = ("the perturbation formulas need a good conductor (skin depth much smaller than "
+          "the part) and a small loss (Q much above 10); [solve] complex_check = true solves "
+          "a lossy dielectric directly")
+
+
 def loss_validity_summary(modes) -> list[str]:
-    """One line per mode with warnings, for stderr."""
-    return [f"mode {m.index}: " + "; ".join(m.loss_warnings) for m in modes
-            if getattr(m, "loss_warnings", ())]
+    """One line per mode with warnings and one line of advice, for stderr."""
+    lines = [f"mode {m.index}: " + "; ".join(m.loss_warnings) for m in modes
+             if getattr(m, "loss_warnings", ())]
+    return lines + [ADVICE] if lines else []
 
 
 def with_loss_warnings(modes: list, walls: dict) -> list:
