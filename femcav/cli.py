@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import errno
+import os
 import sys
 
 from . import __version__, exit_codes
@@ -110,9 +111,14 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         return _fail("interrupted (Ctrl-C); unfinished files removed",
                      exit_codes.INTERRUPTED)
-    except MemoryError:
-        return _fail("out of memory; use a coarser mesh, symmetry planes, a lower element "
-                     "order or [solve] method = \"iterative\"", exit_codes.OUT_OF_MEMORY)
+    except MemoryError as exc:
+        return _fail(f"out of memory{f' ({exc})' if str(exc) else ''}; use a coarser mesh, "
+                     "symmetry planes, a lower element order or [solve] method = "
+                     "\"iterative\"", exit_codes.OUT_OF_MEMORY)
+    except BrokenPipeError:
+        # the reader of stdout went away (e.g. piped into head): nothing to tell it
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return exit_codes.FILE_SYSTEM
     except OSError as exc:
         return _fail(_describe_os_error(exc), exit_codes.FILE_SYSTEM)
 

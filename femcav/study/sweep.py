@@ -22,7 +22,8 @@ from __future__ import annotations
 import json
 import multiprocessing
 import time
-from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass, replace
 from pathlib import Path
 
@@ -172,20 +173,27 @@ def load_point(folder: Path, index: int, values) -> PointResult | None:
                        seconds=document["seconds"])
 
 
-def _ignore_ctrl_c() -> None:
-    """In a worker: Ctrl-C is the parent's to handle (it stops the workers); a worker
-    that took it too would print its own traceback."""
+def _submit_without_ctrl_c(pool: ProcessPoolExecutor, tasks) -> list:
+    """Submit every point, the workers started with Ctrl-C ignored: it is the parent's to
+    handle (it stops the workers), and a worker that took it too would print its own
+    traceback. Submitting starts the workers; they inherit the ignored signal through exec,
+    so it holds from their first line (imports included). (Not pool.map: on Ctrl-C it
+    cancels the futures, and Python 3.11's executor then raises in its own thread when the
+    stopped workers break the pool.)"""
     import signal
 
-    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    previous = signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        return [pool.submit(_solve_and_save, task) for task in tasks]
+    finally:
+        signal.signal(signal.SIGINT, previous)
 
 
 def _stop_workers(pool: ProcessPoolExecutor) -> None:
-    """Cancel the points not started and end the workers now (the executor has no public
-    way to end a running task); their temporaries are removed by the next run."""
-    processes = list((getattr(pool, "_processes", None) or {}).values())
-    pool.shutdown(wait=False, cancel_futures=True)
-    for process in processes:
+    """End the workers now (the executor has no public way to end a running task): the
+    executor then sees a broken pool and fails the points not done, so leaving the ``with``
+    block does not wait for them. Their temporaries are removed by the next run."""
+    for process in list((getattr(pool, "_processes", None) or {}).values()):
         process.terminate()
 
 
@@ -240,14 +248,23 @@ def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
             tasks = [(data, path, spec.axes, points[i], folder, i) for i in todo]
             # "spawn", not fork: a forked child inherits the locks of the parent's BLAS,
             # OpenMP and gmsh threads and can hang on them (seen in a long test session)
-            with ProcessPoolExecutor(max_workers=jobs, initializer=_ignore_ctrl_c,
+            with ProcessPoolExecutor(max_workers=jobs,
                                      mp_context=multiprocessing.get_context("spawn")) as pool:
+                futures = _submit_without_ctrl_c(pool, tasks)
                 try:
-                    for k, index in enumerate(pool.map(_solve_and_save, tasks), start=1):
+                    for k, done in enumerate(as_completed(futures), start=1):
+                        index = done.result()
                         progress.step(f"point {index + 1} of {len(points)} solved "
                                       f"({k} of {len(todo)}, {time.perf_counter() - t0:.1f} s)")
                 except KeyboardInterrupt:
                     _stop_workers(pool)
+                    raise
+                except BrokenProcessPool:
+                    raise MemoryError("a sweep worker process ended abruptly, most often "
+                                      "killed for lack of memory; try fewer --jobs") from None
+                except Exception:
+                    for future in futures:      # a point failed: start no more
+                        future.cancel()
                     raise
         else:
             for k, index in enumerate(todo, start=1):

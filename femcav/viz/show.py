@@ -9,7 +9,7 @@ import json
 from pathlib import Path
 
 from ..errors import BrokenResultFolder, InputError
-from ..io.atomic import staged_output
+from ..io.atomic import read_manifest, staged_output
 from ..units import format_frequency
 from .mode_picture import draw_mode_picture
 
@@ -67,8 +67,10 @@ def read_modes_document(folder: Path) -> dict:
                          source=str(folder))
     table = folder / "modes.json"
     if not table.is_file():
-        others = sorted(p.name for p in folder.glob("*.json"))
-        kind = f" (it holds {', '.join(others)}: another command's results)" if others else ""
+        writers = sorted(set(read_manifest(folder).values()) - {"solve", "pictures"})
+        others = sorted(p.name for p in folder.glob("*.json") if not p.name.startswith("."))
+        kind = (f" (femcav {' and '.join(writers)} wrote it)" if writers else
+                f" (it holds {', '.join(others)}: another command's results)" if others else "")
         raise BrokenResultFolder(folder, f"modes.json not found: not a femcav solve result "
                                          f"folder{kind}; femcav solve writes one")
     try:
