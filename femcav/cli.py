@@ -142,7 +142,9 @@ _OS_ADVICE = {
 
 def _describe_os_error(exc: OSError) -> str:
     """One line: the path, the system's reason and what to do."""
-    where = exc.filename if exc.filename is not None else "file system"
+    from .io.atomic import intended_path
+
+    where = intended_path(str(exc.filename)) if exc.filename is not None else "file system"
     reason = exc.strerror or type(exc).__name__
     advice = _OS_ADVICE.get(exc.errno)
     return f"{where}: {reason}" + (f" ({advice})" if advice else "")

@@ -28,7 +28,7 @@ from typing import Callable
 MANIFEST = ".femcav-files.json"
 # Temporaries: .NAME.PID.RANDOM.partial[.EXT] (RANDOM: mkstemp's 8 characters); the
 # process id tells a live run's from a killed one's.
-_PARTIAL = re.compile(r"^\..+\.(\d+)\.[A-Za-z0-9_]{8}\.partial(\.[A-Za-z0-9]+)?$")
+_PARTIAL = re.compile(r"^\.(.+)\.(\d+)\.[A-Za-z0-9_]{8}\.partial(\.[A-Za-z0-9]+)?$")
 # Temporaries of earlier femcav versions, without the process id, count as stale after this
 # long.
 _OLD_PARTIAL = re.compile(r"^\..+\.[A-Za-z0-9_]{8}\.partial(\.[A-Za-z0-9]+)?$")
@@ -51,6 +51,22 @@ def temporary_path(folder: Path, name: str, suffix: str = "") -> Path:
     os.chmod(tmp, 0o666 & ~_umask())  # mkstemp makes 0600; results are ordinary files
     _active.add(Path(tmp))
     return Path(tmp)
+
+
+def intended_path(path: str) -> str:
+    """The file a temporary stands for (``folder/.NAME.PID.RANDOM.partial`` ->
+    ``folder/NAME``), for messages; other paths unchanged."""
+    match = _PARTIAL.match(os.path.basename(path))
+    return os.path.join(os.path.dirname(path), match.group(1)) if match else path
+
+
+def _probe_writable(folder: Path) -> None:
+    """OSError naming ``folder`` unless a file can be made in it (and is removed again)."""
+    try:
+        _discard(temporary_path(folder, "write-test"))
+    except OSError as exc:
+        raise OSError(exc.errno, f"cannot write files here: {exc.strerror}",
+                      str(folder)) from None
 
 
 def _discard(tmp: Path) -> None:
@@ -80,7 +96,7 @@ def remove_stale_temporaries(folder: Path) -> list[Path]:
             continue
         match = _PARTIAL.match(path.name)
         if match:
-            stale = not _process_alive(int(match.group(1)))
+            stale = not _process_alive(int(match.group(2)))
         elif _OLD_PARTIAL.match(path.name):
             try:
                 stale = time.time() - path.stat().st_mtime > _OLD_PARTIAL_S
@@ -104,7 +120,7 @@ def prepare_output_folder(folder: str | Path) -> Path:
                                  str(folder))
     folder.mkdir(parents=True, exist_ok=True)
     remove_stale_temporaries(folder)
-    _discard(temporary_path(folder, "write-test"))
+    _probe_writable(folder)
     return folder
 
 
@@ -119,7 +135,7 @@ def check_output_folder(folder: str | Path) -> Path:
     if not probe.is_dir():
         raise NotADirectoryError(errno.ENOTDIR, "exists and is a file, not a folder",
                                  str(probe))
-    _discard(temporary_path(probe, "write-test"))
+    _probe_writable(probe)
     return folder
 
 
