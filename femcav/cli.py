@@ -3,22 +3,22 @@
 from __future__ import annotations
 
 import argparse
+import errno
+import os
 import sys
 
-from . import __version__
-from .errors import InputError, ResourceError, printable
+from . import __version__, exit_codes
+from .errors import BrokenResultFolder, InputError, ResourceError, printable
 
-EXIT_INPUT_ERROR = 2
-EXIT_CHECKS_FAILED = 3
-EXIT_OUT_OF_RESOURCES = 4
+EXIT_INPUT_ERROR = exit_codes.INPUT_ERROR
+EXIT_CHECKS_FAILED = exit_codes.CHECKS_FAILED
 
 
 def _parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="femcav",
         description="Resonant modes of closed microwave cavities by finite elements.",
-        epilog="Exit status: 0 success, 2 a mistake in the input, 3 a mode failed its checks, "
-               "4 out of memory (or a worker process was killed).")
+        epilog=exit_codes.epilog())
     parser.add_argument("--version", action="version", version=f"femcav {__version__}")
     commands = parser.add_subparsers(dest="command", metavar="COMMAND", title="commands")
     solve = commands.add_parser(
@@ -105,16 +105,51 @@ def main(argv: list[str] | None = None) -> int:
         return {"mesh": _mesh, "sweep": _sweep, "tune": _tune, "extract": _extract,
                 "show": _show}.get(args.command, _solve)(args)
     except InputError as exc:
-        print(f"femcav: error: {exc}", file=sys.stderr)
-        return EXIT_INPUT_ERROR
+        return _fail(str(exc), exit_codes.INPUT_ERROR)
+    except BrokenResultFolder as exc:
+        return _fail(str(exc), exit_codes.BROKEN_RESULT_FOLDER)
+    except KeyboardInterrupt:
+        return _fail("interrupted (Ctrl-C); unfinished files removed",
+                     exit_codes.INTERRUPTED)
     except ResourceError as exc:
-        print(f"femcav: error: {exc}", file=sys.stderr)
-        return EXIT_OUT_OF_RESOURCES
+        return _fail(str(exc), exit_codes.OUT_OF_MEMORY)
     except MemoryError as exc:
-        detail = f" ({exc})" if str(exc) else ""
-        print(f"femcav: error: out of memory{detail}; use a coarser mesh, fewer modes, symmetry "
-              "planes or fewer --jobs", file=sys.stderr)
-        return EXIT_OUT_OF_RESOURCES
+        return _fail(f"out of memory{f' ({exc})' if str(exc) else ''}; use a coarser mesh, "
+                     "symmetry planes, a lower element order, [solve] method = \"iterative\" "
+                     "or fewer --jobs", exit_codes.OUT_OF_MEMORY)
+    except BrokenPipeError:
+        # the reader of stdout went away (e.g. piped into head): nothing to tell it
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return exit_codes.FILE_SYSTEM
+    except OSError as exc:
+        return _fail(_describe_os_error(exc), exit_codes.FILE_SYSTEM)
+
+
+def _fail(message: str, status: int) -> int:
+    print(f"femcav: error: {message}", file=sys.stderr)
+    return status
+
+
+_OS_ADVICE = {
+    errno.ENOSPC: "the disk is full; free some space or choose another --out",
+    errno.EDQUOT: "the disk quota is used up; free some space or choose another --out",
+    errno.EROFS: "the file system is read-only; choose another --out",
+    errno.EACCES: "no permission; choose another --out or change the folder's permissions",
+    errno.EPERM: "not permitted; choose another --out",
+    errno.ENOTDIR: "choose a folder for --out, not a file",
+    errno.EEXIST: "choose a folder for --out, not a file",
+    errno.EISDIR: "a folder is in the way of a file",
+}
+
+
+def _describe_os_error(exc: OSError) -> str:
+    """One line: the path, the system's reason and what to do."""
+    from .io.atomic import intended_path
+
+    where = intended_path(str(exc.filename)) if exc.filename is not None else "file system"
+    reason = exc.strerror or type(exc).__name__
+    advice = _OS_ADVICE.get(exc.errno)
+    return f"{where}: {reason}" + (f" ({advice})" if advice else "")
 
 
 def _solve(args) -> int:
@@ -143,11 +178,31 @@ def _solve(args) -> int:
     print(f"results: {folder}")
     if not args.no_report:
         _report(folder, quiet=args.quiet)
+    return _solve_status(result)
+
+
+def _solve_status(result) -> int:
+    """Warnings on stderr for modes not to trust, and the exit status they imply."""
+    from .post.loss_validity import loss_validity_summary
+    from .post.resolution import unresolved_summary
+    from .units import format_frequency
+
+    asked = result.request.count if result.request is not None else len(result.modes)
+    if len(result.modes) < asked:
+        print(f"femcav: warning: {asked} modes asked for, {len(result.modes)} returned: the "
+              "mesh's discrete problem holds no more (refine the mesh for more)",
+              file=sys.stderr)
+    status = exit_codes.OK
     if not result.passed:
         print("femcav: warning: at least one mode FAILED its checks; do not trust those "
               "frequencies (see the check column)", file=sys.stderr)
-        return EXIT_CHECKS_FAILED
-    return 0
+        status = EXIT_CHECKS_FAILED
+    for line in unresolved_summary(result.modes, result.near_hz, format_frequency):
+        print(f"femcav: warning: {line}", file=sys.stderr)
+        status = EXIT_CHECKS_FAILED
+    for line in loss_validity_summary(result.modes):
+        print(f"femcav: warning: {line}", file=sys.stderr)
+    return status
 
 
 def _sweep(args) -> int:

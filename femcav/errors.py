@@ -1,10 +1,12 @@
-"""The exception types the command line turns into one line.
+"""The exceptions the command line turns into one line and an exit status.
 
 Anything the user can fix (a wrong key, a bad unit, a mesh that does not match the case) is
 raised as :class:`InputError`; the command line prints it as one line and exits with status 2.
 A run that the machine cannot carry (memory ran out, a worker process was killed) raises
-:class:`ResourceError` or MemoryError: one line, exit status 4. Every other exception is a
-bug in femcav and keeps its traceback.
+:class:`ResourceError` or MemoryError. A result folder that ``femcav show`` cannot use is
+:class:`BrokenResultFolder`. The environment's failures (OSError: read-only or full disk, no
+permission; Ctrl-C) are caught at the command line's edge (femcav.cli, statuses in
+femcav.exit_codes). Every other exception is a bug in femcav and keeps its traceback.
 """
 
 from __future__ import annotations
@@ -40,3 +42,16 @@ def printable(text: str) -> str:
 
 class ResourceError(Exception):
     """The machine could not give what the run needed (memory, a worker process)."""
+
+
+class BrokenResultFolder(Exception):
+    """A result folder that femcav show cannot use: files missing, garbled or of another
+    kind. The command line prints it as one line and exits with its own status."""
+
+    def __init__(self, folder, message: str):
+        super().__init__(message)
+        self.folder = str(folder)
+        self.message = message
+
+    def __str__(self) -> str:
+        return printable(f"{self.folder}: {self.message}")

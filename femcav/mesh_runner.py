@@ -7,7 +7,7 @@ from pathlib import Path
 
 from .case import Case, build_mesh, case_model, load_case
 from .geometry.mesh import TaggedMesh
-from .io.atomic import staged_output
+from .io.atomic import check_output_folder, staged_output
 from .io.mesh_files import write_mesh_vtu, write_msh
 from .post.mesh_quality import MeshQuality, mesh_quality
 from .progress import SILENT, Progress
@@ -31,6 +31,8 @@ def mesh_case(path: str | Path, *, out: str | Path | None = None,
 
     case = load_case(path)
     progress.step(f"case {case.path}: {case.title}")
+    folder = check_output_folder(Path(out) if out is not None
+                                 else default_output_folder(case.path))
     mesh = build_mesh(case)
     progress.step(f"mesh: {mesh.n_tets} tetrahedra, regions {', '.join(mesh.region_names)} "
                   f"({mesh.source})")
@@ -39,8 +41,7 @@ def mesh_case(path: str | Path, *, out: str | Path | None = None,
     case_model(case, mesh)
     quality = mesh_quality(mesh)
 
-    folder = Path(out) if out is not None else default_output_folder(case.path)
-    with staged_output(folder) as files:
+    with staged_output(folder, kind="mesh") as files:
         files.write_with("mesh.msh", lambda p: write_msh(mesh, p), suffix=".msh")
         files.write_with("mesh.vtu", lambda p: write_mesh_vtu(mesh, p, quality.quality),
                          suffix=".vtu")

@@ -9,7 +9,7 @@ from dataclasses import replace
 from pathlib import Path
 
 from .case import Case, build_mesh, case_model, load_case
-from .io.atomic import staged_output
+from .io.atomic import check_output_folder, staged_output
 from .io.results import to_csv, to_json, to_table
 from .io.vtk import write_vtu, write_wall_loss_vtu
 from .progress import SILENT, Progress
@@ -142,9 +142,10 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
                      factorization=factorization, method=method)
     settings = replace(case.solve, **{k: v for k, v in overrides.items() if v is not None})
     progress.step(f"case {case.path}: {case.title}")
+    folder = check_output_folder(Path(out) if out is not None
+                                 else default_output_folder(case.path))
     result = solve_case(case, settings, progress)
-    folder = Path(out) if out is not None else default_output_folder(case.path)
-    with staged_output(folder) as files:
+    with staged_output(folder, kind="solve", replaces=("solve", "pictures")) as files:
         _write_tables(files, case, result)
         if settings.azimuthal_orders is not None:
             from .axisymmetric.revolve import write_revolved_vtu

@@ -136,8 +136,10 @@ class Table:
 
 EPS_R = Range(1e-2, 1e5)
 MU_R = Range(1e-2, 1e5)
-TAN_DELTA = Range(0.0, 1.0)
-CONDUCTIVITY = Range(1e4, 1e12)          # S/m: graphite to cryogenic copper
+# Above about 0.1 the perturbation Q_d is flagged per mode (post/loss_validity.py); 100 is far
+# past any material, a typo guard.
+TAN_DELTA = Range(0.0, 100.0)
+CONDUCTIVITY = Range(1.0, 1e12)          # S/m: resistive coatings to cryogenic copper
 ROUGHNESS = Range(0.0, 1e-3)             # m, rms
 FREQUENCY = Range(1.0, 1e13)             # Hz: 1 Hz to 10 THz
 POSITIVE = Range(0.0, low_open=True)

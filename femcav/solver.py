@@ -25,7 +25,9 @@ from .fem.space import EdgeSpace, build_space
 from .materials import tan_delta_by_cell
 from .model import Model
 from .post.checks import ModeChecks, check_modes
+from .post.loss_validity import with_complex_warnings, with_loss_warnings
 from .post.losses import LossReport, has_losses, metal_faces, mode_losses
+from .post.resolution import Resolution, edge_space_energy, edge_space_scales, mode_resolution
 from .progress import SILENT, Progress
 
 
@@ -48,6 +50,10 @@ class Mode:
     # per builder length: df/dp (Hz/m) and the frequency tolerance it implies ([tolerances])
     tolerance: dict | None = None
     label: str | None = None      # from the field (post.classify), e.g. "TE101"
+    # elements per local wavelength where the mode's energy is (post.resolution)
+    resolution: Resolution | None = None
+    # where the perturbation estimates of Q are not valid (post.loss_validity)
+    loss_warnings: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -67,6 +73,10 @@ class SolveResult:
     @property
     def passed(self) -> bool:
         return all(m.checks.passed for m in self.modes)
+
+    @property
+    def resolved(self) -> bool:
+        return all(m.resolution is None or m.resolution.resolved for m in self.modes)
 
     @property
     def form(self) -> str:
@@ -146,15 +156,20 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     frequencies = C0 * np.sqrt(np.maximum(values, 0.0)) / (2 * math.pi)
     lossy = has_losses(space)
     faces = metal_faces(space) if lossy else None
+    sizes, index = edge_space_scales(space)
     result_modes = [Mode(index=i + 1, frequency_hz=float(f), k0_squared=float(v), checks=ch,
                          dofs=full[:, i],
-                         losses=mode_losses(space, full[:, i], f, faces) if lossy else None)
+                         losses=mode_losses(space, full[:, i], f, faces) if lossy else None,
+                         resolution=mode_resolution(float(f), order, sizes, index,
+                                                    edge_space_energy(space, full[:, i], v)))
                     for i, (f, v, ch) in enumerate(zip(frequencies, values, checks))]
+    result_modes = with_loss_warnings(result_modes, model.walls)
     progress.step(f"eigen solve done: {len(result_modes)} modes in {timings['eigen_s']:.2f} s")
     if complex_check:
         t0 = time.perf_counter()
-        result_modes = _complex_check(space, K, M, G, factorize, result_modes,
-                                      pairs.stats.get("shift", -scale))
+        result_modes = with_complex_warnings(
+            _complex_check(space, K, M, G, factorize, result_modes,
+                           pairs.stats.get("shift", -scale)))
         timings["complex_check_s"] = time.perf_counter() - t0
         progress.step(f"complex check done in {timings['complex_check_s']:.2f} s")
     return SolveResult(modes=result_modes, space=space, dofs=space.n_dofs,
@@ -166,7 +181,8 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
 def _complex_check(space: EdgeSpace, K, M, G, factorize, modes: list[Mode], shift: float
                    ) -> list[Mode]:
     """Solve again with eps_r (1 - j tan δ) and give each mode its complex frequency and the
-    Q it implies, Q = Re ω / (2 Im ω); modes are paired by nearest real frequency."""
+    Q it implies, Q = Re ω / (2 Im ω); modes and eigenvalues are paired one-to-one by
+    nearest real frequency."""
     tan_delta = _tan_delta_at_quadrature(space)
     if space.form == "E":   # M becomes ∫ eps_r (1 - j tan δ) u·v
         M_loss = assemble_mass(space, space.mass_coef * tan_delta)

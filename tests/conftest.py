@@ -100,3 +100,13 @@ def swept_folder(where: Path, case_text: str, **options):
     case.write_text(case_text)
     document, out = run_sweep(case, out=where / "out", **options)
     return document, out, case
+
+
+def box_case(size: str = "4 mm", modes: int = 2, extra: str = "",
+             dims: tuple[str, str, str] = ("20 mm", "10 mm", "25 mm")) -> str:
+    """The text of a case file for an empty box (width, height, length ``dims``), mesh
+    ``size``, ``modes`` modes, with ``extra`` tables appended."""
+    width, height, length = dims
+    return (f'[geometry]\nbuilder = "box"\nwidth = "{width}"\nheight = "{height}"\n'
+            f'length = "{length}"\n[mesh]\nsize = "{size}"\n[solve]\nmodes = {modes}\n'
+            + extra)

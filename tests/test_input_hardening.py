@@ -428,7 +428,7 @@ def test_a_relation_is_reported_at_the_key_that_breaks_it(geometry, change, fiel
 @pytest.mark.parametrize("region, field", [
     ({"eps_r": "4-nanj"}, "regions.inside.eps_r"),        # the issue's example
     ({"eps_r": "inf-1j"}, "regions.inside.eps_r"),
-    ({"eps_r": "4-8j"}, "regions.inside.eps_r"),           # tan δ = 2, out of range
+    ({"eps_r": "4-800j"}, "regions.inside.eps_r"),         # tan δ = 200, out of range
     ({"eps_r": "1e-5-1e-9j"}, "regions.inside.eps_r"),      # eps_r' out of range
     ({"eps_r": "4-0.01j", "tan_delta": 0.1}, "regions.inside.tan_delta"),
 ])

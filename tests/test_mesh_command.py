@@ -131,7 +131,9 @@ def test_mesh_command_on_a_box(tmp_path, capfd):
     assert png_size(out / "mesh.png") == mesh_picture.IMAGE_SIZE
     pixels = assert_not_blank(out / "mesh.png")
     assert share_with_hue_of(pixels, mesh_picture.region_colours(built)["inside"]) > 0.1
-    assert sorted(p.name for p in out.iterdir()) == ["mesh.msh", "mesh.png", "mesh.vtu"]
+    # the three files and the folder's list of what femcav wrote; no temporaries
+    assert sorted(p.name for p in out.iterdir()) == [".femcav-files.json", "mesh.msh",
+                                                     "mesh.png", "mesh.vtu"]
 
     printed = captured.out
     assert printed.startswith(f"small box: {built.n_tets} tetrahedra, {len(built.points)} nodes")

@@ -56,9 +56,11 @@ def test_show_one_mode_with_h_arrows(folder):
 
 
 def test_show_refuses_a_folder_without_results(tmp_path):
-    with pytest.raises(InputError, match="not a femcav result folder"):
+    from femcav.errors import BrokenResultFolder
+
+    with pytest.raises(BrokenResultFolder, match="not a femcav solve result folder"):
         show(tmp_path)
-    (tmp_path / "modes.json").write_text('{"modes": []}')
+    (tmp_path / "modes.json").write_text('{"format": "femcav-modes", "modes": []}')
     (tmp_path / "fields.vtu").write_text("")
     with pytest.raises(InputError, match="not 3"):
         show(tmp_path, mode=3)

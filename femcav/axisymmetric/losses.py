@@ -200,3 +200,29 @@ def _edge_bases(space: OrderSpace, facets: np.ndarray):
         inward = mesh.p[:, mesh.t[:, cells[chosen]]].mean(axis=1) - ends.mean(axis=1)
         normal *= np.where(np.einsum("itq,it->tq", normal, inward)[:, :1] > 0, -1.0, 1.0)
         yield eb, nb, normal, speed * w[None, :]
+
+
+def cell_energy(space: OrderSpace, dofs, k0_squared: float) -> np.ndarray:
+    """Electric plus magnetic energy of a mode per triangle of the section (relative scale,
+    with the weight r): the carried field's mass density b (r |f_t|² + u²/r) plus its curl's
+    stiffness density a (|∇u + m f_t|²/r + r |curl f_t|²) over k0², (a, b) = (1/μ_r, ε_r) in
+    the E form and (1/ε_r, μ_r) in the H form."""
+    e_dofs, u_dofs = _split(space, dofs)
+    e = space.edge_basis.interpolate(e_dofs)
+    u = space.node_basis.interpolate(u_dofs)
+    r = space.edge_basis.mapping.F(space.edge_basis.X)[0]
+    field, _, curl, _ = _parts(space, e, u, r)
+    density = (space.mass_coef * field
+               + space.stiffness_coef * curl / max(k0_squared, np.finfo(float).tiny))
+    return np.sum(density * space.edge_basis.dx, axis=1)
+
+
+def cell_scales(space: OrderSpace) -> tuple[np.ndarray, np.ndarray]:
+    """Per triangle of the section: mean edge length (m) and sqrt(ε_r μ_r) (mean over its
+    quadrature points). The azimuthal variation e^{jmφ} is exact, so only the section's
+    element size counts."""
+    from ..post.resolution import mean_edge_length
+
+    section = space.model.section
+    h = mean_edge_length(section.points, section.triangles)
+    return h, np.sqrt(np.mean(space.eps * space.mu, axis=1))

@@ -23,10 +23,12 @@ from ..errors import InputError
 from ..eigen.problem import EigenProblem
 from ..materials import tan_delta_by_cell
 from ..post.checks import ModeChecks, check_modes
+from ..post.loss_validity import with_complex_warnings, with_loss_warnings
 from ..post.losses import LossReport
+from ..post.resolution import Resolution, mode_resolution
 from ..progress import SILENT, Progress
 from ..solver import check_request, complex_eigenvalues, frequency_to_k0_squared
-from .losses import field_class, has_losses, mode_losses
+from .losses import cell_energy, cell_scales, field_class, has_losses, mode_losses
 from .model import AxisymmetricModel
 from .space import (
     OrderSpace,
@@ -55,6 +57,8 @@ class AxisymmetricMode:
     error_estimate_hz: float | None = None
     extrapolated_hz: float | None = None
     symmetry: str | None = None
+    resolution: Resolution | None = None     # elements per wavelength (post.resolution)
+    loss_warnings: tuple[str, ...] = ()      # post.loss_validity
 
     @property
     def multiplicity(self) -> int:
@@ -82,6 +86,10 @@ class AxisymmetricResult:
     @property
     def passed(self) -> bool:
         return all(m.checks.passed for m in self.modes)
+
+    @property
+    def resolved(self) -> bool:
+        return all(m.resolution is None or m.resolution.resolved for m in self.modes)
 
     @property
     def dofs(self) -> int:
@@ -138,6 +146,7 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
         found = [found[i] for i in sorted(nearest)]
     found = found[:modes]
     lossy = has_losses(next(iter(spaces.values())))
+    scales = cell_scales(next(iter(spaces.values())))
     result_modes = []
     for index, (m, value, vector, check) in enumerate(found, start=1):
         frequency = C0 * math.sqrt(value) / (2 * math.pi)
@@ -145,10 +154,14 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
         result_modes.append(AxisymmetricMode(
             index=index, m=m, frequency_hz=frequency, k0_squared=value,
             field_class=field_class(space, vector), checks=check, dofs=vector,
-            losses=mode_losses(space, vector, frequency) if lossy else None))
+            losses=mode_losses(space, vector, frequency) if lossy else None,
+            resolution=mode_resolution(frequency, order, *scales,
+                                       cell_energy(space, vector, value))))
+    result_modes = with_loss_warnings(result_modes, model.walls)
     if complex_check:
         t0 = time.perf_counter()
-        result_modes = _complex_check(spaces, matrices, result_modes, factorize, scale)
+        result_modes = with_complex_warnings(
+            _complex_check(spaces, matrices, result_modes, factorize, scale))
         timings["complex_check_s"] = time.perf_counter() - t0
     progress.step(f"{len(result_modes)} modes over m = {', '.join(map(str, orders))} in "
                   f"{timings['eigen_s']:.2f} s ({describe(factorization)})")
@@ -178,7 +191,7 @@ def _probe(model: AxisymmetricModel):
 def _complex_check(spaces: dict[int, OrderSpace], matrices: dict, modes: list[AxisymmetricMode],
                    factorize, scale: float) -> list[AxisymmetricMode]:
     """Per order m: the complex k0² of K x = k0² (M - j M_tanδ) x (``matrices[m]`` = K, M, G
-    of the real solve), paired with the real modes of that m by nearest frequency;
+    of the real solve), paired one-to-one with the real modes of that m by nearest frequency;
     Q_d = Re ω / (2 Im ω)."""
     out = {}
     for m, space in spaces.items():

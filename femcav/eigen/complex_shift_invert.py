@@ -36,18 +36,29 @@ def solve(K, M, projector, factorize, *, shift: float, count: int) -> EigenPairs
 
 
 def with_complex_frequencies(modes: list, k0_squared: np.ndarray) -> list:
-    """Each mode (a dataclass with frequency_hz) given the complex frequency nearest its real
-    one among the complex eigenvalues ``k0_squared``, and the Q it implies,
-    Q = Re ω / (2 Im ω)."""
+    """Each mode (a dataclass with frequency_hz) given a complex frequency among the complex
+    eigenvalues ``k0_squared``, and the Q it implies, Q = Re ω / (2 Im ω).
+
+    The pairing is one-to-one: the assignment that minimises the total distance between
+    real frequencies and the real parts of the complex ones (Hungarian method), so that two
+    modes never share one complex eigenvalue. A mode left without one (fewer eigenvalues
+    than modes) keeps None for both."""
     import math
     from dataclasses import replace
 
     from scipy.constants import c
+    from scipy.optimize import linear_sum_assignment
 
     omegas = c * np.sqrt(k0_squared)
+    real = np.array([2 * math.pi * m.frequency_hz for m in modes])
+    rows, cols = linear_sum_assignment(np.abs(real[:, None] - omegas.real[None, :]))
+    partner = dict(zip(rows.tolist(), cols.tolist()))
     out = []
-    for mode in modes:
-        w = omegas[np.argmin(np.abs(omegas.real - 2 * math.pi * mode.frequency_hz))]
+    for i, mode in enumerate(modes):
+        if i not in partner:
+            out.append(replace(mode, complex_frequency_hz=None, q_dielectric_complex=None))
+            continue
+        w = omegas[partner[i]]
         q = w.real / (2 * abs(w.imag)) if w.imag != 0 else math.inf
         out.append(replace(mode, complex_frequency_hz=float(w.real / (2 * math.pi)),
                            q_dielectric_complex=float(q)))

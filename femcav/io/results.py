@@ -2,14 +2,16 @@
 
 modes.json is a stable, documented format (README, "Output files"): top-level keys
 ``format``, ``title``, ``case``, ``form``, ``order``, ``dofs``, ``elements``, ``request``,
-``static_fields_dropped``, ``checks_passed``, ``limits``, ``timings_s``, ``factorization`` and
-``modes``; each mode
-has ``index``, ``frequency_hz``, ``k0_squared_per_m2``, ``residual``, ``divergence``,
-``orthogonality``, ``passed``, ``error_estimate_hz`` (null unless a mesh sequence was
+``modes_returned``, ``static_fields_dropped``, ``checks_passed``, ``modes_resolved``,
+``min_points_per_wavelength``, ``limits``, ``timings_s``, ``factorization`` and ``modes``;
+each mode has ``index``, ``frequency_hz``, ``k0_squared_per_m2``, ``residual``,
+``divergence``, ``orthogonality``, ``passed``, ``points_per_wavelength`` and ``resolved``
+(post.resolution), ``loss_warnings`` (post.loss_validity), ``error_estimate_hz`` (null unless a mesh sequence was
 solved; then also ``extrapolated_hz``), ``q_wall``, ``q_dielectric``, ``q_total`` (null without such
 loss), ``wall_loss_share``, ``region_loss_share`` (name -> fraction of that loss),
 ``filling_factor`` (region -> share of the electric energy), with ``complex_frequency_hz`` and
-``q_dielectric_complex`` after a complex check, and ``symmetry`` (the class label, e.g. "x:PMC y:PEC")
+``q_dielectric_complex`` after a complex check (null for a mode no complex eigenvalue was
+paired with), and ``symmetry`` (the class label, e.g. "x:PMC y:PEC")
 when the model was cut by symmetry planes; then the top level has ``symmetry_classes``.
 A mode of the axisymmetric solver also has ``azimuthal_order``, ``field_class`` (TE-like,
 TM-like, TEM-like, hybrid) and ``multiplicity`` (2 for m >= 1: the cos mφ and sin mφ pair); then the
@@ -25,25 +27,27 @@ from __future__ import annotations
 
 import csv
 import io
+import math
 
 from . import strict_json
-from ..post import checks
+from ..post import checks, resolution
 from ..solver import SolveResult
 from ..units import format_frequency
 
 FORMAT_NAME = "femcav-modes"
 FORMAT_VERSION = 1
 CSV_COLUMNS = ("index", "frequency_hz", "error_estimate_hz", "q_wall", "q_dielectric", "q_total", "residual",
-               "divergence", "orthogonality", "passed")
+               "divergence", "orthogonality", "passed", "points_per_wavelength", "resolved")
 
 
 def mode_rows(result: SolveResult) -> list[dict]:
     rows = []
+    complex_checked = any(m.complex_frequency_hz is not None for m in result.modes)
     for m in result.modes:
         row = {"index": m.index, "frequency_hz": m.frequency_hz,
                "k0_squared_per_m2": m.k0_squared, "residual": m.checks.residual,
                "divergence": m.checks.divergence, "orthogonality": m.checks.orthogonality,
-               "passed": m.checks.passed}
+               "passed": m.checks.passed, **_resolution_fields(m)}
         if m.symmetry is not None:
             row["symmetry"] = m.symmetry
         if getattr(m, "m", None) is not None:   # a mode of the axisymmetric solver
@@ -67,11 +71,21 @@ def mode_rows(result: SolveResult) -> list[dict]:
             row["tolerance"] = m.tolerance
         if getattr(m, "label", None) is not None:
             row["label"] = m.label
-        if m.q_dielectric_complex is not None:
+        if complex_checked:
             row["complex_frequency_hz"] = m.complex_frequency_hz
             row["q_dielectric_complex"] = m.q_dielectric_complex
+        row["loss_warnings"] = list(getattr(m, "loss_warnings", ()))
         rows.append(row)
     return rows
+
+
+def _resolution_fields(mode) -> dict:
+    res = getattr(mode, "resolution", None)
+    if res is None:
+        return {"points_per_wavelength": None, "resolved": None}
+    ppw = res.points_per_wavelength
+    return {"points_per_wavelength": ppw if math.isfinite(ppw) else None,
+            "resolved": res.resolved}
 
 
 def _has_symmetry(result: SolveResult) -> bool:
@@ -92,7 +106,10 @@ def to_json(result: SolveResult, *, title: str, case: str | None,
         "request": {"modes": request.count if request else len(result.modes),
                     "near_hz": result.near_hz},
         "static_fields_dropped": result.static_fields_dropped,
+        "modes_returned": len(result.modes),
         "checks_passed": result.passed,
+        "modes_resolved": result.resolved,
+        "min_points_per_wavelength": resolution.MIN_POINTS_PER_WAVELENGTH[result.order],
         "limits": {"residual": checks.RESIDUAL_LIMIT, "divergence": checks.DIVERGENCE_LIMIT,
                    "orthogonality": checks.ORTHOGONALITY_LIMIT},
         "timings_s": result.timings,
@@ -157,6 +174,8 @@ def to_csv(result: SolveResult) -> str:
         writer.writerow({**row, "frequency_hz": repr(row["frequency_hz"]),
                          "error_estimate_hz": "" if row["error_estimate_hz"] is None
                          else f"{row['error_estimate_hz']:.3g}",
+                         "points_per_wavelength": "" if row["points_per_wavelength"] is None
+                         else f"{row['points_per_wavelength']:.3g}",
                          **{k: "" if row[k] is None else f"{row[k]:.6g}"
                             for k in ("q_wall", "q_dielectric", "q_total")}})
     return out.getvalue()
@@ -176,6 +195,12 @@ def to_table(result: SolveResult) -> str:
     for m in result.modes:
         c = m.checks
         status = "ok" if c.passed else "FAILED: " + "; ".join(c.failures())
+        res = getattr(m, "resolution", None)
+        if res is not None and not res.resolved:
+            status = (f"NOT RESOLVED: {res.points_per_wavelength:.2g} elements per wavelength "
+                      f"< {res.required:g}" + ("" if c.passed else "; " + status))
+        if getattr(m, "loss_warnings", ()):
+            status += "; Q warning (see loss_warnings)"
         lines.append(f"{m.index:>4}  {format_frequency(m.frequency_hz, 7):>16}  "
                      + (f"{_bar(m):>12}  " if bars else "")
                      + (f"{m.symmetry:<{width}}  " if sym else "")

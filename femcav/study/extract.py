@@ -30,7 +30,7 @@ from pathlib import Path
 
 from ..errors import InputError
 from ..io import strict_json
-from ..io.atomic import staged_output
+from ..io.atomic import check_output_folder, staged_output
 from ..post.sensitivity import material_sensitivities
 from ..progress import SILENT, Progress
 from ..schema import EXTRACT, check_table, read
@@ -87,6 +87,8 @@ def run_extract(path: str | Path, *, out: str | Path | None = None,
 
     path = Path(path)
     data, spec, base = load_study(path, parse_extract)
+    folder = check_output_folder(Path(out) if out is not None
+                                 else path.parent / f"{path.stem}-extract")
     eps_path = f"regions.{spec.sample}.eps_r"
     try:
         # 1. the empty fixture, its mode found from the case as written
@@ -143,8 +145,7 @@ def run_extract(path: str | Path, *, out: str | Path | None = None,
                 "perturbation_estimate": perturbation,
                 "measured": {"empty_frequency_hz": spec.empty_hz, "empty_q": spec.empty_q,
                              "loaded_frequency_hz": spec.loaded_hz, "loaded_q": spec.loaded_q}}
-    folder = Path(out) if out is not None else path.parent / f"{path.stem}-extract"
-    with staged_output(folder) as files:
+    with staged_output(folder, kind="extract") as files:
         files.write_text("extract.json", strict_json.dumps(document, indent=1))
     return document, folder
 

@@ -1,8 +1,8 @@
 """A sweep's solved points on disk: ``points/NNN.json`` and ``points/NNN.npz`` per point.
 
 The JSON holds the summary (values, fingerprint, mode rows), the NPZ what tracking needs
-(the mesh and the mode vectors). Both are written through staged_output (unique temporary
-names in the same folder, renamed into place, the summary last): a point whose summary is
+(the mesh and the mode vectors). Both are written atomically (unique temporary names in the
+same folder, renamed into place, the summary last): a point whose summary is
 there is complete, and two writers never share a temporary file. A point is reused only when its
 stored fingerprint (femcav.study.fingerprint) equals the one the current run computes; a
 file that cannot be read (cut short, damaged) counts as missing.
@@ -18,7 +18,7 @@ import numpy as np
 
 from ..geometry.mesh import TaggedMesh
 from ..io import strict_json
-from ..io.atomic import staged_output
+from ..io.atomic import write_file_atomically
 
 
 @dataclass(frozen=True)
@@ -52,15 +52,17 @@ def save_point(folder: Path, index: int, point: PointResult) -> None:
                 "form": point.form, "order": point.order, "seconds": point.seconds,
                 "region_names": m.region_names, "wall_names": m.wall_names,
                 "modes": point.rows}
-    # staged_output renames in the order written: the summary last, as it marks the point
-    # done. The NPZ carries the fingerprint too, so that an NPZ renamed in just before a
-    # stop is never paired with an older summary.
-    with staged_output(summary.parent) as files:
-        files.write_with(arrays.name, lambda p: np.savez_compressed(
-            p, points=m.points, tets=m.tets, tet_region=m.tet_region, faces=m.faces,
-            face_tag=m.face_tag, dofs=point.dofs, fingerprint=np.array(point.fingerprint),
-            **extra), suffix=".npz")
-        files.write_text(summary.name, strict_json.dumps(document, indent=1))
+    # Each file is written under a unique temporary name and renamed into place, the summary
+    # last, as it marks the point done. The NPZ carries the fingerprint too, so that an NPZ
+    # renamed in just before a stop is never paired with an older summary. (Not
+    # staged_output: the points folder keeps no manifest, which parallel workers would race
+    # to update.)
+    summary.parent.mkdir(parents=True, exist_ok=True)
+    write_file_atomically(arrays, lambda p: np.savez_compressed(
+        p, points=m.points, tets=m.tets, tet_region=m.tet_region, faces=m.faces,
+        face_tag=m.face_tag, dofs=point.dofs, fingerprint=np.array(point.fingerprint),
+        **extra), suffix=".npz")
+    write_file_atomically(summary, lambda p: p.write_text(strict_json.dumps(document, indent=1)))
 
 
 def load_point(folder: Path, index: int, fingerprint: str) -> tuple[PointResult | None, str]:

@@ -24,6 +24,7 @@ parameter, one curve per track; Q on a second panel when the case has losses).
 from __future__ import annotations
 
 import time
+from concurrent.futures import as_completed
 from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass, replace
 from pathlib import Path
@@ -33,7 +34,7 @@ import numpy as np
 from ..case import case_from_data, case_model, read_case_data
 from ..errors import InputError, ResourceError
 from ..io import strict_json
-from ..io.atomic import staged_output
+from ..io.atomic import check_output_folder, staged_output
 from ..io.results import mode_rows
 from ..progress import SILENT, Progress
 from ..schema import SWEEP, check_table
@@ -42,7 +43,7 @@ from .folder_lock import folder_lock
 from .parameters import Axis, check_parameter_exists, format_value, parse_axis, with_value
 from .point_store import PointResult, load_point, read_point, remove_temporaries, save_point
 from .tracking import track
-from .workers import usable_jobs, worker_pool
+from .workers import stop_workers, submit_without_ctrl_c, usable_jobs, worker_pool
 
 TRACKING_SPARE = 3
 # What a study adds to the case's own [solve] options; part of every point's fingerprint.
@@ -205,7 +206,8 @@ def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
     data, spec, base = load_study(path, parse_sweep, sweep_trials)
     if isinstance(jobs, bool) or not isinstance(jobs, int) or jobs < 1:
         raise InputError(f"must be a whole number >= 1, got {jobs!r}", field="--jobs")
-    folder = Path(out) if out is not None else path.parent / f"{path.stem}-sweep"
+    folder = check_output_folder(Path(out) if out is not None
+                                 else path.parent / f"{path.stem}-sweep")
     points = spec.points()
     fingerprints = plan_points(data, path, spec)
     with folder_lock(folder):
@@ -220,7 +222,7 @@ def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
             raise exc.located(source=str(path)) from None
         results = [done[i] if i in done else read_point(folder, i) for i in range(len(points))]
         document = _tracked_document(data, path, spec, base, results, progress)
-        with staged_output(folder) as files:
+        with staged_output(folder, kind="sweep") as files:
             files.write_text("sweep.json", strict_json.dumps(document, indent=1))
             files.write_text("sweep.csv", sweep_csv(document))
             from .chart import write_mode_chart
@@ -285,9 +287,21 @@ def _solve_points(data, path, spec: SweepSpec, fingerprints, todo, folder, jobs,
     tasks = [(data, path, spec.axes, points[i], fingerprints[i], folder, i) for i in rest]
     try:
         with worker_pool(usable) as pool:
-            for k, index in enumerate(pool.map(_solve_and_save, tasks), start=2):
-                progress.step(f"point {index + 1} of {len(points)} solved "
-                              f"({k} of {len(todo)}, {time.perf_counter() - t0:.1f} s)")
+            futures = submit_without_ctrl_c(pool, _solve_and_save, tasks)
+            try:
+                for k, finished in enumerate(as_completed(futures), start=2):
+                    index = finished.result()
+                    progress.step(f"point {index + 1} of {len(points)} solved "
+                                  f"({k} of {len(todo)}, {time.perf_counter() - t0:.1f} s)")
+            except KeyboardInterrupt:
+                stop_workers(pool)
+                raise
+            except BrokenProcessPool:
+                raise
+            except Exception:
+                for future in futures:      # a point failed: start no more
+                    future.cancel()
+                raise
     except BrokenProcessPool:
         raise ResourceError("a worker process ended abruptly (killed, perhaps by the "
                             "system for lack of memory); the points solved so far are kept: "

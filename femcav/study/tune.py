@@ -21,7 +21,7 @@ from scipy.optimize import brentq
 
 from ..errors import InputError
 from ..io import strict_json
-from ..io.atomic import staged_output
+from ..io.atomic import check_output_folder, staged_output
 from ..progress import SILENT, Progress
 from ..schema import TUNE, check_table, read
 from ..units import format_frequency
@@ -145,6 +145,8 @@ def run_tune(path: str | Path, *, out: str | Path | None = None,
              progress: Progress = SILENT) -> tuple[dict, Path]:
     path = Path(path)
     data, spec, base = load_study(path, parse_tune, tune_trials)
+    folder = check_output_folder(Path(out) if out is not None
+                                 else path.parent / f"{path.stem}-tune")
     try:
         reference = _reference_value(data, spec, base)
         runs = _Evaluations(data, path, spec, progress)
@@ -171,8 +173,7 @@ def run_tune(path: str | Path, *, out: str | Path | None = None,
                 "bracket": list(spec.bracket), "iterations": iterations,
                 "evaluations": [{"value": v, "frequency_hz": r.modes[j].frequency_hz}
                                 for v, r, j in runs.points], **final}
-    folder = Path(out) if out is not None else path.parent / f"{path.stem}-tune"
-    with staged_output(folder) as files:
+    with staged_output(folder, kind="tune") as files:
         files.write_text("tune.json", strict_json.dumps(document, indent=1))
     return document, folder
 

@@ -84,3 +84,25 @@ def _watch_parent(parent_pid: int) -> None:
     while os.getppid() == parent_pid:
         time.sleep(PARENT_POLL_SECONDS)
     os.kill(os.getpid(), signal.SIGTERM)
+
+
+def submit_without_ctrl_c(pool: ProcessPoolExecutor, function, tasks) -> list:
+    """Submit ``function`` for every task, the workers started with Ctrl-C ignored: it is the parent's to
+    handle (it stops the workers), and a worker that took it too would print its own
+    traceback. Submitting starts the workers; they inherit the ignored signal through exec,
+    so it holds from their first line (imports included). (Not pool.map: on Ctrl-C it
+    cancels the futures, and Python 3.11's executor then raises in its own thread when the
+    stopped workers break the pool.)"""
+    previous = signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        return [pool.submit(function, task) for task in tasks]
+    finally:
+        signal.signal(signal.SIGINT, previous)
+
+
+def stop_workers(pool: ProcessPoolExecutor) -> None:
+    """End the workers now (the executor has no public way to end a running task): the
+    executor then sees a broken pool and fails the points not done, so leaving the ``with``
+    block does not wait for them. Their temporaries are removed by the next run."""
+    for process in list((getattr(pool, "_processes", None) or {}).values()):
+        process.terminate()

@@ -78,7 +78,7 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
                       _cell(m.get("q_total"))]
         cells += [_cell(m["residual"], ".1e"), _cell(m["divergence"], ".1e"),
                   _cell(m["orthogonality"], ".1e"),
-                  "ok" if m["passed"] else '<span class="failed">FAILED</span>']
+                  _check_cell(m)]
         rows.append("<tr>" + "".join(f"<td>{c}</td>" for c in cells) + "</tr>")
     table = ("<table><thead><tr>" + "".join(f"<th>{e(h)}</th>" for h in head)
              + "</tr></thead><tbody>" + "".join(rows) + "</tbody></table>")
@@ -93,6 +93,8 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
         ("sparse direct library", document.get("factorization") or "-"),
         ("timings", timings or "-"),
         ("all checks passed", "yes" if document.get("checks_passed") else "NO"),
+        ("all modes resolved by the mesh",
+         {True: "yes", False: "NO: refine the mesh", None: "-"}[document.get("modes_resolved")]),
         ("optical volume for the Weyl check",
          f"{weyl['optical_volume_m3'] * 1e6:.5g} cm³" if weyl.get("optical_volume_m3") else "-"),
     ]
@@ -150,3 +152,14 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
             f"<h2>Case</h2>\n{summary_html}\n<h2>Modes</h2>\n{table}\n"
             + "\n".join(figures) + f"\n<h2>Checks</h2>\n{checks}\n</body>\n</html>\n")
     path.write_text(page, encoding="utf-8")
+
+
+def _check_cell(mode: dict) -> str:
+    """ok, or what is wrong: failed checks, too few elements per wavelength, Q warnings."""
+    notes = [] if mode["passed"] else ["FAILED"]
+    if mode.get("resolved") is False:
+        notes.append(f"NOT RESOLVED ({mode.get('points_per_wavelength') or 0:.2g} elements "
+                     "per wavelength)")
+    notes += [html.escape(w) for w in mode.get("loss_warnings") or []]
+    return ("ok" if not notes else
+            '<span class="failed">' + "<br>".join(notes) + "</span>")

@@ -8,31 +8,24 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
-from ..errors import InputError
-from ..io.atomic import staged_output
+from ..errors import BrokenResultFolder, InputError
+from ..io.atomic import read_manifest, staged_output
 from ..units import format_frequency
 from .mode_picture import draw_mode_picture
 
 
 def show(folder: str | Path, *, mode: int | None = None, arrows: str = "E") -> list[Path]:
     folder = Path(folder)
-    table, fields = folder / "modes.json", folder / "fields.vtu"
-    for needed in (table, fields):
-        if not needed.is_file():
-            raise InputError(f"{needed.name} not found: {folder} is not a femcav result folder "
-                             "(femcav solve writes one)", source=str(folder))
-    try:
-        document = json.loads(table.read_text(encoding="utf-8"))
-    except (json.JSONDecodeError, UnicodeDecodeError) as exc:
-        raise InputError(f"modes.json cannot be read ({exc})", source=str(table)) from None
-    modes = document.get("modes", [])
+    document = read_modes_document(folder)
+    modes = document["modes"]
     if mode is not None and not 1 <= mode <= len(modes):
         raise InputError(f"the folder has modes 1 to {len(modes)}, not {mode}", field="--mode")
-    import pyvista as pv
-
-    grid = pv.read(fields)
+    wanted = [row["index"] for row in modes if mode is None or row["index"] == mode]
+    grid = read_fields(folder, wanted, arrows)
     written = []
-    with staged_output(folder) as files:
+    # redrawing every mode replaces all the pictures; one mode adds to them
+    with staged_output(folder, kind="pictures",
+                       replaces=("pictures",) if mode is None else ()) as files:
         if mode is None and modes:
             from .spectrum import write_spectrum
             files.write_with("spectrum.png", lambda p: write_spectrum(document, p),
@@ -55,7 +48,81 @@ def show(folder: str | Path, *, mode: int | None = None, arrows: str = "E") -> l
         from .report import write_report
 
         pictures = {p.stem: p for p in written}
-        with staged_output(folder) as files:
+        with staged_output(folder, kind="pictures", replaces=()) as files:
             files.write_with("report.html", lambda p: write_report(document, pictures, p))
         written.append(folder / "report.html")
     return written
+
+
+# what the pictures and the report read of every mode row of modes.json
+_MODE_KEYS = {"index": int, "frequency_hz": (int, float), "residual": (int, float),
+              "divergence": (int, float), "orthogonality": (int, float), "passed": bool}
+
+
+def read_modes_document(folder: Path) -> dict:
+    """modes.json of a result folder, checked for what show needs; BrokenResultFolder says
+    what is wrong (InputError when the folder itself does not exist)."""
+    if not folder.is_dir():
+        raise InputError("no such folder (give a folder written by femcav solve)",
+                         source=str(folder))
+    table = folder / "modes.json"
+    if not table.is_file():
+        writers = sorted(set(read_manifest(folder).values()) - {"solve", "pictures"})
+        others = sorted(p.name for p in folder.glob("*.json") if not p.name.startswith("."))
+        kind = (f" (femcav {' and '.join(writers)} wrote it)" if writers else
+                f" (it holds {', '.join(others)}: another command's results)" if others else "")
+        raise BrokenResultFolder(folder, f"modes.json not found: not a femcav solve result "
+                                         f"folder{kind}; femcav solve writes one")
+    try:
+        document = json.loads(table.read_text(encoding="utf-8"))
+    except (ValueError, UnicodeDecodeError) as exc:
+        raise BrokenResultFolder(folder, f"modes.json cannot be read ({exc}); solve the "
+                                         "case again") from None
+    if not isinstance(document, dict) or document.get("format") != "femcav-modes":
+        raise BrokenResultFolder(folder, "modes.json is not a femcav mode table (no "
+                                         '"format": "femcav-modes"); solve the case again')
+    modes = document.get("modes")
+    if not isinstance(modes, list):
+        raise BrokenResultFolder(folder, "modes.json has no list of modes; solve the case "
+                                         "again")
+    for k, row in enumerate(modes, start=1):
+        bad = [key for key, kind in _MODE_KEYS.items()
+               if not isinstance(row, dict) or not isinstance(row.get(key), kind)
+               or (kind is not bool and isinstance(row.get(key), bool))]
+        if bad:
+            raise BrokenResultFolder(folder, f"modes.json: mode entry {k} lacks a valid "
+                                             f"{', '.join(bad)}; solve the case again")
+    return document
+
+
+def read_fields(folder: Path, indices: list[int], arrows: str):
+    """fields.vtu with the arrays the pictures of ``indices`` need, or BrokenResultFolder."""
+    fields = folder / "fields.vtu"
+    if not fields.is_file():
+        raise BrokenResultFolder(folder, "fields.vtu not found (the fields of the modes); "
+                                         "solve the case again")
+    import pyvista as pv
+    from vtkmodules.vtkCommonCore import vtkObject
+
+    # a damaged file makes VTK print its own error lines; the one line below says it all
+    shown = vtkObject.GetGlobalWarningDisplay()
+    vtkObject.GlobalWarningDisplayOff()
+    try:
+        grid = pv.read(fields)
+    except Exception as exc:  # noqa: BLE001 - VTK's readers raise many kinds
+        raise BrokenResultFolder(folder, f"fields.vtu cannot be read ({exc}); solve the "
+                                         "case again") from None
+    finally:
+        vtkObject.SetGlobalWarningDisplay(shown)
+    if getattr(grid, "n_cells", 0) == 0:
+        raise BrokenResultFolder(folder, "fields.vtu holds no cells (damaged or cut "
+                                         "short); solve the case again")
+    needed = ["region"] + [f"m{k:02d}_{name}" for k in indices
+                           for name in dict.fromkeys(("E", arrows))]
+    missing = [name for name in needed if name not in grid.cell_data]
+    if missing:
+        shown_names = ", ".join(missing[:4]) + (" ..." if len(missing) > 4 else "")
+        raise BrokenResultFolder(folder, f"fields.vtu lacks the arrays {shown_names} "
+                                         "(it belongs to another result or is damaged); "
+                                         "solve the case again")
+    return grid
