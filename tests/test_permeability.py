@@ -65,9 +65,9 @@ def _betas(k0, m, eps, mu):
     return eps[0] * mu[0] * k0**2 - kx**2, eps[1] * mu[1] * k0**2 - kx**2
 
 
-def layered_condition(k0, m, eps, mu):
+def layered_condition(k0, m, eps, mu, t=T):
     b1, b2 = _betas(k0, m, eps, mu)
-    return _c(b1, T) * _s(b2, D - T) + mu[0] / mu[1] * _s(b1, T) * _c(b2, D - T)
+    return _c(b1, t) * _s(b2, D - t) + mu[0] / mu[1] * _s(b1, t) * _c(b2, D - t)
 
 
 def layered_k0(m, eps, mu, count):
@@ -80,9 +80,9 @@ def layered_k0(m, eps, mu, count):
     return roots[:count]
 
 
-def layered_frequency(m, eps, mu, near_k0):
-    """The root next to ``near_k0`` for slightly changed media, in Hz."""
-    k = brentq(layered_condition, 0.99 * near_k0, 1.01 * near_k0, args=(m, eps, mu),
+def layered_frequency(m, eps, mu, near_k0, t=T):
+    """The root next to ``near_k0`` for slightly changed media or layer, in Hz."""
+    k = brentq(layered_condition, 0.99 * near_k0, 1.01 * near_k0, args=(m, eps, mu, t),
                xtol=1e-13)
     return c * k / (2 * math.pi)
 
@@ -150,7 +150,9 @@ def test_layered_magnetic_box_frequencies_q_and_sensitivities(layered_mesh, form
                                                        rel=2e-2), (which, region)
 
 
-def test_case_file_sensitivities_of_the_layered_box(tmp_path):
+def test_case_file_sensitivities_and_tolerance_of_the_layered_box(tmp_path):
+    # Also an indexed tolerance key: block_size[2] is the layer's thickness t, whose
+    # derivative df/dt comes from the same condition (measured agreement 3e-4).
     case = tmp_path / "layered.toml"
     case.write_text(f"""
 title = "Made-up layered ferrite test box"
@@ -173,6 +175,8 @@ size = "4 mm"
 modes = 1
 order = 2
 sensitivities = true
+[tolerances]
+"block_size[2]" = "10 um"
 """)
     assert main(["solve", str(case), "--out", str(tmp_path / "out"), "-q", "--no-report"]) == 0
     mode = json.loads((tmp_path / "out" / "modes.json").read_text())["modes"][0]
@@ -182,3 +186,8 @@ sensitivities = true
         for layer, region in enumerate(("block", "air")):
             assert mode["sensitivity_hz"][key][region] == pytest.approx(
                 derivative(m, k0, which, layer), rel=2e-2)
+    step = 1e-7
+    df_dt = (layered_frequency(m, EPS, MU, k0, T + step)
+             - layered_frequency(m, EPS, MU, k0, T - step)) / (2 * step)
+    spread = mode["tolerance"]["delta_f_hz"]["block_size[2]"]
+    assert spread == pytest.approx(abs(df_dt) * 10e-6, rel=1e-2)
