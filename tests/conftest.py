@@ -1,14 +1,44 @@
 """Shared test helpers: meshes written as gmsh .msh files, so that tests also exercise mesh
 import. Test modules import them with ``from conftest import ...``."""
 
+import os
 import sys
 from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).parent))
 
 import numpy as np  # noqa: E402
+import pytest  # noqa: E402
 
 from femcav.geometry.gmsh_session import gmsh_model  # noqa: E402
+
+CHECKOUT = Path(__file__).resolve().parent.parent
+# What Python and pytest themselves keep in the checkout (byte code, the test cache, an
+# editable install's metadata, a local environment), and git's own folder.
+NOT_OURS = {"__pycache__", ".pytest_cache", ".git", ".venv"}
+
+
+def checkout_files() -> dict[str, int]:
+    """Every file under the checkout (path -> modification time), outside NOT_OURS."""
+    found = {}
+    for folder, subfolders, files in os.walk(CHECKOUT):
+        subfolders[:] = [d for d in subfolders
+                         if d not in NOT_OURS and not d.endswith(".egg-info")]
+        for name in files:
+            path = os.path.join(folder, name)
+            found[path] = os.stat(path).st_mtime_ns
+    return found
+
+
+@pytest.fixture(scope="session", autouse=True)
+def checkout_stays_clean():
+    """Tests write only into pytest's tmp_path: fail the run if any file of the checkout
+    appeared or changed while it ran."""
+    before = checkout_files()
+    yield
+    after = checkout_files()
+    touched = sorted(p for p, stamp in after.items() if before.get(p) != stamp)
+    assert not touched, f"the tests wrote into the checkout: {touched[:10]}"
 
 
 def faces_by_bounds(gmsh, predicate) -> list[int]:

@@ -258,18 +258,18 @@ def test_degenerate_pair_is_matched_as_a_subspace(pillbox_results):
 
 # --- the bars against closed forms ---
 
-def well_resolved(e) -> bool:
+def well_resolved(e, sizes=SIZES) -> bool:
     """Converging monotonically at the rate of lowest-order elements (2 ± 0.5), judged from
     the matched frequencies alone with the constant-ratio formula (common practice)."""
     f = np.array(e.matched_hz, dtype=float)
     d = np.diff(f)
     if np.any(np.isnan(f)) or np.any(np.sign(d) != np.sign(d[0])):
         return False
-    r = math.sqrt(SIZES[0] / SIZES[-1])        # the mean ratio of consecutive sizes
+    r = math.sqrt(sizes[0] / sizes[-1])        # the mean ratio of consecutive sizes
     return 1.5 <= math.log(d[0] / d[1]) / math.log(r) <= 2.5
 
 
-def check_bars(estimates, exact):
+def check_bars(estimates, exact, sizes=SIZES):
     inside, resolved = 0, []
     for e, f in zip(estimates, exact):
         true = abs(e.frequency_hz - f)
@@ -277,7 +277,7 @@ def check_bars(estimates, exact):
         # distinct closed-form frequencies (checked here at 1 %)
         assert true < 1e-2 * f
         inside += true <= e.error_estimate_hz
-        if well_resolved(e):
+        if well_resolved(e, sizes):
             resolved.append(e.error_estimate_hz / true)
     return inside, resolved
 
@@ -291,7 +291,8 @@ def test_true_error_lies_within_the_bar(part, box_results, pillbox_results):
     inside, resolved = check_bars(estimates, exact)
     assert inside >= 9, f"{inside} of {COUNT} inside"
     assert resolved, "no well-resolved mode: the bound below would test nothing"
-    assert max(resolved) <= 10, resolved
+    # a bar, not a shrug: the study below measured 1.2 to 11.6 times the true error
+    assert max(resolved) <= 15, resolved
 
 
 def test_driver_trims_to_the_request_in_the_h_form():
@@ -315,12 +316,21 @@ def test_driver_trims_to_the_request_in_the_h_form():
 
 
 # --- the study behind the safety factors ---
+#
+# Each sequence is three meshes of a box or a pillbox in one form; with the two of the
+# fixtures above (E form) that makes 14 sequences of 10 modes. All 140 true errors fell
+# inside their bars, and where the observed rate was 2 ± 0.5 a bar was 1.2 to 11.6 times the
+# true error (measured). The default run adds the coarsest sequence in the H form; the
+# rest, which take most of the time, run with -m slow.
 
-@pytest.mark.slow
-@pytest.mark.parametrize("form", ["E", "H"])
-@pytest.mark.parametrize("sizes", [(0.0028, 0.002, 0.00145), (0.0025, 0.0018, 0.0013),
-                                   (0.0036, 0.0026, 0.0019)])
-@pytest.mark.parametrize("part", ["box", "pillbox"])
+COARSEST, MIDDLE, FINEST = (0.0036, 0.0026, 0.0019), (0.0028, 0.002, 0.00145), \
+    (0.0025, 0.0018, 0.0013)
+
+
+@pytest.mark.parametrize("part, sizes, form", [
+    (part, sizes, form) if (sizes, form) == (COARSEST, "H")
+    else pytest.param(part, sizes, form, marks=pytest.mark.slow)
+    for part in ("box", "pillbox") for sizes in (COARSEST, MIDDLE, FINEST) for form in "EH"])
 def test_bars_hold_over_other_mesh_sequences(part, sizes, form):
     dims = (dict(width=A, height=B, length=D) if part == "box"
             else dict(radius=RADIUS, length=LENGTH))
@@ -328,9 +338,9 @@ def test_bars_hold_over_other_mesh_sequences(part, sizes, form):
     exact = (lowest_box_frequencies(A, B, D, COUNT) if part == "box"
              else lowest_pillbox_frequencies(RADIUS, LENGTH, COUNT))
     estimates = estimate_from_results(results, sizes, indices=range(COUNT))
-    inside = sum(abs(e.frequency_hz - f) <= e.error_estimate_hz
-                 for e, f in zip(estimates, exact))
+    inside, resolved = check_bars(estimates, exact, sizes)
     assert inside >= 9, f"{inside} of {COUNT} inside"
+    assert max(resolved, default=0) <= 15, resolved
 
 
 # --- through the case file -------------------------------------------------------------
@@ -354,30 +364,55 @@ def _run_case(tmp_path, extra, expect=0, base=ESTIMATE_CASE):
     from femcav.cli import main
     case = tmp_path / "case.toml"
     case.write_text(base + extra)
-    assert main(["solve", str(case), "-q"]) == expect
+    assert main(["solve", str(case), "-q", "--no-report"]) == expect
     path = tmp_path / "case-results" / "modes.json"
     return json.loads(path.read_text()) if expect == 0 else None
 
 
+def relative_bars(doc):
+    return [m["error_estimate_hz"] / m["frequency_hz"] for m in doc["modes"]]
+
+
 def test_case_file_error_bars_contain_the_closed_form(tmp_path):
     # Closed form: Pozar, Microwave Engineering, 4th ed., §6.3 (from memory).
-    from femcav.analytic.box import lowest_box_frequencies
     doc = _run_case(tmp_path, "error_estimate = true\n")
     exact = lowest_box_frequencies(0.02286, 0.01016, 0.030, 5)
-    inside = [abs(m["frequency_hz"] - f) <= m["error_estimate_hz"]
-              for m, f in zip(doc["modes"], exact)]
-    assert sum(inside) >= 4, doc["modes"]
+    true = [abs(m["frequency_hz"] / f - 1) for m, f in zip(doc["modes"], exact)]
+    bars = relative_bars(doc)
+    assert sum(t <= b for t, b in zip(true, bars)) >= 4, (true, bars)
+    # and a bar, not a shrug: at this mesh the true errors are 1.8e-3 to 8.3e-3 (h² of order-1
+    # elements), so no bar may be wider than 10 times the largest of them
+    assert max(bars) < 10 * max(true), (true, bars)
     assert all(m["extrapolated_hz"] > 0 for m in doc["modes"])
 
 
-def test_accuracy_target_refines_until_met_or_says_it_could_not(tmp_path):
-    coarse = ESTIMATE_CASE.replace('size = "2.2 mm"', 'size = "4 mm"').replace("modes = 5",
-                                                                               "modes = 2")
-    doc = _run_case(tmp_path, 'accuracy = "1 %"\n', base=coarse)
+ACCURACY_CASE = ESTIMATE_CASE.replace('size = "2.2 mm"', 'size = "5 mm"').replace(
+    "modes = 5", "modes = 2\norder = 2")
+
+
+def test_accuracy_target_refines_until_every_bar_is_within_it(tmp_path):
+    # The first three meshes (6.2 to 5 mm) give TE101 a bar inside 0.1 % and TE102 one
+    # outside it (measured 5.7e-4 and 1.5e-3): the run must go on to a finer mesh until the
+    # largest bar, not the smallest, is within the target, and the bars must hold the true
+    # errors (Pozar §6.3, from memory).
+    doc = _run_case(tmp_path, 'accuracy = "0.1 %"\n', base=ACCURACY_CASE)
+    bars = relative_bars(doc)
     assert doc["accuracy"]["reached"] is True
-    assert doc["accuracy"]["largest_relative_bar"] <= 0.01
-    doc = _run_case(tmp_path, 'accuracy = "1 ppm"\nmax_dofs = 5000\n', base=coarse)
-    assert doc["accuracy"]["reached"] is False and doc["dofs"] <= 5000
+    assert doc["accuracy"]["largest_relative_bar"] == pytest.approx(max(bars), rel=1e-12)
+    assert max(bars) <= 1e-3, bars
+    exact = lowest_box_frequencies(0.02286, 0.01016, 0.030, 2)
+    for mode, f, bar in zip(doc["modes"], exact, bars):
+        assert abs(mode["frequency_hz"] / f - 1) <= bar
+
+
+def test_accuracy_target_out_of_reach_says_so(tmp_path):
+    # The same part with max_dofs below the next mesh (1.9k DOFs, then 4.6k): the target is
+    # not reached, and the summary reports the largest bar.
+    doc = _run_case(tmp_path, 'accuracy = "0.1 %"\nmax_dofs = 2500\n', base=ACCURACY_CASE)
+    bars = relative_bars(doc)
+    assert doc["dofs"] <= 2500
+    assert doc["accuracy"]["largest_relative_bar"] == pytest.approx(max(bars), rel=1e-12)
+    assert doc["accuracy"]["reached"] is (max(bars) <= 1e-3) is False, bars
 
 
 def test_error_estimate_needs_a_builder(tmp_path, capsys):

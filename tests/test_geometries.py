@@ -5,6 +5,7 @@ import subprocess
 import sys
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from femcav.case import build_mesh, case_model, load_case
@@ -27,16 +28,27 @@ def test_demo_case_builds_a_valid_model(case):
 
 
 def test_family_script_writes_mesh_and_picture(tmp_path):
-    script = FOLDER / "comb_line_resonator.py"
-    run = subprocess.run([sys.executable, str(script)], capture_output=True, text=True,
-                         cwd=tmp_path, check=True)
-    folder = FOLDER / "comb_line_resonator-results"
-    try:
-        assert "minimum quality" in run.stdout
-        for name in ("mesh.msh", "mesh.vtu", "mesh.png"):
-            assert (folder / name).stat().st_size > 0
-    finally:
-        for name in ("mesh.msh", "mesh.vtu", "mesh.png"):
-            (folder / name).unlink(missing_ok=True)
-        if folder.exists() and not any(folder.iterdir()):
-            folder.rmdir()
+    # A copy of the script, its helper and its case in tmp_path: the script writes next to
+    # its case, and tests never write into the checkout.
+    import shutil
+
+    from PIL import Image
+
+    from femcav.geometry import coax, read_mesh
+    from femcav.viz.mesh_picture import IMAGE_SIZE
+
+    for name in ("comb_line_resonator.py", "comb_line_resonator.toml", "_demo.py"):
+        shutil.copy(FOLDER / name, tmp_path / name)
+    run = subprocess.run([sys.executable, str(tmp_path / "comb_line_resonator.py")],
+                         capture_output=True, text=True, cwd=tmp_path, check=True)
+    folder = tmp_path / "comb_line_resonator-results"
+    mesh = read_mesh(folder / "mesh.msh")
+    # the coaxial builder's regions and walls, and the count the script printed
+    assert set(mesh.region_names) == set(coax.REGIONS) and set(mesh.wall_names) == set(coax.WALLS)
+    assert f"{mesh.n_tets} tetrahedra" in run.stdout and "minimum quality" in run.stdout
+    # 60 mm long, radii 10 and 3 mm: the annulus's volume, less what chords cut off
+    assert mesh.tet_volumes().sum() == pytest.approx(np.pi * (0.01**2 - 0.003**2) * 0.06,
+                                                     rel=2e-2)
+    with Image.open(folder / "mesh.png") as image:
+        assert image.size == IMAGE_SIZE
+        assert np.asarray(image.convert("L"), dtype=float).std() > 5   # not a blank canvas

@@ -69,31 +69,22 @@ def test_pillbox_tm010_wall_q_and_its_split():
     # side wall loses R_s π a d (E0 J1/η)², the two end plates R_s π a² (E0 J1/η)², so
     # Q = p01 η d / (2 R_s (a + d)), split d/(a+d) : a/(a+d) (derived from the fields of
     # Pozar §6.4; common practice).
+    # Curved quadratic tetrahedra, order 2: measured Q error 4e-4.
     radius, length = 0.010, 0.015
-    mesh = build_part("pillbox", radius=radius, length=length, mesh_size=0.0012)
+    mesh = build_part("pillbox", radius=radius, length=length, mesh_size=0.004, curved=True)
     result = solve_model(make_model(mesh, {"inside": Material()},
-                                    metal(("side", "bottom", "top"))), modes=1, form="H")
+                                    metal(("side", "bottom", "top"))), modes=1, form="H",
+                         order=2)
     mode = result.modes[0]
     p01 = jn_zeros(0, 1)[0]
     rs = surface_resistance(2 * math.pi * mode.frequency_hz, COPPER)
     eta = math.sqrt(mu_0 / epsilon_0)
     exact = p01 * eta * length / (2 * rs * (radius + length))
-    assert mode.losses.q_wall == pytest.approx(exact, rel=1e-2)
+    assert mode.losses.q_wall == pytest.approx(exact, rel=2e-3)
     share = mode.losses.wall_loss_share
-    assert share["side"] == pytest.approx(length / (radius + length), abs=5e-3)
-    assert share["bottom"] + share["top"] == pytest.approx(radius / (radius + length), abs=5e-3)
-
-
-def test_filled_cavity_q_dielectric_is_one_over_tan_delta():
-    # Completely filled: every mode has filling factor 1 and Q_d = 1/tan δ (Pozar §6.3).
-    mesh = build_part("box", width=0.02, height=0.01, length=0.025, mesh_size=0.004)
-    for form in ("E", "H"):
-        result = solve_model(make_model(mesh, {"inside": Material(eps_r=4.0, tan_delta=2e-4)},
-                                        {}), modes=3, form=form)
-        for mode in result.modes:
-            assert mode.losses.q_dielectric == pytest.approx(5000, rel=1e-6)
-            assert mode.losses.filling_factor["inside"] == pytest.approx(1.0, rel=1e-12)
-            assert mode.losses.q_wall is None
+    assert share["side"] == pytest.approx(length / (radius + length), abs=1e-3)
+    assert share["bottom"] == pytest.approx(radius / (2 * (radius + length)), abs=1e-3)
+    assert share["top"] == pytest.approx(radius / (2 * (radius + length)), abs=1e-3)
 
 
 @pytest.fixture(scope="module")
@@ -124,30 +115,102 @@ def test_perturbation_agrees_with_the_complex_solve(slab_model, form):
     model = make_model(mesh, {"air": Material(), "slab": Material(eps_r=4.0, tan_delta=1e-3)},
                        {})
     result = solve_model(model, modes=3, form=form, complex_check=True)
+    # The perturbation formulas are first order in tan δ, so they differ from the complex
+    # eigenvalue by O(tan² δ) = 1e-6 relative (common practice); measured 2e-7 and 3e-7.
     for mode in result.modes:
-        assert mode.q_dielectric_complex == pytest.approx(mode.losses.q_dielectric, rel=1e-2)
-        assert mode.complex_frequency_hz == pytest.approx(mode.frequency_hz, rel=1e-5)
+        assert mode.q_dielectric_complex == pytest.approx(mode.losses.q_dielectric, rel=2e-6)
+        assert mode.complex_frequency_hz == pytest.approx(mode.frequency_hz, rel=2e-6)
 
 
-def test_wall_q_scales_as_square_root_of_conductivity():
-    # R_s = sqrt(ω μ0 / 2σ), so Q_wall ∝ sqrt(σ) (common practice).
-    mesh = build_part("box", width=0.02, height=0.01, length=0.025, mesh_size=0.004)
-    q = [solve_model(make_model(mesh, {"inside": Material()}, metal(BOX_WALLS, sigma)),
-                     modes=1).modes[0].losses.q_wall for sigma in (COPPER, COPPER / 4)]
-    assert q[0] / q[1] == pytest.approx(2.0, rel=1e-9)
+def te101_wall_losses(a, b, d, f, rs):
+    """Loss of TE101 in each wall for E_y = sin(πx/a) sin(πz/d) V/m, and its stored energy.
+
+    H_x = -j (β/kη) sin(πx/a) cos(πz/d), H_z = j (π/(kηa)) cos(πx/a) sin(πz/d) (Pozar §6.3,
+    from memory), β = π/d; P = (R_s/2) ∫|H_t|² dS wall by wall and W = ε0 a b d / 8.
+    ``rs`` maps wall name -> R_s; the sum over all six walls is eq. (6.46)."""
+    k, eta = 2 * math.pi * f / c, math.sqrt(mu_0 / epsilon_0)
+    hx2, hz2 = (math.pi / (d * k * eta)) ** 2, (math.pi / (k * eta * a)) ** 2
+    per_area = {"z_min": hx2 * a * b / 2, "z_max": hx2 * a * b / 2,
+                "x_min": hz2 * b * d / 2, "x_max": hz2 * b * d / 2,
+                "y_min": (hx2 + hz2) * a * d / 4, "y_max": (hx2 + hz2) * a * d / 4}
+    return {w: r / 2 * per_area[w] for w, r in rs.items()}, epsilon_0 * a * b * d / 8
 
 
-def test_roughness_lowers_q_by_the_hammerstad_factor():
-    # With rms roughness equal to the skin depth, K = 1 + (2/π) atan(1.4) = 1.6063
-    # (Hammerstad and Jensen 1980, from memory).
-    mesh = build_part("box", width=0.02, height=0.01, length=0.025, mesh_size=0.004)
-    smooth = solve_model(make_model(mesh, {"inside": Material()}, metal(BOX_WALLS)), modes=1)
-    omega = 2 * math.pi * smooth.modes[0].frequency_hz
-    delta = math.sqrt(2 / (omega * mu_0 * COPPER))
-    rough = solve_model(make_model(mesh, {"inside": Material()},
-                                   metal(BOX_WALLS, roughness=delta)), modes=1)
-    ratio = smooth.modes[0].losses.q_wall / rough.modes[0].losses.q_wall
-    assert ratio == pytest.approx(1 + 2 / math.pi * math.atan(1.4), rel=1e-9)
+def test_te101_wall_losses_add_up_over_the_derived_formula():
+    a, b, d = 0.02286, 0.01016, 0.030
+    f = c / 2 * math.hypot(1 / a, 1 / d)
+    every = {w: math.sqrt(math.pi * f * mu_0 / COPPER) for w in BOX_WALLS}
+    losses, stored = te101_wall_losses(a, b, d, f, every)
+    assert 2 * math.pi * f * stored / sum(losses.values()) == pytest.approx(
+        te10l_q_wall(a, b, d, 1, 1.0, COPPER), rel=1e-12)
+
+
+def test_mixed_metals_and_roughness_wall_by_wall():
+    # Brass side walls x, rough copper broad walls y (rms roughness one skin depth: R_s times
+    # 1 + (2/π) atan(1.4), Hammerstad and Jensen 1980, from memory), an aluminium end wall
+    # z_max and z_min left perfect. R_s = sqrt(π f μ0 / σ) (common practice). Measured at
+    # order 2, 5 mm, H form: Q within 2e-4, shares within 1e-4.
+    a, b, d = 0.02286, 0.01016, 0.030
+    sigma = CONDUCTIVITY_S_PER_M
+    f = c / 2 * math.hypot(1 / a, 1 / d)
+    skin = math.sqrt(1 / (math.pi * f * mu_0 * sigma["copper"]))
+    walls = {"x_min": "brass", "x_max": "brass", "y_min": "copper", "y_max": "copper",
+             "z_max": "aluminium"}
+    rough = {"y_min", "y_max"}
+    hammerstad = 1 + 2 / math.pi * math.atan(1.4)
+    rs = {w: math.sqrt(math.pi * f * mu_0 / sigma[m]) * (hammerstad if w in rough else 1)
+          for w, m in walls.items()}
+    losses, stored = te101_wall_losses(a, b, d, f, rs)
+    total = sum(losses.values())
+    mesh = build_part("box", width=a, height=b, length=d, mesh_size=0.005)
+    model = make_model(mesh, {"inside": Material()},
+                       {w: Wall("metal", conductivity=sigma[m],
+                                **({"roughness": skin} if w in rough else {}))
+                        for w, m in walls.items()})
+    mode = solve_model(model, modes=1, form="H", order=2).modes[0]
+    assert mode.losses.q_wall == pytest.approx(2 * math.pi * f * stored / total, rel=2e-3)
+    for wall, loss in losses.items():
+        assert mode.losses.wall_loss_share[wall] == pytest.approx(loss / total, abs=1e-3)
+    assert "z_min" not in mode.losses.wall_loss_share
+
+
+def pillbox_tm010_wall_q_error(form, size, order=1, curved=False):
+    """Relative error of the TM010 wall Q of a copper pillbox, r = 10 mm, l = 15 mm, and of
+    its frequency, against p01 η l / (2 R_s (r + l)) and c p01 / (2π r) (derived in
+    test_pillbox_tm010_wall_q_and_its_split)."""
+    radius, length = 0.010, 0.015
+    mesh = build_part("pillbox", radius=radius, length=length, mesh_size=size, curved=curved)
+    mode = solve_model(make_model(mesh, {"inside": Material()}, metal(("side", "bottom", "top"))),
+                       modes=1, form=form, order=order).modes[0]
+    p01 = jn_zeros(0, 1)[0]
+    f = c * p01 / (2 * math.pi * radius)
+    rs = math.sqrt(math.pi * f * mu_0 / COPPER)
+    exact = p01 * math.sqrt(mu_0 / epsilon_0) * length / (2 * rs * (radius + length))
+    return mode.losses.q_wall / exact - 1, mode.frequency_hz / f - 1
+
+
+def test_wall_q_converges_like_h_in_the_e_form_and_h_squared_in_the_h_form():
+    # In the E form H is the curl of the unknown, one order less accurate at the wall.
+    # Measured on 3, 2.1 and 1.5 mm meshes: E form -10.7, -8.5, -6.8 % (rate 0.7, still
+    # short of its asymptotic 1), H form -1.0, -0.41, -0.14 % (rate 2.9).
+    sizes = (0.003, 0.0021, 0.0015)
+    rates = {}
+    for form in ("E", "H"):
+        errors = [abs(pillbox_tm010_wall_q_error(form, h)[0]) for h in sizes]
+        rates[form] = np.polyfit(np.log(sizes), np.log(errors), 1)[0]
+        assert errors[-1] < errors[0], (form, errors)
+    assert 0.4 <= rates["E"] <= 1.5, rates
+    assert rates["H"] >= 1.8, rates
+
+
+@pytest.mark.parametrize("order, size", [(2, 0.004), (3, 0.006)])
+def test_curved_higher_order_wall_q(order, size):
+    # Quadratic tetrahedra on the curved wall: measured at 3.6k DOFs, frequency 2e-4 and 1e-4,
+    # wall Q 4e-4 and 1.4e-4 (order 2 and 3); on flat facets the frequency is off by 1 to 2 %.
+    q_error, f_error = pillbox_tm010_wall_q_error("H", size, order=order, curved=True)
+    assert abs(q_error) < 1e-3 and abs(f_error) < 5e-4, (q_error, f_error)
+    _, flat_f_error = pillbox_tm010_wall_q_error("H", size, order=order)
+    assert abs(flat_f_error) > 10 * abs(f_error)
 
 
 LOSSY_CASE = """
@@ -174,13 +237,13 @@ complex_check = true
 def test_case_file_losses_and_outputs(tmp_path, capsys):
     case = tmp_path / "case.toml"
     case.write_text(LOSSY_CASE)
-    assert main(["solve", str(case), "-q"]) == 0
+    assert main(["solve", str(case), "-q", "--no-report"]) == 0
     assert "Q wall" in capsys.readouterr().out
     folder = tmp_path / "case-results"
     doc = json.loads((folder / "modes.json").read_text())
     mode = doc["modes"][0]
-    # eps_r = 2.1 (1 - j 2e-4): Q_d = 1/2e-4 for a filled cavity.
-    assert mode["q_dielectric"] == pytest.approx(5000, rel=1e-6)
+    # eps_r = 2.1 (1 - j 2e-4): Q_d = 1/2e-4 for a filled cavity, here from the complex
+    # eigenvalue (the perturbation side is checked on a layered box, tests/test_permeability)
     assert mode["q_dielectric_complex"] == pytest.approx(5000, rel=1e-3)
     assert set(mode["wall_loss_share"]) == {"side", "top"}   # the bottom stays perfect
     assert sum(mode["wall_loss_share"].values()) == pytest.approx(1.0)

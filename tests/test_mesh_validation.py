@@ -154,7 +154,12 @@ def test_mesh_without_any_tags_is_one_region(tmp_path, capsys):
     case = tmp_path / "case.toml"
     case.write_text('[geometry]\nmesh = "part.vtu"\nmesh_unit = "mm"\n'
                     '[regions.region0]\neps_r = 1\n[solve]\nmodes = 1\n')
-    assert main(["solve", str(case), "-q"]) == 0
+    assert main(["solve", str(case), "-q", "--no-report"]) == 0
+    document = json.loads((tmp_path / "case-results" / "modes.json").read_text())
+    # the untagged grid is the 20 x 10 x 25 mm box: TE101 at (c/2) sqrt(1/a² + 1/d²)
+    # (Pozar §6.3), very coarse mesh
+    exact = 299792458 / 2 * math.hypot(1 / (20 * MM), 1 / (25 * MM))
+    assert document["modes"][0]["frequency_hz"] == pytest.approx(exact, rel=0.03)
 
 
 @pytest.mark.parametrize("gap", [5.0, 0.0])  # apart, or touching the big box at one corner

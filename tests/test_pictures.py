@@ -71,9 +71,13 @@ def test_spectrum_picture_and_weyl_summary(folder):
 
     from PIL import Image
 
+    (folder / "report.html").unlink(missing_ok=True)    # (solved with --no-report)
     show(folder)
     with Image.open(folder / "spectrum.png") as image:
         assert image.format == "PNG" and image.size[0] > 600
+    report = (folder / "report.html").read_text(encoding="utf-8")   # show rebuilt it
+    assert report.startswith("<!DOCTYPE html>") and "Made-up test box" in report
+    assert report.count("data:image/png;base64,") == 4     # the spectrum and 3 modes
     weyl = json.loads((folder / "modes.json").read_text())["weyl"]
     assert weyl["optical_volume_m3"] == pytest.approx(0.02286 * 0.01016 * 0.030, rel=1e-9)
     assert weyl["listed_share"] == 1.0

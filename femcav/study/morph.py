@@ -6,8 +6,9 @@ more than the effect of a 10 µm change). So the mesh of the part at parameter v
 morphed onto the part at p ± δ: the same elements, the nodes moved. Each node on a wall or a
 material interface lies on the surface of one or more of the layout's solids; it follows the
 map that takes its solid at p onto the same solid at p ± δ (a box: affine along each axis; a
-cylinder: affine along its axis and scaled across it), and stays put when one of its solids
-does not change (the rim where a changed puck rests on an unchanged support). Interior
+cylinder: affine along its axis and scaled across it). On a solid that does not change it
+may only slide along that solid's surface (the edge of a layer where it meets a wall), else
+it stays put (the rim where a changed puck rests on an unchanged support). Interior
 nodes follow by harmonic extension (a piecewise-linear Laplace problem per coordinate, the
 surface motion as boundary values), and curved elements' midside nodes off the surfaces
 take the mean of their edge's ends. Then
@@ -100,20 +101,25 @@ def morph(mesh: TaggedMesh, old: Layout, new: Layout) -> TaggedMesh:
     surface = surface_nodes(mesh)
     target = p[surface].copy()
     moved = np.zeros(len(surface))
-    fixed = np.zeros(len(surface), bool)
+    unchanged = []
     for a, b in zip(solids_old, solids_new):
         on = a.on_surface(p[surface], tol)
         if not on.any():
             continue
         if _same(a, b):
-            fixed |= on
+            unchanged.append((a, on))
             continue
         shifted = _map(a, b, p[surface[on]])
         target[on] = np.where(moved[on, None] > 0,
                               (target[on] * moved[on, None] + shifted) / (moved[on, None] + 1),
                               shifted)
         moved[on] += 1
-    target[fixed] = p[surface[fixed]]
+    # A node on an unchanged solid may slide along that solid's surface (the edge of a
+    # layer where it meets a wall) but not leave it (the rim of a support under a puck
+    # whose radius changes): then it stays put.
+    for a, on in unchanged:
+        leaves = on & ~a.on_surface(target, tol)
+        target[leaves] = p[surface[leaves]]
     displacement = np.zeros_like(p)
     displacement[surface] = target - p[surface]
     n_corners = int(mesh.tets.max()) + 1
