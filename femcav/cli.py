@@ -14,8 +14,17 @@ EXIT_INPUT_ERROR = exit_codes.INPUT_ERROR
 EXIT_CHECKS_FAILED = exit_codes.CHECKS_FAILED
 
 
+class _OneLineParser(argparse.ArgumentParser):
+    """argparse with the house rule for mistakes: one line on stderr and exit status 2 (the
+    usage text stays with --help). The subcommands' parsers are of the same class."""
+
+    def error(self, message: str):
+        self.exit(EXIT_INPUT_ERROR,
+                  f"femcav: error: {self.prog}: {printable(message)} (see {self.prog} --help)\n")
+
+
 def _parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    parser = _OneLineParser(
         prog="femcav",
         description="Resonant modes of closed microwave cavities by finite elements.",
         epilog=exit_codes.epilog())

@@ -200,3 +200,16 @@ def test_unreadable_mesh(tmp_path, capsys):
         assert main(["solve", str(case), "-q"]) == 2
         err = capsys.readouterr().err
         assert f"{name}: meshio cannot read this file" in err and len(err.splitlines()) == 1
+
+
+@pytest.mark.parametrize("args", [["solve"], ["solve", "x.toml", "--modes", "abc"],
+                                  ["frob"], ["sweep", "x.toml", "--jobs", "two"],
+                                  ["solve", "x.toml", "--form", "\x1b[31mX"]])
+def test_command_line_mistakes_are_one_line_and_exit_2(args, capsys):
+    # the house rule (README, exit statuses) holds for argument mistakes too
+    with pytest.raises(SystemExit) as stopped:
+        main(args)
+    assert stopped.value.code == 2
+    err = capsys.readouterr().err
+    assert len(err.strip().splitlines()) == 1 and err.startswith("femcav: error: ")
+    assert "\x1b" not in err and "usage:" not in err
