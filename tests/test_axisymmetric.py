@@ -50,14 +50,18 @@ def fine_pillbox():
     return solve_axisymmetric(model, orders=(0, 1, 2), modes=8, order=3)
 
 
-@pytest.mark.parametrize("name, m, field_class, zero, l", [
+# name, m, class, the Bessel zero (of J_m for TM, of J_m' for TE) and l of a pillbox mode
+PILLBOX_MODES = [
     ("TM010", 0, "TM-like", jn_zeros(0, 1)[0], 0),
     ("TM011", 0, "TM-like", jn_zeros(0, 1)[0], 1),
     ("TE011", 0, "TE-like", jnp_zeros(0, 1)[0], 1),
     ("TE111", 1, "TE-like", jnp_zeros(1, 1)[0], 1),
     ("TM110", 1, "TM-like", jn_zeros(1, 1)[0], 0),
     ("TE211", 2, "TE-like", jnp_zeros(2, 1)[0], 1),
-])
+]
+
+
+@pytest.mark.parametrize("name, m, field_class, zero, l", PILLBOX_MODES)
 def test_pillbox_modes_against_bessel_zeros(fine_pillbox, name, m, field_class, zero, l):
     expected = frequency(zero, l)
     mode = find(fine_pillbox, m, field_class, expected)

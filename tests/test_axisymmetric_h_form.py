@@ -26,8 +26,8 @@ from femcav.materials import Material
 from femcav.metals import surface_resistance
 from femcav.walls import Wall
 
-from test_axisymmetric import (A, COPPER, D, ETA, find, frequency, pillbox_section,
-                               wedge_volumes)
+from test_axisymmetric import (A, COPPER, D, ETA, PILLBOX_MODES, find, frequency,
+                               pillbox_section, wedge_volumes)
 
 METAL = {w: Wall("metal", conductivity=COPPER) for w in ("side", "bottom", "top")}
 
@@ -39,13 +39,7 @@ def both_forms():
             for form in "EH"}
 
 
-@pytest.mark.parametrize("name, m, field_class, zero, l", [
-    ("TM010", 0, "TM-like", jn_zeros(0, 1)[0], 0),
-    ("TE011", 0, "TE-like", jnp_zeros(0, 1)[0], 1),
-    ("TE111", 1, "TE-like", jnp_zeros(1, 1)[0], 1),
-    ("TM110", 1, "TM-like", jn_zeros(1, 1)[0], 0),
-    ("TE211", 2, "TE-like", jnp_zeros(2, 1)[0], 1),
-])
+@pytest.mark.parametrize("name, m, field_class, zero, l", PILLBOX_MODES)
 def test_h_form_pillbox_against_bessel_zeros_and_the_e_form(both_forms, name, m, field_class,
                                                            zero, l):
     expected = frequency(zero, l)
