@@ -147,7 +147,7 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
 
     static = pairs.values < STATIC_FRACTION * scale
     values, vectors = pairs.values[~static], pairs.vectors[:, ~static]
-    keep = _select(np.sqrt(np.maximum(values, 0)), modes,
+    keep = select_modes(np.sqrt(np.maximum(values, 0)), modes,
                    None if request.target is None else math.sqrt(request.target))
     values, vectors = values[keep], vectors[:, keep]
     checks = check_modes(K, M, setting.projector, values, vectors)
@@ -211,8 +211,10 @@ def _tan_delta_at_quadrature(space: EdgeSpace) -> np.ndarray:
                              space.mass_coef)
 
 
-def _select(ascending: np.ndarray, count: int, target: float | None) -> np.ndarray:
-    """Indices (ascending) of the ``count`` lowest values, or of those nearest ``target``."""
+def select_modes(ascending: np.ndarray, count: int, target: float | None) -> np.ndarray:
+    """Indices (ascending) of the ``count`` lowest values, or of those nearest ``target``
+    (ties to the lower): the one mode selection of every solver path and of the merge of
+    symmetry classes."""
     if target is None:
         return np.arange(min(count, ascending.size))
     return np.sort(np.argsort(np.abs(ascending - target), kind="stable")[:count])
@@ -227,7 +229,7 @@ def merge_classes(labelled: list[tuple[str, SolveResult]], count: int,
     """
     tagged = [replace(m, symmetry=label) for label, r in labelled for m in r.modes]
     tagged.sort(key=lambda m: m.frequency_hz)
-    keep = _select(np.array([m.frequency_hz for m in tagged]), count, near_hz)
+    keep = select_modes(np.array([m.frequency_hz for m in tagged]), count, near_hz)
     modes = [replace(tagged[j], index=i + 1) for i, j in enumerate(keep)]
     results = [r for _, r in labelled]
     timings = {key: sum(r.timings[key] for r in results) for key in results[0].timings}

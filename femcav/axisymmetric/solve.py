@@ -27,7 +27,7 @@ from ..post.loss_validity import with_complex_warnings, with_loss_warnings
 from ..post.losses import LossReport
 from ..post.resolution import Resolution, mode_resolution
 from ..progress import SILENT, Progress
-from ..solver import check_request, complex_eigenvalues, frequency_to_k0_squared
+from ..solver import check_request, complex_eigenvalues, frequency_to_k0_squared, select_modes
 from .losses import cell_energy, cell_scales, field_class, has_losses, mode_losses
 from .model import AxisymmetricModel
 from .space import (
@@ -140,11 +140,9 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
         for value, vector, check in zip(values, vectors.T, checks):
             found.append((m, float(value), vector, check))
     found.sort(key=lambda item: item[1])
-    if target is not None:
-        nearest = sorted(range(len(found)), key=lambda i: abs(math.sqrt(found[i][1])
-                                                             - math.sqrt(target)))[:modes]
-        found = [found[i] for i in sorted(nearest)]
-    found = found[:modes]
+    keep = select_modes(np.sqrt([item[1] for item in found]), modes,
+                        None if target is None else math.sqrt(target))
+    found = [found[i] for i in keep]
     lossy = has_losses(next(iter(spaces.values())))
     scales = cell_scales(next(iter(spaces.values())))
     result_modes = []
