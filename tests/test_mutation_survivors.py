@@ -153,3 +153,84 @@ def test_estimate_matched_on_an_exact_h_squared_sequence():
     assert second.matched_hz[0] is None
     assert abs(second.frequency_hz - f0[1]) <= second.error_estimate_hz
     assert third.error_estimate_hz is None and third.reason == "no coarser mesh has this mode"
+
+
+# --- study -----------------------------------------------------------------------------------
+
+GOOD_EXTRACT = {"sample": "puck", "empty_frequency": "8 GHz", "empty_q": 5000,
+                "loaded_frequency": "7.9 GHz", "loaded_q": 3000}
+
+
+@pytest.mark.parametrize("change, field, message", [
+    ({"sample": "a puck"}, "extract.sample", "must be the name of the sample's region"),
+    ({"sample": "other"}, "extract.sample", "give [regions.other] with eps_r (the starting guess)"),
+    ({"empty_q": 0}, "extract.empty_q", "must be a positive number, got 0"),
+    ({"loaded_q": True}, "extract.loaded_q", "must be a positive number, got True"),
+    ({"loaded_q": 6000}, "extract.loaded_q", "a lossless-or-lossy sample cannot raise the Q: loaded_q must "
+     "be below empty_q"),
+    ({"eps_bracket": [0.5, 10]}, "extract.eps_bracket", "must be two different numbers >= 1, "
+     "e.g. [1.5, 20]"),
+    ({"eps_bracket": [3, 3]}, "extract.eps_bracket", "must be two different numbers >= 1, "
+     "e.g. [1.5, 20]"),
+    ({"mode": 0}, "extract.mode", "must be a mode number >= 1, got 0"),
+    ({"tolerance": 0.05}, "extract.tolerance", "must be a relative frequency tolerance below 1e-2"),
+    ({"colour": "red"}, "extract.colour", "unknown key; allowed here: empty_frequency, "
+     "empty_q, eps_bracket, loaded_frequency, loaded_q, mode, sample, tolerance"),
+    ({"empty_q": None}, "extract", "missing empty_q"),
+])
+def test_extract_table_refusals_name_the_key(change, field, message):
+    """Each mistake is refused with the key path of the offending entry (the project's
+    input-error contract, DEVELOPERS.md)."""
+    from femcav.errors import InputError
+    from femcav.study.extract import parse_extract
+
+    spec = {k: v for k, v in {**GOOD_EXTRACT, **change}.items() if v is not None}
+    data = {"regions": {"puck": {"eps_r": 10.0}}, "extract": spec}
+    with pytest.raises(InputError) as refused:
+        parse_extract(data)
+    assert refused.value.field == field
+    assert refused.value.message == message
+    spec = parse_extract({"regions": {"puck": {}}, "extract": {**GOOD_EXTRACT,
+                                                                "eps_bracket": [20, 2]}})
+    assert spec.eps_bracket == (2.0, 20.0) and spec.mode == 1 and spec.tolerance == 1e-9
+    assert spec.empty_hz == 8e9 and spec.loaded_hz == 7.9e9
+
+
+def test_mode_chart_shows_lengths_in_millimetres(tmp_path, monkeypatch):
+    """A length parameter (SI metres inside) is drawn in mm, with the unit on the axis."""
+    import matplotlib.pyplot as plt
+
+    from femcav.study.chart import write_mode_chart
+
+    drawn = []
+    monkeypatch.setattr(plt, "close", lambda fig: drawn.append(fig))
+    document = {"parameters": [{"parameter": "geometry.post_depth", "unit": "m",
+                                "values": [1e-3, 2e-3, 3e-3]}],
+                "tracks": [{"track": 1, "frequency_hz": [9.5e9, 9.2e9, None],
+                            "q_total": [None, None, None]}]}
+    write_mode_chart(document, tmp_path / "chart.png")
+    assert (tmp_path / "chart.png").stat().st_size > 0
+    (axes,) = drawn[0].axes
+    assert axes.get_xlabel() == "geometry.post_depth (mm)"
+    (line,) = axes.get_lines()
+    assert list(line.get_xdata()) == pytest.approx([1.0, 2.0])
+    assert list(line.get_ydata()) == pytest.approx([9.5, 9.2])
+
+
+def test_tune_reference_value_of_a_point_coordinate():
+    """`geometry.NAME[i]` starts the tuning from coordinate i of the point, in metres."""
+    from pathlib import Path
+
+    from femcav.case import case_from_data
+    from femcav.study.tune import TuneSpec, _reference_value
+
+    data = {"geometry": {"builder": "loaded_box", "width": "20 mm", "height": "10 mm",
+                         "length": "30 mm", "block_corner": ["1 mm", "2 mm", "3 mm"],
+                         "block_size": ["4 mm", "5 mm", "6 mm"]},
+            "regions": {"block": {"eps_r": 4.0}}}
+    case = case_from_data(data, Path("made-up.toml"))
+    for path, expected in (("geometry.block_corner[1]", 2e-3), ("geometry.block_size[2]", 6e-3),
+                           ("geometry.width", 20e-3), ("regions.block.eps_r", 4.0)):
+        spec = TuneSpec(path=path, kind="length", bracket=(0.0, 1.0), target_hz=1e9, mode=1,
+                        tolerance=1e-6)
+        assert _reference_value(data, spec, case) == pytest.approx(expected, rel=1e-12), path
