@@ -234,3 +234,46 @@ def test_tune_reference_value_of_a_point_coordinate():
         spec = TuneSpec(path=path, kind="length", bracket=(0.0, 1.0), target_hz=1e9, mode=1,
                         tolerance=1e-6)
         assert _reference_value(data, spec, case) == pytest.approx(expected, rel=1e-12), path
+
+
+def test_extract_refuses_a_loaded_frequency_outside_the_bracket(tmp_path):
+    """A sample would have to be below ε_r = 1.5 or above 2 to give the measured (made-up)
+    loaded frequency: refused on the key eps_bracket, nothing written. The loaded frequency
+    lies 30 % below the empty one, which a small rod of ε_r ≤ 2 cannot pull (first-order
+    perturbation: Δf/f ≈ -(ε_r - 1) × its small energy share; Pozar, Microwave Engineering,
+    4th ed., §6.8; from memory)."""
+    from femcav.errors import InputError
+    from femcav.study.extract import run_extract
+
+    walls = "".join(f'[walls.{w}]\nkind = "metal"\nmetal = "copper"\n'
+                    for w in ("x_min", "x_max", "y_min", "y_max", "z_min", "z_max"))
+    case = tmp_path / "fixture.toml"
+    case.write_text(f"""
+title = "Made-up rod fixture in a WR-90 cavity"
+[geometry]
+builder = "loaded_box"
+width = "22.86 mm"
+height = "10.16 mm"
+length = "30 mm"
+block_corner = ["10.93 mm", "0 mm", "14 mm"]
+block_size = ["1 mm", "10.16 mm", "2 mm"]
+[regions.block]
+eps_r = 1.7
+{walls}
+[mesh]
+size = "4 mm"
+[solve]
+modes = 1
+[extract]
+sample = "block"
+empty_frequency = "8.3 GHz"
+empty_q = 7000
+loaded_frequency = "5.8 GHz"
+loaded_q = 5000
+eps_bracket = [1.5, 2]
+""")
+    with pytest.raises(InputError, match="the loaded frequency is not between them") as refused:
+        run_extract(case, out=tmp_path / "out")
+    assert refused.value.field == "extract.eps_bracket"
+    assert refused.value.source == str(case)
+    assert not (tmp_path / "out").exists()
