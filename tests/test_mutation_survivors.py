@@ -245,25 +245,10 @@ def test_extract_refuses_a_loaded_frequency_outside_the_bracket(tmp_path):
     from femcav.errors import InputError
     from femcav.study.extract import run_extract
 
-    walls = "".join(f'[walls.{w}]\nkind = "metal"\nmetal = "copper"\n'
-                    for w in ("x_min", "x_max", "y_min", "y_max", "z_min", "z_max"))
+    from test_extract import FIXTURE   # the rod fixture of the extract tests
+
     case = tmp_path / "fixture.toml"
-    case.write_text(f"""
-title = "Made-up rod fixture in a WR-90 cavity"
-[geometry]
-builder = "loaded_box"
-width = "22.86 mm"
-height = "10.16 mm"
-length = "30 mm"
-block_corner = ["10.93 mm", "0 mm", "14 mm"]
-block_size = ["1 mm", "10.16 mm", "2 mm"]
-[regions.block]
-eps_r = 1.7
-{walls}
-[mesh]
-size = "4 mm"
-[solve]
-modes = 1
+    case.write_text(FIXTURE + """
 [extract]
 sample = "block"
 empty_frequency = "8.3 GHz"
