@@ -10,6 +10,70 @@ import pytest
 import scipy.sparse as sp
 
 
+# --- fem -------------------------------------------------------------------------------------
+
+def test_space_defaults_and_refusals():
+    """Order 1 is the default, with one DOF per mesh edge (Nédélec 1980: the lowest-order
+    edge element); a form or order outside the lists is refused on its key."""
+    from femcav.errors import InputError
+    from femcav.fem.space import build_space
+    from test_gradient import skewed_model
+
+    model = skewed_model()
+    space = build_space(model)
+    assert space.order == 1 and space.form == "E"
+    assert space.dofs.N == space.mesh.edges.shape[1]
+    with pytest.raises(InputError) as refused:
+        build_space(model, "X", 1)
+    assert (refused.value.field, refused.value.message) == (
+        "solve.form", "unknown field form 'X'; allowed: E, H")
+    with pytest.raises(InputError) as refused:
+        build_space(model, "E", 4)
+    assert (refused.value.field, refused.value.message) == (
+        "solve.order", "element order must be one of 1, 2, 3, got 4")
+
+
+def test_mass_matrix_against_scikit_fem_and_grounding():
+    """The H form of a part with PEC walls only has no essential wall: every edge DOF is free,
+    M is scikit-fem's own ∫ u · v, and one node of the (connected) mesh is grounded, which
+    leaves G with full column rank (the kernel of the gradient of a connected mesh is the
+    constants: common practice)."""
+    from skfem import BilinearForm, asm
+    from skfem.helpers import dot
+
+    from femcav.fem.assembly import assemble_mass
+    from femcav.fem.gradient import discrete_gradient
+    from femcav.fem.space import build_space
+    from test_gradient import skewed_model
+
+    space = build_space(skewed_model(), "H", 1)
+    assert space.free.size == space.dofs.N
+    M = assemble_mass(space, space.mass_coef)
+    reference = asm(BilinearForm(lambda u, v, w: dot(u, v)), space.basis)
+    assert abs(M - reference).max() < 1e-12 * abs(reference).max()
+    assert space.free_nodes.size == space.scalar_dofs.N - 1
+    G = discrete_gradient(space)[space.free][:, space.free_nodes].toarray()
+    assert np.linalg.matrix_rank(G) == G.shape[1]
+
+
+@pytest.mark.parametrize("order", [1, 2, 3])
+def test_edge_dof_locations_lie_inside_their_edges(order):
+    """The k DOF locations of each reference edge are distinct points strictly between its
+    two vertices."""
+    from skfem.refdom import RefTet
+
+    from femcav.fem.nedelec import VERTICES, ElementTetNedelec
+
+    element = ElementTetNedelec(order)
+    for e, (a, b) in enumerate(RefTet.edges):
+        points = element.doflocs[e * order:(e + 1) * order]
+        t = (points - VERTICES[a]) @ (VERTICES[b] - VERTICES[a]) / np.sum(
+            (VERTICES[b] - VERTICES[a]) ** 2)
+        on_edge = VERTICES[a] + np.outer(t, VERTICES[b] - VERTICES[a])
+        assert np.allclose(points, on_edge) and np.all((t > 0) & (t < 1))
+        assert np.unique(np.round(t, 12)).size == order
+
+
 # --- eigen -----------------------------------------------------------------------------------
 
 def test_library_names_what_each_factoriser_uses():
