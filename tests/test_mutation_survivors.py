@@ -123,6 +123,64 @@ def test_v_cycle_hierarchy_matches_pyamg_and_converges():
     assert counts["v-cycle"] <= 25 and counts["none"] >= 4 * counts["v-cycle"], counts
 
 
+def test_eigen_refusals_name_the_key_or_the_backend():
+    """An unknown method is a user mistake on solve.method; asking LOBPCG for modes near a
+    target is a programming mistake that names the backend to use instead."""
+    from femcav.eigen import lobpcg
+    from femcav.eigen.interface import EigenRequest
+    from femcav.eigen.selection import choose
+    from femcav.errors import InputError
+
+    with pytest.raises(InputError) as refused:
+        choose("fastest", n=1000, nnz=20000, request=EigenRequest(5), order=1,
+               library="superlu")
+    assert refused.value.field == "solve.method"
+    for request, order in ((EigenRequest(5, target=1e4), 1), (EigenRequest(5), 4)):
+        with pytest.raises(InputError) as refused:
+            choose("iterative", n=1000, nnz=20000, request=request, order=order,
+                   library="superlu")
+        assert refused.value.field == "solve.method"
+    with pytest.raises(ValueError, match="^LOBPCG finds the lowest modes only; for modes near "
+                                         "a target frequency use the shift-invert backend$"):
+        lobpcg.solve(None, None, None, EigenRequest(5, target=1e4), None, lowest_scale=1.0)
+
+
+def test_iterative_memory_estimate_grows_with_the_block():
+    """More vectors in the LOBPCG block can only need more memory (a dense n x block array
+    per vector set: common practice)."""
+    from femcav.eigen.memory import iterative_peak_bytes
+
+    small, large = (iterative_peak_bytes(100_000, 1_500_000, b) for b in (10, 40))
+    assert large - small >= 30 * 100_000 * 8
+
+
+def test_pardiso_checks_the_diagonal_and_releases_its_memory(monkeypatch):
+    """The binding refuses a matrix with an unstored diagonal entry, and frees MKL's
+    memory for a factorisation (phase -1, with the matrix size) when it is dropped."""
+    import gc
+
+    from femcav.eigen import pardiso
+
+    if not pardiso.available():
+        pytest.skip("MKL PARDISO not installed")
+    for with_hole in ([[0.0, 1.0], [1.0, 2.0]], [[2.0, 1.0], [1.0, 0.0]], [[0.0, 0.0], [0.0, 0.0]]):
+        hole = sp.csr_matrix(np.array(with_hole))
+        hole.eliminate_zeros()
+        with pytest.raises(ValueError, match="^PARDISO needs every diagonal entry stored$"):
+            pardiso.pardiso(hole)
+    released = []
+    real_release = pardiso._release
+    monkeypatch.setattr(pardiso, "_release",
+                        lambda lib, pt, iparm, n, mtype: (released.append(n),
+                                                          real_release(lib, pt, iparm, n, mtype)))
+    A = sp.diags([4.0, 5.0, 6.0]).tocsr()
+    solve = pardiso.pardiso(A, definite=True)
+    assert np.allclose(solve(np.array([4.0, 5.0, 6.0])), 1.0)
+    del solve
+    gc.collect()
+    assert released == [3]
+
+
 # --- post: mode labels on closed-form fields -------------------------------------------------
 
 BOX = (0.02286, 0.01016, 0.030)
