@@ -250,6 +250,29 @@ def test_azimuthal_order_is_read_where_the_field_is_strong():
     assert azimuthal_label(points, w, E, H) == "m = 3, TM-like"
 
 
+def test_mesh_quality_names_the_region_of_the_worst_element():
+    """A regular tetrahedron has mean ratio 1; a flattened one 12 (3|V|)^(2/3) / Σ l²
+    (A. Liu and B. Joe, BIT 34 (1994) 268-287; from memory), computed here by hand; the
+    report names the region holding the worst."""
+    from femcav.geometry.mesh import TaggedMesh
+    from femcav.post.mesh_quality import mesh_quality
+
+    regular = np.array([[1, 1, 1], [1, -1, -1], [-1, 1, -1], [-1, -1, 1]], float)
+    flat = np.array([[3, 0, 0], [4, 0, 0], [3, 1, 0], [3, 0, 0.1]], float)
+    mesh = TaggedMesh(points=np.vstack([regular, flat]), tets=np.array([[0, 1, 2, 3],
+                                                                         [4, 5, 6, 7]]),
+                      tet_region=np.array([2, 5]), region_names={"air": 2, "puck": 5},
+                      faces=np.zeros((0, 3), int), face_tag=np.zeros(0, int), wall_names={})
+    volume = 0.1 / 6
+    lengths = [np.linalg.norm(flat[i] - flat[j]) ** 2 for i in range(4) for j in range(i)]
+    expected = 12 * (3 * volume) ** (2 / 3) / sum(lengths)
+    report = mesh_quality(mesh)
+    assert report.worst_region == "puck"
+    assert report.min_quality == pytest.approx(expected, rel=1e-12)
+    assert [r.name for r in report.regions] == ["air", "puck"]
+    assert report.regions[0].min_quality == pytest.approx(1.0, rel=1e-12)
+
+
 # --- post: error bars from matched frequencies -----------------------------------------------
 
 def test_estimate_matched_on_an_exact_h_squared_sequence():
