@@ -93,8 +93,11 @@ class _Factor:
         upper.sum_duplicates()
         upper.sort_indices()
         n = upper.shape[0]
-        diagonal = upper.indices[upper.indptr[:-1]] == np.arange(n)
-        if not np.all(diagonal & (np.diff(upper.indptr) > 0)):
+        stored = np.diff(upper.indptr) > 0
+        # the first entry of each row of the upper triangle (an empty last row has none)
+        first = upper.indices[np.minimum(upper.indptr[:-1], max(upper.nnz - 1, 0))] \
+            if upper.nnz else np.full(n, -1)
+        if not np.all(stored & (first == np.arange(n))):
             raise ValueError("PARDISO needs every diagonal entry stored")
         self.n, self.mtype = n, mtype
         self._data = np.ascontiguousarray(upper.data, dtype=np.float64)

@@ -1,0 +1,409 @@
+"""Tests written for mutants that survived `benchmarks/mutation.py` (see
+benchmarks/mutation_survivors.md): each pins a behaviour that a small change to the code left
+unnoticed by the rest of the suite. All are fast (no mesh larger than a few hundred
+elements)."""
+
+import math
+
+import numpy as np
+import pytest
+import scipy.sparse as sp
+
+
+# --- fem -------------------------------------------------------------------------------------
+
+def test_space_defaults_and_refusals():
+    """Order 1 is the default, with one DOF per mesh edge (Nédélec 1980: the lowest-order
+    edge element); a form or order outside the lists is refused on its key."""
+    from femcav.errors import InputError
+    from femcav.fem.space import build_space
+    from test_gradient import skewed_model
+
+    model = skewed_model()
+    space = build_space(model)
+    assert space.order == 1 and space.form == "E"
+    assert space.dofs.N == space.mesh.edges.shape[1]
+    with pytest.raises(InputError) as refused:
+        build_space(model, "X", 1)
+    assert (refused.value.field, refused.value.message) == (
+        "solve.form", "unknown field form 'X'; allowed: E, H")
+    with pytest.raises(InputError) as refused:
+        build_space(model, "E", 4)
+    assert (refused.value.field, refused.value.message) == (
+        "solve.order", "element order must be one of 1, 2, 3, got 4")
+
+
+def test_mass_matrix_against_scikit_fem_and_grounding():
+    """The H form of a part with PEC walls only has no essential wall: every edge DOF is free,
+    M is scikit-fem's own ∫ u · v, and one node of the (connected) mesh is grounded, which
+    leaves G with full column rank (the kernel of the gradient of a connected mesh is the
+    constants: common practice)."""
+    from skfem import BilinearForm, asm
+    from skfem.helpers import dot
+
+    from femcav.fem.assembly import assemble_mass
+    from femcav.fem.gradient import discrete_gradient
+    from femcav.fem.space import build_space
+    from test_gradient import skewed_model
+
+    space = build_space(skewed_model(), "H", 1)
+    assert space.free.size == space.dofs.N
+    M = assemble_mass(space, space.mass_coef)
+    reference = asm(BilinearForm(lambda u, v, w: dot(u, v)), space.basis)
+    assert abs(M - reference).max() < 1e-12 * abs(reference).max()
+    assert space.free_nodes.size == space.scalar_dofs.N - 1
+    G = discrete_gradient(space)[space.free][:, space.free_nodes].toarray()
+    assert np.linalg.matrix_rank(G) == G.shape[1]
+
+
+@pytest.mark.parametrize("order", [1, 2, 3])
+def test_edge_dof_locations_lie_inside_their_edges(order):
+    """The k DOF locations of each reference edge are distinct points strictly between its
+    two vertices."""
+    from skfem.refdom import RefTet
+
+    from femcav.fem.nedelec import VERTICES, ElementTetNedelec
+
+    element = ElementTetNedelec(order)
+    for e, (a, b) in enumerate(RefTet.edges):
+        points = element.doflocs[e * order:(e + 1) * order]
+        t = (points - VERTICES[a]) @ (VERTICES[b] - VERTICES[a]) / np.sum(
+            (VERTICES[b] - VERTICES[a]) ** 2)
+        on_edge = VERTICES[a] + np.outer(t, VERTICES[b] - VERTICES[a])
+        assert np.allclose(points, on_edge) and np.all((t > 0) & (t < 1))
+        assert np.unique(np.round(t, 12)).size == order
+
+
+# --- eigen -----------------------------------------------------------------------------------
+
+def test_library_names_what_each_factoriser_uses():
+    """`library` says which library a factoriser name resolves to for real matrices: the two
+    explicit names are themselves whatever is installed, "auto" is PARDISO only with MKL."""
+    from femcav.eigen.factorization import library
+    from femcav.eigen.pardiso import available
+
+    assert library("superlu") == "superlu"
+    assert library("pardiso") == "pardiso"
+    assert library("auto") == ("pardiso" if available() else "superlu")
+
+
+def test_v_cycle_hierarchy_matches_pyamg_and_converges():
+    """The V-cycle's operator complexity is pyamg's own for the same hierarchy (sum of the
+    levels' non-zeros over the finest's), and the cycle used as a stationary iteration on the
+    2D Poisson matrix reduces the error by a large factor per cycle (smoothed aggregation on
+    Poisson: common practice; pyamg's gallery matrix as the problem)."""
+    import pyamg
+    from pyamg.gallery import poisson
+
+    from femcav.eigen.hx import MAX_COARSE, BlockVCycle
+
+    A = poisson((60, 60), format="csr")
+    cycle = BlockVCycle(A)
+    state = np.random.get_state()
+    np.random.seed(2024)
+    try:
+        reference = pyamg.smoothed_aggregation_solver(A, max_coarse=MAX_COARSE, max_levels=25,
+                                                      keep=False, improve_candidates=None)
+    finally:
+        np.random.set_state(state)
+    assert cycle.n_levels == len(reference.levels) >= 2
+    assert cycle.operator_complexity == pytest.approx(reference.operator_complexity(), rel=1e-12)
+
+    from scipy.sparse.linalg import LinearOperator, cg
+
+    b = np.random.default_rng(3).standard_normal(A.shape[0])
+    counts = {}
+    for name, preconditioner in (("none", None),
+                                 ("v-cycle", LinearOperator(A.shape, matvec=cycle))):
+        steps = []
+        x, info = cg(A, b, M=preconditioner, rtol=1e-8, maxiter=2000,
+                     callback=lambda xk: steps.append(1))
+        assert info == 0 and np.linalg.norm(A @ x - b) <= 1e-7 * np.linalg.norm(b)
+        counts[name] = len(steps)
+    assert counts["v-cycle"] <= 25 and counts["none"] >= 4 * counts["v-cycle"], counts
+
+
+def test_eigen_refusals_name_the_key_or_the_backend():
+    """An unknown method is a user mistake on solve.method; asking LOBPCG for modes near a
+    target is a programming mistake that names the backend to use instead."""
+    from femcav.eigen import lobpcg
+    from femcav.eigen.interface import EigenRequest
+    from femcav.eigen.selection import choose
+    from femcav.errors import InputError
+
+    with pytest.raises(InputError) as refused:
+        choose("fastest", n=1000, nnz=20000, request=EigenRequest(5), order=1,
+               library="superlu")
+    assert refused.value.field == "solve.method"
+    for request, order in ((EigenRequest(5, target=1e4), 1), (EigenRequest(5), 4)):
+        with pytest.raises(InputError) as refused:
+            choose("iterative", n=1000, nnz=20000, request=request, order=order,
+                   library="superlu")
+        assert refused.value.field == "solve.method"
+    with pytest.raises(ValueError, match="^LOBPCG finds the lowest modes only; for modes near "
+                                         "a target frequency use the shift-invert backend$"):
+        lobpcg.solve(None, None, None, EigenRequest(5, target=1e4), None, lowest_scale=1.0)
+
+
+def test_iterative_memory_estimate_grows_with_the_block():
+    """More vectors in the LOBPCG block can only need more memory (a dense n x block array
+    per vector set: common practice)."""
+    from femcav.eigen.memory import iterative_peak_bytes
+
+    small, large = (iterative_peak_bytes(100_000, 1_500_000, b) for b in (10, 40))
+    assert large - small >= 30 * 100_000 * 8
+
+
+def test_pardiso_checks_the_diagonal_and_releases_its_memory(monkeypatch):
+    """The binding refuses a matrix with an unstored diagonal entry, and frees MKL's
+    memory for a factorisation (phase -1, with the matrix size) when it is dropped."""
+    import gc
+
+    from femcav.eigen import pardiso
+
+    if not pardiso.available():
+        pytest.skip("MKL PARDISO not installed")
+    for with_hole in ([[0.0, 1.0], [1.0, 2.0]], [[2.0, 1.0], [1.0, 0.0]], [[0.0, 0.0], [0.0, 0.0]]):
+        hole = sp.csr_matrix(np.array(with_hole))
+        hole.eliminate_zeros()
+        with pytest.raises(ValueError, match="^PARDISO needs every diagonal entry stored$"):
+            pardiso.pardiso(hole)
+    released = []
+    real_release = pardiso._release
+    monkeypatch.setattr(pardiso, "_release",
+                        lambda lib, pt, iparm, n, mtype: (released.append(n),
+                                                          real_release(lib, pt, iparm, n, mtype)))
+    A = sp.diags([4.0, 5.0, 6.0]).tocsr()
+    solve = pardiso.pardiso(A, definite=True)
+    assert np.allclose(solve(np.array([4.0, 5.0, 6.0])), 1.0)
+    del solve
+    gc.collect()
+    assert released == [3]
+
+
+# --- post: mode labels on closed-form fields -------------------------------------------------
+
+BOX = (0.02286, 0.01016, 0.030)
+
+
+def box_fields(points, index, amplitude):
+    """E of a rectangular cavity's (m, n, l) standing wave with component amplitudes
+    ``amplitude`` (divergence-free when amplitude · (mπ/a, nπ/b, lπ/d) = 0) and H ∝ curl E
+    (Pozar, Microwave Engineering, 4th ed., §6.3; from memory)."""
+    (a, b, d), (m, n, l) = BOX, index
+    km, kn, kl = m * np.pi / a, n * np.pi / b, l * np.pi / d
+    assert abs(np.dot(amplitude, (km, kn, kl))) < 1e-9 * np.linalg.norm(amplitude) * (km + kn + kl)
+    Ax, Ay, Az = amplitude
+    X, Y, Z = km * points[:, 0], kn * points[:, 1], kl * points[:, 2]
+    s, c = np.sin, np.cos
+    E = np.column_stack([Ax * c(X) * s(Y) * s(Z), Ay * s(X) * c(Y) * s(Z), Az * s(X) * s(Y) * c(Z)])
+    H = np.column_stack([(Az * kn - Ay * kl) * s(X) * c(Y) * c(Z),
+                         (Ax * kl - Az * km) * c(X) * s(Y) * c(Z),
+                         (Ay * km - Ax * kn) * c(X) * c(Y) * s(Z)])
+    return E, H
+
+
+def te_tm_amplitudes(index):
+    """Amplitudes of the TE (E_z = 0) and TM (H_z = 0) fields of one index triple, unit size."""
+    (a, b, d), (m, n, l) = BOX, index
+    km, kn, kl = m * np.pi / a, n * np.pi / b, l * np.pi / d
+    te, tm = np.array([kn, -km, 0.0]), np.array([km * kl, kn * kl, -(km**2 + kn**2)])
+    return te / np.linalg.norm(te), tm / np.linalg.norm(tm)
+
+
+@pytest.mark.parametrize("index, te_part, tm_part, label", [
+    ((1, 0, 1), 1.0, 0.0, "TE101"),
+    ((1, 1, 1), 1.0, 0.0, "TE111"),
+    ((1, 1, 1), 0.0, 1.0, "TM111"),
+    ((1, 1, 1), 1.0, 1.0, "TE/TM111 (degenerate pair, mixed)"),
+    ((2, 1, 0), 0.0, 1.0, "TM210"),
+])
+def test_box_label_of_closed_form_fields(index, te_part, tm_part, label):
+    from femcav.post.classify import box_label
+
+    rng = np.random.default_rng(5)
+    points = rng.random((4000, 3)) * BOX
+    te, tm = te_tm_amplitudes(index)
+    E, H = box_fields(points, index, te_part * te + tm_part * tm)
+    assert box_label(points, np.full(len(points), 1.0 / len(points)), E, H, BOX) == label
+
+
+def test_azimuthal_order_is_read_where_the_field_is_strong():
+    """TM_310 of a pillbox, E_z = J_3(p31 r / a) cos 3φ (Pozar, Microwave Engineering, 4th ed.,
+    §6.4; scipy.special for J_3 and its zero), plus noise of 1e-3 of the peak. Near the axis
+    J_3 is below the noise, so the order can only be read off the ring at the strong field."""
+    from scipy.special import jn_zeros, jv
+
+    from femcav.post.classify import azimuthal_label
+
+    radius, length = 0.010, 0.015
+    rng = np.random.default_rng(7)
+    r = radius * np.sqrt(rng.random(20000))
+    r[0] = 1e-6                                            # the first point on the axis
+    phi, z = 2 * np.pi * rng.random(r.size), length * rng.random(r.size)
+    points = np.column_stack([r * np.cos(phi), r * np.sin(phi), z])
+    ez = jv(3, jn_zeros(3, 1)[0] * r / radius) * np.cos(3 * phi)
+    ez += 1e-3 * np.abs(ez).max() * rng.standard_normal(r.size)
+    E = np.column_stack([np.zeros_like(ez), np.zeros_like(ez), ez])
+    H = np.column_stack([np.sin(3 * phi), np.cos(3 * phi), np.zeros_like(ez)])
+    w = np.full(r.size, 1.0 / r.size)
+    assert azimuthal_label(points, w, E, H) == "m = 3, TM-like"
+
+
+def test_mesh_quality_names_the_region_of_the_worst_element():
+    """A regular tetrahedron has mean ratio 1; a flattened one 12 (3|V|)^(2/3) / Σ l²
+    (A. Liu and B. Joe, BIT 34 (1994) 268-287; from memory), computed here by hand; the
+    report names the region holding the worst."""
+    from femcav.geometry.mesh import TaggedMesh
+    from femcav.post.mesh_quality import mesh_quality
+
+    regular = np.array([[1, 1, 1], [1, -1, -1], [-1, 1, -1], [-1, -1, 1]], float)
+    flat = np.array([[3, 0, 0], [4, 0, 0], [3, 1, 0], [3, 0, 0.1]], float)
+    mesh = TaggedMesh(points=np.vstack([regular, flat]), tets=np.array([[0, 1, 2, 3],
+                                                                         [4, 5, 6, 7]]),
+                      tet_region=np.array([2, 5]), region_names={"air": 2, "puck": 5},
+                      faces=np.zeros((0, 3), int), face_tag=np.zeros(0, int), wall_names={})
+    volume = 0.1 / 6
+    lengths = [np.linalg.norm(flat[i] - flat[j]) ** 2 for i in range(4) for j in range(i)]
+    expected = 12 * (3 * volume) ** (2 / 3) / sum(lengths)
+    report = mesh_quality(mesh)
+    assert report.worst_region == "puck"
+    assert report.min_quality == pytest.approx(expected, rel=1e-12)
+    assert [r.name for r in report.regions] == ["air", "puck"]
+    assert report.regions[0].min_quality == pytest.approx(1.0, rel=1e-12)
+
+
+# --- post: error bars from matched frequencies -----------------------------------------------
+
+def test_estimate_matched_on_an_exact_h_squared_sequence():
+    """f(h) = f0 + C h² exactly (Richardson's model): the fit recovers f0 and the rate 2; a
+    mode missing on the coarsest mesh says so and is still extrapolated from the rest; one
+    found on the finest mesh alone gets no bar."""
+    from femcav.post.error_estimate import estimate_matched
+
+    sizes = np.array([2.0e-3, 1.6e-3, 1.28e-3, 1.0e-3])
+    f0 = np.array([9.0e9, 11.0e9, 13.0e9])
+    C = np.array([2e14, -1e14, 3e14])
+    exact = [list(f0 + C * h * h) for h in sizes]
+    exact[0][1] = None                      # mode 2 not found on the coarsest mesh
+    for k in range(3):
+        exact[k][2] = None                  # mode 3 only on the finest
+    overlaps = [[1.0] * 3 for _ in sizes]
+    first, second, third = estimate_matched(sizes, exact, overlaps, order_rate=2.0)
+    assert first.extrapolated_hz == pytest.approx(f0[0], rel=1e-7)
+    assert first.fitted_rate == pytest.approx(2.0, rel=1e-6) and not first.fallback
+    assert first.reason == ""
+    assert second.extrapolated_hz == pytest.approx(f0[1], rel=1e-9)
+    assert second.reason.startswith("matched on 3 of 4 meshes")
+    assert second.matched_hz[0] is None
+    assert abs(second.frequency_hz - f0[1]) <= second.error_estimate_hz
+    assert third.error_estimate_hz is None and third.reason == "no coarser mesh has this mode"
+
+
+# --- study -----------------------------------------------------------------------------------
+
+GOOD_EXTRACT = {"sample": "puck", "empty_frequency": "8 GHz", "empty_q": 5000,
+                "loaded_frequency": "7.9 GHz", "loaded_q": 3000}
+
+
+@pytest.mark.parametrize("change, field, message", [
+    ({"sample": "a puck"}, "extract.sample", "must be the name of the sample's region"),
+    ({"sample": "other"}, "extract.sample", "give [regions.other] with eps_r (the starting guess)"),
+    ({"empty_q": 0}, "extract.empty_q", "must be a positive number, got 0"),
+    ({"loaded_q": True}, "extract.loaded_q", "must be a positive number, got True"),
+    ({"loaded_q": 6000}, "extract.loaded_q", "a lossless-or-lossy sample cannot raise the Q: loaded_q must "
+     "be below empty_q"),
+    ({"eps_bracket": [0.5, 10]}, "extract.eps_bracket", "must be two different numbers >= 1, "
+     "e.g. [1.5, 20]"),
+    ({"eps_bracket": [3, 3]}, "extract.eps_bracket", "must be two different numbers >= 1, "
+     "e.g. [1.5, 20]"),
+    ({"mode": 0}, "extract.mode", "must be a mode number >= 1, got 0"),
+    ({"tolerance": 0.05}, "extract.tolerance", "must be a relative frequency tolerance below 1e-2"),
+    ({"colour": "red"}, "extract.colour", "unknown key; allowed here: empty_frequency, "
+     "empty_q, eps_bracket, loaded_frequency, loaded_q, mode, sample, tolerance"),
+    ({"empty_q": None}, "extract", "missing empty_q"),
+])
+def test_extract_table_refusals_name_the_key(change, field, message):
+    """Each mistake is refused with the key path of the offending entry (the project's
+    input-error contract, DEVELOPERS.md)."""
+    from femcav.errors import InputError
+    from femcav.study.extract import parse_extract
+
+    spec = {k: v for k, v in {**GOOD_EXTRACT, **change}.items() if v is not None}
+    data = {"regions": {"puck": {"eps_r": 10.0}}, "extract": spec}
+    with pytest.raises(InputError) as refused:
+        parse_extract(data)
+    assert refused.value.field == field
+    assert refused.value.message == message
+    spec = parse_extract({"regions": {"puck": {}}, "extract": {**GOOD_EXTRACT,
+                                                                "eps_bracket": [20, 2]}})
+    assert spec.eps_bracket == (2.0, 20.0) and spec.mode == 1 and spec.tolerance == 1e-9
+    assert spec.empty_hz == 8e9 and spec.loaded_hz == 7.9e9
+
+
+def test_mode_chart_shows_lengths_in_millimetres(tmp_path, monkeypatch):
+    """A length parameter (SI metres inside) is drawn in mm, with the unit on the axis."""
+    import matplotlib.pyplot as plt
+
+    from femcav.study.chart import write_mode_chart
+
+    drawn = []
+    monkeypatch.setattr(plt, "close", lambda fig: drawn.append(fig))
+    document = {"parameters": [{"parameter": "geometry.post_depth", "unit": "m",
+                                "values": [1e-3, 2e-3, 3e-3]}],
+                "tracks": [{"track": 1, "frequency_hz": [9.5e9, 9.2e9, None],
+                            "q_total": [None, None, None]}]}
+    write_mode_chart(document, tmp_path / "chart.png")
+    assert (tmp_path / "chart.png").stat().st_size > 0
+    (axes,) = drawn[0].axes
+    assert axes.get_xlabel() == "geometry.post_depth (mm)"
+    (line,) = axes.get_lines()
+    assert list(line.get_xdata()) == pytest.approx([1.0, 2.0])
+    assert list(line.get_ydata()) == pytest.approx([9.5, 9.2])
+
+
+def test_tune_reference_value_of_a_point_coordinate():
+    """`geometry.NAME[i]` starts the tuning from coordinate i of the point, in metres."""
+    from pathlib import Path
+
+    from femcav.case import case_from_data
+    from femcav.study.tune import TuneSpec, _reference_value
+
+    data = {"geometry": {"builder": "loaded_box", "width": "20 mm", "height": "10 mm",
+                         "length": "30 mm", "block_corner": ["1 mm", "2 mm", "3 mm"],
+                         "block_size": ["4 mm", "5 mm", "6 mm"]},
+            "regions": {"block": {"eps_r": 4.0}}}
+    case = case_from_data(data, Path("made-up.toml"))
+    for path, expected in (("geometry.block_corner[1]", 2e-3), ("geometry.block_size[2]", 6e-3),
+                           ("geometry.width", 20e-3), ("regions.block.eps_r", 4.0)):
+        spec = TuneSpec(path=path, kind="length", bracket=(0.0, 1.0), target_hz=1e9, mode=1,
+                        tolerance=1e-6)
+        assert _reference_value(data, spec, case) == pytest.approx(expected, rel=1e-12), path
+
+
+def test_extract_refuses_a_loaded_frequency_outside_the_bracket(tmp_path):
+    """A sample would have to be below ε_r = 1.5 or above 2 to give the measured (made-up)
+    loaded frequency: refused on the key eps_bracket, nothing written. The loaded frequency
+    lies 30 % below the empty one, which a small rod of ε_r ≤ 2 cannot pull (first-order
+    perturbation: Δf/f ≈ -(ε_r - 1) × its small energy share; Pozar, Microwave Engineering,
+    4th ed., §6.8; from memory)."""
+    from femcav.errors import InputError
+    from femcav.study.extract import run_extract
+
+    from test_extract import FIXTURE   # the rod fixture of the extract tests
+
+    case = tmp_path / "fixture.toml"
+    case.write_text(FIXTURE + """
+[extract]
+sample = "block"
+empty_frequency = "8.3 GHz"
+empty_q = 7000
+loaded_frequency = "5.8 GHz"
+loaded_q = 5000
+eps_bracket = [1.5, 2]
+""")
+    with pytest.raises(InputError, match="the loaded frequency is not between them") as refused:
+        run_extract(case, out=tmp_path / "out")
+    assert refused.value.field == "extract.eps_bracket"
+    assert refused.value.source == str(case)
+    assert not (tmp_path / "out").exists()
