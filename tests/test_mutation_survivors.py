@@ -47,12 +47,13 @@ def test_mass_matrix_against_scikit_fem_and_grounding():
     from test_gradient import skewed_model
 
     space = build_space(skewed_model(), "H", 1)
-    assert space.free.size == space.dofs.N
+    assert space.constraint.size == space.dofs.N
     M = assemble_mass(space, space.mass_coef)
     reference = asm(BilinearForm(lambda u, v, w: dot(u, v)), space.basis)
     assert abs(M - reference).max() < 1e-12 * abs(reference).max()
-    assert space.free_nodes.size == space.scalar_dofs.N - 1
-    G = discrete_gradient(space)[space.free][:, space.free_nodes].toarray()
+    assert space.scalar_constraint.size == space.scalar_dofs.N - 1
+    G = (discrete_gradient(space)[space.constraint.kept][:, space.scalar_constraint.kept]
+         .toarray())
     assert np.linalg.matrix_rank(G) == G.shape[1]
 
 
@@ -309,16 +310,17 @@ GOOD_EXTRACT = {"sample": "puck", "empty_frequency": "8 GHz", "empty_q": 5000,
 @pytest.mark.parametrize("change, field, message", [
     ({"sample": "a puck"}, "extract.sample", "must be the name of the sample's region"),
     ({"sample": "other"}, "extract.sample", "give [regions.other] with eps_r (the starting guess)"),
-    ({"empty_q": 0}, "extract.empty_q", "must be a positive number, got 0"),
-    ({"loaded_q": True}, "extract.loaded_q", "must be a positive number, got True"),
+    ({"empty_q": 0}, "extract.empty_q", "must be a number from 1 to 1e+12, got 0"),
+    ({"loaded_q": True}, "extract.loaded_q", "must be a number, got true/false"),
     ({"loaded_q": 6000}, "extract.loaded_q", "a lossless-or-lossy sample cannot raise the Q: loaded_q must "
-     "be below empty_q"),
-    ({"eps_bracket": [0.5, 10]}, "extract.eps_bracket", "must be two different numbers >= 1, "
-     "e.g. [1.5, 20]"),
-    ({"eps_bracket": [3, 3]}, "extract.eps_bracket", "must be two different numbers >= 1, "
-     "e.g. [1.5, 20]"),
-    ({"mode": 0}, "extract.mode", "must be a mode number >= 1, got 0"),
-    ({"tolerance": 0.05}, "extract.tolerance", "must be a relative frequency tolerance below 1e-2"),
+     "be below empty_q (5000)"),
+    ({"eps_bracket": [0.5, 10]}, "extract.eps_bracket[0]", "must be a number from 1 to 100000, "
+     "got 0.5"),
+    ({"eps_bracket": [3, 3]}, "extract.eps_bracket", "the two ends are equal; give two different "
+     "numbers, e.g. [1.5, 20]"),
+    ({"mode": 0}, "extract.mode", "must be a whole number from 1 to 1000, got 0"),
+    ({"tolerance": 0.05}, "extract.tolerance", "must be a number at least 1e-15 and below 0.01, "
+     "got 0.05"),
     ({"colour": "red"}, "extract.colour", "unknown key; allowed here: empty_frequency, "
      "empty_q, eps_bracket, loaded_frequency, loaded_q, mode, sample, tolerance"),
     ({"empty_q": None}, "extract", "missing empty_q"),
@@ -390,8 +392,10 @@ def test_extract_refuses_a_loaded_frequency_outside_the_bracket(tmp_path):
     from femcav.errors import InputError
     from femcav.study.extract import run_extract
 
-    from test_extract import FIXTURE   # the rod fixture of the extract tests
+    from conftest import box_with_blocks
+    from test_extract import FIXTURE, ROD, SIZE   # the rod fixture of the extract tests
 
+    box_with_blocks(tmp_path / "fixture.msh", SIZE, {"block": ROD}, mesh_size=0.006)
     case = tmp_path / "fixture.toml"
     case.write_text(FIXTURE + """
 [extract]
