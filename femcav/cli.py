@@ -162,9 +162,8 @@ def _describe_os_error(exc: OSError) -> str:
 
 
 def _solve(args) -> int:
-    from .io.results import to_table
+    from .case import load_case
     from .progress import Progress
-    from .runner import run_case
     from .schema import SOLVE, check_range, parse_value
     from .units import format_frequency
 
@@ -172,7 +171,11 @@ def _solve(args) -> int:
     near_hz = None if args.near is None else parse_value(args.near, SOLVE.keys["near"], "--near")
     if args.modes is not None:
         check_range(args.modes, SOLVE.keys["modes"], "--modes")
-    case, result, folder = run_case(args.case, out=args.out, modes=args.modes, near_hz=near_hz,
+    case = load_case(args.case)     # a mistake is said before the solver stack is loaded
+    from .io.results import to_table
+    from .runner import run_case
+
+    case, result, folder = run_case(case, out=args.out, modes=args.modes, near_hz=near_hz,
                                     form=args.form, order=args.order,
                                     factorization=args.factorization, method=args.method,
                                     progress=Progress(quiet=args.quiet))

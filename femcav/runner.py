@@ -127,7 +127,7 @@ def default_output_folder(case_path: Path) -> Path:
     return case_path.parent / f"{case_path.stem}-results"
 
 
-def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | None = None,
+def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: int | None = None,
              near_hz: float | None = None, form: str | None = None, order: int | None = None,
              factorization: str | None = None, method: str | None = None,
              progress: Progress = SILENT) -> tuple[Case, SolveResult, Path]:
@@ -135,9 +135,9 @@ def run_case(path: str | Path, *, out: str | Path | None = None, modes: int | No
     wall_loss.vtu when the case has metal walls).
 
     Command-line values (modes, near_hz, form, order, factorization, method) override the
-    case file's [solve] table.
+    case file's [solve] table. ``path`` may also be a case already loaded (load_case).
     """
-    case = load_case(path)
+    case = path if isinstance(path, Case) else load_case(path)
     overrides = dict(modes=modes, near_hz=near_hz, form=form, order=order,
                      factorization=factorization, method=method)
     settings = replace(case.solve, **{k: v for k, v in overrides.items() if v is not None})
