@@ -463,3 +463,18 @@ eps_bracket = [1.5, 2]
     assert refused.value.field == "extract.eps_bracket"
     assert refused.value.source == str(case)
     assert not (tmp_path / "out").exists()
+
+
+def test_sweep_axis_from_to_points():
+    """`from`, `to`, `points` give evenly spaced values, ends included (in SI units); a
+    value that is not a table is refused with what to give."""
+    from femcav.errors import InputError
+    from femcav.study.parameters import parse_axis
+
+    axis = parse_axis({"parameter": "geometry.radius", "from": "1 mm", "to": "3 mm",
+                       "points": 5}, "sweep")
+    assert axis.values == pytest.approx((1e-3, 1.5e-3, 2e-3, 2.5e-3, 3e-3), rel=1e-12)
+    with pytest.raises(InputError) as refused:
+        parse_axis("geometry.radius", "sweep")
+    assert (refused.value.field, refused.value.message) == (
+        "sweep", "must be a table with parameter and values (or from, to, points)")
