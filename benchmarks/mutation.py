@@ -224,6 +224,18 @@ def place_of(diff: str, package: str, mutant: str) -> tuple[str, int]:
     return path, start
 
 
+def show(name: str, where: Path, env: dict) -> str:
+    """mutmut's diff of one mutant (of its function alone)."""
+    shown = subprocess.run(mutmut_command() + ["show", name], cwd=where, env=env,
+                           capture_output=True, text=True).stdout
+    return "\n".join(line for line in shown.splitlines() if not line.startswith("# "))
+
+
+def changed_lines(diff: str) -> list[str]:
+    return [line for line in diff.splitlines()
+            if line[:1] in "+-" and not line.startswith(("+++", "---"))]
+
+
 def score_package(package: str, sample: int, seed: int, jobs: int, keep: Path | None,
                   log: Path, earlier: dict[str, Mutant] | None = None) -> PackageScore:
     """Score a seeded sample of the package's mutants; with ``earlier`` (the mutants of a
@@ -248,6 +260,13 @@ def score_package(package: str, sample: int, seed: int, jobs: int, keep: Path | 
         else:
             chosen = sorted(earlier)
             again = [n for n in chosen if earlier[n].status in (SURVIVED, NOT_RUN)]
+            # mutmut numbers the mutants of a function in order, so a change to the source
+            # can give a name another mutation: run a name again only if its change is the same
+            for name in list(again):
+                if changed_lines(show(name, where, env)) != changed_lines(earlier[name].diff):
+                    print(f"  {name}: the source changed, not run again", file=sys.stderr)
+                    again.remove(name)
+                    earlier[name] = Mutant(name, NOT_RUN, None, diff="(source changed)")
         print(f"{package}: {len(population)} mutants, {len(chosen)} in the sample, running "
               f"{len(again)}", file=sys.stderr, flush=True)
         if again:
@@ -262,10 +281,7 @@ def score_package(package: str, sample: int, seed: int, jobs: int, keep: Path | 
             status = verdict(codes.get(name))
             mutant = Mutant(name, status, codes.get(name))
             if status == SURVIVED:
-                shown = subprocess.run(mutmut_command() + ["show", name], cwd=where, env=env,
-                                       capture_output=True, text=True).stdout
-                mutant.diff = "\n".join(line for line in shown.splitlines()
-                                        if not line.startswith("# "))
+                mutant.diff = show(name, where, env)
                 mutant.file, mutant.line = place_of(mutant.diff, package, name)
                 if mutant.exit_code == NO_TEST:
                     mutant.diff = "(no selected test reaches this function)\n" + mutant.diff

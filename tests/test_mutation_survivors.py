@@ -274,6 +274,62 @@ def test_mesh_quality_names_the_region_of_the_worst_element():
     assert report.regions[0].min_quality == pytest.approx(1.0, rel=1e-12)
 
 
+def test_mode_checks_of_hand_made_pairs():
+    """K = diag(1, 4, 9, 16), M = I: e1 is an exact pair (λ = 1); x = e2 + δ e3 with λ = 4
+    has residual ‖Kx − 4x‖ / ‖4x‖ = 5δ / (4 sqrt(1 + δ²)) and M-inner product δ · 0 with e1,
+    and a third vector e1 + e2 overlaps both (by hand)."""
+    from femcav.post.checks import check_modes
+
+    class NoGradients:
+        def gradient_part(self, x):
+            return np.zeros_like(x)
+
+    K, M = sp.diags([1.0, 4.0, 9.0, 16.0]).tocsr(), sp.identity(4, format="csr")
+    d = 1e-3
+    X = np.array([[1.0, 0, 0, 0], [0, 1.0, d, 0], [1.0, 1.0, 0, 0]]).T
+    checks = check_modes(K, M, NoGradients(), np.array([1.0, 4.0, 2.5]), X)
+    assert checks[0].residual == pytest.approx(0.0, abs=1e-15)
+    assert checks[1].residual == pytest.approx(5 * d / (4 * np.sqrt(1 + d * d)), rel=1e-12)
+    assert checks[2].residual == pytest.approx(np.sqrt(1.5**2 + 1.5**2) / (2.5 * np.sqrt(2)))
+    assert [c.divergence for c in checks] == [0.0, 0.0, 0.0]
+    assert checks[0].orthogonality == pytest.approx(1 / np.sqrt(2))
+    assert checks[1].orthogonality == pytest.approx(1 / np.sqrt(2 * (1 + d * d)))
+    assert [c.passed for c in checks] == [False, False, False]
+
+
+def test_centroid_permittivity_of_a_graded_region():
+    """ε_r = 1 + x/a + 2 y/b + 3 z/d is evaluated at each element's centroid (the mean of its
+    four corners)."""
+    from femcav.fem.space import build_space
+    from femcav.materials import Material
+    from femcav.model import Model
+    from femcav.post.fields import centroid_materials
+    from test_gradient import skewed_model
+
+    base = skewed_model()
+    graded = Material(eps_r=lambda x, y, z: 1 + x + 2 * y / 0.5 + 3 * z / 2, mu_r=2.0)
+    space = build_space(Model(mesh=base.mesh, materials={"inside": graded}), "E", 1)
+    eps, mu = centroid_materials(space)
+    c = base.mesh.points[base.mesh.tets].mean(axis=1)
+    assert np.allclose(eps, 1 + c[:, 0] + 2 * c[:, 1] / 0.5 + 3 * c[:, 2] / 2, rtol=1e-14)
+    assert np.all(mu == 2.0)
+
+
+def test_extrapolate_orders_the_meshes_and_refuses_a_zero_size():
+    """The sequence is reported coarse to fine whatever order it is given in; a mesh size of
+    zero is no mesh."""
+    from femcav.post.richardson import extrapolate
+
+    f0, C = 10e9, 1e15
+    sizes = [1e-3, 2e-3, 1.5e-3]
+    x = extrapolate(sizes, [f0 + C * h * h for h in sizes], order_rate=2.0)
+    assert x.sizes == (2e-3, 1.5e-3, 1e-3)
+    assert x.frequencies_hz == pytest.approx(tuple(f0 + C * h * h for h in x.sizes))
+    assert x.finest_hz == pytest.approx(f0 + C * 1e-6)
+    with pytest.raises(ValueError, match="positive and distinct"):
+        extrapolate([0.0, 1e-3, 2e-3], [f0, f0 + 1e9, f0 + 4e9])
+
+
 # --- post: error bars from matched frequencies -----------------------------------------------
 
 def test_estimate_matched_on_an_exact_h_squared_sequence():
@@ -293,7 +349,7 @@ def test_estimate_matched_on_an_exact_h_squared_sequence():
     first, second, third = estimate_matched(sizes, exact, overlaps, order_rate=2.0)
     assert first.extrapolated_hz == pytest.approx(f0[0], rel=1e-7)
     assert first.fitted_rate == pytest.approx(2.0, rel=1e-6) and not first.fallback
-    assert first.reason == ""
+    assert first.reason == "" and first.cluster == () and first.cluster_size == 1
     assert second.extrapolated_hz == pytest.approx(f0[1], rel=1e-9)
     assert second.reason.startswith("matched on 3 of 4 meshes")
     assert second.matched_hz[0] is None
@@ -411,3 +467,18 @@ eps_bracket = [1.5, 2]
     assert refused.value.field == "extract.eps_bracket"
     assert refused.value.source == str(case)
     assert not (tmp_path / "out").exists()
+
+
+def test_sweep_axis_from_to_points():
+    """`from`, `to`, `points` give evenly spaced values, ends included (in SI units); a
+    value that is not a table is refused with what to give."""
+    from femcav.errors import InputError
+    from femcav.study.parameters import parse_axis
+
+    axis = parse_axis({"parameter": "geometry.radius", "from": "1 mm", "to": "3 mm",
+                       "points": 5}, "sweep")
+    assert axis.values == pytest.approx((1e-3, 1.5e-3, 2e-3, 2.5e-3, 3e-3), rel=1e-12)
+    with pytest.raises(InputError) as refused:
+        parse_axis("geometry.radius", "sweep")
+    assert (refused.value.field, refused.value.message) == (
+        "sweep", "must be a table with parameter and values (or from, to, points)")
