@@ -471,7 +471,7 @@ eps_bracket = [1.5, 2]
 
 def test_sweep_axis_from_to_points():
     """`from`, `to`, `points` give evenly spaced values, ends included (in SI units); a
-    value that is not a table is refused with what to give."""
+    value that is not a table is refused at its key."""
     from femcav.errors import InputError
     from femcav.study.parameters import parse_axis
 
@@ -481,4 +481,4 @@ def test_sweep_axis_from_to_points():
     with pytest.raises(InputError) as refused:
         parse_axis("geometry.radius", "sweep")
     assert (refused.value.field, refused.value.message) == (
-        "sweep", "must be a table with parameter and values (or from, to, points)")
+        "sweep", "must be a table, got a string")
