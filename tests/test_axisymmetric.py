@@ -69,27 +69,33 @@ def test_pillbox_modes_against_bessel_zeros(fine_pillbox, name, m, field_class, 
     assert mode.checks.passed
 
 
+def tm010_wall_q(frequency_hz):
+    """Q = p01 η d / (2 R_s (a + d)), from the TM010 fields (Pozar §6.4; common practice)."""
+    rs = surface_resistance(2 * math.pi * frequency_hz, COPPER)
+    return jn_zeros(0, 1)[0] * ETA * D / (2 * rs * (A + D))
+
+
+def te011_wall_q(frequency_hz):
+    """TE_0nl: Q = (ka)³ η a d / (4 p'² R_s) / (a d / 2 + (β a² / p')²) with p' = p'_01 and
+    β = lπ/d (Pozar §6.4, the TE_nml formula at n = 0; from memory, and re-derived from the
+    fields E_φ = J1(p' r / a) sin βz)."""
+    p1 = jnp_zeros(0, 1)[0]
+    k = 2 * math.pi * frequency_hz / c
+    beta = math.pi / D
+    rs = surface_resistance(2 * math.pi * frequency_hz, COPPER)
+    return ((k * A) ** 3 * ETA * A * D / (4 * p1**2 * rs)
+            / (A * D / 2 + (beta * A**2 / p1) ** 2))
+
+
 def test_pillbox_tm010_wall_q(fine_pillbox):
-    # Q = p01 η d / (2 R_s (a + d)), from the TM010 fields (Pozar §6.4; common practice).
-    p01 = jn_zeros(0, 1)[0]
-    mode = find(fine_pillbox, 0, "TM-like", frequency(p01, 0))
-    rs = surface_resistance(2 * math.pi * mode.frequency_hz, COPPER)
-    assert mode.losses.q_wall == pytest.approx(p01 * ETA * D / (2 * rs * (A + D)), rel=1e-4)
+    mode = find(fine_pillbox, 0, "TM-like", frequency(jn_zeros(0, 1)[0], 0))
+    assert mode.losses.q_wall == pytest.approx(tm010_wall_q(mode.frequency_hz), rel=1e-4)
     assert mode.losses.wall_loss_share["side"] == pytest.approx(D / (A + D), rel=1e-4)
 
 
 def test_pillbox_te011_wall_q(fine_pillbox):
-    # TE_0nl: Q = (ka)³ η a d / (4 p'² R_s) / (a d / 2 + (β a² / p')²) with p' = p'_01 and
-    # β = lπ/d (Pozar §6.4, the TE_nml formula at n = 0; from memory, and re-derived from the
-    # fields E_φ = J1(p' r / a) sin βz).
-    p1 = jnp_zeros(0, 1)[0]
-    mode = find(fine_pillbox, 0, "TE-like", frequency(p1, 1))
-    k = 2 * math.pi * mode.frequency_hz / c
-    beta = math.pi / D
-    rs = surface_resistance(2 * math.pi * mode.frequency_hz, COPPER)
-    expected = ((k * A) ** 3 * ETA * A * D / (4 * p1**2 * rs)
-                / (A * D / 2 + (beta * A**2 / p1) ** 2))
-    assert mode.losses.q_wall == pytest.approx(expected, rel=1e-4)
+    mode = find(fine_pillbox, 0, "TE-like", frequency(jnp_zeros(0, 1)[0], 1))
+    assert mode.losses.q_wall == pytest.approx(te011_wall_q(mode.frequency_hz), rel=1e-4)
 
 
 def reference_spectrum(m, count):

@@ -23,11 +23,10 @@ from femcav.geometry import BUILDERS
 from femcav.geometry.parts import Sizing
 from femcav.geometry.section import mesh_section
 from femcav.materials import Material
-from femcav.metals import surface_resistance
 from femcav.walls import Wall
 
-from test_axisymmetric import (A, COPPER, D, ETA, PILLBOX_MODES, find, frequency,
-                               pillbox_section, wedge_volumes)
+from test_axisymmetric import (A, COPPER, D, PILLBOX_MODES, find, frequency, pillbox_section,
+                               te011_wall_q, tm010_wall_q, wedge_volumes)
 
 METAL = {w: Wall("metal", conductivity=COPPER) for w in ("side", "bottom", "top")}
 
@@ -54,19 +53,13 @@ def test_h_form_pillbox_against_bessel_zeros_and_the_e_form(both_forms, name, m,
 def test_h_form_wall_q_of_tm010_and_te011(both_forms):
     p01, p1 = jn_zeros(0, 1)[0], jnp_zeros(0, 1)[0]
     tm = find(both_forms["H"], 0, "TM-like", frequency(p01, 0))
-    rs = surface_resistance(2 * math.pi * tm.frequency_hz, COPPER)
-    assert tm.losses.q_wall == pytest.approx(p01 * ETA * D / (2 * rs * (A + D)), rel=1e-6)
+    assert tm.losses.q_wall == pytest.approx(tm010_wall_q(tm.frequency_hz), rel=1e-6)
     te = find(both_forms["H"], 0, "TE-like", frequency(p1, 1))
-    k = 2 * math.pi * te.frequency_hz / c
-    beta = math.pi / D
-    rs = surface_resistance(2 * math.pi * te.frequency_hz, COPPER)
-    expected = ((k * A) ** 3 * ETA * A * D / (4 * p1**2 * rs)
-                / (A * D / 2 + (beta * A**2 / p1) ** 2))
-    assert te.losses.q_wall == pytest.approx(expected, rel=1e-6)
+    assert te.losses.q_wall == pytest.approx(te011_wall_q(te.frequency_hz), rel=1e-6)
+
     # the H form carries H on the wall itself: its wall Q is closer than the E form's
     def tm010_error(mode):
-        rs = surface_resistance(2 * math.pi * mode.frequency_hz, COPPER)
-        return abs(mode.losses.q_wall / (p01 * ETA * D / (2 * rs * (A + D))) - 1)
+        return abs(mode.losses.q_wall / tm010_wall_q(mode.frequency_hz) - 1)
     assert tm010_error(tm) < tm010_error(find(both_forms["E"], 0, "TM-like", frequency(p01, 0)))
 
 
