@@ -121,15 +121,3 @@ def _read_summary(summary: Path) -> dict:
     if not isinstance(document, dict):
         raise UnreadablePoint(f"{summary.name}: not a point summary")
     return document
-
-
-def remove_temporaries(folder: Path, outputs=("sweep.json", "sweep.csv", "mode_chart.png")) -> int:
-    """Delete the temporary files that a stopped run left (staged_output's names: the point
-    files, and ``outputs`` in the folder itself); call with the folder locked, so that no
-    other run can be writing them. The number removed."""
-    stale = list((folder / "points").glob(".*.partial*"))
-    for name in outputs:
-        stale += folder.glob(f".{name}.*.partial*")
-    for tmp in stale:
-        tmp.unlink(missing_ok=True)
-    return len(stale)

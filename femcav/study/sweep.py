@@ -34,14 +34,14 @@ import numpy as np
 from ..case import case_from_data, case_model, read_case_data
 from ..errors import InputError, ResourceError
 from ..io import strict_json
-from ..io.atomic import check_output_folder, staged_output
+from ..io.atomic import check_output_folder, remove_stale_temporaries, staged_output
 from ..io.results import mode_rows
 from ..progress import SILENT, Progress
 from ..schema import SWEEP, check_table
 from .fingerprint import point_fingerprint
 from .folder_lock import folder_lock
 from .parameters import Axis, check_parameter_exists, format_value, parse_axis, with_value
-from .point_store import PointResult, load_point, read_point, remove_temporaries, save_point
+from .point_store import PointResult, load_point, read_point, save_point
 from .tracking import track
 from .workers import stop_workers, submit_without_ctrl_c, usable_jobs, worker_pool
 
@@ -211,7 +211,7 @@ def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
     points = spec.points()
     fingerprints = plan_points(data, path, spec)
     with folder_lock(folder):
-        remove_temporaries(folder)          # left by a run that was stopped
+        remove_stale_temporaries(folder / "points")   # left by a run that was stopped
         done = _reusable_points(folder, fingerprints, progress)
         todo = [i for i in range(len(points)) if i not in done]
         progress.step(f"sweep of {' x '.join(a.path for a in spec.axes)}: {len(points)} "
