@@ -98,7 +98,7 @@ def pillbox_ten() -> None:
 
 
 def dr_fixture() -> None:
-    from femcav.post.error_estimate import estimate_errors
+    from femcav.error_bars import estimate_errors
     from femcav.post.singularity import bar_rate
 
     print("3. DR fixture, 5 lowest modes")

@@ -129,7 +129,7 @@ def case_from_data(data: dict, path: Path) -> Case:
                              _table(data, "solve") else "solve.accuracy")
         symmetry = _symmetry(_table(data, "symmetry"), geometry, walls)
         if solve.azimuthal_orders is not None:
-            _check_axisymmetric(solve, geometry, symmetry, _table(data, "solve"))
+            _check_axisymmetric(solve, geometry, symmetry)
         tolerances = _tolerances(_table(data, "tolerances"), geometry, symmetry, solve)
     except InputError as exc:
         raise exc.located(source=source) from None
@@ -392,8 +392,7 @@ def _azimuthal_orders(value) -> tuple[int, ...]:
     return tuple(sorted(items))
 
 
-def _check_axisymmetric(solve: SolveSpec, geometry: GeometrySpec, symmetry: dict,
-                        spec: dict) -> None:
+def _check_axisymmetric(solve: SolveSpec, geometry: GeometrySpec, symmetry: dict) -> None:
     """What the axisymmetric path cannot take, refused before any meshing."""
     from .geometry.section import axisymmetric_layout_check
 
@@ -403,19 +402,12 @@ def _check_axisymmetric(solve: SolveSpec, geometry: GeometrySpec, symmetry: dict
         raise InputError("symmetry cuts are for 3D solves; the azimuthal orders already "
                          "separate the field classes of a body of revolution",
                          field="symmetry")
-    refused = {"form": solve.form == "H", "method": solve.method == "iterative",
-               "error_estimate": solve.error_estimate, "sensitivities": solve.sensitivities}
-    reasons = {"form": "the axisymmetric solver works in the E form",
-               "method": "the axisymmetric solver uses the direct shift-invert path (its "
-                         "problems are small)",
-               "error_estimate": "error bars are not yet available for axisymmetric solves; "
-                                 "compare two [mesh] sizes",
-               "sensitivities": "material sensitivities are not yet available for "
-                                "axisymmetric solves"}
-    for key, bad in refused.items():
-        if bad:
-            where = "accuracy" if key == "error_estimate" and "accuracy" in spec else key
-            raise InputError(reasons[key], field=f"solve.{where}")
+    if solve.method == "iterative":
+        raise InputError("the axisymmetric solver uses the direct shift-invert path (its "
+                         "problems are small)", field="solve.method")
+    if solve.sensitivities:
+        raise InputError("material sensitivities are not yet available for axisymmetric "
+                         "solves", field="solve.sensitivities")
 
 
 _RELATIVE_UNITS = {"ppm": 1e-6, "ppb": 1e-9, "%": 1e-2}

@@ -15,6 +15,8 @@ from .io.vtk import write_vtu, write_wall_loss_vtu
 from .progress import SILENT, Progress
 from .errors import InputError
 from .geometry import symmetry_wall_name
+from .error_bars import estimate_errors
+from .post.error_estimate import mesh_dimension
 from .solver import SolveResult, merge_classes, solve_model
 from .walls import METAL, Wall
 
@@ -64,13 +66,59 @@ def _solve_options(settings) -> dict:
 
 
 def solve_with_error_bars(case: Case, walls: dict[str, Wall], settings,
-                          progress: Progress) -> SolveResult:
+                          progress: Progress):
     """Solve three meshes of the part (the case's sizes and two coarser) and give every
     mode of the finest its error bar; with an accuracy target, refine by REFINEMENT_RATIO
-    until every bar is within it or the next mesh would exceed max_dofs."""
-    from .geometry import build_part, builder_layout
-    from .post.error_estimate import estimate_errors
+    until every bar is within it or the next mesh would exceed max_dofs. A 3D part or a body
+    of revolution (its section meshed at each size): one path."""
     from .post.singularity import bar_rate
+
+    if settings.azimuthal_orders is not None:
+        from .axisymmetric.runner import section_model_builder
+        from .axisymmetric.solve import solve_axisymmetric
+
+        base_size, build_model = section_model_builder(case)
+        # the section mesher answers a size change in steps (two nominal sizes can give one
+        # mesh): extrapolate in the DOF count, h ~ N^(-1/2)
+        measure = "dofs"
+        solve, options = solve_axisymmetric, dict(
+            orders=settings.azimuthal_orders, order=settings.order,
+            form=settings.form or "E", complex_check=settings.complex_check,
+            factorization=settings.factorization)
+    else:
+        base_size, build_model = _part_model_builder(case, walls)
+        measure = "nominal"
+        solve, options = solve_model, dict(
+            form=settings.form, order=settings.order, complex_check=settings.complex_check,
+            factorization=settings.factorization, method=settings.method)
+    r = REFINEMENT_RATIO
+    sizes = [base_size * r**2, base_size * r, base_size]
+    while True:
+        estimated = estimate_errors(build_model, sizes, modes=settings.modes,
+                                    near_hz=settings.near_hz,
+                                    order_rate=partial(bar_rate, order=settings.order),
+                                    size_measure=measure, solve=solve, progress=progress,
+                                    **options)
+        finest = estimated.finest
+        modes = [replace(m, error_estimate_hz=e.error_estimate_hz,
+                         extrapolated_hz=e.extrapolated_hz)
+                 for m, e in zip(finest.modes, estimated.estimates)]
+        result = replace(finest, modes=modes)
+        if settings.accuracy is None or _worst_bar(result) <= settings.accuracy:
+            return result
+        if finest.dofs * r**mesh_dimension(result) > settings.max_dofs:
+            progress.step(f"accuracy target not reached: the next mesh would exceed "
+                          f"max_dofs = {settings.max_dofs}")
+            return result
+        sizes = sizes[1:] + [sizes[-1] / r]
+        progress.step(f"largest error bar {_worst_bar(result):.1e} above the target "
+                      f"{settings.accuracy:.1e}: refining to {sizes[-1] * 1e3:.3g} mm")
+
+
+def _part_model_builder(case: Case, walls: dict[str, Wall]):
+    """The case's element size and a function size -> model of the part meshed at it (the
+    region sizes scaled alike)."""
+    from .geometry import build_part, builder_layout
     from .sizing import builder_sizing
 
     g = case.geometry
@@ -84,31 +132,7 @@ def solve_with_error_bars(case: Case, walls: dict[str, Wall], settings,
                           **g.parameters)
         return case_model(case, part, extra_walls=walls)
 
-    r = REFINEMENT_RATIO
-    sizes = [base.size * r**2, base.size * r, base.size]
-    while True:
-        estimated = estimate_errors(build_model, sizes, modes=settings.modes,
-                                    near_hz=settings.near_hz, form=settings.form,
-                                    order_rate=partial(bar_rate, order=settings.order),
-                                    progress=progress,
-                                    order=settings.order,
-                                    complex_check=settings.complex_check,
-                                    factorization=settings.factorization,
-                                    method=settings.method)
-        finest = estimated.finest
-        modes = [replace(m, error_estimate_hz=e.error_estimate_hz,
-                         extrapolated_hz=e.extrapolated_hz)
-                 for m, e in zip(finest.modes, estimated.estimates)]
-        result = replace(finest, modes=modes)
-        if settings.accuracy is None or _worst_bar(result) <= settings.accuracy:
-            return result
-        if finest.dofs * r**3 > settings.max_dofs:
-            progress.step(f"accuracy target not reached: the next mesh would exceed "
-                          f"max_dofs = {settings.max_dofs}")
-            return result
-        sizes = sizes[1:] + [sizes[-1] / r]
-        progress.step(f"largest error bar {_worst_bar(result):.1e} above the target "
-                      f"{settings.accuracy:.1e}: refining to {sizes[-1] * 1e3:.3g} mm")
+    return base.size, build_model
 
 
 def _worst_bar(result: SolveResult) -> float:
@@ -164,7 +188,10 @@ def solve_case(case: Case, settings, progress: Progress = SILENT):
     """The modes of a loaded case with ``settings`` (its [solve] table, perhaps overridden):
     a SolveResult, or an AxisymmetricResult with azimuthal orders; nothing is written."""
     if settings.azimuthal_orders is not None:
-        return _solve_axisymmetric(case, settings, progress)
+        result = _solve_axisymmetric(case, settings, progress)
+        if settings.accuracy is not None:
+            result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
+        return result
     # With error bars every mesh, the finest included, is built by solve_with_error_bars.
     mesh = None if settings.error_estimate else build_mesh(case)
     if mesh is not None:
@@ -300,4 +327,9 @@ def _solve_axisymmetric(case: Case, settings, progress: Progress):
     if settings.method == "iterative":
         raise InputError("the axisymmetric solver uses the direct shift-invert path",
                          source=str(case.path), field="--method")
-    return solve_axisymmetric_case(case, settings, progress)
+    if not settings.error_estimate:
+        return solve_axisymmetric_case(case, settings, progress)
+    try:
+        return solve_with_error_bars(case, {}, settings, progress)
+    except InputError as exc:
+        raise exc.located(source=str(case.path)) from None

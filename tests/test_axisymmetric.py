@@ -262,7 +262,7 @@ def test_dr_fixture_3d_error_bars_contain_the_axisymmetric_modes():
 
     from femcav.geometry import build_part
     from femcav.model import make_model
-    from femcav.post.error_estimate import estimate_errors
+    from femcav.error_bars import estimate_errors
     from femcav.post.singularity import bar_rate
 
     dims = {"shield_radius": 0.012, "shield_height": 0.016, "puck_radius": 0.005,

@@ -16,7 +16,8 @@ from femcav.fem.space import build_space
 from femcav.geometry import build_part
 from femcav.materials import Material
 from femcav.model import make_model
-from femcav.post.error_estimate import estimate_errors, estimate_from_results, extra_modes
+from femcav.error_bars import estimate_errors
+from femcav.post.error_estimate import estimate_from_results, extra_modes
 from femcav.post.field_overlap import mode_overlaps, transfer_matrix
 from femcav.post.mode_matching import CLEAR_OVERLAP, match_modes
 from femcav.post.richardson import extrapolate, fitted_rate

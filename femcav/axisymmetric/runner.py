@@ -28,6 +28,22 @@ def section_sizing(case: Case):
     return layout, sizing
 
 
+def section_model_builder(case: Case):
+    """The case's section element size and a function size -> the axisymmetric model of
+    the section meshed at that size (the region sizes scaled alike): for error bars."""
+    layout, base = section_sizing(case)
+
+    def build_model(size: float):
+        factor = size / base.size
+        sizing = replace(base, size=size,
+                         region_sizes={k: v * factor for k, v in base.region_sizes.items()})
+        section = mesh_section(layout, sizing, name=case.geometry.builder)
+        return make_axisymmetric_model(section, case_materials(case, section.region_names),
+                                       case.walls, source=str(case.path))
+
+    return base.size, build_model
+
+
 def solve_axisymmetric_case(case: Case, settings, progress: Progress) -> AxisymmetricResult:
     try:
         if case.geometry.mesh_path is not None:

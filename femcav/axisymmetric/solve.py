@@ -79,9 +79,9 @@ class AxisymmetricResult:
     eigen_stats: dict = field(default_factory=dict)
     form: str = "E"
     element_kind = "triangles (meridional section)"
+    accuracy: dict | None = None   # target, largest relative bar, reached (with a target)
     static_fields_dropped = 0
     classes = ()
-    accuracy = None
 
     @property
     def passed(self) -> bool:
@@ -94,6 +94,11 @@ class AxisymmetricResult:
     @property
     def dofs(self) -> int:
         return sum(self.dofs_by_order.values())
+
+    def mode_spaces(self) -> list[tuple]:
+        """(m, the order-m space, positions of its modes) for every solved order."""
+        return [(m, space, [i for i, mode in enumerate(self.modes) if mode.m == m])
+                for m, space in self.spaces.items()]
 
 
 def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int = 10,

@@ -59,6 +59,7 @@ from skfem.helpers import dot
 from ..errors import InputError
 from ..fem.assembly import shared_entries_csr
 from ..fem.constraints import Constraint
+from ..fem.point_location import Transfer, evaluation_matrix
 from ..materials import check_permittivity
 from ..model import FORMS
 from ..walls import PEC, PMC, essential_kinds
@@ -100,6 +101,38 @@ class OrderSpace:
     @property
     def n_dofs(self) -> int:
         return self.constraint.size
+
+    # The field-sampling protocol of fem.space.EdgeSpace, for comparing modes of two meshes
+    # (post.field_overlap). A mode's stored vector is over the kept DOFs; its field is
+    # F = (f_r, f_z, u / r), and the M-inner product is ∫ mass_coef F·G r dr dz.
+
+    def samples(self) -> tuple[np.ndarray, np.ndarray]:
+        """The quadrature points (2, P) in (r, z) and their weights mass_coef r dA."""
+        basis = self.edge_basis
+        x = basis.mapping.F(basis.X)
+        return x.reshape(2, -1), (self.mass_coef * x[0] * basis.dx).ravel()
+
+    def sampled_fields(self, vectors: np.ndarray) -> np.ndarray:
+        """(3, P, n): the (r, z, φ) components of the columns' fields at ``samples()``."""
+        full = self.constraint.expand(vectors)
+        r = self.edge_basis.mapping.F(self.edge_basis.X)[0].ravel()
+        out = []
+        for j in range(full.shape[1]):
+            f_t = np.asarray(self.edge_basis.interpolate(full[:self.n_edge, j]).value)
+            u = np.asarray(self.node_basis.interpolate(full[self.n_edge:, j]).value)
+            out.append(np.vstack([f_t.reshape(2, -1), u.reshape(1, -1) / r]))
+        return np.stack(out, axis=2)
+
+    def field_reader(self, points: np.ndarray) -> Transfer:
+        """A Transfer: stored vector -> the (r, z, φ) components at ``points`` (2, n)."""
+        edge = evaluation_matrix(self.edge_basis, points)
+        node = evaluation_matrix(self.node_basis, points)
+        over_r = sp.diags(1.0 / points[0])
+        matrix = sp.block_diag([edge.matrix, over_r @ node.matrix], format="csr")
+        return Transfer(matrix=(matrix @ self.constraint.P).tocsr(), n_points=edge.n_points,
+                        outside_points=max(edge.outside_points, node.outside_points),
+                        worst_barycentric=min(edge.worst_barycentric,
+                                              node.worst_barycentric))
 
 
 def quadrature_order(order: int) -> int:

@@ -18,6 +18,7 @@ from ..walls import essential_kinds
 from .constraints import Constraint
 from .lagrange import ElementTetLagrange
 from .nedelec import ElementTetNedelec
+from .point_location import evaluation_matrix
 
 
 @dataclass(frozen=True)
@@ -61,6 +62,25 @@ class EdgeSpace:
         from skfem import CellBasis
         return CellBasis(self.mesh, self.scalar_element, quadrature=self.quadrature,
                          dofs=self.scalar_dofs)
+
+    # The field-sampling protocol (shared with the axisymmetric order spaces): how modes of
+    # two meshes are compared (post.field_overlap). A mode's stored vector is over all edges.
+
+    def samples(self) -> tuple[np.ndarray, np.ndarray]:
+        """The quadrature points (3, P) and their weights: the mass coefficient times the
+        volume, so that the weighted sum of u·v is the M-inner product."""
+        basis = self.basis
+        return (basis.mapping.F(basis.X).reshape(3, -1),       # element-major, as basis.dx
+                (self.mass_coef * basis.dx).ravel())
+
+    def sampled_fields(self, vectors: np.ndarray) -> np.ndarray:
+        """The fields of the columns of ``vectors`` at ``samples()``' points: (3, P, n)."""
+        return np.stack([np.asarray(self.basis.interpolate(vectors[:, j])).reshape(3, -1)
+                         for j in range(vectors.shape[1])], axis=2)
+
+    def field_reader(self, points: np.ndarray):
+        """A point_location.Transfer: stored vector -> field at ``points`` (3, n)."""
+        return evaluation_matrix(self.basis, points)
 
 
 ORDERS = (1, 2, 3)

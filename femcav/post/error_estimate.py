@@ -19,11 +19,9 @@ from typing import Callable, Sequence
 
 import numpy as np
 
-from ..model import Model
 from ..progress import SILENT, Progress
-from ..solver import SolveResult, solve_model
 from ..units import format_length
-from .field_overlap import mode_overlaps
+from .field_overlap import result_overlaps
 from .mode_matching import DEGENERATE_RTOL, clusters, match_modes
 from .richardson import extrapolate, sizes_from_dofs
 
@@ -56,14 +54,14 @@ class ModeEstimate:
 
 @dataclass(frozen=True)
 class EstimatedResult:
-    finest: SolveResult               # the finest mesh's result, with the requested modes
+    finest: object                    # the finest mesh's result, with the requested modes
     estimates: list[ModeEstimate]     # one per mode of ``finest``, in the same order
     sizes: tuple[float, ...]          # the meshes, coarse to fine (nominal sizes, m)
     effective_sizes: tuple[float, ...]   # the sizes the extrapolation used
     dofs: tuple[int, ...]
 
 
-def estimate_from_results(results: Sequence[SolveResult], sizes: Sequence[float], *,
+def estimate_from_results(results: Sequence, sizes: Sequence[float], *,
                           order_rate: float = 2.0, indices: Sequence[int] | None = None,
                           degenerate_rtol: float = DEGENERATE_RTOL) -> list[ModeEstimate]:
     """Estimates for the modes of the finest result (``indices``: 0-based positions in its
@@ -75,12 +73,10 @@ def estimate_from_results(results: Sequence[SolveResult], sizes: Sequence[float]
     results = [results[k] for k in order]
     finest = results[-1]
     fine_hz = np.array([m.frequency_hz for m in finest.modes])
-    fine_dofs = np.column_stack([m.dofs for m in finest.modes])
     matched, overlaps = [], []
     for coarse in results[:-1]:
         coarse_hz = np.array([m.frequency_hz for m in coarse.modes])
-        o = mode_overlaps(coarse.space, np.column_stack([m.dofs for m in coarse.modes]),
-                          finest.space, fine_dofs)
+        o = result_overlaps(coarse, finest)
         matching = match_modes(o, coarse_hz, fine_hz, degenerate_rtol)
         matched.append([None if p < 0 else float(coarse_hz[p]) for p in matching.partner])
         overlaps.append([float(v) for v in matching.overlap])
@@ -142,40 +138,56 @@ def _estimate(index, sizes, use, mean, matched, overlaps, j, group, order_rate) 
                         **common)
 
 
-def estimate_errors(build_model: Callable[[float], Model], sizes: Sequence[float], *,
-                    modes: int, near_hz: float | None = None, form: str = "E",
-                    order_rate: float | Callable[[Model], float] = 2.0,
-                    size_measure: str = "nominal", progress: Progress = SILENT,
-                    **solve_options) -> EstimatedResult:
-    """Solve ``build_model(size)`` at every size (metres, any order; at least two, three for
-    an observed rate) and give each of the ``modes`` requested modes of the finest mesh an
-    error estimate. ``order_rate`` is the theoretical rate of the frequency error, 2k for
-    Nédélec elements of order k on a smooth part (the eigenvalue error goes like h^(2k);
-    D. Boffi, Acta Numerica 19 (2010), from memory); it is the fallback when the observed rate
-    cannot be trusted; it may be a function of the model (femcav.post.singularity.bar_rate
-    lowers it for parts with singular edges), called on the first mesh's. ``size_measure``
-    "dofs" extrapolates in N^(-1/3) instead of the nominal size. ``solve_options`` go to
-    ``solve_model`` unchanged (e.g. ``order``)."""
+def estimate_over_meshes(solve_at: Callable[[float, int], tuple], sizes: Sequence[float], *,
+                         modes: int, near_hz: float | None = None,
+                         order_rate: float | Callable[[object], float] = 2.0,
+                         size_measure: str = "nominal", progress: Progress = SILENT
+                         ) -> EstimatedResult:
+    """Solve the part at every mesh size (metres, any order; at least two, three for an
+    observed rate) and give each of the ``modes`` requested modes of the finest mesh an
+    error estimate. ``solve_at(size, count)`` returns (model, result) for a mesh of ``size``
+    asked for ``count`` modes; the result has ``modes``, ``dofs``, ``request`` and
+    ``mode_spaces()`` (post.field_overlap), whichever discretisation made it.
+
+    ``order_rate`` is the theoretical rate of the frequency error, 2k for elements of order k
+    on a smooth part (the eigenvalue error goes like h^(2k); D. Boffi, Acta Numerica 19
+    (2010), from memory); it is the fallback when the observed rate cannot be trusted; it may
+    be a function of the model (femcav.post.singularity.bar_rate lowers it for parts with
+    singular edges), called on the first mesh's. ``size_measure`` "dofs" extrapolates in
+    N^(-1/d) (d = 3 for tetrahedra, 2 for a section) instead of the nominal size."""
     if size_measure not in SIZE_MEASURES:
         raise ValueError(f"size_measure must be one of {SIZE_MEASURES}, got {size_measure!r}")
     sizes = sorted((float(s) for s in sizes), reverse=True)
     if len(sizes) < 2 or len(set(sizes)) != len(sizes) or sizes[-1] <= 0:
         raise ValueError(f"need at least two distinct positive mesh sizes, got {sizes}")
     asked = modes + extra_modes(modes)
-    results = []
-    for k, size in enumerate(sizes, start=1):
+    results, solved, wanted = [], [], len(sizes)
+    ratio = sizes[-2] / sizes[-1]
+    while sizes:
+        size = sizes.pop(0)
         t0 = time.perf_counter()
-        model = build_model(size)
+        model, result = solve_at(size, asked)
         if callable(order_rate):
             order_rate = float(order_rate(model))
             progress.step(f"error estimate: theoretical rate h^{order_rate:.3g}")
-        result = solve_model(model, modes=asked, near_hz=near_hz, form=form, **solve_options)
-        results.append(result)
-        progress.step(f"error estimate: mesh {k} of {len(sizes)}, size "
+        progress.step(f"error estimate: mesh {len(results) + 1} of {wanted}, size "
                       f"{format_length(size, 3)}: {result.dofs} DOFs, {len(result.modes)} "
                       f"modes in {time.perf_counter() - t0:.2f} s")
+        if results and result.dofs == results[-1].dofs:
+            # The mesher gave the same mesh for two sizes (it meshes coarse parts in steps):
+            # it adds nothing to the sequence, so one more, finer mesh is solved instead.
+            results.pop()
+            solved.pop()
+            if len(solved) + len(sizes) + 1 < wanted or not sizes:
+                sizes.append((sizes[-1] if sizes else size) / ratio)
+            progress.step("error estimate: that size gave the same mesh as the one before; "
+                          f"adding a finer mesh of {format_length(sizes[-1], 3)}")
+        results.append(result)
+        solved.append(size)
+    sizes = solved
     effective = (sizes if size_measure == "nominal"
-                 else list(sizes_from_dofs([r.dofs for r in results])))
+                 else list(sizes_from_dofs([r.dofs for r in results],
+                                           dimension=mesh_dimension(results[-1]))))
     t0 = time.perf_counter()
     finest = results[-1]
     keep = _requested(np.array([m.frequency_hz for m in finest.modes]), modes, near_hz)
@@ -192,6 +204,11 @@ def estimate_errors(build_model: Callable[[float], Model], sizes: Sequence[float
                            estimates=estimates, sizes=tuple(sizes),
                            effective_sizes=tuple(float(s) for s in effective),
                            dofs=tuple(r.dofs for r in results))
+
+
+def mesh_dimension(result) -> int:
+    """3 for a mesh of the part, 2 for a meridional section: DOFs grow like h^-dimension."""
+    return 2 if result.element_kind.startswith("triangles") else 3
 
 
 def _requested(ascending_hz: np.ndarray, count: int, near_hz: float | None) -> list[int]:

@@ -71,10 +71,11 @@ class Extrapolation:
     safety_factor: float
 
 
-def sizes_from_dofs(dofs) -> np.ndarray:
-    """Effective mesh sizes h ~ N^(-1/3) of quasi-uniform tetrahedral meshes of one part; the
-    unit is arbitrary, only ratios of sizes enter the extrapolation."""
-    return np.asarray(dofs, dtype=float) ** (-1.0 / 3.0)
+def sizes_from_dofs(dofs, dimension: int = 3) -> np.ndarray:
+    """Effective mesh sizes h ~ N^(-1/dimension) of quasi-uniform meshes of one part
+    (tetrahedra: 3, a meridional section's triangles: 2); the unit is arbitrary, only ratios
+    of sizes enter the extrapolation."""
+    return np.asarray(dofs, dtype=float) ** (-1.0 / dimension)
 
 
 def fitted_rate(sizes, frequencies) -> float:

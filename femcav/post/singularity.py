@@ -32,7 +32,13 @@ def bar_rate(model, order: int) -> float:
 
 
 def has_singularities(model) -> bool:
-    return _mixed_materials(model) or _has_reentrant_edge(model.mesh)
+    """More than one material, or a sharp re-entrant wall: a 3D model's mesh (``mesh``) or a
+    body of revolution's meridional section (``section``)."""
+    if _mixed_materials(model):
+        return True
+    section = getattr(model, "section", None)
+    return (_has_reentrant_corner(section) if section is not None
+            else _has_reentrant_edge(model.mesh))
 
 
 def _mixed_materials(model) -> bool:
@@ -68,3 +74,21 @@ def _has_reentrant_edge(mesh) -> bool:
     cos_turn = np.einsum("ij,ij->i", normal[owner[i]], normal[owner[j]])
     sharp = cos_turn < np.cos(np.radians(REENTRANT_TURN_DEG))
     return bool(np.any(sharp & (out_of_plane > 1e-9 * size)))
+
+
+def _has_reentrant_corner(section) -> bool:
+    """A boundary vertex of the meridional section where the domain's interior angle (the
+    sum of its triangles' angles there) exceeds π by more than REENTRANT_TURN_DEG: the
+    section of a re-entrant edge of the revolved part (a straight or curved wall has π)."""
+    p, tri = section.points, section.triangles
+    angles = np.zeros(len(p))
+    for k in range(3):
+        a, b, c = p[tri[:, k]], p[tri[:, (k + 1) % 3]], p[tri[:, (k + 2) % 3]]
+        u, v = b - a, c - a
+        cos = np.einsum("ij,ij->i", u, v) / (np.linalg.norm(u, axis=1)
+                                             * np.linalg.norm(v, axis=1))
+        np.add.at(angles, tri[:, k], np.arccos(np.clip(cos, -1.0, 1.0)))
+    edges = np.sort(np.concatenate([tri[:, [0, 1]], tri[:, [1, 2]], tri[:, [2, 0]]]), axis=1)
+    keys, counts = np.unique(edges, axis=0, return_counts=True)
+    boundary = np.unique(keys[counts == 1])
+    return bool(np.any(angles[boundary] > np.pi + np.radians(REENTRANT_TURN_DEG)))

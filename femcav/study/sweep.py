@@ -190,6 +190,9 @@ class _Tracked:
         self.modes = [_Mode(row["frequency_hz"], point.dofs[:, j])
                       for j, row in enumerate(point.rows)]
 
+    def mode_spaces(self) -> list[tuple]:
+        return [(None, self.space, list(range(len(self.modes))))]
+
 
 @dataclass(frozen=True)
 class _Mode:

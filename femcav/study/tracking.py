@@ -14,15 +14,14 @@ from itertools import pairwise
 
 import numpy as np
 
-from ..post.field_overlap import mode_overlaps
+from ..post.field_overlap import result_overlaps
 from ..post.mode_matching import match_modes
 
 
 def step_partners(previous, current) -> np.ndarray:
     """For each mode of ``current``, its partner's index in ``previous`` (-1: none); both
-    are 3D SolveResults of one field form."""
-    overlaps = mode_overlaps(previous.space, np.column_stack([m.dofs for m in previous.modes]),
-                             current.space, np.column_stack([m.dofs for m in current.modes]))
+    are results of one field form (with mode_spaces(), as post.field_overlap asks)."""
+    overlaps = result_overlaps(previous, current)
     matching = match_modes(overlaps, np.array([m.frequency_hz for m in previous.modes]),
                            np.array([m.frequency_hz for m in current.modes]))
     return matching.partner
