@@ -86,6 +86,11 @@ class SolveResult:
     def order(self) -> int:
         return self.space.order
 
+    @property
+    def mesh(self):
+        """The mesh the modes were solved on (a geometry.mesh.TaggedMesh)."""
+        return self.space.model.mesh
+
     def mode_spaces(self) -> list[tuple]:
         """(key, space, positions of its modes): one space holds every mode's field (the
         stored vectors are over all edges, whichever symmetry class they came from)."""

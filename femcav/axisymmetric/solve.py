@@ -95,6 +95,11 @@ class AxisymmetricResult:
     def dofs(self) -> int:
         return sum(self.dofs_by_order.values())
 
+    @property
+    def mesh(self):
+        """The meridional section the modes were solved on (geometry.meridional)."""
+        return next(iter(self.spaces.values())).model.section
+
     def mode_spaces(self) -> list[tuple]:
         """(m, the order-m space, positions of its modes) for every solved order."""
         return [(m, space, [i for i, mode in enumerate(self.modes) if mode.m == m])

@@ -123,6 +123,14 @@ class OrderSpace:
             out.append(np.vstack([f_t.reshape(2, -1), u.reshape(1, -1) / r]))
         return np.stack(out, axis=2)
 
+    def full_vectors(self, stored: np.ndarray) -> np.ndarray:
+        """Stored (kept-DOF) mode vectors over every DOF of the section: one length for
+        every azimuthal order, so that modes of all orders can be kept side by side."""
+        return self.constraint.expand(stored)
+
+    def stored_vectors(self, full: np.ndarray) -> np.ndarray:
+        return self.constraint.P.T @ full       # P only selects: Pᵀ P = I
+
     def field_reader(self, points: np.ndarray) -> Transfer:
         """A Transfer: stored vector -> the (r, z, φ) components at ``points`` (2, n)."""
         edge = evaluation_matrix(self.edge_basis, points)

@@ -119,30 +119,46 @@ def evaluation_matrix(basis, points: np.ndarray) -> Transfer:
                     worst_barycentric=float(min(worst.min(), 0.0)))
 
 
-# Points per call of the fallback below: its cost grows like n * DIAGONAL_BLOCK.
-DIAGONAL_BLOCK = 128
-
-
 def _basis_values(basis, reference: np.ndarray, i: int, cells: np.ndarray) -> np.ndarray:
     """Basis function i of each point's element at that point's reference coordinates
-    ``reference`` (dim, n, 1). Most scikit-fem elements take one reference point per element;
-    those that only take points shared by all elements (the third-order Nédélec triangle)
-    are evaluated block by block at the block's points, keeping the diagonal."""
+    ``reference`` (dim, n, 1). Most scikit-fem elements take one reference point per element.
+    The third-order Nédélec triangle takes only points shared by all its elements; it is
+    given the points as the quadrature points of one element whose map is, at each point, the
+    map of that point's own element (_PointwiseMap), in groups of equal edge orientation."""
     try:
         return np.asarray(basis.elem.gbasis(basis.mapping, reference, i, tind=cells)[0])
     except ValueError:
         pass
-    n = cells.size
+    mapping = basis.mapping
+    orient = basis.elem.orient(mapping, i, cells)
+    inverse = mapping.invDF(reference, tind=cells)[:, :, :, 0]     # (dim, dim, n)
+    determinant = mapping.detDF(reference, tind=cells)[:, 0]       # (n,)
     out = None
-    for start in range(0, n, DIAGONAL_BLOCK):
-        block = slice(start, min(start + DIAGONAL_BLOCK, n))
-        value = np.asarray(basis.elem.gbasis(basis.mapping, reference[:, block, 0], i,
-                                             tind=cells[block])[0])
-        diagonal = np.diagonal(value, axis1=-2, axis2=-1)   # (..., points of the block)
+    for sign in np.unique(orient):
+        pick = np.flatnonzero(orient == sign)
+        view = _PointwiseMap(mapping.mesh, inverse[:, :, None, pick], determinant[None, pick])
+        value = np.asarray(basis.elem.gbasis(view, reference[:, pick, 0], i,
+                                             tind=cells[pick[:1]])[0])[..., 0, :]
         if out is None:
-            out = np.empty(diagonal.shape[:-1] + (n,))
-        out[..., block] = diagonal
-    return out
+            out = np.empty(value.shape[:-1] + (cells.size,))
+        out[..., pick] = value
+    return out[..., None]
+
+
+@dataclass(frozen=True)
+class _PointwiseMap:
+    """One pseudo-element whose quadrature points each carry their own element's inverse
+    Jacobian and determinant (what a covariant Piola map asks of a mapping)."""
+
+    mesh: object
+    inverse: np.ndarray          # (dim, dim, 1, n)
+    determinant: np.ndarray      # (1, n)
+
+    def invDF(self, X=None, tind=None):   # noqa: N802 - scikit-fem's name
+        return self.inverse
+
+    def detDF(self, X=None, tind=None):   # noqa: N802
+        return self.determinant
 
 
 def _reference_coordinates(mapping, points: np.ndarray, where: Location) -> np.ndarray:

@@ -78,6 +78,13 @@ class EdgeSpace:
         return np.stack([np.asarray(self.basis.interpolate(vectors[:, j])).reshape(3, -1)
                          for j in range(vectors.shape[1])], axis=2)
 
+    def full_vectors(self, stored: np.ndarray) -> np.ndarray:
+        """Stored mode vectors over every DOF of the mesh (already so in 3D)."""
+        return stored
+
+    def stored_vectors(self, full: np.ndarray) -> np.ndarray:
+        return full
+
     def field_reader(self, points: np.ndarray):
         """A point_location.Transfer: stored vector -> field at ``points`` (3, n)."""
         return evaluation_matrix(self.basis, points)

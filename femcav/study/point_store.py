@@ -1,7 +1,7 @@
 """A sweep's solved points on disk: ``points/NNN.json`` and ``points/NNN.npz`` per point.
 
 The JSON holds the summary (values, fingerprint, mode rows), the NPZ what tracking needs
-(the mesh and the mode vectors). Both are written atomically (unique temporary names in the
+(the mesh, or a body of revolution's meridional section, and the full mode vectors). Both are written atomically (unique temporary names in the
 same folder, renamed into place, the summary last): a point whose summary is
 there is complete, and two writers never share a temporary file. A point is reused only when its
 stored fingerprint (femcav.study.fingerprint) equals the one the current run computes; a
@@ -16,6 +16,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ..geometry.meridional import MeridionalMesh
 from ..geometry.mesh import TaggedMesh
 from ..io import strict_json
 from ..io.atomic import write_file_atomically
@@ -27,8 +28,8 @@ class PointResult:
 
     values: tuple[float, ...]
     rows: list[dict]                # the mode rows of modes.json
-    mesh: TaggedMesh
-    dofs: np.ndarray                # (n_edges, n_modes)
+    mesh: TaggedMesh | MeridionalMesh   # the part's mesh, or a body of revolution's section
+    dofs: np.ndarray                # (every DOF of the mesh, n_modes): the full vectors
     form: str
     order: int
     seconds: float
@@ -44,13 +45,43 @@ def point_files(folder: Path, index: int) -> tuple[Path, Path]:
     return folder / "points" / f"{index:03d}.json", folder / "points" / f"{index:03d}.npz"
 
 
+def _mesh_arrays(mesh: TaggedMesh | MeridionalMesh) -> tuple[str, dict]:
+    """The mesh's kind and arrays, for the NPZ."""
+    if isinstance(mesh, MeridionalMesh):
+        arrays = {"points": mesh.points, "triangles": mesh.triangles,
+                  "tri_region": mesh.tri_region, "edges": mesh.edges,
+                  "edge_tag": mesh.edge_tag}
+        if mesh.triangles6 is not None:
+            arrays["triangles6"] = mesh.triangles6
+        return "section", arrays
+    arrays = {"points": mesh.points, "tets": mesh.tets, "tet_region": mesh.tet_region,
+              "faces": mesh.faces, "face_tag": mesh.face_tag}
+    if mesh.tets10 is not None:
+        arrays["tets10"] = mesh.tets10
+    return "tetrahedra", arrays
+
+
+def _mesh_from(z, document: dict) -> TaggedMesh | MeridionalMesh:
+    optional = {name: z[name] if name in z.files else None for name in ("tets10", "triangles6")}
+    if document.get("mesh_kind") == "section":
+        return MeridionalMesh(points=z["points"], triangles=z["triangles"],
+                              tri_region=z["tri_region"], region_names=document["region_names"],
+                              edges=z["edges"], edge_tag=z["edge_tag"],
+                              wall_names=document["wall_names"],
+                              triangles6=optional["triangles6"])
+    return TaggedMesh(points=z["points"], tets=z["tets"], tet_region=z["tet_region"],
+                      region_names=document["region_names"], faces=z["faces"],
+                      face_tag=z["face_tag"], wall_names=document["wall_names"],
+                      tets10=optional["tets10"])
+
+
 def save_point(folder: Path, index: int, point: PointResult) -> None:
     summary, arrays = point_files(folder, index)
     m = point.mesh
-    extra = {} if m.tets10 is None else {"tets10": m.tets10}
+    kind, mesh_arrays = _mesh_arrays(m)
     document = {"values": list(point.values), "fingerprint": point.fingerprint,
                 "form": point.form, "order": point.order, "seconds": point.seconds,
-                "region_names": m.region_names, "wall_names": m.wall_names,
+                "mesh_kind": kind, "region_names": m.region_names, "wall_names": m.wall_names,
                 "modes": point.rows}
     # Each file is written under a unique temporary name and renamed into place, the summary
     # last, as it marks the point done. The NPZ carries the fingerprint too, so that an NPZ
@@ -59,9 +90,8 @@ def save_point(folder: Path, index: int, point: PointResult) -> None:
     # to update.)
     summary.parent.mkdir(parents=True, exist_ok=True)
     write_file_atomically(arrays, lambda p: np.savez_compressed(
-        p, points=m.points, tets=m.tets, tet_region=m.tet_region, faces=m.faces,
-        face_tag=m.face_tag, dofs=point.dofs, fingerprint=np.array(point.fingerprint),
-        **extra), suffix=".npz")
+        p, dofs=point.dofs, fingerprint=np.array(point.fingerprint), **mesh_arrays),
+        suffix=".npz")
     write_file_atomically(summary, lambda p: p.write_text(strict_json.dumps(document, indent=1)))
 
 
@@ -92,10 +122,7 @@ def _read_arrays(arrays: Path, document: dict) -> PointResult:
             if str(z["fingerprint"]) != document["fingerprint"]:
                 raise ValueError("its fingerprint is not the summary's (a run stopped "
                                  "between the two files)")
-            mesh = TaggedMesh(points=z["points"], tets=z["tets"], tet_region=z["tet_region"],
-                              region_names=document["region_names"], faces=z["faces"],
-                              face_tag=z["face_tag"], wall_names=document["wall_names"],
-                              tets10=z["tets10"] if "tets10" in z.files else None)
+            mesh = _mesh_from(z, document)
             dofs = z["dofs"]
         point = PointResult(values=tuple(document["values"]), rows=document["modes"],
                             mesh=mesh, dofs=dofs, form=document["form"],

@@ -31,7 +31,11 @@ from pathlib import Path
 
 import numpy as np
 
-from ..case import case_from_data, case_model, read_case_data
+from ..axisymmetric.model import make_axisymmetric_model
+from ..axisymmetric.space import build_order_space, skfem_mesh
+from ..case import case_from_data, case_materials, case_model, read_case_data
+from ..fem.space import build_space
+from ..geometry.meridional import MeridionalMesh
 from ..errors import InputError, ResourceError
 from ..io import strict_json
 from ..io.atomic import check_output_folder, remove_stale_temporaries, staged_output
@@ -132,9 +136,6 @@ def checked_for_tracking(case) -> None:
         raise InputError("studies track modes over the whole part; drop [symmetry] (each "
                          "symmetry class would be tracked apart: not yet available)",
                          field="symmetry")
-    if case.solve.azimuthal_orders is not None:
-        raise InputError("studies track modes of 3D solves; axisymmetric tracking is not yet "
-                         "available (drop azimuthal_orders)", field="solve.azimuthal_orders")
     if case.solve.error_estimate:
         raise InputError("error bars at every study point are not yet available; drop "
                          "error_estimate / accuracy", field="solve.error_estimate")
@@ -163,11 +164,21 @@ def solve_point(data: dict, path: Path, axes, values, fingerprint: str,
     t0 = time.perf_counter()
     settings = replace(case.solve, modes=case.solve.modes + spare)
     result = solve_case(case, settings, progress)
-    return PointResult(values=tuple(values), rows=mode_rows(result), mesh=result.space.model.mesh,
-                       dofs=np.column_stack([m.dofs for m in result.modes]),
+    return PointResult(values=tuple(values), rows=mode_rows(result), mesh=result.mesh,
+                       dofs=full_vectors(result),
                        form=result.form, order=result.order,
                        seconds=time.perf_counter() - t0, fingerprint=fingerprint,
                        peak_estimate_bytes=result.eigen_stats.get("peak_estimate_bytes"))
+
+
+def full_vectors(result) -> np.ndarray:
+    """The modes' vectors over every DOF of the mesh, one column each (an axisymmetric
+    result keeps its modes over the kept DOFs of each order's space)."""
+    columns = [None] * len(result.modes)
+    for _, space, positions in result.mode_spaces():
+        for i in positions:
+            columns[i] = space.full_vectors(result.modes[i].dofs)
+    return np.column_stack(columns)
 
 
 def _solve_and_save(args) -> int:
@@ -177,21 +188,35 @@ def _solve_and_save(args) -> int:
 
 
 class _Tracked:
-    """A point rebuilt for tracking: its space and modes (frequency and vector)."""
+    """A point rebuilt for tracking: its spaces and modes (frequency and vector)."""
 
     def __init__(self, data, path, axes, point: PointResult):
-        from ..fem.space import build_space
-
         for axis, value in zip(axes, point.values):
             data = with_value(data, axis.path, value)
-        model = case_model(study_case(data, path), point.mesh)
-        self.space = build_space(model, point.form, point.order)
+        case = study_case(data, path)
         self.form = point.form
-        self.modes = [_Mode(row["frequency_hz"], point.dofs[:, j])
-                      for j, row in enumerate(point.rows)]
+        if isinstance(point.mesh, MeridionalMesh):
+            spaces = _section_spaces(case, point)
+            keys = [row["azimuthal_order"] for row in point.rows]
+        else:
+            spaces = {None: build_space(case_model(case, point.mesh), point.form, point.order)}
+            keys = [None] * len(point.rows)
+        self._spaces = [(key, space, [j for j, k in enumerate(keys) if k == key])
+                        for key, space in spaces.items()]
+        self.modes = [_Mode(row["frequency_hz"], spaces[key].stored_vectors(point.dofs[:, j]))
+                      for j, (row, key) in enumerate(zip(point.rows, keys))]
 
     def mode_spaces(self) -> list[tuple]:
-        return [(None, self.space, list(range(len(self.modes))))]
+        return self._spaces
+
+
+def _section_spaces(case, point: PointResult) -> dict:
+    """The order spaces of a body of revolution's stored section, for its solved orders."""
+    model = make_axisymmetric_model(point.mesh, case_materials(case, point.mesh.region_names),
+                                    case.walls, source=str(case.path))
+    mesh = skfem_mesh(model)
+    return {m: build_order_space(model, m, point.order, mesh, point.form)
+            for m in sorted({row["azimuthal_order"] for row in point.rows})}
 
 
 @dataclass(frozen=True)
