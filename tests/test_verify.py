@@ -1,0 +1,67 @@
+"""`femcav verify`: the catalogue through the command line on a small subset, and a planted
+wrong permittivity that must make the affected case fail (so the command can fail).
+
+The references themselves are the catalogue's (femcav.verification.catalogue: closed forms
+from femcav.analytic and scipy, each with its source); CI runs the whole catalogue with
+`femcav verify --quick` (.ci/run)."""
+
+from __future__ import annotations
+
+import json
+from dataclasses import replace
+
+from femcav.cli import main
+from femcav.verification.command import verify
+
+
+def test_subset_through_the_command_line(tmp_path, capsys):
+    out = tmp_path / "verify"
+    assert main(["verify", "--quick", "--only", "pillbox,revolution", "--out", str(out),
+                 "-q"]) == 0
+    printed = capsys.readouterr().out
+    assert "2 of 2 cases passed" in printed and " rel." in printed and " s " in printed
+    document = json.loads((out / "verify.json").read_text())
+    assert document["format"] == "femcav-verify" and document["passed"] is True
+    assert document["environment"]["python"] and document["environment"]["libraries"]["scipy"]
+    assert [c["name"] for c in document["cases"]] == ["pillbox", "revolution"]
+    for case in document["cases"]:
+        assert len(case["meshes"]) == 2 and case["meshes"][0]["dofs"] < case["meshes"][1]["dofs"]
+        for q in case["quantities"]:
+            assert q["passed"] and q["errors"][-1] <= q["tolerance"]
+            assert q["errors"][-1] < q["errors"][0]          # the finer mesh is closer
+    page = (out / "verify.html").read_text()
+    assert page.count('src="data:image/png;base64,') == 2    # one convergence plot per case
+    assert "http://" not in page and "https://" not in page  # offline
+
+
+def wrong_disc_permittivity(case):
+    """A planted solver-setting error: the disc's eps_r 5 % too high, everything else kept."""
+    if "disc" not in case.regions:
+        return case
+    disc = case.regions["disc"]
+    return replace(case, regions={**case.regions, "disc": replace(disc, eps_r=1.05 * disc.eps_r)})
+
+
+def test_a_wrong_permittivity_fails_the_cases_it_touches(tmp_path, capsys):
+    document, folder, status = verify(tmp_path / "verify", only=("revolution",
+                                                                  "two_layer_cylinder"),
+                                      adjust_case=wrong_disc_permittivity, quiet=True)
+    assert status == 3
+    by_name = {c["name"]: c for c in document["cases"]}
+    assert by_name["revolution"]["passed"]            # no disc: untouched, still passes
+    layered = by_name["two_layer_cylinder"]
+    assert not layered["passed"]
+    # a 5 % error in eps_r moves the disc-bound modes by percents, far above the tolerance,
+    # and they stop converging towards the reference (the observed rate collapses)
+    assert layered["quantities"][0]["errors"][-1] > 100 * layered["quantities"][0]["tolerance"]
+    assert any("not within tolerance" in f for f in layered["failures"])
+    assert json.loads((folder / "verify.json").read_text())["passed"] is False
+    assert "FAILED two_layer_cylinder" in capsys.readouterr().out
+
+
+def test_unknown_case_name_is_an_input_error(tmp_path, capsys):
+    out = tmp_path / "verify"
+    assert main(["verify", "--only", "box,no_such_case", "--out", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert "no_such_case" in err and len(err.strip().splitlines()) == 1
+    assert not out.exists()
