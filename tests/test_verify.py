@@ -65,3 +65,53 @@ def test_unknown_case_name_is_an_input_error(tmp_path, capsys):
     err = capsys.readouterr().err
     assert "no_such_case" in err and len(err.strip().splitlines()) == 1
     assert not out.exists()
+
+
+def test_comparison_error_and_coverage():
+    from femcav.verification.reference_case import Comparison
+
+    c = Comparison((101.0, 199.0), (100.0, 200.0), bars=(2.0, 0.5))
+    assert abs(c.error - 0.01) < 1e-12                       # the larger of 1 % and 0.5 %
+    assert c.coverage == 0.5                                 # 1 within 2, but 1 not within 0.5
+    assert Comparison((100.0,), (100.0, 200.0)).error == float("inf")   # a value missing
+    assert Comparison((100.0,), (100.0,)).coverage is None   # no bars computed
+
+
+def test_observed_rate_in_h_from_dofs():
+    from femcav.verification.run import observed_rate
+
+    # error ∝ h^4 with h = DOFs^(-1/3): eight times the DOFs halves h, error / 16
+    assert abs(observed_rate([1000, 8000], [1.6e-3, 1e-4], section=False) - 4) < 1e-12
+    # on a section h = DOFs^(-1/2): four times the DOFs halves h
+    assert abs(observed_rate([1000, 4000], [6.4e-3, 1e-4], section=True) - 6) < 1e-12
+    assert observed_rate([1000], [1e-3], section=False) is None
+    assert observed_rate([1000, 8000], [1e-3, 0.0], section=False) is None
+
+
+def test_judge_fails_a_slow_rate_and_skips_it_at_the_floor():
+    from femcav.verification.reference_case import Comparison, Quantity, ReferenceCase
+    from femcav.verification.run import judge
+
+    def case(tolerance, rate):
+        return ReferenceCase(name="t", title="t", covers="t", source="t", order=2,
+                             section=False, sizes={"quick": (2.0, 1.0)}, case_text=str,
+                             compare=None, quantities=(Quantity("f", tolerance, rate),))
+
+    def meshes(errors):
+        return [{"size_m": h, "dofs": n, "elements": 1, "time_s": 0.0, "error_bars": False,
+                 "checks_passed": True, "resolved": True,
+                 "comparisons": {"f": Comparison((1 + e,), (1.0,))}}
+                for h, n, e in zip((2.0, 1.0), (1000, 8000), errors)]
+
+    # halving h only halves the error: rate 1 against an expected 4
+    slow = judge(case(1e-3, 4.0), "quick", meshes([2e-4, 1e-4]), None, 0.0)
+    assert not slow["passed"] and "observed rate" in slow["failures"][0]
+    # the same errors a thousand times smaller sit at the solver's floor: rate not judged
+    floor = judge(case(1e-3, 4.0), "quick", meshes([2e-10, 1e-10]), None, 0.0)
+    assert floor["passed"] and not floor["quantities"][0]["rate_judged"]
+    # within the rate but above the tolerance
+    loose = judge(case(1e-5, 4.0), "quick", meshes([1.6e-3, 1e-4]), None, 0.0)
+    assert not loose["passed"] and "not within tolerance" in loose["failures"][0]
+    # a case that could not run has failed
+    broken = judge(case(1e-3, 4.0), "quick", [], "RuntimeError: no", 0.0)
+    assert not broken["passed"] and broken["failures"] == ["RuntimeError: no"]

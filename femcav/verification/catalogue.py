@@ -39,7 +39,7 @@ BOX_WALLS = ("x_min", "x_max", "y_min", "y_max", "z_min", "z_max")
 PILLBOX = (10 * MM, 15 * MM)                 # radius, length
 # element sizes of the 3D cases: at 6 mm (under two elements across the 10 mm height) the
 # rates were still far from their asymptotic values
-SIZES_3D = {"quick": (5 * MM, 3.5 * MM), "full": (5 * MM, 3.5 * MM, 2.5 * MM)}
+SIZES_3D = {"quick": (5 * MM, 3.5 * MM), "full": (4 * MM, 2.8 * MM, 2 * MM)}
 
 
 def _metal(walls) -> str:

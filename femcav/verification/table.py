@@ -5,6 +5,8 @@ from __future__ import annotations
 
 
 def _rate(q: dict) -> str:
+    if q["expected_rate"] is None:
+        return "-"           # exact on any mesh: no rate to observe
     if q["expected_rate"] is not None and q["observed_rate"] is not None \
             and not q["rate_judged"]:
         return "floor"       # errors at the eigen solver's floor: no rate judged
