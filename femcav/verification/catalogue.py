@@ -15,6 +15,7 @@ wrong solver does.
 from __future__ import annotations
 
 import math
+from functools import cache
 from pathlib import Path
 
 from scipy.constants import c as C0
@@ -205,7 +206,7 @@ def sphere() -> ReferenceCase:
 
     def compare(result):
         return {"f, lowest 10 over m = 0, 1, 2": _per_order(
-            result, lambda m, n: sphere_order_frequencies(radius, m, n), orders)}
+            result, cache(lambda m, n: sphere_order_frequencies(radius, m, n)), orders)}
     return ReferenceCase(
         name="sphere", title="PEC sphere, imported curved (6-node) section, m = 0, 1, 2",
         covers="imported section mesh with curved triangles, E form, order 3",
@@ -252,11 +253,13 @@ def slab_box() -> ReferenceCase:
     a, b, d = BOX
     thickness, eps = 6 * MM, 4.0
 
+    @cache      # the same for every mesh: computed once
+    def family():
+        return sorted(f for p in (1, 2, 3)
+                      for f in slab_te_m0p_frequencies(a, thickness, d, eps, p, 2))[:3]
+
     def compare(result):
-        family = sorted(f for p in (1, 2, 3)
-                        for f in slab_te_m0p_frequencies(a, thickness, d, eps, p, 2))
-        found = polarised(result, axis=1)[:3]
-        return {"f, TE_m0p lowest 3": _frequencies(found, family[:3])}
+        return {"f, TE_m0p lowest 3": _frequencies(polarised(result, axis=1)[:3], family())}
     return ReferenceCase(
         name="slab_box", title="box with a dielectric slab (eps_r = 4) against a side wall",
         covers="two-region builder (loaded_box), E form, order 2, modes picked by polarisation",
@@ -277,12 +280,15 @@ def graded_box() -> ReferenceCase:
     """Box with eps_r = 1.5 + sin(πx/a): its TE_m0p family from 1D shooting."""
     a, b, d = BOX
 
-    def compare(result):
+    @cache      # the shooting takes seconds: once for all meshes
+    def family():
         def eps(x):
             return 1.5 + math.sin(math.pi * x / a)
-        family = sorted(f for p in (1, 2, 3)
-                        for f in graded_te_m0p_frequencies(eps, a, d, p, 2, 1.5, 2.5))
-        return {"f, TE_m0p lowest 3": _frequencies(polarised(result, axis=1)[:3], family[:3])}
+        return sorted(f for p in (1, 2, 3)
+                      for f in graded_te_m0p_frequencies(eps, a, d, p, 2, 1.5, 2.5))[:3]
+
+    def compare(result):
+        return {"f, TE_m0p lowest 3": _frequencies(polarised(result, axis=1)[:3], family())}
     return ReferenceCase(
         name="graded_box", title="box with a graded permittivity 1.5 + sin(pi x / a)",
         covers="permittivity expression evaluated at quadrature points, E form, order 2",
@@ -302,10 +308,13 @@ def two_layer_cylinder() -> ReferenceCase:
     """Pillbox whose lower 8 mm are a dielectric disc (eps_r = 4): its TE_0np modes."""
     radius, length, layer, eps = 10 * MM, 20 * MM, 8 * MM, 4.0
 
+    @cache
+    def reference():
+        return layered_pillbox_te0np_frequencies(radius, length, layer, eps, 3, 3)
+
     def compare(result):
-        found = of_order(result, 0, "TE-like")[:3]
-        return {"f, TE_0np lowest 3": _frequencies(
-            found, layered_pillbox_te0np_frequencies(radius, length, layer, eps, 3, 3))}
+        return {"f, TE_0np lowest 3": _frequencies(of_order(result, 0, "TE-like")[:3],
+                                                   reference())}
     return ReferenceCase(
         name="two_layer_cylinder", title="pillbox with a full-width dielectric disc (eps_r = 4)",
         covers="composite builder (space and fill cylinders) on its section, m = 0, order 3",

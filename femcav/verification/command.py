@@ -47,7 +47,7 @@ def verify(out: str | Path = DEFAULT_FOLDER, *, full: bool = False,
     from .table import format_table
 
     if jobs < 1:
-        raise InputError(f"--jobs must be 1 or more, got {jobs}", field="--jobs")
+        raise InputError(f"must be 1 or more, got {jobs}", field="--jobs")
     selected_cases(only)                       # a wrong name is said before any work
     folder = check_output_folder(Path(out))
     document = run_verification(Request(mode="full" if full else "quick", only=only,
