@@ -54,7 +54,7 @@ def test_a_wrong_permittivity_fails_the_cases_it_touches(tmp_path, capsys):
     # a 5 % error in eps_r moves the disc-bound modes by percents, far above the tolerance,
     # and they stop converging towards the reference (the observed rate collapses)
     assert layered["quantities"][0]["errors"][-1] > 100 * layered["quantities"][0]["tolerance"]
-    assert any("not within tolerance" in f for f in layered["failures"])
+    assert any("above the tolerance" in f for f in layered["failures"])
     assert json.loads((folder / "verify.json").read_text())["passed"] is False
     assert "FAILED two_layer_cylinder" in capsys.readouterr().out
 
@@ -75,6 +75,7 @@ def test_comparison_error_and_coverage():
     assert c.coverage == 0.5                                 # 1 within 2, but 1 not within 0.5
     assert Comparison((100.0,), (100.0, 200.0)).error == float("inf")   # a value missing
     assert Comparison((100.0,), (100.0,)).coverage is None   # no bars computed
+    assert Comparison((None,), (100.0,)).error == float("inf")  # a value not computed
 
 
 def test_observed_rate_in_h_from_dofs():
@@ -97,10 +98,11 @@ def test_judge_fails_a_slow_rate_and_skips_it_at_the_floor():
                              section=False, sizes={"quick": (2.0, 1.0)}, case_text=str,
                              compare=None, quantities=(Quantity("f", tolerance, rate),))
 
-    def meshes(errors):
+    def meshes(errors, bar=None):
         return [{"size_m": h, "dofs": n, "elements": 1, "time_s": 0.0, "error_bars": False,
                  "checks_passed": True, "resolved": True,
-                 "comparisons": {"f": Comparison((1 + e,), (1.0,))}}
+                 "comparisons": {"f": Comparison((1 + e,), (1.0,),
+                                                 bars=None if bar is None else (bar,))}}
                 for h, n, e in zip((2.0, 1.0), (1000, 8000), errors)]
 
     # halving h only halves the error: rate 1 against an expected 4
@@ -111,7 +113,12 @@ def test_judge_fails_a_slow_rate_and_skips_it_at_the_floor():
     assert floor["passed"] and not floor["quantities"][0]["rate_judged"]
     # within the rate but above the tolerance
     loose = judge(case(1e-5, 4.0), "quick", meshes([1.6e-3, 1e-4]), None, 0.0)
-    assert not loose["passed"] and "not within tolerance" in loose["failures"][0]
+    assert not loose["passed"] and "above the tolerance" in loose["failures"][0]
+    # an error bar narrower than the true error
+    narrow = judge(case(1e-3, 4.0), "quick", meshes([1.6e-3, 1e-4], bar=5e-5), None, 0.0)
+    assert not narrow["passed"] and "error bars hold only 0%" in narrow["failures"][0]
+    assert judge(case(1e-3, 4.0), "quick", meshes([1.6e-3, 1e-4], bar=2e-4), None,
+                 0.0)["passed"]
     # a case that could not run has failed
     broken = judge(case(1e-3, 4.0), "quick", [], "RuntimeError: no", 0.0)
     assert not broken["passed"] and broken["failures"] == ["RuntimeError: no"]

@@ -35,6 +35,8 @@ class Comparison:
         """Largest |computed / reference - 1|; infinite when values are missing."""
         if len(self.computed) < len(self.reference) or not self.reference:
             return math.inf
+        if any(c is None for c in self.computed):     # e.g. a mode left without a Q
+            return math.inf
         return max(abs(c / r - 1) for c, r in zip(self.computed, self.reference))
 
     @property

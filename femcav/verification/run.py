@@ -31,9 +31,10 @@ from .reference_case import ReferenceCase
 # (measured on the pillbox section: 3.6 to 4.0 for an expected 4, tests/test_axisymmetric),
 # while a wrong operator does not converge to the reference at all (rate near 0).
 RATE_SHARE = 0.6
-# Relative errors below this are set by the eigen solver's convergence and rounding rather
-# than by the mesh; no rate is judged from them (common practice: ARPACK's relative tolerance
-# on the eigenvalue is near machine precision times the condition, here about 1e-10).
+# Below this relative error the error is no longer a clean function of the mesh: the
+# references' own accuracy (shooting with rtol 1e-12) and the eigen solver's convergence come
+# within reach (measured: the section pillbox's TM010 error falls from 1.6e-11 to 4e-13 with
+# pairwise rates from 5.1 to 7.7). No rate is judged from such errors.
 ERROR_FLOOR = 1e-9
 
 FORMAT = "femcav-verify"
@@ -192,16 +193,17 @@ def judge(case: ReferenceCase, mode: str, meshes: list[dict], failure: str | Non
                   and min(errors) > ERROR_FLOOR)
         finest = comparisons[-1] if comparisons else None
         coverage = finest.coverage if finest is not None else None
-        checks = {
-            "within tolerance": bool(errors) and errors[-1] <= q.tolerance,
-            "rate": not judged or rate >= RATE_SHARE * q.expected_rate,
-            "error bars hold the reference": coverage is None or coverage == 1.0,
+        checks = {   # each with what to say when it fails
+            "tolerance": (bool(errors) and errors[-1] <= q.tolerance, lambda: (
+                f"error {errors[-1]:.2e} on the finest mesh, above the tolerance "
+                f"{q.tolerance:.1e}")),
+            "rate": (not judged or rate >= RATE_SHARE * q.expected_rate, lambda: (
+                f"observed rate {rate:.2f} below {RATE_SHARE:g} x {q.expected_rate:g}")),
+            "bars": (coverage is None or coverage == 1.0, lambda: (
+                f"the error bars hold only {coverage:.0%} of the reference values")),
         }
-        for what, ok in checks.items():
-            if complete and not ok:
-                failures.append(f"{q.name}: not {what}" if what != "rate" else
-                                f"{q.name}: observed rate {rate:.2f} below "
-                                f"{RATE_SHARE:g} x {q.expected_rate:g}")
+        if complete:
+            failures += [f"{q.name}: {say()}" for ok, say in checks.values() if not ok]
         quantities.append({
             "name": q.name, "unit": finest.unit if finest else None,
             "tolerance": q.tolerance, "expected_rate": q.expected_rate,
@@ -209,7 +211,7 @@ def judge(case: ReferenceCase, mode: str, meshes: list[dict], failure: str | Non
             "computed": [list(c.computed) for c in comparisons],
             "reference": [list(c.reference) for c in comparisons],
             "error_bars": [None if c.bars is None else list(c.bars) for c in comparisons],
-            "coverage": coverage, "passed": complete and all(checks.values()),
+            "coverage": coverage, "passed": complete and all(ok for ok, _ in checks.values()),
         })
     for m in meshes:
         if not m["checks_passed"]:
