@@ -76,6 +76,7 @@ def test_comparison_error_and_coverage():
     assert Comparison((100.0,), (100.0, 200.0)).error == float("inf")   # a value missing
     assert Comparison((100.0,), (100.0,)).coverage is None   # no bars computed
     assert Comparison((None,), (100.0,)).error == float("inf")  # a value not computed
+    assert Comparison((100.0,), (100.0,), bars=(None,)).coverage == 0.0  # a mode without a bar
 
 
 def test_observed_rate_in_h_from_dofs():

@@ -6,7 +6,8 @@ computed at run time from femcav.analytic and scipy (never with stored femcav ou
 expected rates are in h, taken as DOFs^(-1/3) in 3D and DOFs^(-1/2) on a section: eigenvalue
 (so also frequency) errors fall like h^(2k) for element order k (D. Boffi, Acta Numerica 19,
 2010; from memory); a wall Q from the H form like the frequency, from the E form (where H is
-the curl of the unknown) like h^k (measured in 3D at order 1: README, "Method notes").
+the curl of the unknown) like h^k (measured in 3D at order 1: README, "Worked example";
+here at order 3 on the section, 2.8 and 3.1).
 Tolerances are on the finest mesh of each list, a few times above the errors measured on the
 reference machine, so that a change of factorisation library or BLAS does not trip them and a
 wrong solver does.

@@ -44,7 +44,8 @@ class Comparison:
         """Share of the computed values whose error bar holds the reference value."""
         if self.bars is None or len(self.bars) < len(self.reference):
             return None
-        inside = [abs(c - r) <= b for c, r, b in zip(self.computed, self.reference, self.bars)]
+        inside = [b is not None and abs(c - r) <= b       # a mode without a bar: not held
+                  for c, r, b in zip(self.computed, self.reference, self.bars)]
         return sum(inside) / len(inside)
 
 
