@@ -39,8 +39,13 @@ def spherical_cavity_roots(n: int, count: int) -> list[float]:
 def sphere_order_frequencies(radius: float, m: int, count: int) -> list[float]:
     """The lowest ``count`` frequencies (Hz) a solve at azimuthal order m must find, each once:
     every degree n >= max(m, 1), TE and TM."""
-    first = max(m, 1)
-    # a degree's lowest root exceeds n + 1/2, so degrees above the count-th root cannot enter
-    roots = sorted(x for n in range(first, first + count + 1)
-                   for x in spherical_cavity_roots(n, count))[:count]
-    return [C0 * x / (2 * math.pi * radius) for x in roots]
+    roots, n = [], max(m, 1)
+    while True:
+        degree = spherical_cavity_roots(n, count)
+        # the lowest root grows with the degree: once it passes the count-th root found so
+        # far, no higher degree can enter
+        if len(roots) >= count and degree[0] > roots[count - 1]:
+            break
+        roots = sorted(roots + degree)
+        n += 1
+    return [C0 * x / (2 * math.pi * radius) for x in roots[:count]]
