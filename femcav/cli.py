@@ -9,6 +9,7 @@ import sys
 
 from . import __version__, exit_codes
 from .errors import BrokenResultFolder, InputError, ResourceError, printable
+from .verification import command as verification_command
 
 EXIT_INPUT_ERROR = exit_codes.INPUT_ERROR
 EXIT_CHECKS_FAILED = exit_codes.CHECKS_FAILED
@@ -92,6 +93,7 @@ def _parser() -> argparse.ArgumentParser:
     mesh.add_argument("--out", metavar="DIR",
                       help="output folder (default: CASE-results next to the case file)")
     mesh.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
+    verification_command.add_parser(commands)
     return parser
 
 
@@ -112,7 +114,8 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_INPUT_ERROR
     try:
         return {"mesh": _mesh, "sweep": _sweep, "tune": _tune, "extract": _extract,
-                "show": _show}.get(args.command, _solve)(args)
+                "show": _show, "verify": verification_command.run}.get(args.command,
+                                                                       _solve)(args)
     except InputError as exc:
         return _fail(str(exc), exit_codes.INPUT_ERROR)
     except BrokenResultFolder as exc:

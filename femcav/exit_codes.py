@@ -11,6 +11,7 @@ from __future__ import annotations
 OK = 0
 INPUT_ERROR = 2            # a mistake in the case file or the command line; nothing written
 CHECKS_FAILED = 3          # a mode failed its checks or the mesh does not resolve it
+                           # (femcav verify: a reference case failed)
 OUT_OF_MEMORY = 4          # out of memory, or a sweep worker process was killed
 FILE_SYSTEM = 5            # a file or folder could not be written or read: read-only,
                            # no permission, disk full, a file where a folder should be

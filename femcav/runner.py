@@ -301,10 +301,24 @@ def _write_tables(files, case: Case, result) -> None:
                                            model=model_summary(case, result)))
 
 
+def _plain(value):
+    """A builder parameter as JSON data: a composite's solids (dataclasses in tuples) become
+    {"shape": ..., fields} inside lists."""
+    from dataclasses import asdict, is_dataclass
+
+    if is_dataclass(value):
+        return {"shape": type(value).__name__.lower(), **_plain(asdict(value))}
+    if isinstance(value, dict):
+        return {k: _plain(v) for k, v in value.items()}
+    if isinstance(value, (tuple, list)):
+        return [_plain(v) for v in value]
+    return value
+
+
 def model_summary(case: Case, result) -> dict:
     """What the part is, for the report: geometry, regions with their materials, walls."""
     g = case.geometry
-    geometry = ({"builder": g.builder, "parameters": {k: (list(v) if isinstance(v, tuple) else v)
+    geometry = ({"builder": g.builder, "parameters": {k: _plain(v)
                                                       for k, v in g.parameters.items()}}
                 if g.builder else {"mesh": str(g.mesh_path), "unit_m": g.mesh_unit_m})
     if settings_orders := case.solve.azimuthal_orders:

@@ -30,6 +30,7 @@ LAYERS = {
     "runner": 7, "mesh_runner": 7,
     "study": 8,
     "case": 9, "cli": 9, "__main__": 9, "": 9,  # "" is femcav/__init__.py
+    "verification": 9,    # femcav verify: runs case files like a user, beside cli
 }
 
 # the eigen layer sees matrices, never meshes, walls or case keys

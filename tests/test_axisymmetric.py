@@ -14,6 +14,7 @@ import pytest
 from scipy.constants import c, epsilon_0, mu_0
 from scipy.special import jn_zeros, jnp_zeros
 
+from femcav.analytic.sphere import spherical_cavity_roots  # Harrington §6-11, scipy roots
 from femcav.axisymmetric.model import make_axisymmetric_model
 from femcav.axisymmetric.solve import solve_axisymmetric
 from femcav.errors import InputError
@@ -22,6 +23,7 @@ from femcav.geometry.parts import Sizing
 from femcav.geometry.section import mesh_section
 from femcav.materials import Material
 from femcav.metals import CONDUCTIVITY_S_PER_M, surface_resistance
+from femcav.verification.sphere_section import half_disc_msh
 from femcav.walls import Wall
 
 A, D = 0.010, 0.015
@@ -307,56 +309,6 @@ def test_singular_parts_get_the_slower_rate_for_their_bars():
     assert rate("loaded_box", {"air": Material(), "block": Material(eps_r=4.0)},
                 width=0.02, height=0.01, length=0.03, block_corner=(0.0, 0.0, 0.0),
                 block_size=(0.005, 0.01, 0.03)) == SINGULAR_RATE
-
-
-def half_disc_msh(path, radius, size, curved=True):
-    """A gmsh file of the meridional section of a sphere: the half disc r >= 0, with the
-    region "inside" and the arc named "shell" (the axis segment left unnamed)."""
-    import gmsh
-
-    gmsh.initialize(readConfigFiles=False)
-    try:
-        gmsh.option.setNumber("General.Terminal", 0)
-        occ = gmsh.model.occ
-        disc = occ.addDisk(0, 0, 0, radius, radius)
-        half = occ.addRectangle(0, -radius, 0, radius, 2 * radius)
-        (piece,), _ = occ.intersect([(2, disc)], [(2, half)])
-        occ.synchronize()
-        arc = [c for _, c in gmsh.model.getBoundary([piece], oriented=False)
-               if abs(gmsh.model.occ.getCenterOfMass(1, c)[0]) > 1e-9]
-        gmsh.model.addPhysicalGroup(2, [piece[1]], name="inside")
-        gmsh.model.addPhysicalGroup(1, arc, name="shell")
-        gmsh.option.setNumber("Mesh.MeshSizeMax", size)
-        gmsh.model.mesh.generate(2)
-        if curved:
-            gmsh.model.mesh.setOrder(2)
-        gmsh.option.setNumber("Mesh.MshFileVersion", 4.1)
-        gmsh.write(str(path))
-    finally:
-        gmsh.finalize()
-    return path
-
-
-def spherical_cavity_roots(n, count):
-    """kR of the TE (j_n(x) = 0) and TM ((x j_n(x))' = 0) modes of a spherical cavity with a
-    perfectly conducting wall (R. F. Harrington, Time-Harmonic Electromagnetic Fields, 1961,
-    §6-11, from memory), from scipy.special.spherical_jn with brentq."""
-    from scipy.optimize import brentq
-    from scipy.special import spherical_jn
-
-    def te(x):
-        return spherical_jn(n, x)
-
-    def tm(x):
-        return spherical_jn(n, x) + x * spherical_jn(n, x, derivative=True)
-    out = []
-    for f in (te, tm):
-        grid = np.linspace(0.5, 20, 4000)
-        values = f(grid)
-        roots = [brentq(f, a, b, xtol=1e-15) for a, b, va, vb
-                 in zip(grid[:-1], grid[1:], values[:-1], values[1:]) if va * vb < 0]
-        out += roots[:count]
-    return sorted(out)
 
 
 @pytest.mark.parametrize("m", [0, 1, 2])

@@ -165,3 +165,15 @@ def test_imported_mesh_refuses_sizes_and_symmetry(tmp_path, capsys):
         case = write(tmp_path, '[geometry]\nmesh = "m.msh"\n[regions.air]\neps_r = 1\n[regions.slab]\neps_r = 2\n' + extra)
         assert main(["solve", str(case), "-q"]) == 2
         assert expected in capsys.readouterr().err
+
+
+def test_composite_case_writes_its_solids_into_modes_json(tmp_path):
+    # The composite's solids are objects inside the case; modes.json must carry them as
+    # data (a solve of any composite case used to end in a TypeError while writing it).
+    case = write(tmp_path, L_SHAPE + "[solve]\nmodes = 1\n")
+    assert main(["solve", str(case), "--out", str(tmp_path / "out"), "-q", "--no-report"]) == 0
+    solids = json.loads((tmp_path / "out" / "modes.json").read_text())[
+        "model"]["geometry"]["parameters"]["solids"]
+    assert [s[0] for s in solids] == ["space", "space", "metal"]
+    assert solids[2][2] == {"shape": "box", "corner": [0.004, 0.0, 0.004],
+                            "size": [0.002, 0.01, 0.002]}

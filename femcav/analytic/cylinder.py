@@ -46,3 +46,16 @@ def lowest_pillbox_frequencies(radius: float, length: float, count: int) -> list
         if len(modes) > count:
             return [f for f, _ in modes[:count]]
         f_max *= 1.5
+
+
+def pillbox_order_frequencies(radius: float, length: float, m: int, count: int) -> list[float]:
+    """The lowest ``count`` frequencies (Hz) of azimuthal order m (TM_mnl and TE_mnl), each
+    pair listed once: what a body-of-revolution solve at order m must find."""
+    out = []
+    for p in range(1, count + 1):
+        tm, te = jn_zeros(m, p)[-1], jnp_zeros(m, p)[-1]
+        for l in range(count + 1):
+            out.append(math.hypot(tm / radius, l * math.pi / length))
+            if l:
+                out.append(math.hypot(te / radius, l * math.pi / length))
+    return [C0 * k / (2 * math.pi) for k in sorted(out)[:count]]
