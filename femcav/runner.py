@@ -172,6 +172,7 @@ def solve_case(case: Case, settings, progress: Progress = SILENT):
                       f"({mesh.source}"
                       + (f", coordinates in units of {case.geometry.mesh_unit_m:g} m)"
                          if case.geometry.mesh_path else ")"))
+        check_probes_inside(case, mesh)
     settings = replace(settings, form=choose_form(case, settings.form, progress))
     labelled = []
     for walls in symmetry_classes(case.symmetry):
@@ -196,7 +197,45 @@ def solve_case(case: Case, settings, progress: Progress = SILENT):
         result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
     if case.tolerances:
         result = _with_tolerances(case, result, progress)
-    return result
+    return _with_field_figures(case, result)
+
+
+def _mirror(case: Case):
+    """The symmetry planes that cut the case's part (post.point_fields.Mirror)."""
+    from .geometry import BUILDERS
+    from .post.point_fields import Mirror
+
+    if not case.symmetry:
+        return Mirror({})
+    builder = BUILDERS[case.geometry.builder]
+    full = {k: p.default for k, p in builder.PARAMETERS.items() if not p.required}
+    planes = builder.symmetry_planes(**{**full, **case.geometry.parameters})
+    return Mirror({axis: planes[axis] for axis in case.symmetry})
+
+
+def check_probes_inside(case: Case, mesh) -> None:
+    """InputError naming the probe whose point lies outside the meshed part (before a
+    solve: the mesh is all it needs)."""
+    from .post.point_fields import points_outside, refuse_outside
+
+    mirror = _mirror(case)
+    for probe in case.probes:
+        folded = mirror.fold(probe.points)
+        try:
+            refuse_outside(points_outside(mesh.points, mesh.tets, folded), probe.points,
+                           f"probes.{probe.name}")
+        except InputError as exc:
+            raise exc.located(source=str(case.path)) from None
+
+
+def _with_field_figures(case: Case, result):
+    """Magnetic filling factors and probe values of every mode (3D)."""
+    from .post.mode_figures import with_field_figures
+
+    if case.probes:
+        mesh = result.space.model.mesh
+        check_probes_inside(case, mesh)
+    return with_field_figures(result, case.probes, case.filling_axis, _mirror(case))
 
 
 def _with_tolerances(case: Case, result: SolveResult, progress: Progress) -> SolveResult:
@@ -272,6 +311,9 @@ def _write_tables(files, case: Case, result) -> None:
     files.write_text("modes.csv", to_csv(result))
     files.write_text("modes.json", to_json(result, title=case.title, case=str(case.path),
                                            model=model_summary(case, result)))
+    if case.probes:
+        from .io.probe_table import to_probes_csv
+        files.write_text("probes.csv", to_probes_csv(result))
 
 
 def model_summary(case: Case, result) -> dict:

@@ -114,7 +114,7 @@ def transfer_matrix(coarse: EdgeSpace, points: np.ndarray) -> Transfer:
     basis = coarse.basis
     where = locate(coarse.mesh, points)
     cells = where.cells
-    reference = _reference_coordinates(basis.mapping, points, where)   # (3, n, 1)
+    reference = reference_coordinates(basis.mapping, points, where)   # (3, n, 1)
     worst = _barycentric_min(reference[:, :, 0])
     n = points.shape[1]
     rows, cols, vals = [], [], []
@@ -131,7 +131,7 @@ def transfer_matrix(coarse: EdgeSpace, points: np.ndarray) -> Transfer:
                     worst_barycentric=float(min(worst.min(), 0.0)))
 
 
-def _reference_coordinates(mapping, points: np.ndarray, where: Location) -> np.ndarray:
+def reference_coordinates(mapping, points: np.ndarray, where: Location) -> np.ndarray:
     """Reference coordinates of each point in its element: the corner tetrahedron's local
     coordinates for a straight element, refined by Newton steps on the element's own map for
     a curved one. Newton is not clipped to the reference element, so a point just outside
