@@ -129,9 +129,12 @@ def aligned(E, H, reference_E):
     return E * sign, H * sign
 
 
-def test_point_and_line_probes_of_te101_against_the_closed_form(tmp_path):
-    point = (0.006, 0.004, 0.011)
-    path = box_case(tmp_path, f"""
+@pytest.fixture(scope="module")
+def probed_box(tmp_path_factory):
+    """A copper box with two point probes and a line probe, solved through its case file:
+    (the result folder, its modes.json)."""
+    tmp_path = tmp_path_factory.mktemp("probed_box")
+    path = box_case(tmp_path, """
 [probes.off_centre]
 at = ["6 mm", "4 mm", "11 mm"]
 [probes.centre]
@@ -141,8 +144,13 @@ from = ["11.43 mm", "5.08 mm", "3 mm"]
 to = ["11.43 mm", "5.08 mm", "27 mm"]
 points = 5
 """)
-    _, result, folder = run_case(path, out=tmp_path / "out")
-    document = json.loads((folder / "modes.json").read_text())
+    _, _, folder = run_case(path, out=tmp_path / "out")
+    return folder, json.loads((folder / "modes.json").read_text())
+
+
+def test_point_and_line_probes_of_te101_against_the_closed_form(probed_box):
+    point = (0.006, 0.004, 0.011)
+    folder, document = probed_box
     te101, te102 = document["modes"][0], document["modes"][1]
     omega = 2 * math.pi * te101["frequency_hz"]
     probe = te101["probes"]["off_centre"]
@@ -245,3 +253,19 @@ def test_probe_and_filling_mistakes_are_refused_before_anything_is_written(
     assert caught.value.field == field
     assert words in str(caught.value)
     assert not (tmp_path / "out").exists()
+
+
+def test_line_probe_plot_in_the_report(probed_box, tmp_path):
+    # the report embeds one plot per line probe (none for point probes)
+    from femcav.viz.probe_plot import line_probe_names, write_probe_plot
+    from femcav.viz.report import write_report
+
+    _, document = probed_box
+    assert line_probe_names(document) == ["along_z"]
+    picture = tmp_path / "probe_along_z.png"
+    write_probe_plot(document, "along_z", picture)
+    assert picture.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    report = tmp_path / "report.html"
+    write_report(document, {"probe_along_z": picture}, report)
+    page = report.read_text()
+    assert "<h2>Line probes</h2>" in page and page.count("data:image/png") == 1
