@@ -164,7 +164,7 @@ def solve_case(case: Case, settings, progress: Progress = SILENT):
     """The modes of a loaded case with ``settings`` (its [solve] table, perhaps overridden):
     a SolveResult, or an AxisymmetricResult with azimuthal orders; nothing is written."""
     if settings.azimuthal_orders is not None:
-        return _solve_axisymmetric(case, settings, progress)
+        return _with_field_figures(case, _solve_axisymmetric(case, settings, progress))
     # With error bars every mesh, the finest included, is built by solve_with_error_bars.
     mesh = None if settings.error_estimate else build_mesh(case)
     if mesh is not None:
@@ -229,13 +229,49 @@ def check_probes_inside(case: Case, mesh) -> None:
 
 
 def _with_field_figures(case: Case, result):
-    """Magnetic filling factors and probe values of every mode (3D)."""
+    """Magnetic filling factors and probe values of every mode, 3D or axisymmetric."""
     from .post.mode_figures import with_field_figures
 
+    axis = case.filling_axis
+    if getattr(result, "spaces", None) is not None:
+        from .axisymmetric import point_fields as section
+
+        spaces = result.spaces
+        check_probes_on_section(case, next(iter(spaces.values())).model.section)
+        return with_field_figures(
+            result, case.probes,
+            lambda m, points: section.fields_at_points(spaces[m.m], m.dofs,
+                                                       2 * math.pi * m.frequency_hz, points),
+            lambda m: section.magnetic_filling(spaces[m.m], m.dofs, axis))
+    from .post.filling import magnetic_filling
+    from .post.point_fields import fields_at_points
+
+    space, mirror = result.space, _mirror(case)
     if case.probes:
-        mesh = result.space.model.mesh
-        check_probes_inside(case, mesh)
-    return with_field_figures(result, case.probes, case.filling_axis, _mirror(case))
+        check_probes_inside(case, space.model.mesh)
+    return with_field_figures(
+        result, case.probes,
+        lambda m, points: fields_at_points(space, m.dofs, 2 * math.pi * m.frequency_hz, points,
+                                           mirror=mirror, label=m.symmetry,
+                                           cuts=len(mirror.planes)),
+        lambda m: magnetic_filling(space, m.dofs, axis))
+
+
+def check_probes_on_section(case: Case, section) -> None:
+    """InputError naming the probe whose point, turned onto the (r, z) section, lies outside
+    it."""
+    import numpy as np
+
+    from .axisymmetric.point_fields import section_outside
+    from .post.point_fields import refuse_outside
+
+    for probe in case.probes:
+        p = probe.points
+        rz = np.column_stack([np.hypot(p[:, 0], p[:, 1]), p[:, 2]])
+        try:
+            refuse_outside(section_outside(section, rz), p, f"probes.{probe.name}")
+        except InputError as exc:
+            raise exc.located(source=str(case.path)) from None
 
 
 def _with_tolerances(case: Case, result: SolveResult, progress: Progress) -> SolveResult:

@@ -269,3 +269,131 @@ def test_line_probe_plot_in_the_report(probed_box, tmp_path):
     write_report(document, {"probe_along_z": picture}, report)
     page = report.read_text()
     assert "<h2>Line probes</h2>" in page and page.count("data:image/png") == 1
+
+
+# --- bodies of revolution (axisymmetric solver) ----------------------------------------------
+# Pillbox of radius a and length d (tests/test_axisymmetric.py), fields from Pozar §6.4 (the
+# circular-cavity TE_nml and TM_nml modes, from memory), written with E real and
+# H = j ∇×E / (ω μ0) as derived in each helper, normalised to 1 J with scipy's quad.
+
+from scipy.integrate import quad
+from scipy.special import j0, j1, jn_zeros, jnp_zeros, jvp
+
+from test_axisymmetric import A as PA, D as PD, tm010_wall_q
+
+PILLBOX_CASE = """
+title = "probe test pillbox"
+geometry = {{ builder = "pillbox", radius = "10 mm", length = "15 mm" }}
+mesh = {{ size = "1 mm" }}
+walls.side = {{ kind = "metal", metal = "copper" }}
+walls.bottom = {{ kind = "metal", metal = "copper" }}
+walls.top = {{ kind = "metal", metal = "copper" }}
+[solve]
+modes = 7
+azimuthal_orders = [0, 1]
+[filling]
+axis = "{axis}"
+{probes}
+"""
+
+
+def tm010(r, phi, z, omega):
+    """E_z = E0 J0(k r), H_φ = j (E0 / η) J1(k r) (∇×E has φ part -∂E_z/∂r = E0 k J1);
+    W = (ε0/2) E0² d 2π ∫ J0²(k r) r dr."""
+    k = jn_zeros(0, 1)[0] / PA
+    e0 = math.sqrt(2 / (epsilon_0 * PD * 2 * math.pi * quad(lambda s: j0(k * s) ** 2 * s,
+                                                             0, PA)[0]))
+    h_phi = 1j * e0 * k * j1(k * r) / (omega * mu_0)
+    return (np.array([0, 0, e0 * j0(k * r)], dtype=complex),
+            np.array([-h_phi * math.sin(phi), h_phi * math.cos(phi), 0]))
+
+
+def te011_axis_h(z, omega):
+    """E_φ = C J1(k r) sin(πz/d), k = p'01 / a; (∇×E)_z = (1/r) ∂(r E_φ)/∂r = C k J0(k r)
+    sin(πz/d), so on the axis H_z = j C k sin(πz/d) / (ω μ0); W = (ε0/2) C² (d/2) 2π
+    ∫ J1²(k r) r dr."""
+    k = jnp_zeros(0, 1)[0] / PA
+    c_ = math.sqrt(2 / (epsilon_0 * (PD / 2) * 2 * math.pi
+                        * quad(lambda s: j1(k * s) ** 2 * s, 0, PA)[0]))
+    return 1j * c_ * k * math.sin(math.pi * z / PD) / (omega * mu_0)
+
+
+def te111_e(r, phi, z):
+    """The member with E_r ∝ cos φ: E_r = -C J1(k r) / (k r) cos φ, E_φ = C J1'(k r) sin φ,
+    times sin(πz/d), k = p'11 / a (Pozar's TE_11 pattern with B = 0); W = (ε0/2) C² π (d/2)
+    ∫ [(J1(k r)/(k r))² + J1'(k r)²] r dr."""
+    k = jnp_zeros(1, 1)[0] / PA
+    radial = quad(lambda s: ((j1(k * s) / (k * s)) ** 2 + jvp(1, k * s) ** 2) * s, 0, PA)[0]
+    c_ = math.sqrt(2 / (epsilon_0 * math.pi * (PD / 2) * radial))
+    e_r = -c_ * j1(k * r) / (k * r) * math.cos(phi) * math.sin(math.pi * z / PD)
+    e_p = c_ * jvp(1, k * r) * math.sin(phi) * math.sin(math.pi * z / PD)
+    return np.array([e_r * math.cos(phi) - e_p * math.sin(phi),
+                     e_r * math.sin(phi) + e_p * math.cos(phi), 0.0])
+
+
+@pytest.fixture(scope="module")
+def probed_pillbox(tmp_path_factory):
+    tmp_path = tmp_path_factory.mktemp("probed_pillbox")
+    path = tmp_path / "pillbox.toml"
+    path.write_text(PILLBOX_CASE.format(axis="x", probes="""
+[probes.axis]
+at = ["0 mm", "0 mm", "5 mm"]
+[probes.off]
+at = ["3 mm", "4 mm", "6 mm"]
+"""))
+    _, _, folder = run_case(path, out=tmp_path / "out")
+    return json.loads((folder / "modes.json").read_text())["modes"]
+
+
+def pick(modes, m, field_class):
+    return next(row for row in modes if row["azimuthal_order"] == m
+                and row["field_class"] == field_class)
+
+
+def test_axisymmetric_tm010_probes_and_filling(probed_pillbox):
+    mode = pick(probed_pillbox, 0, "TM-like")          # the lowest: TM010
+    omega = 2 * math.pi * mode["frequency_hz"]
+    watt = math.sqrt(tm010_wall_q(mode["frequency_hz"]) / omega)
+    for name, (x, y, z) in (("axis", (0, 0, 0.005)), ("off", (0.003, 0.004, 0.006))):
+        E, H = first_point_fields(mode["probes"][name])
+        E_ref, H_ref = tm010(math.hypot(x, y), math.atan2(y, x), z, omega)
+        E, H = aligned(E, H, E_ref)
+        assert np.abs(E - E_ref).max() < 1e-4 * np.linalg.norm(E_ref)
+        assert np.abs(H - H_ref).max() < 1e-4 * np.linalg.norm(E_ref) / 377
+        if name == "off":
+            assert mode["probes"][name]["b1_per_sqrt_p_t_per_sqrt_w"][0] == pytest.approx(
+                mu_0 * np.linalg.norm(H_ref) * watt, rel=1e-4)
+    # H = H_φ φ̂ only: none along z; along x, the average of sin²φ: one half
+    assert mode["magnetic_filling_factor"] == {"inside": pytest.approx(1.0)}
+    assert mode["magnetic_filling_factor_axis"]["inside"] == pytest.approx(0.5, rel=1e-6)
+
+
+def test_axisymmetric_te011_on_the_axis_and_te111_off_it(probed_pillbox):
+    te011 = min((row for row in probed_pillbox if row["azimuthal_order"] == 0
+                 and row["field_class"] == "TE-like"), key=lambda row: row["frequency_hz"])
+    omega = 2 * math.pi * te011["frequency_hz"]
+    E, H = first_point_fields(te011["probes"]["axis"])
+    expected = te011_axis_h(0.005, omega)
+    # H_z divides by r on the section: extrapolated from 1/2 to 1 element off the axis,
+    # which leaves the quartic term of J0 (about (k h)⁴ / 64, 4e-4 here) and mesh error
+    assert abs(abs(H[2]) - abs(expected)) < 3e-3 * abs(expected)
+    # on the axis H_r = 0 (m = 0) and E = E_φ φ̂ vanishes
+    assert np.abs(H[:2]).max() == 0.0 and np.abs(E).max() < 1e-6 * abs(expected) * 377
+
+    te111 = pick(probed_pillbox, 1, "TE-like")
+    E, H = first_point_fields(te111["probes"]["off"])
+    E_ref = te111_e(0.005, math.atan2(0.004, 0.003), 0.006)
+    E, H = aligned(E, H, E_ref)
+    assert np.abs(E - E_ref).max() < 1e-4 * np.linalg.norm(E_ref)
+
+
+def test_axisymmetric_probe_outside_the_part_is_refused(tmp_path):
+    path = tmp_path / "pillbox.toml"
+    path.write_text(PILLBOX_CASE.format(axis="z", probes="""
+[probes.far]
+at = ["8 mm", "7 mm", "5 mm"]
+"""))
+    with pytest.raises(InputError) as caught:
+        run_case(path, out=tmp_path / "out")
+    assert caught.value.field == "probes.far" and "outside the part" in str(caught.value)
+    assert not (tmp_path / "out").exists()

@@ -96,7 +96,9 @@ def fields_at_points(space: EdgeSpace, dofs: np.ndarray, omega: float, points: n
         weight = dofs[basis.element_dofs[i, where.cells]]
         value += np.asarray(local)[:, :, 0] * weight
         curl += np.asarray(local.curl)[:, :, 0] * weight
-    eps, mu = _materials_at(space, where.cells, folded)
+    mesh = space.model.mesh
+    eps, mu = materials_at(space.model.materials, mesh.region_names,
+                           mesh.tet_region[where.cells], folded)
     scale = 1.0 / np.sqrt(2.0 ** cuts)
     if space.form == "E":
         E = value.T * np.sqrt(2.0 / epsilon_0) * scale + 0j
@@ -108,16 +110,16 @@ def fields_at_points(space: EdgeSpace, dofs: np.ndarray, omega: float, points: n
     return PointFields(E=E * e_sign, H=H * h_sign, mu_r=mu)
 
 
-def _materials_at(space: EdgeSpace, cells: np.ndarray, points: np.ndarray):
-    """eps_r and mu_r of the region of each located element, eps_r at the point itself."""
-    mesh = space.model.mesh
-    eps, mu = np.empty(cells.size), np.empty(cells.size)
-    for name, region_id in mesh.region_names.items():
-        rows = mesh.tet_region[cells] == region_id
+def materials_at(materials: dict, region_names: dict[str, int], region_of_cell: np.ndarray,
+                 points: np.ndarray):
+    """eps_r (at each point itself, (n, 3)) and mu_r of the region each point lies in
+    (``region_of_cell``: the region id of each point's element)."""
+    eps, mu = np.empty(len(points)), np.empty(len(points))
+    for name, region_id in region_names.items():
+        rows = region_of_cell == region_id
         if rows.any():
-            material = space.model.materials[name]
-            eps[rows] = material.eps_at(points[rows, 0], points[rows, 1], points[rows, 2])
-            mu[rows] = material.mu_r
+            eps[rows] = materials[name].eps_at(points[rows, 0], points[rows, 1], points[rows, 2])
+            mu[rows] = materials[name].mu_r
     return eps, mu
 
 
