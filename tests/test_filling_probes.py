@@ -231,7 +231,7 @@ at = ["6 mm", "4 mm", "11 mm"]
 
 
 @pytest.mark.parametrize("probe, field, words", [
-    ('[probes.p]\nat = ["6 mm", "4 mm", "31 mm"]', "probes.p", "outside the part"),
+    ('[probes.p]\nat = ["6 mm", "4 mm", "33 mm"]', "probes.p", "outside the part"),
     ('[probes.p]\nat = ["6 mm", "4 mm"]', "probes.p.at", "three values"),
     ('[probes.p]\nat = ["6 mm", "4 mm", "3"]', "probes.p.at[2]", ""),
     ('[probes.p]\nat = ["6 mm", "4 mm", "3 mm"]\nfrom = ["0 mm", "1 mm", "1 mm"]',
@@ -284,17 +284,18 @@ from test_axisymmetric import A as PA, D as PD, tm010_wall_q
 PILLBOX_CASE = """
 title = "probe test pillbox"
 geometry = {{ builder = "pillbox", radius = "10 mm", length = "15 mm" }}
-mesh = {{ size = "1 mm" }}
+mesh = {{ size = "{size}" }}
 walls.side = {{ kind = "metal", metal = "copper" }}
 walls.bottom = {{ kind = "metal", metal = "copper" }}
 walls.top = {{ kind = "metal", metal = "copper" }}
 [solve]
-modes = 7
-azimuthal_orders = [0, 1]
+{solve}
 [filling]
 axis = "{axis}"
 {probes}
 """
+
+SECTION_SOLVE = "modes = 7\nazimuthal_orders = [0, 1]"
 
 
 def tm010(r, phi, z, omega):
@@ -335,7 +336,7 @@ def te111_e(r, phi, z):
 def probed_pillbox(tmp_path_factory):
     tmp_path = tmp_path_factory.mktemp("probed_pillbox")
     path = tmp_path / "pillbox.toml"
-    path.write_text(PILLBOX_CASE.format(axis="x", probes="""
+    path.write_text(PILLBOX_CASE.format(size="1 mm", solve=SECTION_SOLVE, axis="x", probes="""
 [probes.axis]
 at = ["0 mm", "0 mm", "5 mm"]
 [probes.off]
@@ -389,7 +390,7 @@ def test_axisymmetric_te011_on_the_axis_and_te111_off_it(probed_pillbox):
 
 def test_axisymmetric_probe_outside_the_part_is_refused(tmp_path):
     path = tmp_path / "pillbox.toml"
-    path.write_text(PILLBOX_CASE.format(axis="z", probes="""
+    path.write_text(PILLBOX_CASE.format(size="1 mm", solve=SECTION_SOLVE, axis="z", probes="""
 [probes.far]
 at = ["8 mm", "7 mm", "5 mm"]
 """))
@@ -397,3 +398,25 @@ at = ["8 mm", "7 mm", "5 mm"]
         run_case(path, out=tmp_path / "out")
     assert caught.value.field == "probes.far" and "outside the part" in str(caught.value)
     assert not (tmp_path / "out").exists()
+
+
+THREE_D_SOLVE = 'modes = 1\norder = 2\nform = "E"'
+
+
+def test_line_probe_to_a_curved_wall_in_3d(tmp_path):
+    # The flat facets of a 3D pillbox lie inside its curved side wall, so the last point of a
+    # line from the axis to r = a lies just outside the mesh: it must pass. TM010's E_z is
+    # J0(p01 r / a) times its axis value, zero at the wall (Pozar §6.4; scipy's j0).
+    path = tmp_path / "pillbox3d.toml"
+    path.write_text(PILLBOX_CASE.format(size="2.5 mm", solve=THREE_D_SOLVE, axis="z", probes="""
+[probes.radial]
+from = ["0 mm", "0 mm", "7.5 mm"]
+to = ["0 mm", "10 mm", "7.5 mm"]
+points = 6
+"""))
+    _, result, folder = run_case(path, out=tmp_path / "out")
+    probe = json.loads((folder / "modes.json").read_text())["modes"][0]["probes"]["radial"]
+    k = jn_zeros(0, 1)[0] / PA
+    shape = np.abs(j0(k * np.linspace(0, PA, 6)))
+    assert np.array(probe["e_abs_v_per_m"]) / probe["e_abs_v_per_m"][0] == pytest.approx(
+        shape, abs=0.03)

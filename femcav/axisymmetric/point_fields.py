@@ -25,7 +25,7 @@ from scipy.constants import epsilon_0, mu_0
 
 from ..post.field_overlap import locate, reference_coordinates
 from ..post.filling import MagneticFilling, region_shares, unit_axis
-from ..post.point_fields import PointFields, materials_at
+from ..post.point_fields import OUTSIDE_SLACK, PointFields, materials_at
 from .revolve import _stored_energy
 from .space import OrderSpace
 
@@ -38,8 +38,9 @@ class _Corners:
         self.t = mesh.t[:3]
 
 
-def section_outside(section, rz: np.ndarray, slack: float = 1e-6) -> np.ndarray:
-    """Which of the points ``rz`` (n, 2) lie outside the section (a MeridionalMesh)."""
+def section_outside(section, rz: np.ndarray, slack: float = OUTSIDE_SLACK) -> np.ndarray:
+    """Which of the points ``rz`` (n, 2) lie outside the section (a MeridionalMesh) by
+    more than ``slack`` of their nearest triangle (post.point_fields.OUTSIDE_SLACK)."""
     class Mesh:
         p = np.ascontiguousarray(section.points[:, :2].T)
         t = np.ascontiguousarray(section.triangles.T)

@@ -68,12 +68,17 @@ class Mirror:
 
 NO_MIRROR = Mirror({})
 
+# How far outside its nearest element a probe point may lie, as a barycentric coordinate:
+# flat facets cut inside a curved wall by about h / (8 R) of an element (h the element
+# size, R the wall's radius), so a point on the true wall must pass; the field there is
+# the element's own polynomial continued.
+OUTSIDE_SLACK = 0.1
+
 
 def points_outside(mesh_points: np.ndarray, tets: np.ndarray, points: np.ndarray,
-                   slack: float = 1e-6) -> np.ndarray:
+                   slack: float = OUTSIDE_SLACK) -> np.ndarray:
     """Which of ``points`` (n, 3) lie outside the tetrahedral mesh (corner coordinates
-    ``mesh_points``, elements ``tets`` (n_tets, 4)); ``slack``: allowed distance outside an
-    element, as a barycentric coordinate (a point on a wall is inside)."""
+    ``mesh_points``, elements ``tets`` (n_tets, 4)) by more than ``slack``."""
     class Corners:   # what locate reads of a mesh
         p = np.ascontiguousarray(mesh_points.T)
         t = np.ascontiguousarray(tets.T)
