@@ -55,5 +55,5 @@ def to_probes_csv(result) -> str:
                 cells.append(values.h_abs[k])
                 cells += (["", "", ""] if scale is None else
                           [values.e_abs[k] * scale, values.h_abs[k] * scale, b1[k]])
-                writer.writerow([f"{v:.9g}" if isinstance(v, float) else v for v in cells])
+                writer.writerow([f"{v + 0.0:.9g}" if isinstance(v, float) else v for v in cells])   # no "-0"
     return out.getvalue()
