@@ -8,9 +8,12 @@ types, ranges) before its values are used. See README.md ("Case-file reference")
 from __future__ import annotations
 
 import math
+import re
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
+
+import numpy as np
 
 from . import schema
 from .errors import InputError
@@ -21,6 +24,7 @@ from .geometry.params import checked_length, parse_params
 from .materials import VACUUM, Material
 from .metals import CONDUCTIVITY_S_PER_M
 from .model import Model, make_model
+from .post.probes import ProbeSpec
 from .schema import check_table, read
 from .units import UNITS
 from .walls import Wall
@@ -79,6 +83,8 @@ class Case:
     mesh: MeshSpec = field(default_factory=MeshSpec)
     symmetry: dict[str, tuple[str, ...]] = field(default_factory=dict)  # axis -> wall kinds
     tolerances: dict[str, float] = field(default_factory=dict)   # builder length -> m
+    probes: tuple[ProbeSpec, ...] = ()          # [probes.NAME] (post.probes)
+    filling_axis: tuple[float, float, float] = (0.0, 0.0, 1.0)   # [filling] axis, unit
 
 
 def read_case_data(path: str | Path) -> dict:
@@ -131,10 +137,63 @@ def case_from_data(data: dict, path: Path) -> Case:
         if solve.azimuthal_orders is not None:
             _check_axisymmetric(solve, geometry, symmetry)
         tolerances = _tolerances(_table(data, "tolerances"), geometry, symmetry, solve)
+        probes = _probes(_table(data, "probes"))
+        filling_axis = _filling_axis(_table(data, "filling"))
     except InputError as exc:
         raise exc.located(source=source) from None
     return Case(path=path, title=title, geometry=geometry, regions=regions, walls=walls,
-                solve=solve, mesh=mesh, symmetry=symmetry, tolerances=tolerances)
+                solve=solve, mesh=mesh, symmetry=symmetry, tolerances=tolerances,
+                probes=probes, filling_axis=filling_axis)
+
+
+PROBE_NAME = re.compile(r"[A-Za-z0-9_-]{1,64}")
+
+
+def _probes(spec: dict) -> tuple[ProbeSpec, ...]:
+    """[probes.NAME]: ``at`` (a point) or ``from``, ``to`` and ``points`` (a line)."""
+    check_table(spec, schema.PROBES, "probes")
+    probes = []
+    for name, table in spec.items():
+        where = f"probes.{name}"
+        if not PROBE_NAME.fullmatch(name):
+            raise InputError("a probe name is 1 to 64 letters, digits, _ or - (it names "
+                             "files and CSV rows)", field=where)
+        check_table(table, schema.PROBE, where)
+        values = {key: read(table, key, schema.PROBE, where) for key in schema.PROBE.keys}
+        line = [k for k in ("from", "to", "points") if k in table]
+        if ("at" in table) == bool(line):
+            raise InputError("give either at = [x, y, z] (a point) or from, to and points "
+                             "(a line)", field=where)
+        if "at" in table:
+            probes.append(ProbeSpec(name, "point", np.array([values["at"]], dtype=float)))
+            continue
+        missing = [k for k in ("from", "to", "points") if k not in table]
+        if missing:
+            raise InputError(f"a line probe needs from, to and points; {missing[0]} is "
+                             "missing", field=f"{where}.{missing[0]}")
+        start, end = np.array(values["from"]), np.array(values["to"])
+        if np.array_equal(start, end):
+            raise InputError("from and to are the same point; use at = [...] for a point",
+                             field=f"{where}.to")
+        steps = np.linspace(0.0, 1.0, values["points"])[:, None]
+        probes.append(ProbeSpec(name, "line", start + steps * (end - start)))
+    return tuple(probes)
+
+
+def _filling_axis(spec: dict) -> tuple[float, float, float]:
+    """[filling] axis: "x", "y", "z" or three numbers (a direction, normalised here)."""
+    check_table(spec, schema.FILLING, "filling")
+    axis = read(spec, "axis", schema.FILLING, "filling")
+    if isinstance(axis, str):
+        if axis not in ("x", "y", "z"):
+            raise InputError(f'must be "x", "y", "z" or three numbers, got {axis!r}',
+                             field="filling.axis")
+        return tuple(float(axis == c) for c in "xyz")
+    vector = np.array(axis, dtype=float)
+    length = float(np.linalg.norm(vector))
+    if not length > 0:
+        raise InputError("the axis must not be the zero vector", field="filling.axis")
+    return tuple(float(v) for v in vector / length)
 
 
 def _tolerances(spec: dict, geometry: GeometrySpec, symmetry: dict,

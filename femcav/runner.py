@@ -191,7 +191,7 @@ def solve_case(case: Case, settings, progress: Progress = SILENT):
         result = _solve_axisymmetric(case, settings, progress)
         if settings.accuracy is not None:
             result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
-        return result
+        return _with_field_figures(case, result)
     # With error bars every mesh, the finest included, is built by solve_with_error_bars.
     mesh = None if settings.error_estimate else build_mesh(case)
     if mesh is not None:
@@ -199,6 +199,7 @@ def solve_case(case: Case, settings, progress: Progress = SILENT):
                       f"({mesh.source}"
                       + (f", coordinates in units of {case.geometry.mesh_unit_m:g} m)"
                          if case.geometry.mesh_path else ")"))
+        check_probes_inside(case, mesh)
     settings = replace(settings, form=choose_form(case, settings.form, progress))
     labelled = []
     for walls in symmetry_classes(case.symmetry):
@@ -223,7 +224,81 @@ def solve_case(case: Case, settings, progress: Progress = SILENT):
         result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
     if case.tolerances:
         result = _with_tolerances(case, result, progress)
-    return result
+    return _with_field_figures(case, result)
+
+
+def _mirror(case: Case):
+    """The symmetry planes that cut the case's part (post.point_fields.Mirror)."""
+    from .geometry import BUILDERS
+    from .post.point_fields import Mirror
+
+    if not case.symmetry:
+        return Mirror({})
+    builder = BUILDERS[case.geometry.builder]
+    full = {k: p.default for k, p in builder.PARAMETERS.items() if not p.required}
+    planes = builder.symmetry_planes(**{**full, **case.geometry.parameters})
+    return Mirror({axis: planes[axis] for axis in case.symmetry})
+
+
+def check_probes_inside(case: Case, mesh) -> None:
+    """InputError naming the probe whose point lies outside the meshed part (before a
+    solve: the mesh is all it needs)."""
+    from .post.point_fields import points_outside, refuse_outside
+
+    mirror = _mirror(case)
+    for probe in case.probes:
+        folded = mirror.fold(probe.points)
+        try:
+            refuse_outside(points_outside(mesh.points, mesh.tets, folded), probe.points,
+                           f"probes.{probe.name}")
+        except InputError as exc:
+            raise exc.located(source=str(case.path)) from None
+
+
+def _with_field_figures(case: Case, result):
+    """Magnetic filling factors and probe values of every mode, 3D or axisymmetric."""
+    from .post.mode_figures import with_field_figures
+
+    axis = case.filling_axis
+    if getattr(result, "spaces", None) is not None:
+        from .axisymmetric import point_fields as section
+
+        spaces = result.spaces
+        check_probes_on_section(case, next(iter(spaces.values())).model.section)
+        return with_field_figures(
+            result, case.probes,
+            lambda m, points: section.fields_at_points(spaces[m.m], m.dofs,
+                                                       2 * math.pi * m.frequency_hz, points),
+            lambda m: section.magnetic_filling(spaces[m.m], m.dofs, axis))
+    from .post.filling import magnetic_filling
+    from .post.point_fields import fields_at_points
+
+    space, mirror = result.space, _mirror(case)
+    if case.probes:
+        check_probes_inside(case, space.model.mesh)
+    return with_field_figures(
+        result, case.probes,
+        lambda m, points: fields_at_points(space, m.dofs, 2 * math.pi * m.frequency_hz, points,
+                                           mirror=mirror, label=m.symmetry,
+                                           cuts=len(mirror.planes)),
+        lambda m: magnetic_filling(space, m.dofs, axis))
+
+
+def check_probes_on_section(case: Case, section) -> None:
+    """InputError naming the probe whose point, turned onto the (r, z) section, lies outside
+    it."""
+    import numpy as np
+
+    from .axisymmetric.point_fields import section_outside
+    from .post.point_fields import refuse_outside
+
+    for probe in case.probes:
+        p = probe.points
+        rz = np.column_stack([np.hypot(p[:, 0], p[:, 1]), p[:, 2]])
+        try:
+            refuse_outside(section_outside(section, rz), p, f"probes.{probe.name}")
+        except InputError as exc:
+            raise exc.located(source=str(case.path)) from None
 
 
 def _with_tolerances(case: Case, result: SolveResult, progress: Progress) -> SolveResult:
@@ -299,6 +374,9 @@ def _write_tables(files, case: Case, result) -> None:
     files.write_text("modes.csv", to_csv(result))
     files.write_text("modes.json", to_json(result, title=case.title, case=str(case.path),
                                            model=model_summary(case, result)))
+    if case.probes:
+        from .io.probe_table import to_probes_csv
+        files.write_text("probes.csv", to_probes_csv(result))
 
 
 def _plain(value):

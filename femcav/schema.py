@@ -169,6 +169,7 @@ TOP = Table({
     "title": Key(STRING), "geometry": Key(TABLE), "mesh": Key(TABLE), "regions": Key(TABLE),
     "walls": Key(TABLE), "symmetry": Key(TABLE), "solve": Key(TABLE), "sweep": Key(TABLE),
     "tune": Key(TABLE), "extract": Key(TABLE), "tolerances": Key(TABLE),
+    "probes": Key(TABLE), "filling": Key(TABLE),
 })
 
 GEOMETRY_MESH = Table({
@@ -263,6 +264,21 @@ EXTRACT = Table({
 })
 
 TOLERANCES = Table(each=LENGTH)
+
+# [probes.NAME]: a point (at) or a line of points (from, to, points); coordinates may be
+# negative, so no range but finiteness.
+PROBE_POINTS = Range(2, 10_000)
+PROBE = Table({
+    "at": Key(POINT, unit="length", doc="a point"),
+    "from": Key(POINT, unit="length", doc="first point of a line"),
+    "to": Key(POINT, unit="length", doc="last point of a line"),
+    "points": Key(WHOLE, range=PROBE_POINTS, doc="points along the line, ends included"),
+})
+PROBES = Table(each=Key(TABLE, doc="a probe: at, or from, to and points"))
+FILLING = Table({
+    "axis": Key(either(STRING, list_of(NUMBER, 3)), default="z",
+                doc='"x", "y", "z" or three numbers: the axis of the axial magnetic filling'),
+})
 
 # The quantities a study may vary (femcav.study.parameters): the key each value goes to.
 VARIED = {"eps_r": Key(NUMBER, range=EPS_R), "mu_r": REGION.keys["mu_r"],

@@ -54,6 +54,8 @@ class Mode:
     resolution: Resolution | None = None
     # where the perturbation estimates of Q are not valid (post.loss_validity)
     loss_warnings: tuple[str, ...] = ()
+    magnetic_filling: object = None   # post.filling.MagneticFilling
+    probes: tuple = ()                # post.probes.ProbeValues, one per [probes.NAME]
 
 
 @dataclass(frozen=True)

@@ -59,6 +59,8 @@ class AxisymmetricMode:
     symmetry: str | None = None
     resolution: Resolution | None = None     # elements per wavelength (post.resolution)
     loss_warnings: tuple[str, ...] = ()      # post.loss_validity
+    magnetic_filling: object = None          # post.filling.MagneticFilling
+    probes: tuple = ()                       # post.probes.ProbeValues per [probes.NAME]
 
     @property
     def multiplicity(self) -> int:

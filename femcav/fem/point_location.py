@@ -100,7 +100,7 @@ def evaluation_matrix(basis, points: np.ndarray) -> Transfer:
     component for a scalar element."""
     where = locate(basis.mesh, points)
     cells = where.cells
-    reference = _reference_coordinates(basis.mapping, points, where)   # (dim, n, 1)
+    reference = reference_coordinates(basis.mapping, points, where)   # (dim, n, 1)
     worst = _barycentric_min(reference[:, :, 0])
     n = points.shape[1]
     rows, cols, vals = [], [], []
@@ -161,7 +161,7 @@ class _PointwiseMap:
         return self.determinant
 
 
-def _reference_coordinates(mapping, points: np.ndarray, where: Location) -> np.ndarray:
+def reference_coordinates(mapping, points: np.ndarray, where: Location) -> np.ndarray:
     """Reference coordinates of each point in its element: the corner simplex's local
     coordinates for a straight element, refined by Newton steps on the element's own map for
     a curved one. Newton is not clipped to the reference element, so a point just outside

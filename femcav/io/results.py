@@ -19,7 +19,9 @@ top level has ``axisymmetric`` (the orders solved and the DOFs of each). With [s
 sensitivities, each mode has ``sensitivity_hz``: ``eps_r`` and ``mu_r``, each a region ->
 df/dε_r (df/dμ_r) in Hz per unit change. With [tolerances], each mode has ``tolerance``:
 ``df_dp_hz_per_m``, ``tolerance_m`` and ``delta_f_hz`` per length, ``worst_case_hz`` and
-``rss_hz``. ``weyl`` holds the optical volume for the mode-count check and ``model`` the
+``rss_hz``. Each mode has ``magnetic_filling_factor`` (region -> share of ∫|H|²),
+``magnetic_filling_axis`` (the unit axis a) and ``magnetic_filling_factor_axis`` (region ->
+∫_region |H·a|² / ∫|H|²), and with [probes.NAME] ``probes`` (io.probe_table). ``weyl`` holds the optical volume for the mode-count check and ``model`` the
 part (geometry, regions with their materials, walls, symmetry) when written by a case run.
 """
 
@@ -31,6 +33,7 @@ import math
 
 from . import strict_json
 from ..post import checks, resolution
+from .probe_table import field_figure_rows
 from ..solver import SolveResult
 from ..units import format_frequency
 
@@ -75,6 +78,7 @@ def mode_rows(result: SolveResult) -> list[dict]:
             row["complex_frequency_hz"] = m.complex_frequency_hz
             row["q_dielectric_complex"] = m.q_dielectric_complex
         row["loss_warnings"] = list(getattr(m, "loss_warnings", ()))
+        row.update(field_figure_rows(m))
         rows.append(row)
     return rows
 

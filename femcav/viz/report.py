@@ -140,6 +140,13 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
                                 "</figcaption></figure>")
     if mode_figures:
         figures.append("<h2>Fields</h2>" + "".join(mode_figures))
+    probe_figures = [f"<figure>{_image(p, name)}<figcaption>{e(name.replace('_', ' ', 1))}: "
+                     "|E| and |H| along the line at 1 J stored (values in modes.json and "
+                     "probes.csv)</figcaption></figure>"
+                     for name, p in sorted(pictures.items())
+                     if name.startswith("probe_") and p.is_file()]
+    if probe_figures:
+        figures.append("<h2>Line probes</h2>" + "".join(probe_figures))
     limits = document.get("limits") or {}
     checks = ("<p>Each mode is checked: relative residual ‖Kx − λMx‖/‖λMx‖ ≤ "
               f"{limits.get('residual', '-')}, gradient (divergence) content ≤ "

@@ -31,6 +31,7 @@ def show(folder: str | Path, *, mode: int | None = None, arrows: str = "E") -> l
             files.write_with("spectrum.png", lambda p: write_spectrum(document, p),
                              suffix=".png")
             written.append(folder / "spectrum.png")
+            written += _write_probe_plots(files, folder, document)
         for row in modes:
             if mode is not None and row["index"] != mode:
                 continue
@@ -51,6 +52,18 @@ def show(folder: str | Path, *, mode: int | None = None, arrows: str = "E") -> l
         with staged_output(folder, kind="pictures", replaces=()) as files:
             files.write_with("report.html", lambda p: write_report(document, pictures, p))
         written.append(folder / "report.html")
+    return written
+
+
+def _write_probe_plots(files, folder: Path, document: dict) -> list[Path]:
+    """probe_NAME.png for every line probe."""
+    from .probe_plot import line_probe_names, write_probe_plot
+
+    written = []
+    for name in line_probe_names(document):
+        files.write_with(f"probe_{name}.png", lambda p, n=name: write_probe_plot(document, n, p),
+                         suffix=".png")
+        written.append(folder / f"probe_{name}.png")
     return written
 
 
