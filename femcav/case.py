@@ -464,9 +464,6 @@ def _check_axisymmetric(solve: SolveSpec, geometry: GeometrySpec, symmetry: dict
     if solve.method == "iterative":
         raise InputError("the axisymmetric solver uses the direct shift-invert path (its "
                          "problems are small)", field="solve.method")
-    if solve.sensitivities:
-        raise InputError("material sensitivities are not yet available for axisymmetric "
-                         "solves", field="solve.sensitivities")
 
 
 _RELATIVE_UNITS = {"ppm": 1e-6, "ppb": 1e-9, "%": 1e-2}

@@ -189,6 +189,8 @@ def solve_case(case: Case, settings, progress: Progress = SILENT):
     a SolveResult, or an AxisymmetricResult with azimuthal orders; nothing is written."""
     if settings.azimuthal_orders is not None:
         result = _solve_axisymmetric(case, settings, progress)
+        if settings.sensitivities:
+            result = _with_sensitivities(result)
         if settings.accuracy is not None:
             result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
         return _with_field_figures(case, result)
@@ -361,12 +363,19 @@ def _with_labels(case: Case, result: SolveResult) -> SolveResult:
     return replace(result, modes=modes)
 
 
-def _with_sensitivities(result: SolveResult) -> SolveResult:
-    from .post.sensitivity import material_sensitivities
+def _with_sensitivities(result):
+    """Every mode's df/dε_r and df/dμ_r per region, 3D or on a section."""
+    from .axisymmetric.losses import material_sensitivities as on_section
+    from .axisymmetric.solve import AxisymmetricResult
+    from .post.sensitivity import material_sensitivities as in_3d
 
-    return replace(result, modes=[
-        replace(m, sensitivity=material_sensitivities(result.space, m.dofs, m.frequency_hz))
-        for m in result.modes])
+    sensitivities = on_section if isinstance(result, AxisymmetricResult) else in_3d
+    modes = list(result.modes)
+    for _, space, positions in result.mode_spaces():
+        for i in positions:
+            modes[i] = replace(modes[i], sensitivity=sensitivities(
+                space, modes[i].dofs, modes[i].frequency_hz))
+    return replace(result, modes=modes)
 
 
 def _write_tables(files, case: Case, result) -> None:

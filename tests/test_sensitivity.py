@@ -40,3 +40,55 @@ def test_puck_sensitivities_match_central_differences(dr_mesh):
         assert s["eps_r"]["puck"] == pytest.approx(d_eps, rel=1e-3)
         assert s["mu_r"]["puck"] == pytest.approx(d_mu, rel=1e-3)
         assert s["eps_r"]["puck"] < 0 and s["eps_r"]["air"] < 0
+
+
+AXI_CASE = """
+title = "DR fixture on its section, sensitivities"
+[geometry]
+builder = "dr_fixture"
+shield_radius = "12 mm"
+shield_height = "16 mm"
+puck_radius = "5 mm"
+puck_height = "4 mm"
+puck_hole_radius = "0 mm"
+support_radius = "2.5 mm"
+support_height = "4 mm"
+[regions.puck]
+eps_r = {eps}
+[regions.support]
+eps_r = 2.1
+[mesh]
+size = "1.5 mm"
+[solve]
+modes = 2
+order = 2
+form = "{form}"
+azimuthal_orders = [{m}]
+sensitivities = true
+"""
+
+
+@pytest.mark.parametrize("form, m", [("E", 0), ("H", 1)])
+def test_axisymmetric_sensitivities_match_differences_and_the_scaling_law(tmp_path, form, m):
+    # Two checks from outside the perturbation formula: (1) f(λ ε_r everywhere) = f / √λ
+    # (Maxwell's equations scale so; common practice), so Euler's theorem for homogeneous
+    # functions gives Σ_i ε_i ∂f/∂ε_i = -f/2, and likewise for μ_r; (2) central differences
+    # of full section solves in the puck's ε_r (O(δ²) accurate).
+    from femcav.case import load_case
+    from femcav.runner import solve_case
+
+    def modes(eps):
+        path = tmp_path / f"dr_{eps}.toml"
+        path.write_text(AXI_CASE.format(eps=eps, form=form, m=m))
+        case = load_case(path)
+        return solve_case(case, case.solve).modes
+
+    base, up, down = modes(30.0), modes(30.3), modes(29.7)
+    eps = {"air": 1.0, "puck": 30.0, "support": 2.1}
+    for k, mode in enumerate(base):
+        s = mode.sensitivity
+        assert sum(eps[r] * s["eps_r"][r] for r in eps) == pytest.approx(
+            -mode.frequency_hz / 2, rel=1e-9)
+        assert sum(s["mu_r"].values()) == pytest.approx(-mode.frequency_hz / 2, rel=1e-9)
+        d_eps = (up[k].frequency_hz - down[k].frequency_hz) / 0.6
+        assert s["eps_r"]["puck"] == pytest.approx(d_eps, rel=1e-3)

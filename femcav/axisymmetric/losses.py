@@ -28,6 +28,7 @@ from scipy.constants import epsilon_0, mu_0
 
 from ..metals import surface_resistance
 from ..post.losses import LossReport
+from ..post.sensitivity import sensitivities_from_densities
 from ..walls import METAL
 from .space import OrderSpace, facets_of, quadrature_order
 
@@ -82,6 +83,15 @@ def electric_energy_by_region(space: OrderSpace, dofs, omega: float = 1.0
     energy = {name: float(per_cell[section.tri_region == rid].sum())
               for name, rid in section.region_names.items()}
     return energy, float(np.sum(axial * dx) / max(per_cell.sum(), np.finfo(float).tiny))
+
+
+def material_sensitivities(space: OrderSpace, dofs, frequency_hz: float) -> dict:
+    """df/dε_r and df/dμ_r per region (post.sensitivity) for one mode of order m."""
+    electric, _, magnetic, _ = _energy_densities(space, dofs, 2 * math.pi * frequency_hz)
+    section = space.model.section
+    return sensitivities_from_densities(
+        frequency_hz, space.edge_basis.dx, section.tri_region, section.region_names,
+        (electric / space.eps, electric), (magnetic / space.mu, magnetic))
 
 
 def axial_magnetic_share(space: OrderSpace, dofs) -> float:

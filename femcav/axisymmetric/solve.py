@@ -57,6 +57,7 @@ class AxisymmetricMode:
     error_estimate_hz: float | None = None
     extrapolated_hz: float | None = None
     symmetry: str | None = None
+    sensitivity: dict | None = None          # df/dε_r, df/dμ_r per region, Hz
     resolution: Resolution | None = None     # elements per wavelength (post.resolution)
     loss_warnings: tuple[str, ...] = ()      # post.loss_validity
     magnetic_filling: object = None          # post.filling.MagneticFilling

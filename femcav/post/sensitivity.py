@@ -21,7 +21,8 @@ import numpy as np
 
 
 def material_sensitivities(space, dofs: np.ndarray, frequency_hz: float) -> dict:
-    """{"eps_r": {region: df/dε_r in Hz}, "mu_r": {region: df/dμ_r in Hz}} for one mode."""
+    """{"eps_r": {region: df/dε_r in Hz}, "mu_r": {region: df/dμ_r in Hz}} for one mode of
+    a 3D edge space."""
     values = space.basis.interpolate(dofs)
     u_sq = np.sum(np.asarray(values) ** 2, axis=0)
     curl_sq = np.sum(np.asarray(values.curl) ** 2, axis=0)
@@ -32,13 +33,22 @@ def material_sensitivities(space, dofs: np.ndarray, frequency_hz: float) -> dict
     else:                        # u = H, curl u ∝ ε_r E
         electric_unit, electric = s**2 * curl_sq, s * curl_sq
         magnetic_unit, magnetic = u_sq, m * u_sq
-    dx = space.basis.dx
     mesh = space.model.mesh
+    return sensitivities_from_densities(frequency_hz, space.basis.dx, mesh.tet_region,
+                                        mesh.region_names, (electric_unit, electric),
+                                        (magnetic_unit, magnetic))
 
+
+def sensitivities_from_densities(frequency_hz: float, weight: np.ndarray,
+                                 cell_region: np.ndarray, region_names: dict[str, int],
+                                 electric: tuple, magnetic: tuple) -> dict:
+    """The formula above from energy densities at quadrature points (cells, points), any
+    discretisation: ``electric`` = (|E|² without ε_r, ε_r |E|²), ``magnetic`` likewise with
+    μ_r; each pair in one unit, whichever; ``weight`` the quadrature weights (times r on a
+    meridional section)."""
     def per_region(unit, total):
-        cells = np.sum(unit * dx, axis=1)
-        whole = float(np.sum(total * dx))
-        return {name: -0.5 * frequency_hz * float(cells[mesh.tet_region == rid].sum()) / whole
-                for name, rid in mesh.region_names.items()}
-    return {"eps_r": per_region(electric_unit, electric),
-            "mu_r": per_region(magnetic_unit, magnetic)}
+        cells = np.sum(unit * weight, axis=1)
+        whole = float(np.sum(total * weight))
+        return {name: -0.5 * frequency_hz * float(cells[cell_region == rid].sum()) / whole
+                for name, rid in region_names.items()}
+    return {"eps_r": per_region(*electric), "mu_r": per_region(*magnetic)}
