@@ -54,6 +54,8 @@ class Mode:
     resolution: Resolution | None = None
     # where the perturbation estimates of Q are not valid (post.loss_validity)
     loss_warnings: tuple[str, ...] = ()
+    geometry_factor_ohm: float | None = None   # Q_wall R_s (post.geometry_factor)
+    beam: object | None = None                 # post.beam.BeamFigures, with [beam]
 
 
 @dataclass(frozen=True)

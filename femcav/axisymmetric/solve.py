@@ -59,6 +59,8 @@ class AxisymmetricMode:
     symmetry: str | None = None
     resolution: Resolution | None = None     # elements per wavelength (post.resolution)
     loss_warnings: tuple[str, ...] = ()      # post.loss_validity
+    geometry_factor_ohm: float | None = None   # Q_wall R_s (post.geometry_factor)
+    beam: object | None = None                 # post.beam.BeamFigures, with [beam]
 
     @property
     def multiplicity(self) -> int:
