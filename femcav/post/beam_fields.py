@@ -88,7 +88,9 @@ def interpolate_at(element, mapping, element_dofs: np.ndarray, dofs: np.ndarray,
         phi = element.gbasis(mapping, X, k, tind=cells)[0]
         coefficient = dofs[element_dofs[k, cells]][:, None]
         for i, part in enumerate(parts):
-            out[i] = out[i] + np.asarray(getattr(phi, part)) * coefficient
+            # a DiscreteField is its value (reading .value is deprecated)
+            part_values = phi if part == "value" else getattr(phi, part)
+            out[i] = out[i] + np.asarray(part_values) * coefficient
     return out
 
 
