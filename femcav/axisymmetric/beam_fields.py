@@ -33,6 +33,7 @@ from .space import OrderSpace, facets_of
 _REFERENCE_EDGES = np.array([[[0.0, 0.0], [1.0, 0.0]], [[1.0, 0.0], [0.0, 1.0]],
                              [[0.0, 0.0], [0.0, 1.0]]])
 SAMPLES_PER_EDGE = 9
+SEARCHED_EDGES = 3
 # distance of the first and last samples from an edge's ends (relative), which keeps the
 # u / r of points on the axis finite
 END_OFFSET = 1e-9
@@ -181,24 +182,29 @@ def surface_peaks(space: OrderSpace, dofs, omega: float) -> SurfacePeaks | None:
     if sampler.facets.size == 0:
         return None
     t = np.linspace(END_OFFSET, 1 - END_OFFSET, SAMPLES_PER_EDGE)
-    samples = [(0.0, 0, 0.0), (0.0, 0, 0.0)]       # (value, edge, t) of the best so far
+    n = sampler.facets.size
+    sampled = np.zeros((2, n))              # per edge, the largest sample of each field
     for j in range(3):
         rows = np.flatnonzero(sampler.local == j)
         if rows.size:
-            fields = sampler.fields(t, rows)
-            for which in (0, 1):
-                k, q = np.unravel_index(np.argmax(fields[which]), fields[which].shape)
-                if fields[which][k, q] > samples[which][0]:
-                    samples[which] = (float(fields[which][k, q]), int(rows[k]), float(t[q]))
+            e_n, h_t, _ = sampler.fields(t, rows)
+            sampled[0, rows], sampled[1, rows] = e_n.max(axis=1), h_t.max(axis=1)
     peaks = []
-    for which, (value, row, s) in enumerate(samples):
-        def minus(t, row=row, which=which):
-            return -sampler.fields(np.array([t]), np.array([row]))[which][0, 0]
+    for which in (0, 1):
+        # the peak may sit on a neighbour of the edge with the best sample (next to a shared
+        # end, where the finite-element field jumps a little): search the best few
+        best = (-np.inf, 0, 0.0)
+        for row in np.argsort(sampled[which])[-SEARCHED_EDGES:]:
+            def minus(s, row=row, which=which):
+                return -sampler.fields(np.array([s]), np.array([row]))[which][0, 0]
 
-        best = minimize_scalar(minus, bounds=(END_OFFSET, 1 - END_OFFSET), method="bounded",
-                               options={"xatol": 1e-10})
-        if -best.fun > value:
-            value, s = float(-best.fun), float(best.x)
+            found = minimize_scalar(minus, bounds=(END_OFFSET, 1 - END_OFFSET),
+                                    method="bounded", options={"xatol": 1e-10})
+            for value, s in ((-found.fun, found.x), (-minus(END_OFFSET), END_OFFSET),
+                             (-minus(1 - END_OFFSET), 1 - END_OFFSET)):
+                if value > best[0]:
+                    best = (float(value), int(row), float(s))
+        value, row, s = best
         x = sampler.fields(np.array([s]), np.array([row]))[2][:, 0, 0]
         peaks.append((value, np.array([x[0], 0.0, x[1]])))
     (e_peak, e_at), (h_peak, h_at) = peaks
