@@ -10,8 +10,9 @@ and the unnamed enclosure): with E = (e_r cos mφ, e_φ sin mφ, e_z cos mφ) an
 quadrature, the surface fields |E·n| (∝ cos mφ) and the two tangential parts of H (H_φ ∝
 cos mφ, the meridional one ∝ sin mφ) peak at different angles for m >= 1: the peak is the
 larger of the two there, and the root-sum-square for m = 0. Each edge is sampled, then the
-best edge is searched (bounded Brent) for the largest value of the finite-element field,
-so that a peak between samples, or at an edge's end on the axis, is found to round-off.
+best few edges are searched (samples ever closer around the best) for the largest value of
+the finite-element field, so that a peak between samples, or at an edge's end on the axis,
+is found to about 1e-7 of the edge's length.
 """
 
 from __future__ import annotations
@@ -20,7 +21,6 @@ import math
 
 import numpy as np
 from scipy.constants import epsilon_0, mu_0
-from scipy.optimize import minimize_scalar
 
 from ..errors import InputError
 from ..post.beam import BeamLine, LineIntegrals, SurfacePeaks, line_integrals, points_per_interval
@@ -193,20 +193,29 @@ def surface_peaks(space: OrderSpace, dofs, omega: float) -> SurfacePeaks | None:
     for which in (0, 1):
         # the peak may sit on a neighbour of the edge with the best sample (next to a shared
         # end, where the finite-element field jumps a little): search the best few
-        best = (-np.inf, 0, 0.0)
-        for row in np.argsort(sampled[which])[-SEARCHED_EDGES:]:
-            def minus(s, row=row, which=which):
-                return -sampler.fields(np.array([s]), np.array([row]))[which][0, 0]
-
-            found = minimize_scalar(minus, bounds=(END_OFFSET, 1 - END_OFFSET),
-                                    method="bounded", options={"xatol": 1e-10})
-            for value, s in ((-found.fun, found.x), (-minus(END_OFFSET), END_OFFSET),
-                             (-minus(1 - END_OFFSET), 1 - END_OFFSET)):
-                if value > best[0]:
-                    best = (float(value), int(row), float(s))
+        best = max(_zoom(lambda t, row=row, which=which: sampler.fields(
+            t, np.array([row]))[which][0], row) for row in
+            np.argsort(sampled[which])[-SEARCHED_EDGES:])
         value, row, s = best
         x = sampler.fields(np.array([s]), np.array([row]))[2][:, 0, 0]
         peaks.append((value, np.array([x[0], 0.0, x[1]])))
     (e_peak, e_at), (h_peak, h_at) = peaks
     return SurfacePeaks(e_peak_v_per_m=e_peak, e_peak_at=e_at, b_peak_t=mu_0 * h_peak,
                         b_peak_at=h_at)
+
+
+def _zoom(values, row: int, points: int = 21, rounds: int = 7) -> tuple[float, int, float]:
+    """(largest value, ``row``, t) of ``values``(t) on [END_OFFSET, 1 - END_OFFSET]: sample,
+    then sample again around the best point ten times closer, ``rounds`` times (the field
+    along an edge is a smooth polynomial; the ends are always among the first samples)."""
+    low, high = END_OFFSET, 1 - END_OFFSET
+    best_value, best_t = -np.inf, low
+    for _ in range(rounds):
+        t = np.linspace(low, high, points)
+        v = values(t)
+        k = int(np.argmax(v))
+        if v[k] > best_value:
+            best_value, best_t = float(v[k]), float(t[k])
+        step = (high - low) / (points - 1)
+        low, high = max(END_OFFSET, best_t - step), min(1 - END_OFFSET, best_t + step)
+    return best_value, int(row), best_t
