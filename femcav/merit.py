@@ -32,10 +32,12 @@ def with_figures_of_merit(result, beam: BeamRequest | None):
         if beam is not None:
             line = line or beam_line(beam, *sampler.default_axis_line(space))
             omega = 2 * math.pi * mode.frequency_hz
-            figures = beam_figures(
-                line, sampler.line_field_integrals(space, mode.dofs, omega, line),
-                sampler.surface_peaks(space, mode.dofs, omega), omega, STORED_ENERGY_J,
-                mode.losses.q_total if mode.losses else None)
+            integrals = sampler.line_field_integrals(space, mode.dofs, omega, line)
+            # peaks only matter against a field on the line (none for m >= 1 on an axis)
+            peaks = (sampler.surface_peaks(space, mode.dofs, omega)
+                     if integrals.absolute > 0 else None)
+            figures = beam_figures(line, integrals, peaks, omega, STORED_ENERGY_J,
+                                   mode.losses.q_total if mode.losses else None)
         modes.append(replace(mode, beam=figures, geometry_factor_ohm=geometry_factor(
             mode.losses, space.model.walls, mode.frequency_hz)))
     return replace(result, modes=modes)

@@ -37,6 +37,7 @@ from femcav.errors import InputError
 from femcav.geometry import BUILDERS, build_part
 from femcav.geometry.parts import Sizing
 from femcav.geometry.section import mesh_section
+from femcav.io.results import mode_rows, to_csv, to_table
 from femcav.materials import Material
 from femcav.merit import with_figures_of_merit
 from femcav.model import make_model
@@ -131,6 +132,15 @@ def test_modes_with_m_of_one_have_no_field_on_the_axis(axisymmetric):
     assert dipole.beam.transit_time_factor is None
     assert dipole.beam.e_peak_over_e_acc is None
     assert dipole.geometry_factor_ohm > 0
+
+
+def test_without_beam_the_geometry_factor_is_in_the_files_not_the_table(axisymmetric):
+    # G = η p01 / (2 (1 + a/L)) for TM010 with or without [beam]; the table keeps its columns
+    result = with_figures_of_merit(axisymmetric, None)
+    rows = mode_rows(result)
+    assert rows[0]["geometry_factor_ohm"] == pytest.approx(G_EXACT, rel=1e-5)
+    assert "beam" not in rows[0]
+    assert "G ohm" not in to_table(result) and "geometry_factor_ohm" in to_csv(result)
 
 
 def test_3d_tm010_figures_within_one_percent():

@@ -51,22 +51,25 @@ def csv_values(row: dict) -> dict:
 
 
 def table_heading(result) -> str:
+    """The short columns of the table: with [beam] only (G alone stays in the files, so that
+    the table of a case without [beam] keeps its columns)."""
+    if not has_beam(result):
+        return ""
     out = f"{'G ohm':>9}  " if has_geometry_factor(result) else ""
-    if has_beam(result):
-        out += "".join(f"{h:>{_width(h)}}  " for h, _, _ in BEAM_TABLE)
-    return out
+    return out + "".join(f"{h:>{_width(h)}}  " for h, _, _ in BEAM_TABLE)
 
 
 def table_cells(result, mode) -> str:
     out = ""
+    if not has_beam(result):
+        return out
     if has_geometry_factor(result):
         g = getattr(mode, "geometry_factor_ohm", None)
         out += f"{'-' if g is None else format(g, '.5g'):>9}  "
-    if has_beam(result):
-        figures = mode.beam.as_dict() if mode.beam is not None else {}
-        for heading, key, digits in BEAM_TABLE:
-            value = figures.get(key)
-            out += f"{'-' if value is None else format(value, digits):>{_width(heading)}}  "
+    figures = mode.beam.as_dict() if mode.beam is not None else {}
+    for heading, key, digits in BEAM_TABLE:
+        value = figures.get(key)
+        out += f"{'-' if value is None else format(value, digits):>{_width(heading)}}  "
     return out
 
 
