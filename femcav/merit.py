@@ -11,6 +11,7 @@ from __future__ import annotations
 import math
 from dataclasses import replace
 
+from .errors import InputError
 from .post.beam import BeamRequest, beam_figures, beam_line
 from .post.geometry_factor import geometry_factor
 
@@ -21,6 +22,10 @@ def with_figures_of_merit(result, beam: BeamRequest | None):
     """``result`` (a SolveResult or an AxisymmetricResult) with every mode's
     ``geometry_factor_ohm`` and, when ``beam`` is given, its ``beam`` figures."""
     axisymmetric = hasattr(result, "spaces")
+    if beam is not None and result.classes:
+        # a merged result keeps one class's space; the others' fields cannot be sampled
+        raise InputError("beam figures need the whole part; solve it without symmetry cuts",
+                         field="beam")
     if axisymmetric:
         from .axisymmetric import beam_fields as sampler
     else:
