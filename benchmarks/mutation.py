@@ -70,7 +70,8 @@ SELECTIONS: dict[str, list[str]] = {
         "tests/test_error_estimate.py", "tests/test_losses.py", "tests/test_classify.py",
         "tests/test_sensitivity.py", "tests/test_mesh_command.py", "tests/test_loaded.py",
         "tests/test_axisymmetric.py::test_singular_parts_get_the_slower_rate_for_their_bars",
-        "tests/test_mutation_survivors.py",
+        "tests/test_mutation_survivors.py", "tests/test_beam_figures.py",
+        "tests/test_surface_resistance.py",
         "--deselect", "tests/test_error_estimate.py::"
         "test_accuracy_target_refines_until_met_or_says_it_could_not",
     ],

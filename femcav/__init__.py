@@ -24,6 +24,9 @@ _PUBLIC = {
     "solve_model": ".solver",
     "solve_axisymmetric": ".axisymmetric.solve",
     "mode_rows": ".io.results",
+    # figures of merit: geometry factor and beam figures, for either solver's result
+    "with_figures_of_merit": ".merit",
+    "BeamRequest": ".post.beam",
     # case files and the studies
     "case_model": ".case",
     "load_case": ".case",

@@ -25,8 +25,11 @@ from .materials import VACUUM, Material
 from .metals import CONDUCTIVITY_S_PER_M
 from .model import Model, make_model
 from .post.probes import ProbeSpec
+from .post.beam import BeamRequest
 from .schema import check_table, read
 from .units import UNITS
+from .superconductors import SUPERCONDUCTORS
+from .wall_resistance import METAL_NAMES
 from .walls import Wall
 
 SYMMETRY_CHOICES = {"pec": ("pec",), "pmc": ("pmc",), "both": ("pec", "pmc")}
@@ -85,6 +88,7 @@ class Case:
     tolerances: dict[str, float] = field(default_factory=dict)   # builder length -> m
     probes: tuple[ProbeSpec, ...] = ()          # [probes.NAME] (post.probes)
     filling_axis: tuple[float, float, float] = (0.0, 0.0, 1.0)   # [filling] axis, unit
+    beam: BeamRequest | None = None    # [beam]: figures along a beam line (post.beam)
 
 
 def read_case_data(path: str | Path) -> dict:
@@ -139,11 +143,12 @@ def case_from_data(data: dict, path: Path) -> Case:
         tolerances = _tolerances(_table(data, "tolerances"), geometry, symmetry, solve)
         probes = _probes(_table(data, "probes"))
         filling_axis = _filling_axis(_table(data, "filling"))
+        beam = _beam(data["beam"], geometry, solve, symmetry) if "beam" in data else None
     except InputError as exc:
         raise exc.located(source=source) from None
     return Case(path=path, title=title, geometry=geometry, regions=regions, walls=walls,
                 solve=solve, mesh=mesh, symmetry=symmetry, tolerances=tolerances,
-                probes=probes, filling_axis=filling_axis)
+                probes=probes, filling_axis=filling_axis, beam=beam)
 
 
 PROBE_NAME = re.compile(r"[A-Za-z0-9_-]{1,64}")
@@ -194,6 +199,42 @@ def _filling_axis(spec: dict) -> tuple[float, float, float]:
     if not length > 0:
         raise InputError("the axis must not be the zero vector", field="filling.axis")
     return tuple(float(v) for v in vector / length)
+
+
+
+def _beam(spec: dict, geometry: GeometrySpec, solve: SolveSpec, symmetry: dict
+          ) -> BeamRequest:
+    """[beam]: both ends of the line or neither (then the z axis through the part, which
+    needs a body of revolution), and β."""
+    check_table(spec, schema.BEAM, "beam")
+    start, end = (read(spec, key, schema.BEAM, "beam") for key in ("from", "to"))
+    if (start is None) != (end is None):
+        raise InputError("give both from and to, or neither (the z axis through a body of "
+                         "revolution)", field="beam.to" if end is None else "beam.from")
+    if symmetry:
+        raise InputError("beam figures need the whole part; drop [symmetry]", field="beam")
+    if start is None and solve.azimuthal_orders is None:
+        why = "an imported mesh" if geometry.builder is None else None
+        if why is None:
+            from .geometry.section import axisymmetric_layout_check
+            try:
+                axisymmetric_layout_check(builder_layout(geometry.builder, geometry.parameters))
+            except InputError:
+                why = f"this {geometry.builder}"
+        if why:
+            raise InputError(f"give from and to: the default beam line is the z axis of a body "
+                             f"of revolution, and {why} is not known to be one", field="beam")
+    if start is not None:
+        if math.dist(start, end) == 0:
+            raise InputError("the beam line's two ends are the same point", field="beam.to")
+        if solve.azimuthal_orders is not None:
+            for key, point in (("from", start), ("to", end)):
+                if point[0] != 0 or point[1] != 0:
+                    raise InputError("a body of revolution solved on its section has its beam "
+                                     "on the z axis: x and y must be 0", field=f"beam.{key}")
+    return BeamRequest(start=None if start is None else tuple(start),
+                       end=None if end is None else tuple(end),
+                       velocity=read(spec, "velocity", schema.BEAM, "beam"))
 
 
 def _tolerances(spec: dict, geometry: GeometrySpec, symmetry: dict,
@@ -393,6 +434,10 @@ def _complex_literal(text: str) -> complex | None:
         return None
 
 
+_LOSS_KEYS = ("conductivity", "metal", "roughness", "surface_resistance", "temperature",
+              "residual_resistance")
+
+
 def _wall(name: str, spec: dict) -> Wall:
     where = f"walls.{name}"
     check_table(spec, schema.WALL, where)
@@ -401,22 +446,53 @@ def _wall(name: str, spec: dict) -> Wall:
         kinds = ", ".join(map(repr, schema.WALL.keys["kind"].allowed()))
         raise InputError(f"missing: kind = one of {kinds}", field=where + ".kind")
     if kind != "metal":
-        extra = next((k for k in ("conductivity", "metal", "roughness") if k in spec), None)
+        extra = next((k for k in _LOSS_KEYS if k in spec), None)
         if extra:
             raise InputError(f'{extra} belongs to kind = "metal"; a {kind.upper()} wall has no '
                              "loss", field=f"{where}.{extra}")
         return Wall(kind=kind)
+    if "surface_resistance" in spec:
+        other = next((k for k in _LOSS_KEYS[:3] + _LOSS_KEYS[4:] if k in spec), None)
+        if other:
+            raise InputError(f"surface_resistance gives R_s itself; {other} is also set",
+                             field=f"{where}.{other}")
+        return Wall(kind=kind, surface_resistance=read(spec, "surface_resistance", schema.WALL,
+                                                       where))
     if "conductivity" in spec and "metal" in spec:
         raise InputError("give either metal or conductivity, not both (conductivity is also "
                          "set)", field=where + ".metal")
     if "conductivity" not in spec and "metal" not in spec:
-        raise InputError('a metal wall needs conductivity = "58 MS/m" or metal = one of '
-                         f"{', '.join(map(repr, CONDUCTIVITY_S_PER_M))}", field=where)
+        raise InputError('a metal wall needs conductivity = "58 MS/m", surface_resistance = '
+                         '"10 mohm" or metal = one of '
+                         f"{', '.join(map(repr, METAL_NAMES))}", field=where)
     preset = spec.get("metal")
+    if preset in SUPERCONDUCTORS:
+        return _superconducting_wall(spec, where)
+    extra = next((k for k in ("temperature", "residual_resistance") if k in spec), None)
+    if extra:
+        raise InputError(f"{extra} belongs to a superconducting metal "
+                         f"({', '.join(SUPERCONDUCTORS)}); a normal metal's R_s comes from its "
+                         "conductivity", field=f"{where}.{extra}")
     sigma = (CONDUCTIVITY_S_PER_M[preset] if preset is not None
              else read(spec, "conductivity", schema.WALL, where))
     return Wall(kind=kind, conductivity=sigma, roughness=read(spec, "roughness", schema.WALL,
                                                                where), metal=preset)
+
+
+def _superconducting_wall(spec: dict, where: str) -> Wall:
+    """metal = a superconductor: R_s = R_BCS(f, T) + R_res needs T (within the range of the
+    low-temperature approximation, schema.TEMPERATURE) and R_res (femcav.superconductors)."""
+    metal = spec["metal"]
+    if "roughness" in spec:
+        raise InputError("roughness scales a normal metal's R_s; a superconductor's surface "
+                         "is in its residual_resistance", field=where + ".roughness")
+    for key, example in (("temperature", "2 K"), ("residual_resistance", "10 nohm")):
+        if key not in spec:
+            raise InputError(f"{metal} is superconducting: give {key} (e.g. {example!r})",
+                             field=f"{where}.{key}")
+    return Wall(kind="metal", metal=metal,
+                temperature=read(spec, "temperature", schema.WALL, where),
+                residual_resistance=read(spec, "residual_resistance", schema.WALL, where))
 
 
 def _solve(spec: dict) -> SolveSpec:

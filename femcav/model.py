@@ -9,6 +9,7 @@ import numpy as np
 from .errors import InputError
 from .geometry.mesh import TaggedMesh
 from .materials import Material
+from .wall_resistance import has_surface_resistance
 from .walls import KINDS, METAL, Wall, WallKinds
 
 FORMS = ("E", "H")
@@ -51,8 +52,8 @@ def make_model(mesh: TaggedMesh, materials: dict[str, Material], walls: dict[str
         if wall.kind not in KINDS:
             raise InputError(f"unknown wall kind {wall.kind!r}; allowed: {', '.join(KINDS)}",
                              source=source, field=f"walls.{name}.kind")
-        if wall.kind == METAL and not (wall.conductivity and wall.conductivity > 0):
-            raise InputError("a metal wall needs a positive conductivity", source=source,
+        if wall.kind == METAL and not has_surface_resistance(wall):
+            raise InputError("a metal wall needs a positive conductivity or surface resistance", source=source,
                              field=f"walls.{name}.conductivity")
         if wall.kind != METAL and (wall.conductivity is not None or wall.roughness is not None):
             raise InputError(f"conductivity and roughness belong to kind = \"metal\"; a "

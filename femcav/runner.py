@@ -186,7 +186,14 @@ def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: i
 
 def solve_case(case: Case, settings, progress: Progress = SILENT):
     """The modes of a loaded case with ``settings`` (its [solve] table, perhaps overridden):
-    a SolveResult, or an AxisymmetricResult with azimuthal orders; nothing is written."""
+    a SolveResult, or an AxisymmetricResult with azimuthal orders, with their figures of
+    merit (femcav.merit); nothing is written."""
+    from .merit import with_figures_of_merit
+
+    return with_figures_of_merit(_solve_modes(case, settings, progress), case.beam)
+
+
+def _solve_modes(case: Case, settings, progress: Progress):
     if settings.azimuthal_orders is not None:
         result = _solve_axisymmetric(case, settings, progress)
         if settings.sensitivities:
@@ -416,7 +423,10 @@ def model_summary(case: Case, result) -> dict:
                          else material.eps_r, "mu_r": material.mu_r,
                          "tan_delta": material.tan_delta}
     walls = {name: {"kind": w.kind, "conductivity_s_per_m": w.conductivity,
-                    "metal": w.metal, "roughness_m": w.roughness}
+                    "metal": w.metal, "roughness_m": w.roughness,
+                    "surface_resistance_ohm": w.surface_resistance,
+                    "temperature_k": w.temperature,
+                    "residual_resistance_ohm": w.residual_resistance}
              for name, w in case.walls.items()}
     return {"geometry": geometry, "regions": regions, "walls": walls,
             "symmetry": {axis: list(kinds) for axis, kinds in case.symmetry.items()}}

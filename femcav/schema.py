@@ -20,6 +20,7 @@ from dataclasses import dataclass, field
 from typing import Callable
 
 from .errors import InputError
+from .superconductors import SUPERCONDUCTORS
 from .units import SI_NAME, format_si, parse_quantity
 
 
@@ -141,6 +142,14 @@ MU_R = Range(1e-2, 1e5)
 TAN_DELTA = Range(0.0, 100.0)
 CONDUCTIVITY = Range(1.0, 1e12)          # S/m: resistive coatings to cryogenic copper
 ROUGHNESS = Range(0.0, 1e-3)             # m, rms
+# ohms: a superconductor's nano-ohms to a resistive film's tens of ohms
+SURFACE_RESISTANCE = Range(0.0, 1e3, low_open=True)
+RESIDUAL_RESISTANCE = Range(0.0, 1.0)    # ohms, added to a superconductor's BCS part
+# K: the BCS approximation of femcav.superconductors holds below half the critical
+# temperature
+TEMPERATURE = Range(0.0, min(s.highest_temperature_k for s in SUPERCONDUCTORS.values()),
+                    low_open=True)
+BEAM_VELOCITY = Range(0.0, 1.0, low_open=True)   # a fraction of c
 FREQUENCY = Range(1.0, 1e13)             # Hz: 1 Hz to 10 THz
 POSITIVE = Range(0.0, low_open=True)
 MODES = Range(1, 1000)
@@ -170,6 +179,7 @@ TOP = Table({
     "walls": Key(TABLE), "symmetry": Key(TABLE), "solve": Key(TABLE), "sweep": Key(TABLE),
     "tune": Key(TABLE), "extract": Key(TABLE), "tolerances": Key(TABLE),
     "probes": Key(TABLE), "filling": Key(TABLE),
+    "tune": Key(TABLE), "extract": Key(TABLE), "tolerances": Key(TABLE), "beam": Key(TABLE),
 })
 
 GEOMETRY_MESH = Table({
@@ -213,8 +223,13 @@ REGIONS = Table(each=Key(TABLE, doc="a region: eps_r, mu_r, tan_delta, mesh_size
 WALL = Table({
     "kind": Key(STRING, choices="femcav.walls:KINDS"),
     "conductivity": Key(QUANTITY, unit="conductivity", range=CONDUCTIVITY),
-    "metal": Key(STRING, choices="femcav.metals:CONDUCTIVITY_S_PER_M"),
+    "metal": Key(STRING, choices="femcav.wall_resistance:METAL_NAMES"),
     "roughness": Key(QUANTITY, unit="length", range=ROUGHNESS),
+    "surface_resistance": Key(QUANTITY, unit="resistance", range=SURFACE_RESISTANCE),
+    "temperature": Key(QUANTITY, unit="temperature", range=TEMPERATURE,
+                       doc="of a superconducting metal"),
+    "residual_resistance": Key(QUANTITY, unit="resistance", range=RESIDUAL_RESISTANCE,
+                               doc="of a superconducting metal"),
 })
 WALLS = Table(each=Key(TABLE, doc='a wall: kind = "pec", "pmc" or "metal"'))
 
@@ -278,6 +293,12 @@ PROBES = Table(each=Key(TABLE, doc="a probe: at, or from, to and points"))
 FILLING = Table({
     "axis": Key(either(STRING, list_of(NUMBER, 3)), default="z",
                 doc='"x", "y", "z" or three numbers: the axis of the axial magnetic filling'),
+})
+
+# The line a beam crosses the part on (femcav.post.beam); both ends or neither.
+BEAM = Table({
+    "from": Key(POINT, unit="length"), "to": Key(POINT, unit="length"),
+    "velocity": Key(NUMBER, range=BEAM_VELOCITY, default=1.0, doc="a fraction of c"),
 })
 
 # The quantities a study may vary (femcav.study.parameters): the key each value goes to.

@@ -56,6 +56,8 @@ class Mode:
     loss_warnings: tuple[str, ...] = ()
     magnetic_filling: object = None   # post.filling.MagneticFilling
     probes: tuple = ()                # post.probes.ProbeValues, one per [probes.NAME]
+    geometry_factor_ohm: float | None = None   # Q_wall R_s (post.geometry_factor)
+    beam: object | None = None                 # post.beam.BeamFigures, with [beam]
 
 
 @dataclass(frozen=True)

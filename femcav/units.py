@@ -34,10 +34,14 @@ UNITS: dict[str, dict[str, float]] = {
     },
     "frequency": _with_prefixes("Hz", "TGMk"),
     "conductivity": _with_prefixes("S/m", "GMk"),
+    # surface resistances of metal walls, from normal metals (mohm) to superconductors (nohm)
+    "resistance": {**_with_prefixes("ohm", "kmuµμn"), **_with_prefixes("Ω", "kmuµμn")},
+    "temperature": _with_prefixes("K", "m"),
 }
 
 LENGTH_UNITS = UNITS["length"]
-SI_NAME = {"length": "m", "frequency": "Hz", "conductivity": "S/m"}
+SI_NAME = {"length": "m", "frequency": "Hz", "conductivity": "S/m", "resistance": "ohm",
+           "temperature": "K"}
 
 _QUANTITY = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([^\s\d].*?)?\s*$")
 
@@ -74,7 +78,8 @@ def parse_quantity(value: object, kind: str, *, field: str | None = None) -> flo
 
 
 def _example(kind: str) -> str:
-    return {"length": "12.5 mm", "frequency": "4.8 GHz", "conductivity": "58 MS/m"}[kind]
+    return {"length": "12.5 mm", "frequency": "4.8 GHz", "conductivity": "58 MS/m",
+            "resistance": "10 nohm", "temperature": "2 K"}[kind]
 
 
 def format_si(value: float, unit: str, digits: int = 6) -> str:

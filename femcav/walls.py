@@ -13,12 +13,17 @@ DEFAULT_KIND = PEC
 @dataclass(frozen=True)
 class Wall:
     """A wall condition. A metal wall is PEC for the lossless mode and adds loss through its
-    surface resistance (conductivity in S/m, optional rms roughness in m)."""
+    surface resistance (conductivity in S/m, optional rms roughness in m; or the surface
+    resistance itself in ohms; or a superconducting ``metal`` at ``temperature`` (K) with its
+    residual resistance in ohms: femcav.wall_resistance)."""
 
     kind: str = DEFAULT_KIND
     conductivity: float | None = None
     roughness: float | None = None
     metal: str | None = None   # the preset name, when the conductivity came from one
+    surface_resistance: float | None = None    # ohms, the same at every frequency
+    temperature: float | None = None           # K, of a superconducting metal
+    residual_resistance: float | None = None   # ohms, added to a superconductor's BCS part
 
 
 def essential_kinds(form: str) -> tuple[str, ...]:

@@ -20,14 +20,14 @@ PACKAGE = Path(__file__).resolve().parent.parent / "femcav"
 # lower number = lower layer; a module may import from its own layer or below
 LAYERS = {
     "errors": 0, "units": 0, "progress": 0, "metals": 0, "analytic": 0, "schema": 0,
-    "memory_room": 0, "exit_codes": 0,
-    "expressions": 1, "materials": 1, "walls": 1,
+    "memory_room": 0, "exit_codes": 0, "superconductors": 0,
+    "expressions": 1, "materials": 1, "walls": 1, "wall_resistance": 1,
     "geometry": 2, "model": 2, "sizing": 3,
     "fem": 3, "eigen": 3,
     "post": 4,
     "solver": 5, "axisymmetric": 5, "error_bars": 5,
     "io": 6, "viz": 6,
-    "runner": 7, "mesh_runner": 7,
+    "runner": 7, "mesh_runner": 7, "merit": 7,
     "study": 8,
     "case": 9, "cli": 9, "__main__": 9, "": 9,  # "" is femcav/__init__.py
     "verification": 9,    # femcav verify: runs case files like a user, beside cli

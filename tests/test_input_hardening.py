@@ -51,6 +51,7 @@ BASE = {
                 "loaded_frequency": "9.4 GHz", "empty_q": 9000, "loaded_q": 8000,
                 "eps_bracket": [1.0, 10.0], "tolerance": 1e-9},
     "tolerances": {"radius": "20 um"},
+    "beam": {"velocity": 0.9},
 }
 # Keys that do not go together with others of BASE: (table, key) -> (what it is added with,
 # the keys of BASE to drop for it).
@@ -61,7 +62,15 @@ VARIANTS = {
                                     [("tolerances",), ("solve", "form")]),
     ("sweep", "second", "points"): ({"sweep": {"second": {
         "parameter": "geometry.post_depth", "from": "2 mm", "to": "3 mm", "points": 2}}}, []),
+    ("walls", "side", "surface_resistance"): ({}, [("walls", "side", "conductivity"),
+                                                   ("walls", "side", "roughness")]),
+    ("walls", "side", "temperature"): ({"walls": {"side": {
+        "kind": "metal", "metal": "niobium", "temperature": "2 K",
+        "residual_resistance": "10 nohm"}}}, []),
 }
+VARIANTS[("walls", "side", "residual_resistance")] = VARIANTS[("walls", "side", "temperature")]
+# [beam] and [symmetry] do not go together
+VARIANTS[("symmetry",)][1].append(("beam",))
 
 # Where each declared table sits in BASE.
 TABLES = [(("geometry",), schema.builder_table(BUILDERS["tuned_pillbox"])),
@@ -69,7 +78,8 @@ TABLES = [(("geometry",), schema.builder_table(BUILDERS["tuned_pillbox"])),
           (("walls", "side"), schema.WALL),
           (("symmetry",), schema.SYMMETRY), (("solve",), schema.SOLVE),
           (("sweep",), schema.SWEEP), (("sweep", "second"), schema.SWEEP_AXIS),
-          (("tune",), schema.TUNE), (("extract",), schema.EXTRACT), ((), schema.TOP)]
+          (("tune",), schema.TUNE), (("extract",), schema.EXTRACT), (("beam",), schema.BEAM),
+          ((), schema.TOP)]
 
 
 def load_everything(data: dict) -> None:

@@ -26,9 +26,9 @@ import math
 import numpy as np
 from scipy.constants import epsilon_0, mu_0
 
-from ..metals import surface_resistance
 from ..post.losses import LossReport
 from ..post.sensitivity import sensitivities_from_densities
+from ..wall_resistance import wall_surface_resistance
 from ..walls import METAL
 from .space import OrderSpace, facets_of, quadrature_order
 
@@ -172,7 +172,7 @@ def _wall_powers(space: OrderSpace, dofs, omega: float) -> dict[str, float]:
                          + np.einsum("ctq,ctq->tq", meridional, normal) ** 2 / r)
             total += float(np.sum(curl_t_sq / (omega * mu_0 * mu_r[:, None]) ** 2 * dl))
         wall = model.walls[name]
-        out[name] = 0.5 * surface_resistance(omega, wall.conductivity, wall.roughness) * total
+        out[name] = 0.5 * wall_surface_resistance(wall, omega) * total
     return out
 
 

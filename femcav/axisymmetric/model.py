@@ -11,6 +11,7 @@ import numpy as np
 from ..errors import InputError
 from ..geometry.meridional import AXIS, MeridionalMesh
 from ..materials import Material
+from ..wall_resistance import has_surface_resistance
 from ..walls import KINDS, METAL, Wall, WallKinds
 
 # eps_r(r cos φ, r sin φ, z) must not depend on φ by more than this, relatively
@@ -48,8 +49,8 @@ def make_axisymmetric_model(section: MeridionalMesh, materials: dict[str, Materi
         if wall.kind not in KINDS:
             raise InputError(f"unknown wall kind {wall.kind!r}; allowed: {', '.join(KINDS)}",
                              source=source, field=f"walls.{name}.kind")
-        if wall.kind == METAL and not (wall.conductivity and wall.conductivity > 0):
-            raise InputError("a metal wall needs a positive conductivity", source=source,
+        if wall.kind == METAL and not has_surface_resistance(wall):
+            raise InputError("a metal wall needs a positive conductivity or surface resistance", source=source,
                              field=f"walls.{name}.conductivity")
     for name, material in materials.items():
         rz = section.points[np.unique(section.triangles[section.tri_region

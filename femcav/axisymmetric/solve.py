@@ -62,6 +62,8 @@ class AxisymmetricMode:
     loss_warnings: tuple[str, ...] = ()      # post.loss_validity
     magnetic_filling: object = None          # post.filling.MagneticFilling
     probes: tuple = ()                       # post.probes.ProbeValues per [probes.NAME]
+    geometry_factor_ohm: float | None = None   # Q_wall R_s (post.geometry_factor)
+    beam: object | None = None                 # post.beam.BeamFigures, with [beam]
 
     @property
     def multiplicity(self) -> int:

@@ -31,7 +31,7 @@ import csv
 import io
 import math
 
-from . import strict_json
+from . import merit_columns, strict_json
 from ..post import checks, resolution
 from .probe_table import field_figure_rows
 from ..solver import SolveResult
@@ -79,6 +79,7 @@ def mode_rows(result: SolveResult) -> list[dict]:
             row["q_dielectric_complex"] = m.q_dielectric_complex
         row["loss_warnings"] = list(getattr(m, "loss_warnings", ()))
         row.update(field_figure_rows(m))
+        row.update(merit_columns.json_fields(m))
         rows.append(row)
     return rows
 
@@ -132,6 +133,7 @@ def to_json(result: SolveResult, *, title: str, case: str | None,
                                     "element": "triangles of the meridional section"}
     if result.accuracy is not None:
         document["accuracy"] = result.accuracy
+    document.update(merit_columns.json_top_level(result))
     return strict_json.dumps(document, indent=2)
 
 
@@ -171,7 +173,8 @@ def to_csv(result: SolveResult) -> str:
     out = io.StringIO()
     columns = CSV_COLUMNS + (("symmetry",) if _has_symmetry(result) else ()) + (
         ("azimuthal_order", "field_class") if _is_axisymmetric(result) else ()) + (
-        ("q_dielectric_complex",) if any(m.q_dielectric_complex for m in result.modes) else ())
+        ("q_dielectric_complex",) if any(m.q_dielectric_complex for m in result.modes) else ()
+    ) + merit_columns.csv_columns(result)
     writer = csv.DictWriter(out, fieldnames=columns, extrasaction="ignore", lineterminator="\n")
     writer.writeheader()
     for row in mode_rows(result):
@@ -181,7 +184,8 @@ def to_csv(result: SolveResult) -> str:
                          "points_per_wavelength": "" if row["points_per_wavelength"] is None
                          else f"{row['points_per_wavelength']:.3g}",
                          **{k: "" if row[k] is None else f"{row[k]:.6g}"
-                            for k in ("q_wall", "q_dielectric", "q_total")}})
+                            for k in ("q_wall", "q_dielectric", "q_total")},
+                         **merit_columns.csv_values(row)})
     return out.getvalue()
 
 
@@ -195,6 +199,7 @@ def to_table(result: SolveResult) -> str:
              + (f"{'symmetry':<{width}}  " if sym else "")
              + (f"{'m':>2}  {'class':<8}  " if axisymmetric else "")
              + (f"{'Q wall':>9}  {'Q diel.':>9}  {'Q total':>9}  " if lossy else "")
+             + merit_columns.table_heading(result)
              + f"{'residual':>9}  {'divergence':>10}  {'orthogonality':>13}  check"]
     for m in result.modes:
         c = m.checks
@@ -210,6 +215,7 @@ def to_table(result: SolveResult) -> str:
                      + (f"{m.symmetry:<{width}}  " if sym else "")
                      + (f"{m.m:>2}  {m.field_class:<8}  " if axisymmetric else "")
                      + (_q_columns(m) if lossy else "")
+                     + merit_columns.table_cells(result, m)
                      + f"{c.residual:9.1e}  {c.divergence:10.1e}  {c.orthogonality:13.1e}  "
                      f"{status}")
     return "\n".join(lines)

@@ -18,7 +18,7 @@ import numpy as np
 from scipy.constants import epsilon_0, mu_0
 
 from ..fem.space import EdgeSpace
-from ..metals import surface_resistance
+from ..wall_resistance import wall_surface_resistance
 from ..walls import METAL
 
 
@@ -101,8 +101,7 @@ def mode_losses(space: EdgeSpace, dofs: np.ndarray, frequency_hz: float,
         n = faces.basis.normals
         H_t = H - np.sum(H * n, axis=0) * n
         walls = space.model.walls
-        rs = np.array([surface_resistance(omega, walls[w].conductivity, walls[w].roughness)
-                       for w in faces.wall])
+        rs = np.array([wall_surface_resistance(walls[w], omega) for w in faces.wall])
         loss_at_points = 0.5 * rs[:, None] * np.sum(H_t**2, axis=0)       # W/m²
         power = np.sum(loss_at_points * faces.basis.dx, axis=1)            # W per face
         total_p = float(power.sum())

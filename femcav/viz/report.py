@@ -13,6 +13,7 @@ import html
 from pathlib import Path
 
 from ..units import format_frequency
+from .figures_of_merit import beam_section, wall_description
 
 CAUTION = ("Results are engineering estimates from a finite-element model: check them "
            "against measurement before relying on them. High-power RF and microwave exposure, "
@@ -114,9 +115,7 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
         material = f"eps_r {m['eps_r']}, mu_r {m['mu_r']}, tan delta {m['tan_delta']}"
         summary.append((f"region {name}", material))
     for name, w in (model.get("walls") or {}).items():
-        what = (w["kind"].upper() if w["kind"] != "metal" else
-                f"metal{', ' + w['metal'] if w['metal'] else ''}, "
-                f"{w['conductivity_s_per_m'] / 1e6:.4g} MS/m")
+        what = w["kind"].upper() if w["kind"] != "metal" else wall_description(w)
         summary.append((f"wall {name}", what))
     if model.get("symmetry"):
         summary.append(("symmetry cuts", ", ".join(f"{a}: {'/'.join(k)}"
@@ -157,6 +156,7 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
             f"<title>{e(title)}</title>\n<style>{STYLE}</style>\n</head>\n<body>\n"
             f"<h1>{e(title)}</h1>\n<p class=\"caution\">{e(CAUTION)}</p>\n"
             f"<h2>Case</h2>\n{summary_html}\n<h2>Modes</h2>\n{table}\n"
+            + beam_section(document) + "\n"
             + "\n".join(figures) + f"\n<h2>Checks</h2>\n{checks}\n</body>\n</html>\n")
     path.write_text(page, encoding="utf-8")
 
