@@ -59,6 +59,8 @@ class AxisymmetricMode:
     symmetry: str | None = None
     resolution: Resolution | None = None     # elements per wavelength (post.resolution)
     loss_warnings: tuple[str, ...] = ()      # post.loss_validity
+    label: str | None = None                 # a chain of cells' passband (passband.py)
+    phase_advance_rad: float | None = None
 
     @property
     def multiplicity(self) -> int:
