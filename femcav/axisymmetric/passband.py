@@ -64,8 +64,8 @@ def _probes(basis, points: np.ndarray, cells: np.ndarray, components: int):
         at = np.flatnonzero(cells == cell)
         reference = basis.mapping.invF(points[:, at][:, None, :], tind=np.array([cell]))[:, 0]
         for k in range(basis.Nbfun):
-            value = np.reshape(basis.elem.gbasis(basis.mapping, reference, k,
-                                                 tind=np.array([cell]))[0].value,
+            value = np.reshape(np.asarray(basis.elem.gbasis(basis.mapping, reference, k,
+                                                            tind=np.array([cell]))[0]),
                                (components, len(at)))
             for c in range(components):
                 rows.append(c * n + at)

@@ -119,10 +119,6 @@ def half_cell(equator_radius: float, iris_radius: float, half_length: float,
     cell = HalfCell(equator_radius, iris_radius, half_length, equator_semi_z, equator_semi_r,
                     iris_semi_z, iris_semi_r, alpha, iris_t, equator_t)
     iris_arc, wall, _ = cell.pieces(0.0)
-    require(wall.end[0] > wall.start[0], f"the wall line would run inwards (from r = "
-            f"{wall.start[0]:g} m at the iris ellipse down to r = {wall.end[0]:g} m at the "
-            f"equator ellipse): raise {names['equator_radius']} or shorten the semi-axes along r",
-            f"geometry.{names['equator_radius']}")
     iris_reach = iris_semi_z if iris_t >= 0 else iris_arc.end[1]
     require(iris_reach < half_length, f"the iris ellipse reaches past the equator plane "
             f"({iris_reach:g} m from the iris plane, half-cell {half_length:g} m): shorten "
