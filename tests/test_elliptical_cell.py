@@ -124,6 +124,11 @@ def test_a_cell_with_pipes_has_the_volume_of_its_profile():
     # θ = 2 asin(h / 2R) (as in test_builders); the smallest radii bound every surface
     bound = sum((2 * math.asin(0.012 / (2 * r))) ** 2 / 6 for r in (rho1, r_iris))
     assert abs(mesh.tet_volumes().sum() / exact - 1) <= bound
+    # the profile's own volume (Green's theorem on a fine polygon) to its chords' error
+    layout = CELLS.layout(equator_radius=r_equator, iris_radius=r_iris, half_cell_length=half,
+                          equator_semi_axis_z=rho2, equator_semi_axis_r=rho2,
+                          iris_semi_axis_z=rho1, iris_semi_axis_r=rho1, pipe_length=pipe)
+    assert layout.space[0].volume() == pytest.approx(exact, rel=1e-5)
     assert set(mesh.wall_names) == {"cell_wall", "pipe_wall", "bottom", "top"}
 
 
@@ -244,3 +249,27 @@ def test_dimension_tolerances_are_refused_for_the_curved_profile(tmp_path, capsy
     err = capsys.readouterr().err.strip()
     assert "tolerances" in err and len(err.splitlines()) == 1
     assert not (tmp_path / "cell-results").exists()
+
+
+@pytest.mark.parametrize("walls, labels", [
+    ("", ["0 mode", "π/2 mode"]),                       # metal (unnamed) end irises
+    ('[walls.bottom]\nkind = "pmc"\n[walls.top]\nkind = "pmc"\n', ["π/2 mode", "π mode"]),
+    ('[walls.bottom]\nkind = "pmc"\n', [None, None]),   # one of each: no phase advance fits
+], ids=["metal ends", "pmc ends", "mixed ends"])
+def test_case_run_labels_the_passband_by_its_end_walls(tmp_path, walls, labels):
+    # Two cells closed at their end irises: electric end walls hold the phase advances 0
+    # and π/2, magnetic ones π/2 and π (the patterns of post/phase_advance.py).
+    from femcav.io.results import mode_rows
+    from femcav.runner import solve_case
+
+    lines = [f'{key} = "{value * 1e3:g} mm"' for key, value in TESLA_LIKE.items()]
+    case = tmp_path / "cells.toml"
+    case.write_text("[geometry]\nbuilder = \"elliptical_cells\"\ncells = 2\npipe_length = 0\n"
+                    + "\n".join(lines) + "\n[mesh]\nsize = \"12 mm\"\ncurved = true\n" + walls
+                    + "[solve]\nmodes = 2\norder = 2\nazimuthal_orders = [0]\n")
+    loaded = load_case(case)
+    rows = mode_rows(solve_case(loaded, loaded.solve))
+    assert [row.get("label") for row in rows] == labels
+    phases = {"0 mode": 0.0, "π/2 mode": math.pi / 2, "π mode": math.pi}
+    assert [row.get("phase_advance_rad") for row in rows] == [
+        None if label is None else pytest.approx(phases[label]) for label in labels]

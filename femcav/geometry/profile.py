@@ -145,11 +145,6 @@ class RevolvedProfile:
         return self._face(occ, lambda r, z: (r, z, 0.0))
 
     # --- geometry tests ---------------------------------------------------------------------
-    def section_area(self) -> float:
-        polygon = self.outline(2049)
-        r, z = polygon[:, 0], polygon[:, 1]
-        return 0.5 * abs(float(np.sum(r * np.roll(z, -1) - np.roll(r, -1) * z)))
-
     def volume(self) -> float:
         """2π ∫ r dA = π |∮ r² dz| (Green's theorem), on a fine polygon of the profile."""
         polygon = self.outline(2049)
