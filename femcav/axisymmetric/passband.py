@@ -43,8 +43,8 @@ def axial_field(space: OrderSpace, z: np.ndarray):
 
 
 def _containing_triangles(section, points: np.ndarray) -> np.ndarray:
-    """The triangle holding each point (2, n), found on the straight triangles of the
-    corners: the samples run near the axis, whose triangles have straight edges there."""
+    """The triangle holding each point (2, n), found on the straight triangles through the
+    corners: the samples run close to the axis, away from the curved walls."""
     from skfem import MeshTri
 
     n_corners = int(section.triangles.max()) + 1
@@ -71,8 +71,9 @@ def _probes(basis, points: np.ndarray, cells: np.ndarray, components: int):
                 rows.append(c * n + at)
                 columns.append(np.full(len(at), basis.element_dofs[k, cell]))
                 values.append(value[c])
-    return sp.coo_matrix((np.concatenate(values), (np.concatenate(rows), np.concatenate(columns))),
-                      shape=(components * n, basis.N))
+    return sp.coo_matrix((np.concatenate(values),
+                          (np.concatenate(rows), np.concatenate(columns))),
+                         shape=(components * n, basis.N))
 
 
 def with_passband_labels(result: AxisymmetricResult, spans: list[tuple[float, float]],

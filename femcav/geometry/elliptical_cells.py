@@ -6,9 +6,9 @@ iris_semi_axis_r across it), along the straight wall, over the equator ellipse
 (equator_semi_axis_z, equator_semi_axis_r) to the equator (radius equator_radius) at
 half_cell_length from the iris plane, and back down the same way to the next iris. ``cells``
 such cells follow each other (2 half_cell_length apart), with a beam pipe of radius
-iris_radius and length pipe_length (default 3 iris_radius: the lowest pipe mode, TM01,
-falls off like exp(-2.405 z / iris_radius) well below its cut-off, to 7e-4 of its field over
-3 radii) at each end; pipe_length = 0 closes the chain at its end irises. The wall angle is
+iris_radius and length pipe_length (default 3 iris_radius: far below its cut-off the pipe's
+lowest m = 0 mode, TM01, falls off like exp(-2.405 z / iris_radius), to 7e-4 of its field
+over 3 radii; 1.3e-3 for a 1.3 GHz cell with a 35 mm iris) at each end; pipe_length = 0 closes the chain at its end irises. The wall angle is
 derived, not given; a shape whose ellipses cannot be joined by a straight wall inside the
 half-cell is refused, naming the parameter.
 
@@ -28,10 +28,10 @@ from __future__ import annotations
 import math
 
 from .. import schema
+from ..walls import METAL, PEC
 from .cell_shape import HalfCell, half_cell
 from .params import Param, parse_params
 from .parts import Layout
-from ..walls import METAL, PEC
 from .profile import RevolvedProfile, Segment
 
 PARAMETERS = {
