@@ -192,6 +192,10 @@ GEOMETRY_BUILDER = Table({"builder": Key(STRING, choices="femcav.geometry:BUILDE
 
 PARAMETER_TYPES = {"length": QUANTITY, "point": POINT}   # geometry.params.Param.kind
 
+# [geometry] cells of the elliptical_cells builder (its lengths are builder parameters): a
+# chain longer than a few tens of cells is no single accelerating structure
+CELL_COUNT = Key(WHOLE, range=Range(1, 30), default=1)
+
 COMPOSITE = Table({"solids": Key(list_of(TABLE)), "background": Key(STRING, default="inside")})
 
 SOLID = Table({

@@ -7,12 +7,13 @@ from dataclasses import replace
 
 from ..case import Case, case_materials
 from ..errors import InputError
-from ..geometry import builder_layout
+from ..geometry import BUILDERS, builder_layout
 from ..geometry.section import mesh_section
 from ..geometry.section_import import read_section
 from ..progress import Progress
 from ..sizing import builder_sizing
 from .model import make_axisymmetric_model
+from .passband import with_passband_labels
 from .solve import AxisymmetricResult, solve_axisymmetric
 
 # Without [mesh] size or max_frequency: a section mesh this fraction of the part's extent
@@ -52,16 +53,34 @@ def solve_axisymmetric_case(case: Case, settings, progress: Progress) -> Axisymm
         else:
             layout, sizing = section_sizing(case)
             section = mesh_section(layout, sizing, name=case.geometry.builder)
-            how = f"element size {sizing.size * 1e3:.3g} mm"
+            how = f"{layout.description}; element size {sizing.size * 1e3:.3g} mm"
         kind = "curved " if section.triangles6 is not None else ""
         progress.step(f"meridional section: {section.n_triangles} {kind}triangles, regions "
                       f"{', '.join(section.region_names)} ({how})")
         model = make_axisymmetric_model(section, case_materials(case, section.region_names),
                                         case.walls, source=str(case.path))
-        return solve_axisymmetric(model, orders=settings.azimuthal_orders,
-                                  modes=settings.modes, near_hz=settings.near_hz,
-                                  order=settings.order, factorization=settings.factorization,
-                                  complex_check=settings.complex_check,
-                                  form=settings.form or "E", progress=progress)
+        result = solve_axisymmetric(model, orders=settings.azimuthal_orders,
+                                    modes=settings.modes, near_hz=settings.near_hz,
+                                    order=settings.order, factorization=settings.factorization,
+                                    complex_check=settings.complex_check,
+                                    form=settings.form or "E", progress=progress)
+        return label_cells(case, result, progress)
     except InputError as exc:
         raise exc.located(source=str(case.path)) from None
+
+
+def label_cells(case: Case, result: AxisymmetricResult, progress: Progress
+                ) -> AxisymmetricResult:
+    """The passband's phase advances, for a builder that makes a chain of cells."""
+    chain = getattr(BUILDERS.get(case.geometry.builder), "cell_chain", None)
+    if chain is None:
+        return result
+    spans, electric_ends = chain({name: wall.kind for name, wall in case.walls.items()},
+                                 **case.geometry.parameters)
+    if electric_ends is None:
+        return result
+    result = with_passband_labels(result, spans, electric_ends)
+    labelled = [f"mode {m.index} {m.label}" for m in result.modes if m.label]
+    if labelled:
+        progress.step(f"passband (from E_z on the axis): {', '.join(labelled)}")
+    return result

@@ -64,6 +64,8 @@ class AxisymmetricMode:
     probes: tuple = ()                       # post.probes.ProbeValues per [probes.NAME]
     geometry_factor_ohm: float | None = None   # Q_wall R_s (post.geometry_factor)
     beam: object | None = None                 # post.beam.BeamFigures, with [beam]
+    label: str | None = None                 # a chain of cells' passband (passband.py)
+    phase_advance_rad: float | None = None
 
     @property
     def multiplicity(self) -> int:

@@ -74,6 +74,8 @@ def mode_rows(result: SolveResult) -> list[dict]:
             row["tolerance"] = m.tolerance
         if getattr(m, "label", None) is not None:
             row["label"] = m.label
+        if getattr(m, "phase_advance_rad", None) is not None:
+            row["phase_advance_rad"] = m.phase_advance_rad
         if complex_checked:
             row["complex_frequency_hz"] = m.complex_frequency_hz
             row["q_dielectric_complex"] = m.q_dielectric_complex

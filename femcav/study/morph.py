@@ -31,7 +31,7 @@ import scipy.sparse.linalg as spla
 from ..errors import InputError
 from ..geometry.mesh import TaggedMesh
 from ..geometry.parts import Layout
-from ..geometry.solids import Box
+from ..geometry.solids import Box, Cylinder
 
 # δ relative to the part's extent for the central difference
 STEP = 1e-3
@@ -92,6 +92,10 @@ def surface_nodes(mesh: TaggedMesh) -> np.ndarray:
 def morph(mesh: TaggedMesh, old: Layout, new: Layout) -> TaggedMesh:
     """``mesh`` (of layout ``old``) with its nodes moved onto layout ``new``."""
     solids_old, solids_new = _solids(old), _solids(new)
+    if not all(isinstance(s, (Box, Cylinder)) for s in solids_old):
+        raise InputError("the mesh can follow a change of boxes and cylinders only, and this "
+                         "part has a curved profile; its dimension tolerances are not "
+                         "available", field="tolerances")
     if len(solids_old) != len(solids_new) or any(
             type(a) is not type(b) for a, b in zip(solids_old, solids_new)):
         raise InputError("the change alters which solids make up the part, so the mesh "
