@@ -37,7 +37,9 @@ class Mode:
     frequency_hz: float
     k0_squared: float       # 1/m²
     checks: ModeChecks
-    dofs: np.ndarray        # over all edges of the mesh, M-normalised
+    # M-normalised, as its space stores modes: over all edges of a 3D mesh, over the kept
+    # DOFs of an azimuthal order's space (space.full_vectors gives every DOF)
+    dofs: np.ndarray
     symmetry: str | None = None   # the symmetry class, e.g. "x:PMC y:PEC", when cut
     losses: LossReport | None = None   # Q factors by perturbation, when the case has losses
     # from the direct complex solve with lossy permittivity ([solve] complex_check)
@@ -58,6 +60,16 @@ class Mode:
     probes: tuple = ()                # post.probes.ProbeValues, one per [probes.NAME]
     geometry_factor_ohm: float | None = None   # Q_wall R_s (post.geometry_factor)
     beam: object | None = None                 # post.beam.BeamFigures, with [beam]
+    # a body of revolution's mode (axisymmetric.solve): its azimuthal order m and field
+    # class (TE-like, TM-like, TEM-like or hybrid: axisymmetric.losses.field_class)
+    m: int | None = None
+    field_class: str | None = None
+    phase_advance_rad: float | None = None   # a chain of cells' passband (passband.py)
+
+    @property
+    def multiplicity(self) -> int:
+        """Modes of the full part: the cos mφ and sin mφ pair of an order m >= 1."""
+        return 2 if self.m else 1
 
 
 @dataclass(frozen=True)

@@ -14,9 +14,8 @@ and H_t on a wall is the field itself. Q_wall = ω W / P_wall, W = 2 W_e, P_wall
 §6.1 and §6.3; common practice).
 
 Field class (a heuristic, stated as such): the share of the electric energy in E_z and of
-the magnetic energy in H_z. "TE-like" when E_z holds under CLASS_SHARE of it, "TM-like"
-when H_z does, "TEM-like" when both do (a coaxial line's modes), "hybrid" otherwise. For
-m = 0 exactly one of e_t and u is nonzero, so TE and TM are exact there.
+the magnetic energy in H_z, classed by post.classify.class_from_shares (the 3D rule and
+threshold). For m = 0 exactly one of e_t and u is nonzero, so TE and TM are exact there.
 """
 
 from __future__ import annotations
@@ -26,13 +25,13 @@ import math
 import numpy as np
 from scipy.constants import epsilon_0, mu_0
 
+from ..post.classify import class_from_shares
 from ..post.losses import LossReport
 from ..post.sensitivity import sensitivities_from_densities
 from ..wall_resistance import wall_surface_resistance
 from ..walls import METAL
 from .space import OrderSpace, facets_of, quadrature_order
 
-CLASS_SHARE = 1e-2
 
 
 def _split(space: OrderSpace, dofs: np.ndarray):
@@ -102,15 +101,9 @@ def axial_magnetic_share(space: OrderSpace, dofs) -> float:
 
 
 def field_class(space: OrderSpace, dofs) -> str:
+    """TE-like, TM-like, TEM-like or hybrid by post.classify's rule."""
     _, e_axial = electric_energy_by_region(space, dofs)
-    h_axial = axial_magnetic_share(space, dofs)
-    if e_axial < CLASS_SHARE and h_axial < CLASS_SHARE:
-        return "TEM-like"
-    if e_axial < CLASS_SHARE <= h_axial:
-        return "TE-like"
-    if h_axial < CLASS_SHARE <= e_axial:
-        return "TM-like"
-    return "hybrid"
+    return class_from_shares(e_axial, axial_magnetic_share(space, dofs))
 
 
 def has_losses(space: OrderSpace) -> bool:

@@ -22,12 +22,17 @@ from ..eigen.interface import STATIC_FRACTION, EigenRequest
 from ..errors import InputError
 from ..eigen.problem import EigenProblem
 from ..materials import tan_delta_by_cell
-from ..post.checks import ModeChecks, check_modes
+from ..post.checks import check_modes
 from ..post.loss_validity import with_complex_warnings, with_loss_warnings
-from ..post.losses import LossReport
-from ..post.resolution import Resolution, mode_resolution
+from ..post.resolution import mode_resolution
 from ..progress import SILENT, Progress
-from ..solver import check_request, complex_eigenvalues, frequency_to_k0_squared, select_modes
+from ..solver import (
+    Mode,
+    check_request,
+    complex_eigenvalues,
+    frequency_to_k0_squared,
+    select_modes,
+)
 from .losses import cell_energy, cell_scales, field_class, has_losses, mode_losses
 from .model import AxisymmetricModel
 from .space import (
@@ -42,40 +47,8 @@ from .space import (
 
 
 @dataclass(frozen=True)
-class AxisymmetricMode:
-    index: int                  # 1-based, in frequency order over all m
-    m: int                      # azimuthal order
-    frequency_hz: float
-    k0_squared: float
-    field_class: str            # TE-like, TM-like, TEM-like or hybrid (losses.field_class)
-    checks: ModeChecks
-    dofs: np.ndarray            # over the free DOFs of the order-m space, M-normalised
-    losses: LossReport | None = None
-    # the same optional entries as a 3D mode, for the shared writers
-    complex_frequency_hz: float | None = None
-    q_dielectric_complex: float | None = None
-    error_estimate_hz: float | None = None
-    extrapolated_hz: float | None = None
-    symmetry: str | None = None
-    sensitivity: dict | None = None          # df/dε_r, df/dμ_r per region, Hz
-    resolution: Resolution | None = None     # elements per wavelength (post.resolution)
-    loss_warnings: tuple[str, ...] = ()      # post.loss_validity
-    magnetic_filling: object = None          # post.filling.MagneticFilling
-    probes: tuple = ()                       # post.probes.ProbeValues per [probes.NAME]
-    geometry_factor_ohm: float | None = None   # Q_wall R_s (post.geometry_factor)
-    beam: object | None = None                 # post.beam.BeamFigures, with [beam]
-    label: str | None = None                 # a chain of cells' passband (passband.py)
-    phase_advance_rad: float | None = None
-
-    @property
-    def multiplicity(self) -> int:
-        """Modes of the full part: the cos mφ and sin mφ pair for m >= 1."""
-        return 1 if self.m == 0 else 2
-
-
-@dataclass(frozen=True)
 class AxisymmetricResult:
-    modes: list[AxisymmetricMode]
+    modes: list[Mode]
     spaces: dict[int, OrderSpace]
     dofs_by_order: dict[int, int]
     order: int
@@ -166,7 +139,7 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
     for index, (m, value, vector, check) in enumerate(found, start=1):
         frequency = C0 * math.sqrt(value) / (2 * math.pi)
         space = spaces[m]
-        result_modes.append(AxisymmetricMode(
+        result_modes.append(Mode(
             index=index, m=m, frequency_hz=frequency, k0_squared=value,
             field_class=field_class(space, vector), checks=check, dofs=vector,
             losses=mode_losses(space, vector, frequency) if lossy else None,
@@ -203,8 +176,8 @@ def _probe(model: AxisymmetricModel):
     return rz[:, 0], np.zeros(len(rz)), rz[:, 1]
 
 
-def _complex_check(spaces: dict[int, OrderSpace], matrices: dict, modes: list[AxisymmetricMode],
-                   factorize, scale: float) -> list[AxisymmetricMode]:
+def _complex_check(spaces: dict[int, OrderSpace], matrices: dict, modes: list[Mode],
+                   factorize, scale: float) -> list[Mode]:
     """Per order m: the complex k0² of K x = k0² (M - j M_tanδ) x (``matrices[m]`` = K, M, G
     of the real solve), paired one-to-one with the real modes of that m by nearest frequency;
     Q_d = Re ω / (2 Im ω)."""

@@ -19,22 +19,22 @@ BEAM_TABLE = (("R/Q ohm", "r_over_q_ohm", ".5g"), ("T", "transit_time_factor", "
 
 
 def has_geometry_factor(result) -> bool:
-    return any(getattr(m, "geometry_factor_ohm", None) is not None for m in result.modes)
+    return any(m.geometry_factor_ohm is not None for m in result.modes)
 
 
 def has_beam(result) -> bool:
-    return any(getattr(m, "beam", None) is not None for m in result.modes)
+    return any(m.beam is not None for m in result.modes)
 
 
 def json_fields(mode) -> dict:
-    out = {"geometry_factor_ohm": getattr(mode, "geometry_factor_ohm", None)}
-    if getattr(mode, "beam", None) is not None:
+    out = {"geometry_factor_ohm": mode.geometry_factor_ohm}
+    if mode.beam is not None:
         out["beam"] = mode.beam.as_dict()
     return out
 
 
 def json_top_level(result) -> dict:
-    beams = [m.beam for m in result.modes if getattr(m, "beam", None) is not None]
+    beams = [m.beam for m in result.modes if m.beam is not None]
     return {"beam_line": beams[0].line.summary()} if beams else {}
 
 
@@ -64,7 +64,7 @@ def table_cells(result, mode) -> str:
     if not has_beam(result):
         return out
     if has_geometry_factor(result):
-        g = getattr(mode, "geometry_factor_ohm", None)
+        g = mode.geometry_factor_ohm
         out += f"{'-' if g is None else format(g, '.5g'):>9}  "
     figures = mode.beam.as_dict() if mode.beam is not None else {}
     for heading, key, digits in BEAM_TABLE:

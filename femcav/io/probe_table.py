@@ -26,12 +26,12 @@ PROBE_COLUMNS = (
 def field_figure_rows(mode) -> dict:
     """The entries of one mode's row in modes.json (none for a mode without them)."""
     row = {}
-    filling = getattr(mode, "magnetic_filling", None)
+    filling = mode.magnetic_filling
     if filling is not None:
         row.update(magnetic_filling_factor=filling.total,
                    magnetic_filling_axis=list(filling.axis),
                    magnetic_filling_factor_axis=filling.along_axis)
-    probes = getattr(mode, "probes", ())
+    probes = mode.probes
     if probes:
         row["probes"] = {values.name: probe_document(values) for values in probes}
     return row
@@ -42,7 +42,7 @@ def to_probes_csv(result) -> str:
     writer = csv.writer(out, lineterminator="\n")
     writer.writerow(PROBE_COLUMNS)
     for mode in result.modes:
-        for values in getattr(mode, "probes", ()):
+        for values in mode.probes:
             scale = values.watt_scale
             b1 = values.b1_per_sqrt_watt
             for k, point in enumerate(values.points):

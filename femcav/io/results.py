@@ -53,7 +53,7 @@ def mode_rows(result: SolveResult) -> list[dict]:
                "passed": m.checks.passed, **_resolution_fields(m)}
         if m.symmetry is not None:
             row["symmetry"] = m.symmetry
-        if getattr(m, "m", None) is not None:   # a mode of the axisymmetric solver
+        if m.m is not None:   # a mode of a body of revolution
             row.update(azimuthal_order=m.m, field_class=m.field_class,
                        multiplicity=m.multiplicity)
         loss = m.losses
@@ -68,18 +68,18 @@ def mode_rows(result: SolveResult) -> list[dict]:
         row["error_estimate_hz"] = m.error_estimate_hz
         if m.extrapolated_hz is not None:
             row["extrapolated_hz"] = m.extrapolated_hz
-        if getattr(m, "sensitivity", None) is not None:
+        if m.sensitivity is not None:
             row["sensitivity_hz"] = m.sensitivity
-        if getattr(m, "tolerance", None) is not None:
+        if m.tolerance is not None:
             row["tolerance"] = m.tolerance
-        if getattr(m, "label", None) is not None:
+        if m.label is not None:
             row["label"] = m.label
-        if getattr(m, "phase_advance_rad", None) is not None:
+        if m.phase_advance_rad is not None:
             row["phase_advance_rad"] = m.phase_advance_rad
         if complex_checked:
             row["complex_frequency_hz"] = m.complex_frequency_hz
             row["q_dielectric_complex"] = m.q_dielectric_complex
-        row["loss_warnings"] = list(getattr(m, "loss_warnings", ()))
+        row["loss_warnings"] = list(m.loss_warnings)
         row.update(field_figure_rows(m))
         row.update(merit_columns.json_fields(m))
         rows.append(row)
@@ -87,7 +87,7 @@ def mode_rows(result: SolveResult) -> list[dict]:
 
 
 def _resolution_fields(mode) -> dict:
-    res = getattr(mode, "resolution", None)
+    res = mode.resolution
     if res is None:
         return {"points_per_wavelength": None, "resolved": None}
     ppw = res.points_per_wavelength
@@ -100,7 +100,7 @@ def _has_symmetry(result: SolveResult) -> bool:
 
 
 def _is_axisymmetric(result) -> bool:
-    return any(getattr(m, "m", None) is not None for m in result.modes)
+    return any(m.m is not None for m in result.modes)
 
 
 def to_json(result: SolveResult, *, title: str, case: str | None,
@@ -206,11 +206,11 @@ def to_table(result: SolveResult) -> str:
     for m in result.modes:
         c = m.checks
         status = "ok" if c.passed else "FAILED: " + "; ".join(c.failures())
-        res = getattr(m, "resolution", None)
+        res = m.resolution
         if res is not None and not res.resolved:
             status = (f"NOT RESOLVED: {res.points_per_wavelength:.2g} elements per wavelength "
                       f"< {res.required:g}" + ("" if c.passed else "; " + status))
-        if getattr(m, "loss_warnings", ()):
+        if m.loss_warnings:
             status += "; Q warning (see loss_warnings)"
         lines.append(f"{m.index:>4}  {format_frequency(m.frequency_hz, 7):>16}  "
                      + (f"{_bar(m):>12}  " if bars else "")

@@ -32,11 +32,17 @@ MAX_HARMONIC = 6
 def field_class(E: np.ndarray, H: np.ndarray, w: np.ndarray) -> str:
     ez = np.sum(w * E[:, 2] ** 2) / max(np.sum(w * np.sum(E**2, axis=1)), 1e-300)
     hz = np.sum(w * H[:, 2] ** 2) / max(np.sum(w * np.sum(H**2, axis=1)), 1e-300)
-    if ez < CLASS_SHARE and hz < CLASS_SHARE:
+    return class_from_shares(float(ez), float(hz))
+
+
+def class_from_shares(axial_electric: float, axial_magnetic: float) -> str:
+    """The field class from the shares of the electric energy in E_z and of the magnetic
+    energy in H_z: the one rule of the 3D and the axisymmetric solvers."""
+    if axial_electric < CLASS_SHARE and axial_magnetic < CLASS_SHARE:
         return "TEM-like"
-    if ez < CLASS_SHARE:
+    if axial_electric < CLASS_SHARE:
         return "TE-like"
-    if hz < CLASS_SHARE:
+    if axial_magnetic < CLASS_SHARE:
         return "TM-like"
     return "hybrid"
 

@@ -94,7 +94,7 @@ ADVICE = ("the perturbation formulas need a good conductor (skin depth much smal
 def loss_validity_summary(modes) -> list[str]:
     """One line per mode with warnings and one line of advice, for stderr."""
     lines = [f"mode {m.index}: " + "; ".join(m.loss_warnings) for m in modes
-             if getattr(m, "loss_warnings", ())]
+             if m.loss_warnings]
     return lines + [ADVICE] if lines else []
 
 
