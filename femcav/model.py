@@ -49,16 +49,7 @@ def make_model(mesh: TaggedMesh, materials: dict[str, Material], walls: dict[str
                                  "boundary; a wall condition needs a boundary surface",
                                  source=source, field=f"walls.{name}")
     for name, wall in walls.items():
-        if wall.kind not in KINDS:
-            raise InputError(f"unknown wall kind {wall.kind!r}; allowed: {', '.join(KINDS)}",
-                             source=source, field=f"walls.{name}.kind")
-        if wall.kind == METAL and not has_surface_resistance(wall):
-            raise InputError("a metal wall needs a positive conductivity or surface resistance", source=source,
-                             field=f"walls.{name}.conductivity")
-        if wall.kind != METAL and (wall.conductivity is not None or wall.roughness is not None):
-            raise InputError(f"conductivity and roughness belong to kind = \"metal\"; a "
-                             f"{wall.kind.upper()} wall has no loss", source=source,
-                             field=f"walls.{name}.conductivity")
+        check_wall(name, wall, source)
     for name, material in materials.items():
         region_id = mesh.region_names[name]
         points = mesh.points[mesh.tets[mesh.tet_region == region_id].reshape(-1)]
@@ -67,6 +58,21 @@ def make_model(mesh: TaggedMesh, materials: dict[str, Material], walls: dict[str
         except InputError as exc:
             raise exc.located(source=source) from None
     return Model(mesh=mesh, materials=dict(materials), walls=dict(walls))
+
+
+def check_wall(name: str, wall: Wall, source: str | None = None) -> None:
+    """A wall's kind is known, a metal has a way to its surface resistance, and only a
+    metal has loss keys (3D and axisymmetric models alike)."""
+    if wall.kind not in KINDS:
+        raise InputError(f"unknown wall kind {wall.kind!r}; allowed: {', '.join(KINDS)}",
+                         source=source, field=f"walls.{name}.kind")
+    if wall.kind == METAL and not has_surface_resistance(wall):
+        raise InputError("a metal wall needs a positive conductivity or surface resistance",
+                         source=source, field=f"walls.{name}.conductivity")
+    if wall.kind != METAL and (wall.conductivity is not None or wall.roughness is not None):
+        raise InputError(f"conductivity and roughness belong to kind = \"metal\"; a "
+                         f"{wall.kind.upper()} wall has no loss", source=source,
+                         field=f"walls.{name}.conductivity")
 
 
 def _listing(names) -> str:

@@ -72,8 +72,22 @@ class Mode:
         return 2 if self.m else 1
 
 
+class ModeVerdicts:
+    """What a result's modes say together (a SolveResult or an AxisymmetricResult)."""
+
+    modes: list[Mode]
+
+    @property
+    def passed(self) -> bool:
+        return all(m.checks.passed for m in self.modes)
+
+    @property
+    def resolved(self) -> bool:
+        return all(m.resolution is None or m.resolution.resolved for m in self.modes)
+
+
 @dataclass(frozen=True)
-class SolveResult:
+class SolveResult(ModeVerdicts):
     modes: list[Mode]
     space: EdgeSpace
     dofs: int
@@ -85,14 +99,6 @@ class SolveResult:
     near_hz: float | None = None
     classes: list[dict] = field(default_factory=list)   # per symmetry class: label, dofs, modes
     accuracy: dict | None = None   # target, largest relative bar, reached (with a target)
-
-    @property
-    def passed(self) -> bool:
-        return all(m.checks.passed for m in self.modes)
-
-    @property
-    def resolved(self) -> bool:
-        return all(m.resolution is None or m.resolution.resolved for m in self.modes)
 
     @property
     def form(self) -> str:

@@ -11,8 +11,8 @@ import numpy as np
 from ..errors import InputError
 from ..geometry.meridional import AXIS, MeridionalMesh
 from ..materials import Material
-from ..wall_resistance import has_surface_resistance
-from ..walls import KINDS, METAL, Wall, WallKinds
+from ..model import check_wall
+from ..walls import Wall, WallKinds
 
 # eps_r(r cos φ, r sin φ, z) must not depend on φ by more than this, relatively
 ROTATION_TOLERANCE = 1e-9
@@ -46,12 +46,7 @@ def make_axisymmetric_model(section: MeridionalMesh, materials: dict[str, Materi
             raise InputError(f"the section has no boundary named {name!r}; its named "
                              f"boundaries are {', '.join(sorted(set(section.wall_names) - {AXIS}))}",
                              source=source, field=f"walls.{name}")
-        if wall.kind not in KINDS:
-            raise InputError(f"unknown wall kind {wall.kind!r}; allowed: {', '.join(KINDS)}",
-                             source=source, field=f"walls.{name}.kind")
-        if wall.kind == METAL and not has_surface_resistance(wall):
-            raise InputError("a metal wall needs a positive conductivity or surface resistance", source=source,
-                             field=f"walls.{name}.conductivity")
+        check_wall(name, wall, source)
     for name, material in materials.items():
         rz = section.points[np.unique(section.triangles[section.tri_region
                                                         == section.region_names[name]])]

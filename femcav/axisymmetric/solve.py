@@ -28,6 +28,7 @@ from ..post.resolution import mode_resolution
 from ..progress import SILENT, Progress
 from ..solver import (
     Mode,
+    ModeVerdicts,
     check_request,
     complex_eigenvalues,
     frequency_to_k0_squared,
@@ -47,7 +48,7 @@ from .space import (
 
 
 @dataclass(frozen=True)
-class AxisymmetricResult:
+class AxisymmetricResult(ModeVerdicts):
     modes: list[Mode]
     spaces: dict[int, OrderSpace]
     dofs_by_order: dict[int, int]
@@ -62,14 +63,6 @@ class AxisymmetricResult:
     accuracy: dict | None = None   # target, largest relative bar, reached (with a target)
     static_fields_dropped = 0
     classes = ()
-
-    @property
-    def passed(self) -> bool:
-        return all(m.checks.passed for m in self.modes)
-
-    @property
-    def resolved(self) -> bool:
-        return all(m.resolution is None or m.resolution.resolved for m in self.modes)
 
     @property
     def dofs(self) -> int:

@@ -31,47 +31,17 @@ def read_mesh(path: str | Path, *, scale: float = 1.0,
     """
 
     path = Path(path)
-    if not path.is_file():
-        raise InputError("mesh file not found", source=str(path))
-    raw = _read_with_meshio(path)
-
+    raw = read_mesh_file(path)
     names_by_dim = group_names(raw, (2, 3))
-    tets, tet_tags, faces, face_tags = [], [], [], []
-    kinds = set()
-    for kind, data, tags, tagged in tagged_blocks(raw):
-        if kind in ("tetra", "tetra10"):
-            kinds.add(kind)
-            tets.append(data)
-            tet_tags.append(tags)
-        elif kind in ("triangle", "triangle6") and tagged:
-            faces.append(data[:, :3])   # a curved face is named by its corners
-            face_tags.append(tags)
-    if not tets:
-        raise InputError("the mesh has no tetrahedra (femcav needs a 3D tetrahedral mesh)",
-                         source=str(path))
-    if len(kinds) > 1:
-        raise InputError("the mesh mixes straight (4-node) and curved (10-node) tetrahedra; "
-                         "use one kind", source=str(path))
-
+    cells, tet_tags, faces, face_tags = split_blocks(
+        raw, path, ("tetra", "tetra10"), ("triangle", "triangle6"), 3,
+        missing="the mesh has no tetrahedra (femcav needs a 3D tetrahedral mesh)",
+        mixed="the mesh mixes straight (4-node) and curved (10-node) tetrahedra; use one kind")
     # 10-node tetrahedra (VTK/meshio node order: corners, then the midpoints of the edges
     # 01, 12, 02, 03, 13, 23) describe curved elements; the first four nodes are the corners.
-    cells = np.concatenate(tets).astype(np.int64)
-    tet_tags = np.concatenate(tet_tags)
     region_names = {_name(names_by_dim[3], t, "region"): int(t) for t in np.unique(tet_tags)}
-    if faces:
-        faces = np.concatenate(faces).astype(np.int64)
-        face_tags = np.concatenate(face_tags)
-    else:
-        faces, face_tags = np.zeros((0, 3), np.int64), np.zeros(0, int)
     wall_names = {_name(names_by_dim[2], t, "wall"): int(t) for t in np.unique(face_tags)}
-
-    # Keep only the points the tetrahedra use, corners first, renumbered, so that stray nodes
-    # (geometry points, 2D-only entities) never become DOFs.
-    corners = np.unique(cells[:, :4])
-    rest = np.setdiff1d(np.unique(cells), corners)
-    used = np.concatenate([corners, rest])
-    renumber = np.full(raw.points.shape[0], -1, dtype=np.int64)
-    renumber[used] = np.arange(used.size)
+    used, renumber = corners_first(cells, 4, raw.points.shape[0])
     points = np.asarray(raw.points, dtype=float)[used] * scale
     if points.shape[1] == 2:
         raise InputError("the mesh is two-dimensional; femcav needs 3D tetrahedra",
@@ -120,6 +90,13 @@ def in_locality_order(mesh: TaggedMesh) -> TaggedMesh:
     return replace(mesh, points=points, tets=tets[along], tet_region=mesh.tet_region[along],
                    faces=renumber[mesh.faces],
                    tets10=None if mesh.tets10 is None else renumber[mesh.tets10][along])
+
+
+def read_mesh_file(path: Path):
+    """The file's contents as meshio reads them; InputError when it is not there."""
+    if not path.is_file():
+        raise InputError("mesh file not found", source=str(path))
+    return _read_with_meshio(path)
 
 
 def _read_with_meshio(path: Path):
@@ -171,6 +148,46 @@ def group_names(raw, dims) -> dict[int, dict[int, str]]:
         if int(dim) in out:
             out[int(dim)][int(tag)] = name
     return out
+
+
+def split_blocks(raw, path, cell_kinds: tuple[str, str], face_kinds: tuple[str, str],
+                 face_corners: int, *, missing: str, mixed: str, refused: tuple = (),
+                 refusal: str = ""):
+    """The cells of ``cell_kinds`` (straight, curved) with their tags, and the tagged
+    boundary elements of ``face_kinds`` by their first ``face_corners`` nodes (a curved one
+    is named by its corners). InputError ``missing`` without cells, ``mixed`` with both
+    kinds, ``refusal`` for a block whose type starts with one of ``refused``."""
+    cells, cell_tags, faces, face_tags, kinds = [], [], [], [], set()
+    for kind, data, tags, tagged in tagged_blocks(raw):
+        if kind in cell_kinds:
+            kinds.add(kind)
+            cells.append(data)
+            cell_tags.append(tags)
+        elif kind in face_kinds and tagged:
+            faces.append(data[:, :face_corners])
+            face_tags.append(tags)
+        elif refused and kind.startswith(refused):
+            raise InputError(refusal, source=str(path))
+    if not cells:
+        raise InputError(missing, source=str(path))
+    if len(kinds) > 1:
+        raise InputError(mixed, source=str(path))
+    if faces:
+        faces, face_tags = np.concatenate(faces).astype(np.int64), np.concatenate(face_tags)
+    else:
+        faces, face_tags = np.zeros((0, face_corners), np.int64), np.zeros(0, int)
+    return (np.concatenate(cells).astype(np.int64), np.concatenate(cell_tags), faces,
+            face_tags)
+
+
+def corners_first(cells: np.ndarray, corners: int, n_points: int):
+    """The points the cells use, their corners first, and the map old index -> new (-1:
+    unused): stray nodes (geometry points, lower-dimensional entities) never become DOFs."""
+    corner_nodes = np.unique(cells[:, :corners])
+    used = np.concatenate([corner_nodes, np.setdiff1d(np.unique(cells), corner_nodes)])
+    renumber = np.full(n_points, -1, dtype=np.int64)
+    renumber[used] = np.arange(used.size)
+    return used, renumber
 
 
 def tagged_blocks(raw):

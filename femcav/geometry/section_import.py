@@ -12,52 +12,32 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
-from .importer import _name, _read_with_meshio, group_names, tagged_blocks
+from .importer import _name, corners_first, group_names, read_mesh_file, split_blocks
 from .meridional import AXIS, MeridionalMesh, checked_section
 from .validate import check_coordinates
 
 
 def read_section(path: str | Path, *, scale: float = 1.0) -> MeridionalMesh:
     path = Path(path)
-    if not path.is_file():
-        raise InputError("mesh file not found", source=str(path))
-    raw = _read_with_meshio(path)
+    raw = read_mesh_file(path)
     names = group_names(raw, (1, 2))
-    triangles, tri_tags, lines, line_tags, kinds = [], [], [], [], set()
-    for kind, data, tags, tagged in tagged_blocks(raw):
-        if kind in ("triangle", "triangle6"):
-            kinds.add(kind)
-            triangles.append(data)
-            tri_tags.append(tags)
-        elif kind in ("line", "line3") and tagged:
-            lines.append(data[:, :2])
-            line_tags.append(tags)
-        elif kind.startswith(("tetra", "hexa", "wedge", "pyramid")):
-            raise InputError("the mesh has 3D cells; a meridional section is 2D triangles in "
-                             "the (r, z) plane", source=str(path))
-    if not triangles:
-        raise InputError("the mesh has no triangles (a meridional section needs them)",
-                         source=str(path))
-    if len(kinds) > 1:
-        raise InputError("the mesh mixes straight (3-node) and curved (6-node) triangles; "
-                         "use one kind", source=str(path))
-    cells = np.concatenate(triangles).astype(np.int64)
-    tri_tags = np.concatenate(tri_tags)
+    cells, tri_tags, edges, edge_tags = split_blocks(
+        raw, path, ("triangle", "triangle6"), ("line", "line3"), 2,
+        missing="the mesh has no triangles (a meridional section needs them)",
+        mixed="the mesh mixes straight (3-node) and curved (6-node) triangles; use one kind",
+        refused=("tetra", "hexa", "wedge", "pyramid"),
+        refusal="the mesh has 3D cells; a meridional section is 2D triangles in the (r, z) "
+                "plane")
     coords = np.asarray(raw.points, dtype=float) * scale
     check_coordinates(coords[np.unique(cells)], str(path), scale)
     if coords.shape[1] == 3 and np.any(np.abs(coords[:, 2]) > 1e-9 * np.ptp(coords[:, :2])):
         raise InputError("the section must lie in the plane z = 0 (x is r, y is z)",
                          source=str(path))
-    corners = np.unique(cells[:, :3])
-    used = np.concatenate([corners, np.setdiff1d(np.unique(cells), corners)])
-    renumber = np.full(coords.shape[0], -1, dtype=np.int64)
-    renumber[used] = np.arange(used.size)
+    used, renumber = corners_first(cells, 3, coords.shape[0])
     cells = renumber[cells]
     region_names = {_name(names[2], t, "region"): int(t) for t in np.unique(tri_tags)}
 
-    edges = (renumber[np.concatenate(lines).astype(np.int64)] if lines
-             else np.zeros((0, 2), np.int64))
-    edge_tags = np.concatenate(line_tags) if lines else np.zeros(0, int)
+    edges = renumber[edges]
     keep = np.all(edges >= 0, axis=1)
     edges, edge_tags = edges[keep], edge_tags[keep]
     wall_names = {_name(names[1], t, "wall"): int(t) for t in np.unique(edge_tags)}
