@@ -61,6 +61,7 @@ def _parser() -> argparse.ArgumentParser:
         "sweep resumes.")
     sweep.add_argument("--jobs", metavar="N", type=int, default=1,
                        help="points solved at once in separate processes (default 1)")
+    _cluster_option(sweep)
     _study_parser(
         commands, "tune",
         "find the parameter value that puts a mode on a target frequency",
@@ -93,6 +94,12 @@ def _parser() -> argparse.ArgumentParser:
                       help="output folder (default: CASE-results next to the case file)")
     mesh.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
     return parser
+
+
+def _cluster_option(parser) -> None:
+    parser.add_argument("--cluster", metavar="ADDRESS",
+                        help="solve the points on a Dask cluster: tcp://host:8786 for a "
+                             "running scheduler, local:N for N worker processes here")
 
 
 def _study_parser(commands, name: str, summary: str, description: str):
@@ -222,7 +229,7 @@ def _sweep(args) -> int:
     from .study.sweep import run_sweep
 
     document, folder = run_sweep(args.case, out=args.out, jobs=args.jobs,
-                                 progress=Progress(quiet=args.quiet))
+                                 cluster=args.cluster, progress=Progress(quiet=args.quiet))
     axes = " x ".join(f"{a['parameter']} ({len(a['values'])} values)"
                       for a in document["parameters"])
     print(f"sweep of {axes}: {len(document['points'])} points, "
@@ -232,8 +239,10 @@ def _sweep(args) -> int:
         span = f"{min(f) / 1e9:.6g} to {max(f) / 1e9:.6g} GHz" if f else "-"
         ended = "" if len(f) == len(t["frequency_hz"]) else " (lost before the end)"
         print(f"  track {t['track']}: {span}{ended}")
+    for failed in document.get("failed_points", []):
+        print(f"  point {failed['index']} FAILED: {failed['error']}")
     print(f"results: {folder}")
-    return 0
+    return exit_codes.CHECKS_FAILED if document.get("failed_points") else 0
 
 
 def _tune(args) -> int:

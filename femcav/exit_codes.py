@@ -10,7 +10,8 @@ from __future__ import annotations
 
 OK = 0
 INPUT_ERROR = 2            # a mistake in the case file or the command line; nothing written
-CHECKS_FAILED = 3          # a mode failed its checks or the mesh does not resolve it
+CHECKS_FAILED = 3          # a mode failed its checks or the mesh does not resolve it, or
+                           # a study point failed on a cluster
 OUT_OF_MEMORY = 4          # out of memory, or a sweep worker process was killed
 FILE_SYSTEM = 5            # a file or folder could not be written or read: read-only,
                            # no permission, disk full, a file where a folder should be
@@ -21,8 +22,9 @@ MEANINGS = {
     OK: "success",
     INPUT_ERROR: "a mistake in the input (one line naming the file and the key); nothing "
                  "is written",
-    CHECKS_FAILED: "a mode failed its checks or is not resolved by the mesh; the results "
-                   "are written and those modes flagged",
+    CHECKS_FAILED: "a mode failed its checks or is not resolved by the mesh, or a sweep "
+                   "point failed on a cluster; the results are written and those modes or "
+                   "points flagged",
     OUT_OF_MEMORY: "out of memory, or a sweep worker process was killed; nothing new is "
                    "written (a sweep keeps the points solved so far)",
     FILE_SYSTEM: "a file or folder could not be written or read (read-only, no "

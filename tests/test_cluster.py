@@ -1,0 +1,239 @@
+"""Sweeps on a Dask cluster: the same points as a serial run, a worker or the client lost
+mid-run, a point that fails, and Dask left alone without --cluster.
+
+The cluster is a Dask scheduler and two workers started here as separate processes (the
+`dask scheduler` / `dask worker` programs run as modules), on 127.0.0.1 only, stopped in the
+fixture's teardown. The workers run without a nanny, so a killed worker stays dead."""
+
+from __future__ import annotations
+
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+distributed = pytest.importorskip("distributed")
+
+from femcav.cli import main  # noqa: E402
+from femcav.errors import InputError  # noqa: E402
+from femcav.progress import Progress  # noqa: E402
+from femcav.study import sweep as sweep_module  # noqa: E402
+from femcav.study.cluster import parse_cluster_address  # noqa: E402
+from femcav.study.sweep import run_sweep  # noqa: E402
+from test_study_hardening import BOX, te101  # noqa: E402 - the same box and its TE101 formula
+
+CHECKOUT = Path(__file__).resolve().parents[1]
+ENV = {**os.environ, "PYTHONPATH": str(CHECKOUT), "OMP_NUM_THREADS": "1",
+       "OPENBLAS_NUM_THREADS": "1", "MKL_NUM_THREADS": "1"}
+START_TIMEOUT = 60          # s: a loaded two-core machine starts Python slowly
+
+
+def box_case(folder: Path, lengths_mm) -> Path:
+    """The made-up box of the study tests, swept over ``lengths_mm``."""
+    case = folder / "box.toml"
+    case.write_text(BOX.replace('values = ["26 mm", "28 mm", "30 mm"]', "values = [" + ", ".join(
+        f'"{v} mm"' for v in lengths_mm) + "]"))
+    return case
+
+
+def frequencies(document) -> np.ndarray:
+    return np.array([[m["frequency_hz"] for m in p["modes"]] for p in document["points"]])
+
+
+class LoopbackCluster:
+    """A scheduler and two workers, each its own process, on 127.0.0.1."""
+
+    def __init__(self, folder: Path):
+        self.file = folder / "scheduler.json"
+        quiet = {"stdout": subprocess.DEVNULL, "stderr": subprocess.DEVNULL, "env": ENV}
+        self.scheduler = subprocess.Popen(
+            [sys.executable, "-m", "distributed.cli.dask_scheduler", "--host", "127.0.0.1",
+             "--port", "0", "--no-dashboard", "--scheduler-file", str(self.file)], **quiet)
+        self.workers = [subprocess.Popen(
+            [sys.executable, "-m", "distributed.cli.dask_worker", "--scheduler-file",
+             str(self.file), "--nthreads", "1", "--no-nanny", "--no-dashboard", "--host",
+             "127.0.0.1"], **quiet) for _ in range(2)]
+        self.address = self._read_address()
+        with distributed.Client(self.address, timeout="30s") as client:
+            client.wait_for_workers(2, timeout=START_TIMEOUT)
+
+    def _read_address(self) -> str:
+        deadline = time.monotonic() + START_TIMEOUT
+        while time.monotonic() < deadline:
+            try:
+                return json.loads(self.file.read_text())["address"]
+            except (OSError, ValueError, KeyError):
+                time.sleep(0.05)
+        raise TimeoutError("the scheduler did not start")
+
+    def stop(self) -> None:
+        for process in [*self.workers, self.scheduler]:
+            if process.poll() is None:
+                process.terminate()
+        for process in [*self.workers, self.scheduler]:
+            try:
+                process.wait(timeout=15)
+            except subprocess.TimeoutExpired:
+                process.kill()
+                process.wait(timeout=15)
+
+
+@pytest.fixture(scope="module")
+def cluster(tmp_path_factory):
+    started = None
+    try:
+        started = LoopbackCluster(tmp_path_factory.mktemp("cluster"))
+        yield started
+    finally:
+        if started is not None:
+            started.stop()
+
+
+@pytest.fixture(scope="module")
+def serial(tmp_path_factory):
+    """A plain sweep in a fresh interpreter: its results, and the Dask modules it loaded."""
+    folder = tmp_path_factory.mktemp("serial")
+    case = box_case(folder, [26, 30])
+    script = ("import json, sys\nfrom femcav.study.sweep import run_sweep\n"
+              f"run_sweep({str(case)!r}, out={str(folder / 'out')!r})\n"
+              "print(json.dumps(sorted(m for m in sys.modules "
+              "if m.split('.')[0] in ('dask', 'distributed'))))\n")
+    done = subprocess.run([sys.executable, "-c", script], env=ENV, capture_output=True,
+                          text=True, timeout=300)
+    assert done.returncode == 0, done.stderr
+    document = json.loads((folder / "out" / "sweep.json").read_text())
+    return document, json.loads(done.stdout.strip().splitlines()[-1])
+
+
+def test_a_plain_sweep_does_not_import_dask(serial):
+    _, loaded = serial
+    assert loaded == []
+
+
+@pytest.mark.parametrize("address", ["local", "local:0", "local:x", "8786", "host:8786",
+                                     "http://host:8786", "tcp://"])
+def test_bad_cluster_addresses_are_input_errors(address):
+    with pytest.raises(InputError) as caught:
+        parse_cluster_address(address)
+    assert caught.value.field == "--cluster"
+
+
+def test_a_scheduler_that_does_not_answer_is_one_line(tmp_path, capsys, monkeypatch):
+    from femcav.study import cluster as cluster_module
+    monkeypatch.setattr(cluster_module, "CONNECT_TIMEOUT", "1s")
+    case = box_case(tmp_path, [26, 28])
+    # port 9 (discard) on loopback: nothing listens there in a test sandbox (common practice)
+    status = main(["sweep", str(case), "--cluster", "tcp://127.0.0.1:9", "-q"])
+    assert status == 2
+    assert "no Dask scheduler answered" in capsys.readouterr().err
+
+
+def test_cluster_sweep_equals_the_serial_one(cluster, serial, tmp_path):
+    expected, _ = serial
+    case = box_case(tmp_path, [26, 30])
+    document, _ = run_sweep(case, out=tmp_path / "out", cluster=cluster.address)
+    assert document["failed_points"] == []
+    # same meshes, same solver, another process: the same numbers
+    np.testing.assert_allclose(frequencies(document), frequencies(expected), rtol=1e-12,
+                               atol=0)
+    assert [p["values"] for p in document["points"]] == [p["values"] for p in
+                                                         expected["points"]]
+
+
+def test_a_point_that_fails_on_a_worker_is_listed_and_the_rest_go_on(cluster, tmp_path,
+                                                                     monkeypatch, capsys):
+    # The worker checks each point's fingerprint against its own: a client that sends a
+    # wrong one for point 2 gets that point refused there, as a bad mesh would be.
+    real = sweep_module.plan_points
+
+    def one_wrong(*args):
+        prints = real(*args)
+        return [prints[0], "0" * 64, *prints[2:]]
+
+    monkeypatch.setattr(sweep_module, "plan_points", one_wrong)
+    case = box_case(tmp_path, [26, 28, 30])
+    status = main(["sweep", str(case), "--out", str(tmp_path / "out"), "--cluster",
+                   cluster.address, "-q"])
+    captured = capsys.readouterr()
+    assert status == 3
+    assert "point 2 FAILED" in captured.out and "fingerprint" in captured.out
+    document = json.loads((tmp_path / "out" / "sweep.json").read_text())
+    assert [f["index"] for f in document["failed_points"]] == [1 + 1]
+    assert document["points"][1]["failed"] is True
+    track = document["tracks"][0]["frequency_hz"]
+    assert track[1] is None
+    np.testing.assert_allclose([track[0], track[2]], [te101(0.026), te101(0.030)], rtol=3e-3)
+    assert not (tmp_path / "out" / "points" / "001.json").exists()
+
+
+class KillOneWorker(Progress):
+    """Progress lines that kill a busy worker as soon as the first point comes back."""
+
+    def __init__(self, cluster: LoopbackCluster):
+        super().__init__(quiet=True)
+        self.cluster, self.killed = cluster, None
+
+    def step(self, message: str) -> None:
+        if self.killed is None and " solved: " in message:
+            with distributed.Client(self.cluster.address, timeout="10s") as client:
+                busy = [w for w, keys in client.processing().items() if keys]
+                pids = client.run(os.getpid, workers=busy[:1])
+            self.killed = next(iter(pids.values()))
+            os.kill(self.killed, signal.SIGKILL)
+
+
+def test_a_worker_killed_mid_sweep_loses_nothing(cluster, tmp_path, monkeypatch):
+    if sum(w.poll() is None for w in cluster.workers) < 2:
+        pytest.skip("needs the fixture's two workers")
+    saved = []
+    real_save = sweep_module.save_point
+    monkeypatch.setattr(sweep_module, "save_point",
+                        lambda folder, index, point: (saved.append(index),
+                                                      real_save(folder, index, point)))
+    lengths = [25, 26, 27, 28, 29, 30]
+    case = box_case(tmp_path, lengths)
+    progress = KillOneWorker(cluster)
+    document, folder = run_sweep(case, out=tmp_path / "out", cluster=cluster.address,
+                                 progress=progress)
+    assert progress.killed in [w.pid for w in cluster.workers]
+    assert document["failed_points"] == []
+    assert sorted(saved) == list(range(len(lengths)))       # each point once, none lost
+    np.testing.assert_allclose(document["tracks"][0]["frequency_hz"],
+                               [te101(v * 1e-3) for v in lengths], rtol=3e-3)
+    assert not [p for p in (folder / "points").iterdir() if p.name.startswith(".")]
+
+
+@pytest.mark.slow        # 7 s: a second client process; resuming itself is the --jobs path's
+def test_a_client_killed_mid_run_resumes(cluster, tmp_path):
+    lengths = [25, 26, 27, 28, 29, 30]
+    case = box_case(tmp_path, lengths)
+    out = tmp_path / "out"
+    command = [sys.executable, "-m", "femcav", "sweep", str(case), "--out", str(out),
+               "--cluster", cluster.address, "-q"]
+    client = subprocess.Popen(command, env=ENV, stdout=subprocess.DEVNULL,
+                              stderr=subprocess.DEVNULL)
+    try:
+        deadline = time.monotonic() + START_TIMEOUT
+        while time.monotonic() < deadline and client.poll() is None and not list(
+                out.glob("points/*.json")):
+            time.sleep(0.02)
+        client.send_signal(signal.SIGKILL)
+        client.wait(timeout=30)
+    finally:
+        if client.poll() is None:
+            client.kill()
+    kept = len(list(out.glob("points/*.json")))
+    assert 1 <= kept < len(lengths)
+    messages = []
+    record = Progress(quiet=True)
+    record.step = messages.append
+    document, _ = run_sweep(case, out=out, cluster=cluster.address, progress=record)
+    assert any(f"{len(lengths)} points, {kept} already solved" in m for m in messages)
+    np.testing.assert_allclose(document["tracks"][0]["frequency_hz"],
+                               [te101(v * 1e-3) for v in lengths], rtol=3e-3)
