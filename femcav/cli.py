@@ -62,12 +62,13 @@ def _parser() -> argparse.ArgumentParser:
     sweep.add_argument("--jobs", metavar="N", type=int, default=1,
                        help="points solved at once in separate processes (default 1)")
     _cluster_option(sweep)
-    _study_parser(
+    tune = _study_parser(
         commands, "tune",
         "find the parameter value that puts a mode on a target frequency",
         "Solve CASE at the values Brent's method asks for inside the bracket of its [tune] "
         "table until the chosen mode (followed by field overlap) sits on the target; solve "
         "the result again with error bars; write tune.json.")
+    _cluster_option(tune)
     _study_parser(
         commands, "extract",
         "find a sample's eps_r and loss tangent from measured f and Q, by the full model",
@@ -250,7 +251,8 @@ def _tune(args) -> int:
     from .study.tune import run_tune
     from .units import format_frequency
 
-    document, folder = run_tune(args.case, out=args.out, progress=Progress(quiet=args.quiet))
+    document, folder = run_tune(args.case, out=args.out, cluster=args.cluster,
+                                progress=Progress(quiet=args.quiet))
     unit = document["unit"]
     shown = (f"{document['value'] * 1e3:.7g} mm" if unit == "m"
              else f"{document['value']:.7g} {unit}".rstrip())

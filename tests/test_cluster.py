@@ -26,7 +26,7 @@ from femcav.progress import Progress  # noqa: E402
 from femcav.study import sweep as sweep_module  # noqa: E402
 from femcav.study.cluster import parse_cluster_address  # noqa: E402
 from femcav.study.sweep import run_sweep  # noqa: E402
-from test_study_hardening import BOX, te101  # noqa: E402 - the same box and its TE101 formula
+from test_study_hardening import BOX, A, te101  # noqa: E402 - the same box, its TE101
 
 CHECKOUT = Path(__file__).resolve().parents[1]
 ENV = {**os.environ, "PYTHONPATH": str(CHECKOUT), "OMP_NUM_THREADS": "1",
@@ -237,3 +237,26 @@ def test_a_client_killed_mid_run_resumes(cluster, tmp_path):
     assert any(f"{len(lengths)} points, {kept} already solved" in m for m in messages)
     np.testing.assert_allclose(document["tracks"][0]["frequency_hz"],
                                [te101(v * 1e-3) for v in lengths], rtol=3e-3)
+
+
+def test_tune_on_the_cluster_inverts_the_te101_formula(cluster, tmp_path):
+    from femcav.study.tune import run_tune
+
+    case = tmp_path / "tune.toml"
+    case.write_text(BOX.split("[sweep]")[0] + '[tune]\nparameter = "geometry.length"\n'
+                    'bracket = ["26 mm", "30 mm"]\ntarget = "8.3 GHz"\ntolerance = 1e-3\n')
+    messages = []
+    record = Progress(quiet=True)
+    record.step = messages.append
+    document, _ = run_tune(case, out=tmp_path / "out", cluster=cluster.address,
+                           progress=record)
+    assert any(m.startswith(f"cluster {cluster.address}: ") for m in messages)
+    # TE101: (2f/c)² = 1/a² + 1/d², so d = 1 / sqrt((2f/c)² - 1/a²) (Pozar, Microwave
+    # Engineering, 4th ed., §6.3, from memory). A relative error e in f moves d by
+    # e (1/a² + 1/d²) / (1/d²) < 3 e here; e is within the root finder's tolerance plus the
+    # final error bar, doubled as in tests/test_tune.py.
+    from scipy.constants import c
+    exact = 1 / np.sqrt((2 * 8.3e9 / c) ** 2 - 1 / A ** 2)
+    e = 2 * document["error_estimate_hz"] / 8.3e9 + 1e-3
+    assert abs(document["value"] / exact - 1) <= 3 * e
+    assert te101(exact) == pytest.approx(8.3e9, rel=1e-12)

@@ -169,6 +169,18 @@ class ClusterPool:
         return failed
 
 
+    def gather(self, function, tasks: list) -> list:
+        """``[function(task) for task in tasks]``, run at once on the cluster; the first
+        task's error is raised here. Ctrl-C cancels them."""
+        futures = [self.client.submit(run_on_worker, function, self.share, task, pure=False)
+                   for task in tasks]
+        try:
+            return self.client.gather(futures)
+        except BaseException:
+            self.client.cancel(futures)
+            raise
+
+
 def _error_text(future) -> str:
     try:
         exc = future.exception()
