@@ -52,6 +52,7 @@ def _parser() -> argparse.ArgumentParser:
     solve.add_argument("--no-report", action="store_true",
                        help="skip the pictures and report.html (femcav show makes them later)")
     solve.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
+    _cluster_option(solve)
     sweep = _study_parser(
         commands, "sweep",
         "solve the case over the values of its [sweep] table and track the modes",
@@ -180,13 +181,20 @@ def _solve(args) -> int:
     if args.modes is not None:
         check_range(args.modes, SOLVE.keys["modes"], "--modes")
     case = load_case(args.case)     # a mistake is said before the solver stack is loaded
+    if args.cluster is not None:
+        from .study.cluster import parse_cluster_address
+        parse_cluster_address(args.cluster)
+        if case.tolerance_samples is None:
+            raise InputError("solve --cluster solves the samples of a Monte-Carlo tolerance "
+                             "draw ([tolerances] samples = N); this case has none",
+                             field="--cluster", source=args.case)
     from .io.results import to_table
     from .runner import run_case
 
     case, result, folder = run_case(case, out=args.out, modes=args.modes, near_hz=near_hz,
                                     form=args.form, order=args.order,
                                     factorization=args.factorization, method=args.method,
-                                    progress=Progress(quiet=args.quiet))
+                                    cluster=args.cluster, progress=Progress(quiet=args.quiet))
     count = len(result.modes)
     what = (f"{count} modes nearest {format_frequency(result.near_hz)}" if result.near_hz
             else f"lowest {count} modes")

@@ -130,12 +130,15 @@ def default_output_folder(case_path: Path) -> Path:
 def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: int | None = None,
              near_hz: float | None = None, form: str | None = None, order: int | None = None,
              factorization: str | None = None, method: str | None = None,
+             cluster: str | None = None,
              progress: Progress = SILENT) -> tuple[Case, SolveResult, Path]:
     """Solve a case file and write table.txt, modes.csv, modes.json and fields.vtu (and
     wall_loss.vtu when the case has metal walls).
 
     Command-line values (modes, near_hz, form, order, factorization, method) override the
     case file's [solve] table. ``path`` may also be a case already loaded (load_case).
+    ``cluster``: where the samples of a Monte-Carlo tolerance draw are solved (a Dask
+    scheduler's address or local:N; femcav.study.cluster).
     """
     case = path if isinstance(path, Case) else load_case(path)
     overrides = dict(modes=modes, near_hz=near_hz, form=form, order=order,
@@ -145,6 +148,9 @@ def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: i
     folder = check_output_folder(Path(out) if out is not None
                                  else default_output_folder(case.path))
     result = solve_case(case, settings, progress)
+    if case.tolerance_samples is not None:
+        from .study.monte_carlo import with_monte_carlo
+        result = with_monte_carlo(case, result, settings, cluster=cluster, progress=progress)
     with staged_output(folder, kind="solve", replaces=("solve", "pictures")) as files:
         _write_tables(files, case, result)
         if settings.azimuthal_orders is not None:
@@ -194,7 +200,7 @@ def solve_case(case: Case, settings, progress: Progress = SILENT):
               else merge_classes(labelled, settings.modes, settings.near_hz))
     if settings.accuracy is not None:
         result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
-    if case.tolerances:
+    if case.tolerances and settings.azimuthal_orders is None:   # morphed 3D meshes only
         result = _with_tolerances(case, result, progress)
     return result
 

@@ -239,6 +239,7 @@ def test_a_client_killed_mid_run_resumes(cluster, tmp_path):
                                [te101(v * 1e-3) for v in lengths], rtol=3e-3)
 
 
+@pytest.mark.slow        # 10 to 20 s: about eight solves and a final one on three meshes
 def test_tune_on_the_cluster_inverts_the_te101_formula(cluster, tmp_path):
     from femcav.study.tune import run_tune
 
@@ -260,3 +261,140 @@ def test_tune_on_the_cluster_inverts_the_te101_formula(cluster, tmp_path):
     e = 2 * document["error_estimate_hz"] / 8.3e9 + 1e-3
     assert abs(document["value"] / exact - 1) <= 3 * e
     assert te101(exact) == pytest.approx(8.3e9, rel=1e-12)
+
+
+# Monte-Carlo tolerances: a pillbox's radius (normal) and length (uniform), solved on its
+# meridional section (ppb-accurate, so the spread is the tolerances' and not the mesh's).
+
+PILLBOX = """
+title = "Made-up Larkspur pillbox, Monte-Carlo tolerances"
+[solve]
+modes = 2
+azimuthal_orders = [0]
+[geometry]
+builder = "pillbox"
+length = "15 mm"
+radius = "10 mm"
+[mesh]
+size = "2.5 mm"
+[tolerances]
+samples = SAMPLES
+seed = 2026
+radius = "20 um"
+length = { tolerance = "30 um", distribution = "uniform" }
+"""
+SIGMA_RADIUS = 20e-6                        # normal: the tolerance is one standard deviation
+SIGMA_LENGTH = 30e-6 / np.sqrt(3)           # uniform on ± 30 µm (common practice)
+
+
+def tm01p(a: float, d: float, p: int) -> tuple[float, float, float]:
+    """TM01p of a pillbox and its derivatives in radius and length: f = (c/2π)
+    sqrt((p01/a)² + (pπ/d)²) (Pozar, Microwave Engineering, 4th ed., §6.3, from memory;
+    TM010: f = c p01 / (2π a)); p01 from scipy.special."""
+    from scipy.constants import c
+    from scipy.special import jn_zeros
+    k = c / (2 * np.pi)
+    x = jn_zeros(0, 1)[0]
+    f = k * np.hypot(x / a, p * np.pi / d)
+    return f, -k * k * x * x / a ** 3 / f, -k * k * (p * np.pi) ** 2 / d ** 3 / f
+
+
+def check_spread(document, samples: int, std_tolerance: float, draws=None) -> None:
+    a, d = 0.010, 0.015
+    for p in (0, 1):                                    # TM010, TM011
+        f, df_da, df_dd = tm01p(a, d, p)
+        mode = min(document["modes"], key=lambda m: abs(m["frequency_hz"] - f))
+        assert mode["frequency_hz"] == pytest.approx(f, rel=1e-6)
+        spread = mode["tolerance"]["monte_carlo"]
+        linear = np.hypot(df_da * SIGMA_RADIUS, df_dd * SIGMA_LENGTH)
+        assert spread["samples"] == samples and spread["samples_failed"] == 0
+        # the sample standard deviation is within a few of its standard errors,
+        # σ / sqrt(2 (n - 1)) for a normal sample (common practice), of the linear one
+        assert abs(spread["std_hz"] / linear - 1) < std_tolerance
+        # the mean within four standard errors of the nominal (the curvature of f(a) moves
+        # it by f (σ/a)² = 4e-6 f, far less)
+        assert abs(spread["mean_hz"] - f) < 4 * linear / np.sqrt(samples)
+        assert spread["p01_hz"] < spread["mean_hz"] < spread["p99_hz"]
+        if draws is not None:
+            # On the very lengths drawn, the sampling error cancels: the closed form gives
+            # the mean to the solver's accuracy, the linearised one the spread to the
+            # curvature's share, (σ/a) ≈ 2e-3.
+            a_k = np.array([x["radius"] for x in draws])
+            d_k = np.array([x["length"] for x in draws])
+            exact = tm01p(a_k, d_k, p)[0]
+            assert spread["mean_hz"] == pytest.approx(exact.mean(), rel=1e-6)
+            lin = f + df_da * (a_k - a) + df_dd * (d_k - d)
+            assert spread["std_hz"] == pytest.approx(lin.std(ddof=1), rel=1e-2)
+            assert spread["p01_hz"] == pytest.approx(np.percentile(exact, 1), rel=1e-6)
+            assert spread["p99_hz"] == pytest.approx(np.percentile(exact, 99), rel=1e-6)
+        if samples >= 400 and p == 0:
+            # 1st to 99th percentile of a normal spread: 2 × 2.326 σ (TM010 is normal here:
+            # only the radius moves it); standard error about 6 % at 400 samples
+            assert (spread["p99_hz"] - spread["p01_hz"]) / (2 * 2.326 * linear) == \
+                pytest.approx(1, abs=0.25)
+
+
+def drawn(samples: int):
+    from femcav.study.monte_carlo import MonteCarloSpec, draw
+    spec = MonteCarloSpec(samples=samples, seed=2026,
+                          tolerances={"radius": 20e-6, "length": 30e-6},
+                          distributions={"radius": "normal", "length": "uniform"})
+    return draw(spec, {"radius": 0.010, "length": 0.015})
+
+
+def test_draws_follow_their_distributions():
+    draws = drawn(100_000)
+    radius = np.array([x["radius"] for x in draws]) - 0.010
+    length = np.array([x["length"] for x in draws]) - 0.015
+    # standard errors at 1e5 draws: 0.3 % of σ for the mean, 0.2 % for σ (common practice)
+    assert abs(radius.mean()) < 0.02 * SIGMA_RADIUS
+    assert radius.std() == pytest.approx(SIGMA_RADIUS, rel=0.01)
+    assert np.abs(length).max() <= 30e-6 and np.abs(length).max() > 29.9e-6
+    assert length.std() == pytest.approx(SIGMA_LENGTH, rel=0.01)
+    assert abs(np.corrcoef(radius, length)[0, 1]) < 0.02        # drawn independently
+    assert drawn(5) == drawn(5)                                  # the seed decides
+
+
+def test_monte_carlo_matches_the_bessel_derivatives(tmp_path):
+    case = tmp_path / "pillbox.toml"
+    case.write_text(PILLBOX.replace("SAMPLES", "20"))
+    status = main(["solve", str(case), "--out", str(tmp_path / "out"), "--no-report", "-q"])
+    assert status == 0
+    document = json.loads((tmp_path / "out" / "modes.json").read_text())
+    check_spread(document, 20, std_tolerance=4 / np.sqrt(2 * 19), draws=drawn(20))
+    assert "Monte-Carlo spread over 20 samples" in (tmp_path / "out" / "table.txt").read_text()
+
+
+@pytest.mark.slow        # 400 samples on a local two-worker cluster: a minute or more
+def test_monte_carlo_on_a_local_cluster_matches_the_bessel_derivatives_closely(tmp_path):
+    case = tmp_path / "pillbox.toml"
+    case.write_text(PILLBOX.replace("SAMPLES", "400"))
+    assert main(["solve", str(case), "--out", str(tmp_path / "out"), "--no-report", "-q",
+                 "--cluster", "local:2"]) == 0
+    document = json.loads((tmp_path / "out" / "modes.json").read_text())
+    check_spread(document, 400, std_tolerance=4 / np.sqrt(2 * 399), draws=drawn(400))
+
+
+@pytest.mark.parametrize("table, field", [
+    ('samples = 1\nradius = "20 um"', "tolerances.samples"),
+    ('samples = 10', "tolerances.samples"),
+    ('samples = 10\nradius = { tolerance = "20 um", distribution = "flat" }',
+     "tolerances.radius.distribution"),
+    ('samples = 10\nradius = { distribution = "normal" }', "tolerances.radius"),
+    ('radius = "20 um"', "tolerances"),            # axisymmetric: only with samples
+])
+def test_bad_monte_carlo_tables_are_input_errors(tmp_path, table, field):
+    from femcav.case import load_case
+    case = tmp_path / "pillbox.toml"
+    case.write_text(PILLBOX.split("[tolerances]")[0] + "[tolerances]\n" + table + "\n")
+    with pytest.raises(InputError) as caught:
+        load_case(case)
+    assert caught.value.field == field
+
+
+def test_solve_cluster_without_samples_is_refused(tmp_path, capsys):
+    case = tmp_path / "pillbox.toml"
+    case.write_text(PILLBOX.split("[tolerances]")[0])
+    assert main(["solve", str(case), "--cluster", "local:2", "-q"]) == 2
+    assert "Monte-Carlo" in capsys.readouterr().err
+    assert not (tmp_path / "pillbox-results").exists()

@@ -59,6 +59,7 @@ class AxisymmetricMode:
     symmetry: str | None = None
     resolution: Resolution | None = None     # elements per wavelength (post.resolution)
     loss_warnings: tuple[str, ...] = ()      # post.loss_validity
+    tolerance: dict | None = None             # [tolerances] samples (study.monte_carlo)
 
     @property
     def multiplicity(self) -> int:
