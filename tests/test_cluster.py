@@ -124,6 +124,14 @@ def test_bad_cluster_addresses_are_input_errors(address):
     assert caught.value.field == "--cluster"
 
 
+def test_jobs_and_cluster_together_are_refused_before_anything(tmp_path):
+    case = box_case(tmp_path, [26, 28])
+    with pytest.raises(InputError) as caught:
+        run_sweep(case, out=tmp_path / "out", jobs=2, cluster="local:2")
+    assert caught.value.field == "--cluster"
+    assert not (tmp_path / "out").exists()
+
+
 def test_a_scheduler_that_does_not_answer_is_one_line(tmp_path, capsys, monkeypatch):
     from femcav.study import cluster as cluster_module
     monkeypatch.setattr(cluster_module, "CONNECT_TIMEOUT", "1s")
