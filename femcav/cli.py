@@ -184,9 +184,9 @@ def _solve(args) -> int:
     if args.cluster is not None:
         from .study.cluster import parse_cluster_address
         parse_cluster_address(args.cluster)
-        if case.tolerance_samples is None:
-            raise InputError("solve --cluster solves the samples of a Monte-Carlo tolerance "
-                             "draw ([tolerances] samples = N); this case has none",
+        if not case.tolerances:
+            raise InputError("solve --cluster solves the morphed meshes and Monte-Carlo "
+                             "samples of [tolerances]; this case has none",
                              field="--cluster", source=args.case)
     from .io.results import to_table
     from .runner import run_case

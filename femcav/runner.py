@@ -147,10 +147,12 @@ def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: i
     progress.step(f"case {case.path}: {case.title}")
     folder = check_output_folder(Path(out) if out is not None
                                  else default_output_folder(case.path))
-    result = solve_case(case, settings, progress)
-    if case.tolerance_samples is not None:
-        from .study.monte_carlo import with_monte_carlo
-        result = with_monte_carlo(case, result, settings, cluster=cluster, progress=progress)
+    from .study.cluster import optional_cluster_pool
+    with optional_cluster_pool(cluster, progress) as pool:      # None without --cluster
+        result = solve_case(case, settings, progress, pool=pool)
+        if case.tolerance_samples is not None:
+            from .study.monte_carlo import with_monte_carlo
+            result = with_monte_carlo(case, result, settings, pool=pool, progress=progress)
     with staged_output(folder, kind="solve", replaces=("solve", "pictures")) as files:
         _write_tables(files, case, result)
         if settings.azimuthal_orders is not None:
@@ -166,9 +168,10 @@ def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: i
     return case, result, folder
 
 
-def solve_case(case: Case, settings, progress: Progress = SILENT):
+def solve_case(case: Case, settings, progress: Progress = SILENT, pool=None):
     """The modes of a loaded case with ``settings`` (its [solve] table, perhaps overridden):
-    a SolveResult, or an AxisymmetricResult with azimuthal orders; nothing is written."""
+    a SolveResult, or an AxisymmetricResult with azimuthal orders; nothing is written.
+    ``pool``: a femcav.study.cluster.ClusterPool for the morphed solves of [tolerances]."""
     if settings.azimuthal_orders is not None:
         return _solve_axisymmetric(case, settings, progress)
     # With error bars every mesh, the finest included, is built by solve_with_error_bars.
@@ -201,18 +204,19 @@ def solve_case(case: Case, settings, progress: Progress = SILENT):
     if settings.accuracy is not None:
         result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
     if case.tolerances and settings.azimuthal_orders is None:   # morphed 3D meshes only
-        result = _with_tolerances(case, result, progress)
+        result = _with_tolerances(case, result, progress, pool)
     return result
 
 
-def _with_tolerances(case: Case, result: SolveResult, progress: Progress) -> SolveResult:
+def _with_tolerances(case: Case, result: SolveResult, progress: Progress,
+                     pool=None) -> SolveResult:
     """Each mode's df/dp for the toleranced lengths and the spread they imply: each
     |df/dp| tol alone, their sum (worst case) and root-sum-square (independent errors)."""
     import math
 
     from .study.morph import dimension_derivatives
 
-    derivatives = dimension_derivatives(case, result, list(case.tolerances), progress)
+    derivatives = dimension_derivatives(case, result, list(case.tolerances), progress, pool)
     modes = []
     for k, mode in enumerate(result.modes):
         spread = {n: abs(derivatives[n][k]) * tol for n, tol in case.tolerances.items()}

@@ -406,3 +406,30 @@ def test_solve_cluster_without_samples_is_refused(tmp_path, capsys):
     assert main(["solve", str(case), "--cluster", "local:2", "-q"]) == 2
     assert "Monte-Carlo" in capsys.readouterr().err
     assert not (tmp_path / "pillbox-results").exists()
+
+
+def test_tolerance_derivatives_on_the_cluster_equal_the_local_ones(cluster, tmp_path):
+    # The same morphed meshes solved in another process: the same frequencies to round-off
+    # (a few 1e-16 were seen: the sparse solver's sums may run in another order there),
+    # which the difference quotient over 2δ = 6e-5 of the part multiplies by about 1e4:
+    # 1e-9 on the derivative is 1e-13 on the frequencies. (The derivatives' accuracy
+    # against the closed forms is tests/test_morph.py's.)
+    from femcav.case import load_case
+    from femcav.runner import solve_case
+    from femcav.study.cluster import optional_cluster_pool
+
+    path = tmp_path / "box.toml"
+    path.write_text(BOX.split("[sweep]")[0] + '[tolerances]\nlength = "20 um"\n')
+    case = load_case(path)
+    local = solve_case(case, case.solve)
+    messages = []
+    record = Progress(quiet=True)
+    record.step = messages.append
+    with optional_cluster_pool(cluster.address, record) as pool:
+        remote = solve_case(case, case.solve, pool=pool)
+    assert any(m.startswith(f"cluster {cluster.address}: ") for m in messages)
+    for a, b in zip(local.modes, remote.modes):
+        assert b.tolerance["df_dp_hz_per_m"]["length"] == pytest.approx(
+            a.tolerance["df_dp_hz_per_m"]["length"], rel=1e-9, abs=0)
+    # TE101 falls as the box grows (df/dd = -(c/2)² / (d³ f), Pozar §6.3, from memory)
+    assert local.modes[0].tolerance["df_dp_hz_per_m"]["length"] < 0

@@ -205,3 +205,14 @@ def _running(client, futures: dict) -> int:
 def cluster_pool(address: ClusterAddress, progress: Progress):
     with cluster_client(address, progress) as client:
         yield ClusterPool(client=client, share=address.local_workers or 1)
+
+
+@contextmanager
+def optional_cluster_pool(address: str | None, progress: Progress):
+    """A ClusterPool for the address text (``--cluster``), or None without one (Dask is
+    then not imported)."""
+    if address is None:
+        yield None
+        return
+    with cluster_pool(parse_cluster_address(address), progress) as pool:
+        yield pool

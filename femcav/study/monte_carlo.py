@@ -118,9 +118,9 @@ def _options(settings) -> dict:
     return {"monte_carlo_settings": repr(settings)}
 
 
-def with_monte_carlo(case, result, settings, *, cluster: str | None = None,
-                     progress: Progress = SILENT):
-    """``result`` with each mode's ``tolerance["monte_carlo"]`` spread over the samples."""
+def with_monte_carlo(case, result, settings, *, pool=None, progress: Progress = SILENT):
+    """``result`` with each mode's ``tolerance["monte_carlo"]`` spread over the samples,
+    solved here or, given a femcav.study.cluster.ClusterPool, on its cluster."""
     from ..case import read_case_data
     from .fingerprint import point_fingerprint
     from .parameters import with_value
@@ -144,7 +144,7 @@ def with_monte_carlo(case, result, settings, *, cluster: str | None = None,
                     point_fingerprint(sample, case.path, _options(settings), digests))
     progress.step(f"tolerances: {spec.samples} Monte-Carlo samples of "
                   f"{', '.join(sorted(spec.tolerances))} (seed {spec.seed})")
-    solved, failed = _run(tasks, cluster, progress)
+    solved, failed = _run(tasks, pool, progress)
     spreads = _spreads(result, solved)
     modes = []
     for mode, key in zip(result.modes, mode_keys(result)):
@@ -155,9 +155,9 @@ def with_monte_carlo(case, result, settings, *, cluster: str | None = None,
     return replace(result, modes=modes)
 
 
-def _run(tasks: dict, cluster: str | None, progress: Progress):
+def _run(tasks: dict, pool, progress: Progress):
     solved: dict[int, list] = {}
-    if cluster is None:
+    if pool is None:
         t0 = time.perf_counter()
         for k, task in tasks.items():
             solved[k] = solve_sample(task)
@@ -165,9 +165,7 @@ def _run(tasks: dict, cluster: str | None, progress: Progress):
                 progress.step(f"tolerances: {k + 1} of {len(tasks)} samples solved "
                               f"({time.perf_counter() - t0:.1f} s)")
         return solved, {}
-    from .cluster import cluster_pool, parse_cluster_address
-    with cluster_pool(parse_cluster_address(cluster), progress) as pool:
-        failed = pool.run(solve_sample, tasks, solved.__setitem__, progress, noun="sample")
+    failed = pool.run(solve_sample, tasks, solved.__setitem__, progress, noun="sample")
     for k in sorted(failed)[:5]:
         progress.warn(f"Monte-Carlo sample {k + 1} failed: {failed[k]}")
     return solved, failed

@@ -18,7 +18,6 @@ from __future__ import annotations
 
 import math
 import time
-from contextlib import nullcontext
 from dataclasses import dataclass, replace
 from pathlib import Path
 
@@ -168,12 +167,12 @@ def run_tune(path: str | Path, *, out: str | Path | None = None, cluster: str | 
              progress: Progress = SILENT) -> tuple[dict, Path]:
     path = Path(path)
     data, spec, base = load_study(path, parse_tune, tune_trials)
+    from .cluster import optional_cluster_pool, parse_cluster_address
     if cluster is not None:
-        from .cluster import cluster_pool, parse_cluster_address
-        cluster = parse_cluster_address(cluster)
+        parse_cluster_address(cluster)          # a mistake is said before anything
     folder = check_output_folder(Path(out) if out is not None
                                  else path.parent / f"{path.stem}-tune")
-    with cluster_pool(cluster, progress) if cluster is not None else nullcontext() as pool:
+    with optional_cluster_pool(cluster, progress) as pool:
         return _tune(data, path, spec, base, folder, pool, progress)
 
 
