@@ -433,3 +433,26 @@ def test_tolerance_derivatives_on_the_cluster_equal_the_local_ones(cluster, tmp_
             a.tolerance["df_dp_hz_per_m"]["length"], rel=1e-9, abs=0)
     # TE101 falls as the box grows (df/dd = -(c/2)² / (d³ f), Pozar §6.3, from memory)
     assert local.modes[0].tolerance["df_dp_hz_per_m"]["length"] < 0
+
+
+@pytest.mark.slow        # a scheduler and workers of its own: 10 s
+def test_a_lost_scheduler_is_one_line_and_keeps_the_points(tmp_path):
+    own = LoopbackCluster(tmp_path)
+    try:
+        case = box_case(tmp_path, [25, 26, 27, 28, 29, 30])
+        out = tmp_path / "out"
+        client = subprocess.Popen([sys.executable, "-m", "femcav", "sweep", str(case),
+                                   "--out", str(out), "--cluster", own.address, "-q"],
+                                  env=ENV, stderr=subprocess.PIPE, text=True)
+        deadline = time.monotonic() + START_TIMEOUT
+        while time.monotonic() < deadline and client.poll() is None and not list(
+                out.glob("points/*.json")):
+            time.sleep(0.02)
+        own.scheduler.kill()
+        _, err = client.communicate(timeout=120)
+    finally:
+        own.stop()
+    assert client.returncode == 4
+    assert err.strip().splitlines() == [err.strip()] and "scheduler was lost" in err
+    assert list(out.glob("points/*.json"))            # what was solved stays
+    assert not (out / "sweep.json").exists()

@@ -27,7 +27,7 @@ import time
 from contextlib import contextmanager
 from dataclasses import dataclass
 
-from ..errors import InputError
+from ..errors import InputError, ResourceError
 from ..progress import Progress
 
 LOCAL_PREFIX = "local:"
@@ -95,6 +95,13 @@ def cluster_client(address: ClusterAddress, progress: Progress):
         raise
     finally:
         signal.signal(signal.SIGINT, previous)
+    # Dask's own log lines (a traceback when the scheduler goes away) would break the
+    # house rule of one line per failure: what matters reaches the user as an exception.
+    dask_logs = [logging.getLogger(name) for name in list(logging.root.manager.loggerDict)
+                 if name == "distributed" or name.startswith("distributed.")]
+    levels = [log.level for log in dask_logs]
+    for log in dask_logs:
+        log.setLevel(logging.CRITICAL)
     try:
         progress.step(f"cluster {address}: {len(client.nthreads())} workers, "
                       f"{_dashboard_line(client, address)}")
@@ -103,6 +110,8 @@ def cluster_client(address: ClusterAddress, progress: Progress):
         client.close()
         if cluster is not None:
             cluster.close()
+        for log, level in zip(dask_logs, levels):
+            log.setLevel(level)
 
 
 def _has_dashboard_library() -> bool:
@@ -126,6 +135,14 @@ def run_on_worker(function, share: int, task):
 
     memory_room.share_memory_among(share)
     return function(task)
+
+
+def _comm_errors() -> tuple:
+    """The exceptions that say the scheduler has gone (not that a task failed)."""
+    from concurrent.futures import CancelledError
+
+    from distributed.comm.core import CommClosedError
+    return (CommClosedError, CancelledError)
 
 
 @dataclass(frozen=True)
@@ -154,15 +171,19 @@ class ClusterPool:
                     deliver(index, future.result())
                     done += 1
                     what = "solved"
-                else:
+                elif future.status == "error":
                     failed[index] = _error_text(future)
                     what = f"FAILED ({failed[index]})"
+                else:               # "lost" or "cancelled": the scheduler has gone
+                    raise _cluster_lost(f"a task was {future.status}")
                 finished = done + len(failed)
                 left = len(futures)
                 eta = (time.perf_counter() - t0) / finished * left
                 progress.step(f"{noun} {index + 1} {what}: {done} done, "
                               f"{_running(self.client, futures)} running, {len(failed)} "
                               f"failed, {left} to go, about {eta:.0f} s left")
+        except _comm_errors() as exc:
+            raise _cluster_lost(type(exc).__name__) from None
         except BaseException:
             self.client.cancel(list(futures))   # points in flight are lost; the rest kept
             raise
@@ -176,9 +197,16 @@ class ClusterPool:
                    for task in tasks]
         try:
             return self.client.gather(futures)
+        except _comm_errors() as exc:
+            raise _cluster_lost(type(exc).__name__) from None
         except BaseException:
             self.client.cancel(futures)
             raise
+
+
+def _cluster_lost(why: str) -> ResourceError:
+    return ResourceError(f"the connection to the Dask scheduler was lost ({why}); the points "
+                         "solved so far are kept: run again to go on")
 
 
 def _error_text(future) -> str:
