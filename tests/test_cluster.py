@@ -59,9 +59,13 @@ class LoopbackCluster:
             [sys.executable, "-m", "distributed.cli.dask_worker", "--scheduler-file",
              str(self.file), "--nthreads", "1", "--no-nanny", "--no-dashboard", "--host",
              "127.0.0.1"], **quiet) for _ in range(2)]
-        self.address = self._read_address()
-        with distributed.Client(self.address, timeout="30s") as client:
-            client.wait_for_workers(2, timeout=START_TIMEOUT)
+        try:
+            self.address = self._read_address()
+            with distributed.Client(self.address, timeout="30s") as client:
+                client.wait_for_workers(2, timeout=START_TIMEOUT)
+        except BaseException:
+            self.stop()             # no process outlives a start that failed
+            raise
 
     def _read_address(self) -> str:
         deadline = time.monotonic() + START_TIMEOUT
