@@ -146,11 +146,35 @@ def test_a_scheduler_that_does_not_answer_is_one_line(tmp_path, capsys, monkeypa
     assert "no Dask scheduler answered" in capsys.readouterr().err
 
 
+class Terminal:
+    """A stderr that says it is a terminal, and keeps what is written to it."""
+
+    def __init__(self):
+        self.text = ""
+
+    def write(self, text: str) -> int:
+        self.text += text
+        return len(text)
+
+    def flush(self) -> None:
+        pass
+
+    def isatty(self) -> bool:
+        return True
+
+
 def test_cluster_sweep_equals_the_serial_one(cluster, serial, tmp_path):
     expected, _ = serial
     case = box_case(tmp_path, [26, 30])
-    document, _ = run_sweep(case, out=tmp_path / "out", cluster=cluster.address)
+    terminal = Terminal()
+    document, _ = run_sweep(case, out=tmp_path / "out", cluster=cluster.address,
+                            progress=Progress(stream=terminal))
     assert document["failed_points"] == []
+    # on a terminal, progress is one bar redrawn in place, once a point
+    bars = [b for b in terminal.text.split("\r") if b.startswith("\x1b[K[")]
+    assert len(bars) == 2
+    assert bars[0].startswith("\x1b[K[" + "#" * 15 + "." * 15 + "] 1 done")
+    assert bars[1].startswith("\x1b[K[" + "#" * 30 + "] 2 done, 0 running, 0 failed")
     # same meshes, same solver, another process: the same numbers
     np.testing.assert_allclose(frequencies(document), frequencies(expected), rtol=1e-12,
                                atol=0)

@@ -179,9 +179,13 @@ class ClusterPool:
                 finished = done + len(failed)
                 left = len(futures)
                 eta = (time.perf_counter() - t0) / finished * left
-                progress.step(f"{noun} {index + 1} {what}: {done} done, "
-                              f"{_running(self.client, futures)} running, {len(failed)} "
-                              f"failed, {left} to go, about {eta:.0f} s left")
+                counts = (f"{done} done, {_running(self.client, futures)} running, "
+                          f"{len(failed)} failed, {left} to go, about {eta:.0f} s left")
+                if _on_terminal(progress):
+                    _draw_bar(progress, finished, finished + left, counts,
+                              f"{noun} {index + 1} {what}" if index in failed else None)
+                else:
+                    progress.step(f"{noun} {index + 1} {what}: {counts}")
         except _comm_errors() as exc:
             raise _cluster_lost(type(exc).__name__) from None
         except BaseException:
@@ -202,6 +206,26 @@ class ClusterPool:
         except BaseException:
             self.client.cancel(futures)
             raise
+
+
+BAR_WIDTH = 30
+
+
+def _on_terminal(progress: Progress) -> bool:
+    """A person watches: one bar redrawn in place instead of a line per task."""
+    isatty = getattr(progress.stream, "isatty", None)
+    return not progress.quiet and callable(isatty) and isatty()
+
+
+def _draw_bar(progress: Progress, finished: int, total: int, counts: str,
+              failure: str | None) -> None:
+    stream = progress.stream
+    if failure is not None:             # a failure keeps its own line above the bar
+        print(f"\r\x1b[K{failure}", file=stream)
+    filled = BAR_WIDTH * finished // max(total, 1)
+    end = "\n" if finished == total else ""
+    print(f"\r\x1b[K[{'#' * filled}{'.' * (BAR_WIDTH - filled)}] {counts}", end=end,
+          file=stream, flush=True)
 
 
 def _cluster_lost(why: str) -> ResourceError:
