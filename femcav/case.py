@@ -89,6 +89,8 @@ class Case:
     probes: tuple[ProbeSpec, ...] = ()          # [probes.NAME] (post.probes)
     filling_axis: tuple[float, float, float] = (0.0, 0.0, 1.0)   # [filling] axis, unit
     beam: BeamRequest | None = None    # [beam]: figures along a beam line (post.beam)
+    # [tolerances] samples: a Monte-Carlo draw of those lengths (femcav.study.monte_carlo)
+    tolerance_samples: object = None
 
 
 def read_case_data(path: str | Path) -> dict:
@@ -144,11 +146,14 @@ def case_from_data(data: dict, path: Path) -> Case:
         probes = _probes(_table(data, "probes"))
         filling_axis = _filling_axis(_table(data, "filling"))
         beam = _beam(data["beam"], geometry, solve, symmetry) if "beam" in data else None
+        from .study.monte_carlo import parse_monte_carlo
+        samples = parse_monte_carlo(_table(data, "tolerances"), tolerances)
     except InputError as exc:
         raise exc.located(source=source) from None
     return Case(path=path, title=title, geometry=geometry, regions=regions, walls=walls,
                 solve=solve, mesh=mesh, symmetry=symmetry, tolerances=tolerances,
-                probes=probes, filling_axis=filling_axis, beam=beam)
+                probes=probes, filling_axis=filling_axis, beam=beam,
+                tolerance_samples=samples)
 
 
 PROBE_NAME = re.compile(r"[A-Za-z0-9_-]{1,64}")
@@ -245,13 +250,22 @@ def _tolerances(spec: dict, geometry: GeometrySpec, symmetry: dict,
     if geometry.builder is None:
         raise InputError("dimension tolerances move a builder's part; an imported mesh has "
                          "no parameters", field="tolerances")
-    if symmetry or solve.azimuthal_orders is not None or solve.error_estimate:
+    # a Monte-Carlo draw re-meshes every sample, so it also takes axisymmetric solves
+    axisymmetric = solve.azimuthal_orders is not None and "samples" not in spec
+    if symmetry or axisymmetric or solve.error_estimate:
         raise InputError("dimension tolerances are for whole-part 3D solves without error "
-                         "bars (drop [symmetry], azimuthal_orders or error_estimate)",
-                         field="tolerances")
+                         "bars (drop [symmetry], azimuthal_orders or error_estimate; with "
+                         "samples = N, axisymmetric solves are allowed)", field="tolerances")
     check_table(spec, schema.TOLERANCES, "tolerances")
     out = {}
     for name, raw in spec.items():
+        if name in schema.TOLERANCES.keys:      # samples, seed: femcav.study.monte_carlo
+            continue
+        if isinstance(raw, dict):
+            check_table(raw, schema.TOLERANCE_ENTRY, f"tolerances.{name}")
+            if "tolerance" not in raw:
+                raise InputError("missing tolerance", field=f"tolerances.{name}")
+            raw = raw["tolerance"]
         key, _, index = name.partition("[")
         value = geometry.parameters.get(key)
         if key not in BUILDERS[geometry.builder].PARAMETERS or value is None:
@@ -262,7 +276,8 @@ def _tolerances(spec: dict, geometry: GeometrySpec, symmetry: dict,
                                                                                "2]")):
             raise InputError("a point's coordinate is named NAME[0], NAME[1] or NAME[2]; a "
                              "length by its name", field=f"tolerances.{name}")
-        out[name] = schema.parse_value(raw, schema.TOLERANCES.each, f"tolerances.{name}")
+        out[name] = schema.parse_value(raw, schema.TOLERANCE_ENTRY.keys["tolerance"],
+                                       f"tolerances.{name}")
         checked_length(out[name], f"tolerances.{name}", positive=False)
     return out
 

@@ -53,6 +53,7 @@ def _parser() -> argparse.ArgumentParser:
     solve.add_argument("--no-report", action="store_true",
                        help="skip the pictures and report.html (femcav show makes them later)")
     solve.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
+    _cluster_option(solve)
     sweep = _study_parser(
         commands, "sweep",
         "solve the case over the values of its [sweep] table and track the modes",
@@ -62,12 +63,14 @@ def _parser() -> argparse.ArgumentParser:
         "sweep resumes.")
     sweep.add_argument("--jobs", metavar="N", type=int, default=1,
                        help="points solved at once in separate processes (default 1)")
-    _study_parser(
+    _cluster_option(sweep)
+    tune = _study_parser(
         commands, "tune",
         "find the parameter value that puts a mode on a target frequency",
         "Solve CASE at the values Brent's method asks for inside the bracket of its [tune] "
         "table until the chosen mode (followed by field overlap) sits on the target; solve "
         "the result again with error bars; write tune.json.")
+    _cluster_option(tune)
     _study_parser(
         commands, "extract",
         "find a sample's eps_r and loss tangent from measured f and Q, by the full model",
@@ -95,6 +98,12 @@ def _parser() -> argparse.ArgumentParser:
     mesh.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
     verification_command.add_parser(commands)
     return parser
+
+
+def _cluster_option(parser) -> None:
+    parser.add_argument("--cluster", metavar="ADDRESS",
+                        help="solve the points on a Dask cluster: tcp://host:8786 for a "
+                             "running scheduler, local:N for N worker processes here")
 
 
 def _study_parser(commands, name: str, summary: str, description: str):
@@ -175,13 +184,20 @@ def _solve(args) -> int:
     if args.modes is not None:
         check_range(args.modes, SOLVE.keys["modes"], "--modes")
     case = load_case(args.case)     # a mistake is said before the solver stack is loaded
+    if args.cluster is not None:
+        from .study.cluster import parse_cluster_address
+        parse_cluster_address(args.cluster)
+        if not case.tolerances:
+            raise InputError("solve --cluster solves the morphed meshes and Monte-Carlo "
+                             "samples of [tolerances]; this case has none",
+                             field="--cluster", source=args.case)
     from .io.results import to_table
     from .runner import run_case
 
     case, result, folder = run_case(case, out=args.out, modes=args.modes, near_hz=near_hz,
                                     form=args.form, order=args.order,
                                     factorization=args.factorization, method=args.method,
-                                    progress=Progress(quiet=args.quiet))
+                                    cluster=args.cluster, progress=Progress(quiet=args.quiet))
     count = len(result.modes)
     what = (f"{count} modes nearest {format_frequency(result.near_hz)}" if result.near_hz
             else f"lowest {count} modes")
@@ -225,7 +241,7 @@ def _sweep(args) -> int:
     from .study.sweep import run_sweep
 
     document, folder = run_sweep(args.case, out=args.out, jobs=args.jobs,
-                                 progress=Progress(quiet=args.quiet))
+                                 cluster=args.cluster, progress=Progress(quiet=args.quiet))
     axes = " x ".join(f"{a['parameter']} ({len(a['values'])} values)"
                       for a in document["parameters"])
     print(f"sweep of {axes}: {len(document['points'])} points, "
@@ -235,8 +251,10 @@ def _sweep(args) -> int:
         span = f"{min(f) / 1e9:.6g} to {max(f) / 1e9:.6g} GHz" if f else "-"
         ended = "" if len(f) == len(t["frequency_hz"]) else " (lost before the end)"
         print(f"  track {t['track']}: {span}{ended}")
+    for failed in document.get("failed_points", []):
+        print(f"  point {failed['index']} FAILED: {failed['error']}")
     print(f"results: {folder}")
-    return 0
+    return exit_codes.CHECKS_FAILED if document.get("failed_points") else 0
 
 
 def _tune(args) -> int:
@@ -244,7 +262,8 @@ def _tune(args) -> int:
     from .study.tune import run_tune
     from .units import format_frequency
 
-    document, folder = run_tune(args.case, out=args.out, progress=Progress(quiet=args.quiet))
+    document, folder = run_tune(args.case, out=args.out, cluster=args.cluster,
+                                progress=Progress(quiet=args.quiet))
     unit = document["unit"]
     shown = (f"{document['value'] * 1e3:.7g} mm" if unit == "m"
              else f"{document['value']:.7g} {unit}".rstrip())

@@ -154,12 +154,15 @@ def default_output_folder(case_path: Path) -> Path:
 def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: int | None = None,
              near_hz: float | None = None, form: str | None = None, order: int | None = None,
              factorization: str | None = None, method: str | None = None,
+             cluster: str | None = None,
              progress: Progress = SILENT) -> tuple[Case, SolveResult, Path]:
     """Solve a case file and write table.txt, modes.csv, modes.json and fields.vtu (and
     wall_loss.vtu when the case has metal walls).
 
     Command-line values (modes, near_hz, form, order, factorization, method) override the
     case file's [solve] table. ``path`` may also be a case already loaded (load_case).
+    ``cluster``: where the samples of a Monte-Carlo tolerance draw are solved (a Dask
+    scheduler's address or local:N; femcav.study.cluster).
     """
     case = path if isinstance(path, Case) else load_case(path)
     overrides = dict(modes=modes, near_hz=near_hz, form=form, order=order,
@@ -168,7 +171,12 @@ def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: i
     progress.step(f"case {case.path}: {case.title}")
     folder = check_output_folder(Path(out) if out is not None
                                  else default_output_folder(case.path))
-    result = solve_case(case, settings, progress)
+    from .study.cluster import optional_cluster_pool
+    with optional_cluster_pool(cluster, progress) as pool:      # None without --cluster
+        result = solve_case(case, settings, progress, pool=pool)
+        if case.tolerance_samples is not None:
+            from .study.monte_carlo import with_monte_carlo
+            result = with_monte_carlo(case, result, settings, pool=pool, progress=progress)
     with staged_output(folder, kind="solve", replaces=("solve", "pictures")) as files:
         _write_tables(files, case, result)
         if settings.azimuthal_orders is not None:
@@ -184,16 +192,17 @@ def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: i
     return case, result, folder
 
 
-def solve_case(case: Case, settings, progress: Progress = SILENT):
+def solve_case(case: Case, settings, progress: Progress = SILENT, pool=None):
     """The modes of a loaded case with ``settings`` (its [solve] table, perhaps overridden):
     a SolveResult, or an AxisymmetricResult with azimuthal orders, with their figures of
-    merit (femcav.merit); nothing is written."""
+    merit (femcav.merit); nothing is written. ``pool``: a femcav.study.cluster.ClusterPool
+    for the morphed solves of [tolerances]."""
     from .merit import with_figures_of_merit
 
-    return with_figures_of_merit(_solve_modes(case, settings, progress), case.beam)
+    return with_figures_of_merit(_solve_modes(case, settings, progress, pool), case.beam)
 
 
-def _solve_modes(case: Case, settings, progress: Progress):
+def _solve_modes(case: Case, settings, progress: Progress, pool=None):
     if settings.azimuthal_orders is not None:
         result = _solve_axisymmetric(case, settings, progress)
         if settings.sensitivities:
@@ -231,8 +240,8 @@ def _solve_modes(case: Case, settings, progress: Progress):
               else merge_classes(labelled, settings.modes, settings.near_hz))
     if settings.accuracy is not None:
         result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
-    if case.tolerances:
-        result = _with_tolerances(case, result, progress)
+    if case.tolerances and settings.azimuthal_orders is None:   # morphed 3D meshes only
+        result = _with_tolerances(case, result, progress, pool)
     return _with_field_figures(case, result)
 
 
@@ -310,14 +319,15 @@ def check_probes_on_section(case: Case, section) -> None:
             raise exc.located(source=str(case.path)) from None
 
 
-def _with_tolerances(case: Case, result: SolveResult, progress: Progress) -> SolveResult:
+def _with_tolerances(case: Case, result: SolveResult, progress: Progress,
+                     pool=None) -> SolveResult:
     """Each mode's df/dp for the toleranced lengths and the spread they imply: each
     |df/dp| tol alone, their sum (worst case) and root-sum-square (independent errors)."""
     import math
 
     from .study.morph import dimension_derivatives
 
-    derivatives = dimension_derivatives(case, result, list(case.tolerances), progress)
+    derivatives = dimension_derivatives(case, result, list(case.tolerances), progress, pool)
     modes = []
     for k, mode in enumerate(result.modes):
         spread = {n: abs(derivatives[n][k]) * tol for n, tol in case.tolerances.items()}

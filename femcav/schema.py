@@ -282,7 +282,20 @@ EXTRACT = Table({
     "tolerance": Key(NUMBER, range=EXTRACT_TOLERANCE, default=1e-9),
 })
 
-TOLERANCES = Table(each=LENGTH)
+# Monte-Carlo draws of the toleranced lengths (femcav.study.monte_carlo): at most this many
+# samples, each a solve.
+MONTE_CARLO_SAMPLES = Range(2, 100_000)
+# [tolerances]: its own keys, then one entry per builder length: a tolerance, or a table
+# with the tolerance and the distribution a Monte-Carlo draw takes it from.
+TOLERANCES = Table({"samples": Key(WHOLE, range=MONTE_CARLO_SAMPLES),
+                    "seed": Key(WHOLE, range=Range(0, 2**63 - 1), default=0)},
+                   each=Key(either(QUANTITY, TABLE)))
+TOLERANCE_ENTRY = Table({
+    "tolerance": LENGTH,
+    "distribution": Key(STRING, choices=("normal", "uniform"), default="normal",
+                        doc="normal: the tolerance is one standard deviation; uniform: "
+                            "the value lies anywhere within ± the tolerance"),
+})
 
 # [probes.NAME]: a point (at) or a line of points (from, to, points); coordinates may be
 # negative, so no range but finiteness.
@@ -339,7 +352,7 @@ def check_table(value, table: Table, where: str, *, unknown: str = "") -> dict:
         raise InputError(f"must be a table, got {type_name(value)}", field=where or None)
     prefix = f"{where}." if where else ""
     for name, item in value.items():
-        key = table.each if table.each is not None else table.keys.get(name)
+        key = table.keys.get(name, table.each)     # a table's own keys before its entries
         if key is None:
             hint = unknown or f"allowed here: {', '.join(sorted(table.keys))}"
             raise InputError(f"unknown key; {hint}", field=f"{prefix}{name}")

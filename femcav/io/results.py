@@ -220,7 +220,27 @@ def to_table(result: SolveResult) -> str:
                      + merit_columns.table_cells(result, m)
                      + f"{c.residual:9.1e}  {c.divergence:10.1e}  {c.orthogonality:13.1e}  "
                      f"{status}")
-    return "\n".join(lines)
+    return "\n".join(lines + monte_carlo_lines(result))
+
+
+def monte_carlo_lines(result) -> list[str]:
+    """The spread of every mode under the table (empty without a Monte-Carlo draw)."""
+    entries = [(m, (m.tolerance or {}).get("monte_carlo")) for m in result.modes
+               if getattr(m, "tolerance", None)]
+    entries = [(m, e) for m, e in entries if e is not None]
+    if not entries:
+        return []
+    def show(v, digits=4):
+        return "-" if v is None else format_frequency(v, digits)
+    n = max(e["samples"] for _, e in entries)
+    lines = [f"Monte-Carlo spread over {n} samples (seed {entries[0][1]['seed']}):",
+             f"{'mode':>4}  {'mean':>16}  {'std. dev.':>12}  {'1st pct.':>16}  "
+             f"{'99th pct.':>16}  {'linear std.':>12}"]
+    for m, e in entries:
+        lines.append(f"{m.index:>4}  {show(e.get('mean_hz'), 9):>16}  {show(e.get('std_hz')):>12}"
+                     f"  {show(e.get('p01_hz'), 9):>16}  {show(e.get('p99_hz'), 9):>16}  "
+                     f"{show(e['linear_std_hz']):>12}")
+    return lines
 
 
 def _q_columns(mode) -> str:

@@ -162,27 +162,43 @@ def _harmonic(mesh: TaggedMesh, n: int, known: np.ndarray, values: np.ndarray) -
     return out
 
 
+def solve_morphed(task):
+    """A cluster task: the case's tables, a morphed mesh and the solve options in, the
+    solved modes out."""
+    from ..case import case_from_data
+    data, path, mesh, options = task
+    return _solve_morphed(case_from_data(data, path), mesh, options)
+
+
+def _solve_morphed(case, mesh, options: dict):
+    from ..case import case_model
+    from ..solver import solve_model
+    return solve_model(case_model(case, mesh), **options)
+
+
 def parameter_step(layout: Layout) -> float:
     return STEP * layout.extent()
 
 
-def dimension_derivatives(case, result, names, progress=None) -> dict[str, list[float]]:
+def dimension_derivatives(case, result, names, progress=None,
+                          pool=None) -> dict[str, list[float]]:
     """df/dp (Hz/m) of every mode of ``result`` (a 3D solve of ``case``, one symmetry class)
     for each builder length ``names`` (e.g. "radius", "block_corner[0]"), by central
-    differences on morphed meshes."""
-    from ..case import case_model
+    differences on morphed meshes; the morphed solves run here, or all at once on the
+    cluster of ``pool`` (femcav.study.cluster.ClusterPool; each task the case's tables and
+    its morphed mesh)."""
     from ..geometry import builder_layout
-    from ..solver import solve_model
     from .tracking import step_partners
 
     g = case.geometry
     old = builder_layout(g.builder, g.parameters)
     mesh = result.space.model.mesh
     step = parameter_step(old)
-    out = {}
+    options = dict(modes=len(result.modes) + 3, near_hz=result.near_hz, form=result.form,
+                   order=result.order)
+    meshes = []                     # the morphed meshes for + δ, then - δ, per name
     for name in names:
         key, _, index = name.partition("[")
-        frequencies = []
         for sign in (+1, -1):
             params = dict(g.parameters)
             if index:
@@ -191,10 +207,19 @@ def dimension_derivatives(case, result, names, progress=None) -> dict[str, list[
                 params[key] = tuple(point)
             else:
                 params[key] = params[key] + sign * step
-            new = builder_layout(g.builder, params)
-            model = case_model(case, morph(mesh, old, new))
-            moved = solve_model(model, modes=len(result.modes) + 3, near_hz=result.near_hz,
-                                form=result.form, order=result.order)
+            meshes.append(morph(mesh, old, builder_layout(g.builder, params)))
+    if pool is None:            # one at a time, as they are used: one solve in memory
+        solved = (_solve_morphed(case, m, options) for m in meshes)
+    else:
+        from ..case import read_case_data
+        data = read_case_data(case.path)
+        solved = iter(pool.gather(solve_morphed, [(data, case.path, m, options)
+                                                  for m in meshes]))
+    out = {}
+    for name in names:
+        frequencies = []
+        for _ in (+1, -1):
+            moved = next(solved)
             partner = step_partners(result, moved)
             successor = {int(p): j for j, p in enumerate(partner) if p >= 0}
             frequencies.append([moved.modes[successor[k]].frequency_hz if k in successor

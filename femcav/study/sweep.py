@@ -10,7 +10,8 @@ whole case, an imported mesh's contents, the solve options and femcav's results 
 femcav.study.fingerprint) is the current one, so an interrupted sweep resumes where it
 stopped and a changed case is solved again. One run at a time works in a folder
 (femcav.study.folder_lock); points can be solved in worker processes (``jobs``,
-femcav.study.workers).
+femcav.study.workers) or on a Dask cluster (``cluster``, femcav.study.cluster: a point that
+fails there is listed in ``failed_points`` and left out of the tracks, the others go on).
 
 Tracking runs along the first parameter (for each value of the second) over the modes of the
 first point: femcav.study.tracking. Each point solves TRACKING_SPARE more modes than the case
@@ -181,6 +182,18 @@ def full_vectors(result) -> np.ndarray:
     return np.column_stack(columns)
 
 
+def solve_point_task(args) -> PointResult:
+    """A cluster task: the point's case tables and fingerprint in, the solved point out. The
+    fingerprint is computed again here, so that a worker whose femcav (or mesh file)
+    differs from the client's refuses rather than return a point that does not match."""
+    data, path, axes, values, fingerprint = args
+    here = point_fingerprint(point_data(data, axes, values), path, POINT_OPTIONS)
+    if here != fingerprint:
+        raise RuntimeError("this worker computes another fingerprint for the point (another "
+                           "femcav results version, or another mesh file at the case's path)")
+    return solve_point(data, path, axes, values, fingerprint)
+
+
 def _solve_and_save(args) -> int:
     data, path, axes, values, fingerprint, folder, index = args
     save_point(folder, index, solve_point(data, path, axes, values, fingerprint))
@@ -226,14 +239,20 @@ class _Mode:
 
 
 def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
-              progress: Progress = SILENT) -> tuple[dict, Path]:
+              cluster: str | None = None, progress: Progress = SILENT) -> tuple[dict, Path]:
     """Solve every point of the case's [sweep] (reusing the points already in the output
     folder that were solved for the same case), track the modes, and write sweep.json,
-    sweep.csv and mode_chart.png."""
+    sweep.csv and mode_chart.png. ``cluster``: a Dask scheduler's address or ``local:N``
+    (femcav.study.cluster) instead of ``jobs``."""
     path = Path(path)
     data, spec, base = load_study(path, parse_sweep, sweep_trials)
     if isinstance(jobs, bool) or not isinstance(jobs, int) or jobs < 1:
         raise InputError(f"must be a whole number >= 1, got {jobs!r}", field="--jobs")
+    if cluster is not None:
+        from .cluster import parse_cluster_address
+        cluster = parse_cluster_address(cluster)
+        if jobs != 1:
+            raise InputError("give --jobs or --cluster, not both", field="--cluster")
     folder = check_output_folder(Path(out) if out is not None
                                  else path.parent / f"{path.stem}-sweep")
     points = spec.points()
@@ -245,11 +264,17 @@ def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
         progress.step(f"sweep of {' x '.join(a.path for a in spec.axes)}: {len(points)} "
                       f"points, {len(done)} already solved in {folder}, {len(todo)} to solve")
         try:
-            _solve_points(data, path, spec, fingerprints, todo, folder, jobs, progress)
+            failed = (_solve_on_cluster(data, path, spec, fingerprints, todo, folder, cluster,
+                                        progress) if cluster is not None else
+                      _solve_points(data, path, spec, fingerprints, todo, folder, jobs,
+                                    progress) or {})
         except InputError as exc:
             raise exc.located(source=str(path)) from None
-        results = [done[i] if i in done else read_point(folder, i) for i in range(len(points))]
+        results = [done[i] if i in done else None if i in failed else read_point(folder, i)
+                   for i in range(len(points))]
         document = _tracked_document(data, path, spec, base, results, progress)
+        document["failed_points"] = [{"index": i + 1, "values": list(points[i]),
+                                      "error": failed[i]} for i in sorted(failed)]
         with staged_output(folder, kind="sweep") as files:
             files.write_text("sweep.json", strict_json.dumps(document, indent=1))
             files.write_text("sweep.csv", sweep_csv(document))
@@ -336,6 +361,24 @@ def _solve_points(data, path, spec: SweepSpec, fingerprints, todo, folder, jobs,
                             "run the sweep again to go on, perhaps with fewer --jobs") from None
 
 
+def _solve_on_cluster(data, path, spec: SweepSpec, fingerprints, todo, folder, cluster,
+                      progress) -> dict[int, str]:
+    """Every point to solve as a task on the cluster, saved here as it arrives; returns
+    index -> error of the points that failed."""
+    from .cluster import cluster_pool
+
+    points = spec.points()
+    tasks = {i: (data, path, spec.axes, points[i], fingerprints[i]) for i in todo}
+    if not tasks:
+        return {}
+    with cluster_pool(cluster, progress) as pool:
+        failed = pool.run(solve_point_task, tasks, lambda i, p: save_point(folder, i, p),
+                          progress)
+    for i in sorted(failed):
+        progress.warn(f"point {i + 1} failed: {failed[i]}")
+    return failed
+
+
 def _tracked_document(data, path, spec: SweepSpec, base, results, progress) -> dict:
     first = spec.axes[0]
     n_first = len(first.values)
@@ -345,8 +388,9 @@ def _tracked_document(data, path, spec: SweepSpec, base, results, progress) -> d
     tracks_out = []
     for r, row in enumerate(rows_of_second):
         t0 = time.perf_counter()
-        rebuilt = [_Tracked(data, path, spec.axes, p) for p in row]
-        tracks = track(rebuilt, count)
+        solved = [k for k, p in enumerate(row) if p is not None]    # failed points: None
+        rebuilt = [_Tracked(data, path, spec.axes, row[k]) for k in solved]
+        tracks = [_spread(t, solved, len(row)) for t in track(rebuilt, count)] if solved else []
         progress.step(f"tracked {len(tracks)} modes over {len(row)} points in "
                       f"{time.perf_counter() - t0:.1f} s")
         for k, t in enumerate(tracks):
@@ -362,9 +406,20 @@ def _tracked_document(data, path, spec: SweepSpec, base, results, progress) -> d
     return {"format": FORMAT_NAME, "format_version": 1, "case": str(path),
             "parameters": [{"parameter": a.path, "unit": a.unit, "values": list(a.values)}
                            for a in spec.axes],
-            "points": [{"values": list(p.values), "seconds": p.seconds,
-                        "modes": p.rows[:count + TRACKING_SPARE]} for p in results],
+            "points": [{"values": list(v), "seconds": None, "modes": [], "failed": True}
+                       if p is None else
+                       {"values": list(p.values), "seconds": p.seconds,
+                        "modes": p.rows[:count + TRACKING_SPARE]}
+                       for v, p in zip(spec.points(), results)],
             "tracks": tracks_out}
+
+
+def _spread(track_over_solved: list, solved: list[int], size: int) -> list:
+    """A track over the solved points of a row, with None at the points that failed."""
+    out = [None] * size
+    for k, j in zip(solved, track_over_solved):
+        out[k] = j
+    return out
 
 
 def sweep_csv(document: dict) -> str:

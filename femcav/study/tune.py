@@ -8,6 +8,10 @@ f_mode(value) - target; at every value the chosen mode is found by field overlap
 nearest value already solved (femcav.study.tracking), never by its place in the list. The
 result is solved once more with error bars (three meshes, femcav.post.error_estimate) so the
 final frequency carries its discretisation error.
+
+With a cluster (``cluster``, femcav.study.cluster) the case's own value and the two ends of
+the bracket are solved at once as three tasks, and each later value of Brent's method
+(which needs the one before) as a task of its own; the final solve with error bars runs here.
 """
 
 from __future__ import annotations
@@ -93,22 +97,40 @@ def _reference_value(data: dict, spec: TuneSpec, case) -> float:
     return float(wall.conductivity)
 
 
+def solve_at(task):
+    """The case solved at one value of the tuned parameter (here or as a cluster task)."""
+    from ..runner import solve_case
+
+    data, path, spec, value = task
+    case = study_case(with_value(data, spec.path, value), path)
+    checked_for_tracking(case)
+    settings = replace(case.solve, modes=max(case.solve.modes, spec.mode) + TRACKING_SPARE)
+    return solve_case(case, settings, SILENT)
+
+
 class _Evaluations:
     """Solved values and, at each, the position of the tuned mode in its mode list."""
 
-    def __init__(self, data, path, spec: TuneSpec, progress: Progress):
-        from ..runner import solve_case
-
-        self._solve = solve_case
+    def __init__(self, data, path, spec: TuneSpec, progress: Progress, pool=None):
         self.data, self.path, self.spec, self.progress = data, path, spec, progress
+        self.pool = pool            # a femcav.study.cluster.ClusterPool, or None: solve here
         self.points: list[tuple[float, object, int]] = []   # (value, result, mode index)
+        self._ready: dict[float, object] = {}
+
+    def prefetch(self, values) -> None:
+        """Solve ``values`` at once on the cluster, for the calls to come (no-op here)."""
+        if self.pool is not None:
+            tasks = [(self.data, self.path, self.spec, v) for v in values]
+            self._ready.update(zip(values, self.pool.gather(solve_at, tasks)))
 
     def solve(self, value: float):
-        case = study_case(with_value(self.data, self.spec.path, value), self.path)
-        checked_for_tracking(case)
-        settings = replace(case.solve, modes=max(case.solve.modes, self.spec.mode)
-                           + TRACKING_SPARE)
-        return self._solve(case, settings, SILENT)
+        if value in self._ready:
+            return self._ready.pop(value)
+        for solved, result, _ in self.points:   # Brent's method asks for the ends again
+            if solved == value:
+                return result
+        task = (self.data, self.path, self.spec, value)
+        return solve_at(task) if self.pool is None else self.pool.gather(solve_at, [task])[0]
 
     def start(self, reference: float) -> None:
         result = self.solve(reference)
@@ -141,15 +163,24 @@ def _axis(spec: TuneSpec):
     return Axis(path=spec.path, values=spec.bracket, kind=spec.kind, where="tune")
 
 
-def run_tune(path: str | Path, *, out: str | Path | None = None,
+def run_tune(path: str | Path, *, out: str | Path | None = None, cluster: str | None = None,
              progress: Progress = SILENT) -> tuple[dict, Path]:
     path = Path(path)
     data, spec, base = load_study(path, parse_tune, tune_trials)
+    from .cluster import optional_cluster_pool, parse_cluster_address
+    if cluster is not None:
+        parse_cluster_address(cluster)          # a mistake is said before anything
     folder = check_output_folder(Path(out) if out is not None
                                  else path.parent / f"{path.stem}-tune")
+    with optional_cluster_pool(cluster, progress) as pool:
+        return _tune(data, path, spec, base, folder, pool, progress)
+
+
+def _tune(data, path: Path, spec: TuneSpec, base, folder: Path, pool, progress: Progress):
     try:
         reference = _reference_value(data, spec, base)
-        runs = _Evaluations(data, path, spec, progress)
+        runs = _Evaluations(data, path, spec, progress, pool)
+        runs.prefetch([reference, *spec.bracket])
         runs.start(reference)
         progress.step(f"tune: mode {spec.mode} at the case's own {spec.path} = "
                       f"{format_value(_axis(spec), reference)}: "
