@@ -125,6 +125,23 @@ def test_axisymmetric_line_velocity_and_part_of_the_axis(axisymmetric):
     assert half.beam.transit_time_factor == pytest.approx(t_half, rel=1e-6)
 
 
+def test_active_length_sets_e_acc_and_leaves_the_line_integral_whole(axisymmetric):
+    # The trade quotes a chain of cells with beam pipes as V over the whole axis (pipes
+    # included: a passing charge crosses them) and E_acc = V / (N cell lengths) (common
+    # practice; Padamsee, Knobloch and Hays, ch. 1, from memory). With an active length
+    # L_a, V, T and R/Q stay those of the whole line, E_acc = V / L_a and the peak ratios
+    # scale by L_a / L.
+    v, t, r_over_q, e_ratio, b_ratio = closed_form()
+    quoted = tm010(figures_of(axisymmetric, BeamRequest(active_length=0.6 * L))).beam
+    assert quoted.voltage_v == pytest.approx(v, rel=1e-6)
+    assert quoted.transit_time_factor == pytest.approx(t, rel=1e-6)
+    assert quoted.r_over_q_ohm == pytest.approx(r_over_q, rel=1e-6)
+    assert quoted.e_acc_v_per_m == pytest.approx(v / (0.6 * L), rel=1e-6)
+    assert quoted.e_peak_over_e_acc == pytest.approx(0.6 * e_ratio, rel=1e-6)
+    assert quoted.b_peak_over_e_acc_mt_per_mv_per_m == pytest.approx(0.6 * b_ratio, rel=1e-6)
+    assert quoted.line.summary()["active_length_m"] == pytest.approx(0.6 * L)
+
+
 def test_modes_with_m_of_one_have_no_field_on_the_axis(axisymmetric):
     # cos φ fields have no axial part on the axis: no voltage, no transit-time factor
     dipole = next(m for m in figures_of(axisymmetric) if m.m == 1)
@@ -253,6 +270,8 @@ BASE = {"geometry": {"builder": "pillbox", "radius": "10 mm", "length": "15 mm"}
     ({"beam": {"from": ["0 mm", "0 mm", "1 mm"], "to": ["0 mm", "0 mm", "1 mm"]}}, "beam.to"),
     ({"beam": {}, "symmetry": {"x": "pmc"}}, "beam"),
     ({"beam": {"velocity": 1.5}}, "beam.velocity"),
+    ({"beam": {"active_length": "-1 mm"}}, "beam.active_length"),
+    ({"beam": {"active_length": "115"}}, "beam.active_length"),      # no unit
     ({"beam": {"from": ["1 mm", "0 mm", "0 mm"], "to": ["1 mm", "0 mm", "15 mm"]},
       "solve": {"modes": 2, "azimuthal_orders": [0]}}, "beam.from"),
 ])
@@ -272,3 +291,7 @@ def test_a_box_has_no_default_beam_line(tmp_path):
     case = case_from_data(data, tmp_path / "case.toml")
     assert case.beam.start == pytest.approx((0.01, 0.005, 0.0))
     assert case.beam.velocity == 1.0
+    assert case.beam.active_length is None
+    data["beam"]["active_length"] = "115.4 mm"
+    assert case_from_data(data, tmp_path / "case.toml").beam.active_length == pytest.approx(
+        0.1154)
