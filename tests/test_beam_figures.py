@@ -151,6 +151,43 @@ def test_modes_with_m_of_one_have_no_field_on_the_axis(axisymmetric):
     assert dipole.geometry_factor_ohm > 0
 
 
+def test_surface_peaks_on_a_curved_wall_match_the_sphere_closed_form():
+    # The peak sampler on curved (6-node) section walls: a PEC sphere of radius a, its
+    # lowest TM mode (n = 1, m = 0) at the first root x of (x j1(x))' = 0, k = x / a.
+    # H_φ = A j1(kr) sin θ, so B_pk = μ0 A j1(x) on the equator, and E_r = 2 cos θ A j1(kr)
+    # / (jωε0 r) at the wall, so E_pk = B_pk · 2c / x at the poles (R. F. Harrington,
+    # Time-Harmonic Electromagnetic Fields, 1961, §6-11, from memory; A from W = 1 J by
+    # quadrature). Order 3 at a/8: measured errors 3e-5 (E_pk) and 5.5e-5 (B_pk); 3e-4
+    # leaves room, and catches a wrong normal on a curved wall (E_r for E·n fails it). Both
+    # peaks sit at mesh vertices (pole, equator), so this does not test the search between
+    # samples; the elliptical cell's figures do (tests/test_elliptical_cell.py).
+    from scipy.optimize import brentq
+    from scipy.special import spherical_jn
+
+    from femcav.axisymmetric.beam_fields import surface_peaks
+    from femcav.geometry.parts import Layout
+    from femcav.geometry.profile import EllipticArc, RevolvedProfile
+
+    a = 0.010
+    x = brentq(lambda s: spherical_jn(1, s) + s * spherical_jn(1, s, derivative=True), 2, 3.5)
+    radial, _ = quad(lambda r: spherical_jn(1, x * r / a) ** 2 * r**2, 0, a, epsrel=1e-12)
+    amplitude = math.sqrt(2 / (mu_0 * radial * 8 * math.pi / 3))     # ∫ sin³θ dθ dφ = 8π/3
+    b_peak = mu_0 * amplitude * spherical_jn(1, x)
+    sphere = RevolvedProfile((EllipticArc((0.0, 0.0), a, a, math.pi, math.pi / 2),
+                              EllipticArc((0.0, 0.0), a, a, math.pi / 2, 0.0)))
+    section = mesh_section(Layout(space=[sphere], background="inside"),
+                           Sizing(size=a / 8, curved=True))
+    result = solve_axisymmetric(make_axisymmetric_model(section, {"inside": Material()}, {}),
+                                orders=(0,), modes=1, order=3)
+    mode = result.modes[0]
+    peaks = surface_peaks(result.spaces[0], mode.dofs, 2 * math.pi * mode.frequency_hz)
+    assert peaks.b_peak_t == pytest.approx(b_peak, rel=3e-4)
+    assert peaks.e_peak_v_per_m == pytest.approx(b_peak * 2 * c / x, rel=3e-4)
+    assert math.hypot(peaks.b_peak_at[0], peaks.b_peak_at[2]) == pytest.approx(a, rel=1e-4)
+    assert abs(peaks.b_peak_at[2]) < 0.05 * a                    # on the equator
+    assert abs(peaks.e_peak_at[2]) == pytest.approx(a, rel=1e-4)  # at a pole
+
+
 def test_without_beam_the_geometry_factor_is_in_the_files_not_the_table(axisymmetric):
     # G = η p01 / (2 (1 + a/L)) for TM010 with or without [beam]; the table keeps its columns
     result = with_figures_of_merit(axisymmetric, None)
