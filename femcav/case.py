@@ -239,7 +239,8 @@ def _beam(spec: dict, geometry: GeometrySpec, solve: SolveSpec, symmetry: dict
                                      "on the z axis: x and y must be 0", field=f"beam.{key}")
     return BeamRequest(start=None if start is None else tuple(start),
                        end=None if end is None else tuple(end),
-                       velocity=read(spec, "velocity", schema.BEAM, "beam"))
+                       velocity=read(spec, "velocity", schema.BEAM, "beam"),
+                       active_length=read(spec, "active_length", schema.BEAM, "beam"))
 
 
 def _tolerances(spec: dict, geometry: GeometrySpec, symmetry: dict,

@@ -316,6 +316,8 @@ FILLING = Table({
 BEAM = Table({
     "from": Key(POINT, unit="length"), "to": Key(POINT, unit="length"),
     "velocity": Key(NUMBER, range=BEAM_VELOCITY, default=1.0, doc="a fraction of c"),
+    "active_length": Key(QUANTITY, unit="length", range=POSITIVE,
+                         doc="the length E_acc is quoted over (default: the line's)"),
 })
 
 # The quantities a study may vary (femcav.study.parameters): the key each value goes to.

@@ -125,6 +125,23 @@ def test_axisymmetric_line_velocity_and_part_of_the_axis(axisymmetric):
     assert half.beam.transit_time_factor == pytest.approx(t_half, rel=1e-6)
 
 
+def test_active_length_sets_e_acc_and_leaves_the_line_integral_whole(axisymmetric):
+    # The trade quotes a chain of cells with beam pipes as V over the whole axis (pipes
+    # included: a passing charge crosses them) and E_acc = V / (N cell lengths) (common
+    # practice; Padamsee, Knobloch and Hays, ch. 1, from memory). With an active length
+    # L_a, V, T and R/Q stay those of the whole line, E_acc = V / L_a and the peak ratios
+    # scale by L_a / L.
+    v, t, r_over_q, e_ratio, b_ratio = closed_form()
+    quoted = tm010(figures_of(axisymmetric, BeamRequest(active_length=0.6 * L))).beam
+    assert quoted.voltage_v == pytest.approx(v, rel=1e-6)
+    assert quoted.transit_time_factor == pytest.approx(t, rel=1e-6)
+    assert quoted.r_over_q_ohm == pytest.approx(r_over_q, rel=1e-6)
+    assert quoted.e_acc_v_per_m == pytest.approx(v / (0.6 * L), rel=1e-6)
+    assert quoted.e_peak_over_e_acc == pytest.approx(0.6 * e_ratio, rel=1e-6)
+    assert quoted.b_peak_over_e_acc_mt_per_mv_per_m == pytest.approx(0.6 * b_ratio, rel=1e-6)
+    assert quoted.line.summary()["active_length_m"] == pytest.approx(0.6 * L)
+
+
 def test_modes_with_m_of_one_have_no_field_on_the_axis(axisymmetric):
     # cos φ fields have no axial part on the axis: no voltage, no transit-time factor
     dipole = next(m for m in figures_of(axisymmetric) if m.m == 1)
@@ -132,6 +149,43 @@ def test_modes_with_m_of_one_have_no_field_on_the_axis(axisymmetric):
     assert dipole.beam.transit_time_factor is None
     assert dipole.beam.e_peak_over_e_acc is None
     assert dipole.geometry_factor_ohm > 0
+
+
+def test_surface_peaks_on_a_curved_wall_match_the_sphere_closed_form():
+    # The peak sampler on curved (6-node) section walls: a PEC sphere of radius a, its
+    # lowest TM mode (n = 1, m = 0) at the first root x of (x j1(x))' = 0, k = x / a.
+    # H_φ = A j1(kr) sin θ, so B_pk = μ0 A j1(x) on the equator, and E_r = 2 cos θ A j1(kr)
+    # / (jωε0 r) at the wall, so E_pk = B_pk · 2c / x at the poles (R. F. Harrington,
+    # Time-Harmonic Electromagnetic Fields, 1961, §6-11, from memory; A from W = 1 J by
+    # quadrature). Order 3 at a/8: measured errors 3e-5 (E_pk) and 5.5e-5 (B_pk); 3e-4
+    # leaves room, and catches a wrong normal on a curved wall (E_r for E·n fails it). Both
+    # peaks sit at mesh vertices (pole, equator), so this does not test the search between
+    # samples; the elliptical cell's figures do (tests/test_elliptical_cell.py).
+    from scipy.optimize import brentq
+    from scipy.special import spherical_jn
+
+    from femcav.axisymmetric.beam_fields import surface_peaks
+    from femcav.geometry.parts import Layout
+    from femcav.geometry.profile import EllipticArc, RevolvedProfile
+
+    a = 0.010
+    x = brentq(lambda s: spherical_jn(1, s) + s * spherical_jn(1, s, derivative=True), 2, 3.5)
+    radial, _ = quad(lambda r: spherical_jn(1, x * r / a) ** 2 * r**2, 0, a, epsrel=1e-12)
+    amplitude = math.sqrt(2 / (mu_0 * radial * 8 * math.pi / 3))     # ∫ sin³θ dθ dφ = 8π/3
+    b_peak = mu_0 * amplitude * spherical_jn(1, x)
+    sphere = RevolvedProfile((EllipticArc((0.0, 0.0), a, a, math.pi, math.pi / 2),
+                              EllipticArc((0.0, 0.0), a, a, math.pi / 2, 0.0)))
+    section = mesh_section(Layout(space=[sphere], background="inside"),
+                           Sizing(size=a / 8, curved=True))
+    result = solve_axisymmetric(make_axisymmetric_model(section, {"inside": Material()}, {}),
+                                orders=(0,), modes=1, order=3)
+    mode = result.modes[0]
+    peaks = surface_peaks(result.spaces[0], mode.dofs, 2 * math.pi * mode.frequency_hz)
+    assert peaks.b_peak_t == pytest.approx(b_peak, rel=3e-4)
+    assert peaks.e_peak_v_per_m == pytest.approx(b_peak * 2 * c / x, rel=3e-4)
+    assert math.hypot(peaks.b_peak_at[0], peaks.b_peak_at[2]) == pytest.approx(a, rel=1e-4)
+    assert abs(peaks.b_peak_at[2]) < 0.05 * a                    # on the equator
+    assert abs(peaks.e_peak_at[2]) == pytest.approx(a, rel=1e-4)  # at a pole
 
 
 def test_without_beam_the_geometry_factor_is_in_the_files_not_the_table(axisymmetric):
@@ -253,6 +307,8 @@ BASE = {"geometry": {"builder": "pillbox", "radius": "10 mm", "length": "15 mm"}
     ({"beam": {"from": ["0 mm", "0 mm", "1 mm"], "to": ["0 mm", "0 mm", "1 mm"]}}, "beam.to"),
     ({"beam": {}, "symmetry": {"x": "pmc"}}, "beam"),
     ({"beam": {"velocity": 1.5}}, "beam.velocity"),
+    ({"beam": {"active_length": "-1 mm"}}, "beam.active_length"),
+    ({"beam": {"active_length": "115"}}, "beam.active_length"),      # no unit
     ({"beam": {"from": ["1 mm", "0 mm", "0 mm"], "to": ["1 mm", "0 mm", "15 mm"]},
       "solve": {"modes": 2, "azimuthal_orders": [0]}}, "beam.from"),
 ])
@@ -272,3 +328,7 @@ def test_a_box_has_no_default_beam_line(tmp_path):
     case = case_from_data(data, tmp_path / "case.toml")
     assert case.beam.start == pytest.approx((0.01, 0.005, 0.0))
     assert case.beam.velocity == 1.0
+    assert case.beam.active_length is None
+    data["beam"]["active_length"] = "115.4 mm"
+    assert case_from_data(data, tmp_path / "case.toml").beam.active_length == pytest.approx(
+        0.1154)

@@ -23,7 +23,7 @@ import math
 import numpy as np
 from scipy.constants import epsilon_0, mu_0
 
-from ..fem.point_location import locate, reference_coordinates
+from ..fem.point_location import basis_values, locate, reference_coordinates
 from ..post.filling import MagneticFilling, region_shares, unit_axis
 from ..post.point_fields import OUTSIDE_SLACK, PointFields, materials_at
 from .revolve import _stored_energy
@@ -56,38 +56,18 @@ def _locate(space: OrderSpace, rz: np.ndarray):
     return where.cells, X
 
 
-# scikit-fem's triangle elements take one set of reference points for all elements, so a
-# batch of points is evaluated in all their elements and the diagonal kept: BATCH² values.
-BATCH = 256
-
-
 def _section_fields(space: OrderSpace, full: np.ndarray, cells, X, r):
     """F and ∇×F as (3, n) (r, φ, z) amplitudes at reference points X (2, n, 1) of
-    ``cells``."""
-    parts = [_section_fields_batch(space, full, cells[k:k + BATCH], X[:, k:k + BATCH, 0],
-                                   r[k:k + BATCH])
-             for k in range(0, cells.size, BATCH)]
-    return np.concatenate([p[0] for p in parts], axis=1), np.concatenate([p[1] for p in parts],
-                                                                          axis=1)
-
-
-def _section_fields_batch(space: OrderSpace, full: np.ndarray, cells, X, r):
+    ``cells``, one point per cell (fem.point_location.basis_values)."""
     eb, nb = space.edge_basis, space.node_basis
-    n = cells.size
-    diagonal = (np.arange(n), np.arange(n))
-    e_val, e_curl = np.zeros((2, n)), np.zeros(n)
-    u_val, u_grad = np.zeros(n), np.zeros((2, n))
     edge, node = full[:space.n_edge], full[space.n_edge:]
-    for i in range(eb.Nbfun):
-        local = eb.elem.gbasis(eb.mapping, X, i, tind=cells)[0]
-        weight = edge[eb.element_dofs[i, cells]]
-        e_val += np.asarray(local)[(slice(None), *diagonal)] * weight
-        e_curl += np.asarray(local.curl)[diagonal] * weight
-    for i in range(nb.Nbfun):
-        local = nb.elem.gbasis(nb.mapping, X, i, tind=cells)[0]
-        weight = node[nb.element_dofs[i, cells]]
-        u_val += np.broadcast_to(np.asarray(local), (n, n))[diagonal] * weight
-        u_grad += np.asarray(local.grad)[(slice(None), *diagonal)] * weight
+
+    def summed(basis, dofs, part):
+        return sum(basis_values(basis, X, i, cells, part)[..., 0]
+                   * dofs[basis.element_dofs[i, cells]] for i in range(basis.Nbfun))
+
+    e_val, e_curl = summed(eb, edge, "value"), summed(eb, edge, "curl")
+    u_val, u_grad = summed(nb, node, "value"), summed(nb, node, "grad")
     meridional = (u_grad + space.m * e_val) / r
     F = np.array([e_val[0], u_val / r, e_val[1]])
     curl = np.array([-meridional[1], -e_curl, meridional[0]])

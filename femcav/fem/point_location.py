@@ -106,7 +106,7 @@ def evaluation_matrix(basis, points: np.ndarray) -> Transfer:
     rows, cols, vals = [], [], []
     components = 1
     for i in range(basis.Nbfun):
-        value = _basis_values(basis, reference, i, cells).reshape(-1, n)   # (components, n)
+        value = basis_values(basis, reference, i, cells).reshape(-1, n)   # (components, n)
         components = value.shape[0]
         for component in range(components):
             rows.append(component * n + np.arange(n))
@@ -119,14 +119,16 @@ def evaluation_matrix(basis, points: np.ndarray) -> Transfer:
                     worst_barycentric=float(min(worst.min(), 0.0)))
 
 
-def _basis_values(basis, reference: np.ndarray, i: int, cells: np.ndarray) -> np.ndarray:
+def basis_values(basis, reference: np.ndarray, i: int, cells: np.ndarray,
+                  part: str = "value") -> np.ndarray:
     """Basis function i of each point's element at that point's reference coordinates
-    ``reference`` (dim, n, 1). Most scikit-fem elements take one reference point per element.
+    ``reference`` (dim, n, 1), or its ``part`` ("curl", "grad": a DiscreteField attribute).
+    Most scikit-fem elements take one reference point per element.
     The third-order Nédélec triangle takes only points shared by all its elements; it is
     given the points as the quadrature points of one element whose map is, at each point, the
     map of that point's own element (_PointwiseMap), in groups of equal edge orientation."""
     try:
-        return np.asarray(basis.elem.gbasis(basis.mapping, reference, i, tind=cells)[0])
+        return _part(basis.elem.gbasis(basis.mapping, reference, i, tind=cells)[0], part)
     except ValueError:
         pass
     mapping = basis.mapping
@@ -137,12 +139,16 @@ def _basis_values(basis, reference: np.ndarray, i: int, cells: np.ndarray) -> np
     for sign in np.unique(orient):
         pick = np.flatnonzero(orient == sign)
         view = _PointwiseMap(mapping.mesh, inverse[:, :, None, pick], determinant[None, pick])
-        value = np.asarray(basis.elem.gbasis(view, reference[:, pick, 0], i,
-                                             tind=cells[pick[:1]])[0])[..., 0, :]
+        value = _part(basis.elem.gbasis(view, reference[:, pick, 0], i,
+                                        tind=cells[pick[:1]])[0], part)[..., 0, :]
         if out is None:
             out = np.empty(value.shape[:-1] + (cells.size,))
         out[..., pick] = value
     return out[..., None]
+
+
+def _part(field, part: str) -> np.ndarray:
+    return np.asarray(field if part == "value" else getattr(field, part))
 
 
 @dataclass(frozen=True)

@@ -5,7 +5,7 @@ modes.json, per mode: ``geometry_factor_ohm`` (null without wall loss) and, with
 ``beam`` = {``voltage_v``, ``transit_time_factor``, ``e_acc_v_per_m``, ``r_over_q_ohm``,
 ``shunt_impedance_ohm``, ``e_peak_over_e_acc``, ``b_peak_over_e_acc_mt_per_mv_per_m``,
 ``e_peak_at_m``, ``b_peak_at_m``}; at the top level ``beam_line`` (``from_m``, ``to_m``,
-``length_m``, ``velocity``).
+``length_m``, ``velocity``, ``active_length_m``: the length E_acc is quoted over).
 """
 
 from __future__ import annotations

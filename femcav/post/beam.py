@@ -8,7 +8,9 @@ mode scaled to W = 1 J stored and s the distance along the line from its start:
                      origin drops out of the modulus: the best phase of a passing charge);
 - transit-time factor T = V / ∫ |E_s| ds (≤ 1; for a single gap with E_s of one sign this
                      is the usual |∫E e^{jωs/βc}| / ∫E);
-- accelerating field E_acc = V / L, L the length of the line;
+- accelerating field E_acc = V / L, L the active length if given, else the length of the
+                     line (the trade quotes a chain of cells with beam pipes over N cell
+                     lengths, with V over the whole axis, pipes included);
 - R/Q = V² / (ω W), the linac convention (the circuit convention is half of it);
 - shunt impedance R = (R/Q) Q_0, Q_0 the mode's wall and dielectric Q;
 - peak surface fields E_pk / E_acc and B_pk / E_acc (mT per MV/m) on the conducting walls.
@@ -33,11 +35,13 @@ MT_PER_MV_PER_M = 1e9
 
 @dataclass(frozen=True)
 class BeamRequest:
-    """[beam] as the case gives it: both ends (m) or neither (the default line), β."""
+    """[beam] as the case gives it: both ends (m) or neither (the default line), β, and the
+    length E_acc is quoted over (m; None: the line's)."""
 
     start: tuple[float, float, float] | None = None
     end: tuple[float, float, float] | None = None
     velocity: float = 1.0
+    active_length: float | None = None
 
 
 @dataclass(frozen=True)
@@ -45,10 +49,15 @@ class BeamLine:
     start: np.ndarray        # (3,) m
     end: np.ndarray          # (3,) m
     velocity: float          # β, a fraction of c
+    active_length: float | None = None     # m, what E_acc is quoted over (None: length)
 
     @property
     def length(self) -> float:
         return float(np.linalg.norm(self.end - self.start))
+
+    @property
+    def acceleration_length(self) -> float:
+        return self.length if self.active_length is None else self.active_length
 
     @property
     def direction(self) -> np.ndarray:
@@ -56,7 +65,8 @@ class BeamLine:
 
     def summary(self) -> dict:
         return {"from_m": self.start.tolist(), "to_m": self.end.tolist(),
-                "length_m": self.length, "velocity": self.velocity}
+                "length_m": self.length, "velocity": self.velocity,
+                "active_length_m": self.acceleration_length}
 
 
 def beam_line(request: BeamRequest, default_start, default_end) -> BeamLine:
@@ -65,7 +75,8 @@ def beam_line(request: BeamRequest, default_start, default_end) -> BeamLine:
     end = np.asarray(request.end if request.end is not None else default_end, float)
     if not np.linalg.norm(end - start) > 0:
         raise InputError("the beam line's two ends are the same point", field="beam.to")
-    return BeamLine(start=start, end=end, velocity=request.velocity)
+    return BeamLine(start=start, end=end, velocity=request.velocity,
+                    active_length=request.active_length)
 
 
 @dataclass(frozen=True)
@@ -125,7 +136,7 @@ def beam_figures(line: BeamLine, integrals: LineIntegrals, peaks: SurfacePeaks |
     the line (V = 0 exactly, as for m >= 1 on the axis of a body of revolution) has no
     transit-time factor and no peak ratios."""
     voltage = abs(integrals.phased)
-    e_acc = voltage / line.length
+    e_acc = voltage / line.acceleration_length
     r_over_q = voltage**2 / (omega * stored_energy_j)
     has_field = integrals.absolute > 0 and voltage > 0
     e_ratio = b_ratio = None

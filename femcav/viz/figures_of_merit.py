@@ -46,8 +46,9 @@ def beam_section(document: dict) -> str:
         ends = " to ".join("(" + ", ".join(f"{v * 1e3:.6g}" for v in p) + ") mm"
                            for p in (line["from_m"], line["to_m"]))
         text = (f"Beam line {ends}, β = {line['velocity']:g}: V = |∫E_s e^(jωs/βc) ds|, "
-                "T = V / ∫|E_s| ds, E_acc = V / L, R/Q = V² / (ωW) (linac convention; the "
-                "circuit convention is half), R = (R/Q) Q_0; peak fields on the conducting "
+                f"T = V / ∫|E_s| ds, E_acc = V / L, L = "
+                f"{line.get('active_length_m', line['length_m']) * 1e3:.6g} mm, "
+                "R/Q = V² / (ωW) (linac convention; the circuit convention is half), R = (R/Q) Q_0; peak fields on the conducting "
                 "walls. " + text)
     return ("<h2>Figures of merit</h2>\n<p>" + e(text) + "</p>\n<table><thead><tr>"
             + "".join(f"<th>{e(h)}</th>" for h in head) + "</tr></thead><tbody>"
