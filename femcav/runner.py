@@ -15,8 +15,8 @@ from .io.vtk import write_vtu, write_wall_loss_vtu
 from .progress import SILENT, Progress
 from .errors import InputError
 from .geometry import symmetry_wall_name
-from .error_bars import estimate_errors
-from .post.error_estimate import mesh_dimension
+from .post.error_estimate import estimate_over_meshes, mesh_dimension
+from .post.singularity import bar_rate
 from .solver import SolveResult, merge_classes, solve_model
 from .walls import METAL, Wall
 
@@ -66,13 +66,45 @@ def _solve_options(settings) -> dict:
 
 
 def solve_with_error_bars(case: Case, walls: dict[str, Wall], settings,
-                          progress: Progress):
+                          progress: Progress, pool=None):
     """Solve three meshes of the part (the case's sizes and two coarser) and give every
     mode of the finest its error bar; with an accuracy target, refine by REFINEMENT_RATIO
     until every bar is within it or the next mesh would exceed max_dofs. A 3D part or a body
-    of revolution (its section meshed at each size): one path."""
-    from .post.singularity import bar_rate
+    of revolution (its section meshed at each size): one path. With ``pool`` (a
+    femcav.study.cluster.ClusterPool) the meshes of each round are solved at once on the
+    cluster."""
+    base_size, measure, solve_at = _mesh_sequence(case, walls, settings)
+    order_rate = partial(bar_rate, order=settings.order)
+    solve_many = None
+    if pool is not None:
+        solve_many, order_rate = _cluster_sequence(pool, case, walls, settings), float
+    r = REFINEMENT_RATIO
+    sizes = [base_size * r**2, base_size * r, base_size]
+    while True:
+        estimated = estimate_over_meshes(solve_at, sizes, modes=settings.modes,
+                                         near_hz=settings.near_hz, order_rate=order_rate,
+                                         size_measure=measure, solve_many=solve_many,
+                                         progress=progress)
+        finest = estimated.finest
+        modes = [replace(m, error_estimate_hz=e.error_estimate_hz,
+                         extrapolated_hz=e.extrapolated_hz)
+                 for m, e in zip(finest.modes, estimated.estimates)]
+        result = replace(finest, modes=modes)
+        if settings.accuracy is None or _worst_bar(result) <= settings.accuracy:
+            return result
+        if finest.dofs * r**mesh_dimension(result) > settings.max_dofs:
+            progress.step(f"accuracy target not reached: the next mesh would exceed "
+                          f"max_dofs = {settings.max_dofs}")
+            return result
+        sizes = sizes[1:] + [sizes[-1] / r]
+        progress.step(f"largest error bar {_worst_bar(result):.1e} above the target "
+                      f"{settings.accuracy:.1e}: refining to {sizes[-1] * 1e3:.3g} mm")
 
+
+def _mesh_sequence(case: Case, walls: dict[str, Wall], settings):
+    """(the case's element size, the size measure of the extrapolation, solve_at) where
+    solve_at(size, count) meshes the part (or its section) at ``size`` and returns (model,
+    result) with ``count`` modes."""
     if settings.azimuthal_orders is not None:
         from .axisymmetric.runner import section_model_builder
         from .axisymmetric.solve import solve_axisymmetric
@@ -91,28 +123,38 @@ def solve_with_error_bars(case: Case, walls: dict[str, Wall], settings,
         solve, options = solve_model, dict(
             form=settings.form, order=settings.order, complex_check=settings.complex_check,
             factorization=settings.factorization, method=settings.method)
-    r = REFINEMENT_RATIO
-    sizes = [base_size * r**2, base_size * r, base_size]
-    while True:
-        estimated = estimate_errors(build_model, sizes, modes=settings.modes,
-                                    near_hz=settings.near_hz,
-                                    order_rate=partial(bar_rate, order=settings.order),
-                                    size_measure=measure, solve=solve, progress=progress,
-                                    **options)
-        finest = estimated.finest
-        modes = [replace(m, error_estimate_hz=e.error_estimate_hz,
-                         extrapolated_hz=e.extrapolated_hz)
-                 for m, e in zip(finest.modes, estimated.estimates)]
-        result = replace(finest, modes=modes)
-        if settings.accuracy is None or _worst_bar(result) <= settings.accuracy:
-            return result
-        if finest.dofs * r**mesh_dimension(result) > settings.max_dofs:
-            progress.step(f"accuracy target not reached: the next mesh would exceed "
-                          f"max_dofs = {settings.max_dofs}")
-            return result
-        sizes = sizes[1:] + [sizes[-1] / r]
-        progress.step(f"largest error bar {_worst_bar(result):.1e} above the target "
-                      f"{settings.accuracy:.1e}: refining to {sizes[-1] * 1e3:.3g} mm")
+
+    def solve_at(size: float, count: int):
+        model = build_model(size)
+        return model, solve(model, modes=count, near_hz=settings.near_hz, **options)
+
+    return base_size, measure, solve_at
+
+
+def _cluster_sequence(pool, case: Case, walls: dict[str, Wall], settings):
+    """solve_many(sizes, count) -> [(rate, result)]: every mesh a task on the cluster of
+    ``pool``, each task the case's tables, the extra walls, the settings and a size; the
+    worker returns the bar rate of its model (post.singularity) with the result."""
+    from .case import read_case_data
+
+    data = read_case_data(case.path)
+
+    def solve_many(sizes, count):
+        return pool.gather(solve_mesh_task, [(data, str(case.path), walls, settings, size,
+                                              count) for size in sizes])
+    return solve_many
+
+
+def solve_mesh_task(task):
+    """A cluster task of an error-bar sequence (see _cluster_sequence)."""
+    from .case import case_from_data
+
+    data, path, walls, settings, size, count = task
+    case = case_from_data({k: v for k, v in data.items()
+                           if k not in ("sweep", "tune", "extract", "tolerances")},
+                          Path(path))
+    model, result = _mesh_sequence(case, walls, settings)[2](size, count)
+    return bar_rate(model, settings.order), result
 
 
 def _part_model_builder(case: Case, walls: dict[str, Wall]):
@@ -204,7 +246,7 @@ def solve_case(case: Case, settings, progress: Progress = SILENT, pool=None):
 
 def _solve_modes(case: Case, settings, progress: Progress, pool=None):
     if settings.azimuthal_orders is not None:
-        result = _solve_axisymmetric(case, settings, progress)
+        result = _solve_axisymmetric(case, settings, progress, pool)
         if settings.sensitivities:
             result = _with_sensitivities(result)
         if settings.accuracy is not None:
@@ -226,7 +268,8 @@ def _solve_modes(case: Case, settings, progress: Progress, pool=None):
             progress.step(f"symmetry class {label}")
         try:
             if settings.error_estimate:
-                labelled.append((label, solve_with_error_bars(case, walls, settings, progress)))
+                labelled.append((label, solve_with_error_bars(case, walls, settings, progress,
+                                                                pool)))
             else:
                 model = case_model(case, mesh, extra_walls=walls)
                 labelled.append((label, solve_model(model, **_solve_options(settings),
@@ -442,7 +485,7 @@ def model_summary(case: Case, result) -> dict:
             "symmetry": {axis: list(kinds) for axis, kinds in case.symmetry.items()}}
 
 
-def _solve_axisymmetric(case: Case, settings, progress: Progress):
+def _solve_axisymmetric(case: Case, settings, progress: Progress, pool=None):
     from .axisymmetric.runner import solve_axisymmetric_case
 
     if settings.method == "iterative":
@@ -451,6 +494,6 @@ def _solve_axisymmetric(case: Case, settings, progress: Progress):
     if not settings.error_estimate:
         return solve_axisymmetric_case(case, settings, progress)
     try:
-        return solve_with_error_bars(case, {}, settings, progress)
+        return solve_with_error_bars(case, {}, settings, progress, pool)
     except InputError as exc:
         raise exc.located(source=str(case.path)) from None

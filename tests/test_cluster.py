@@ -484,3 +484,24 @@ def test_a_lost_scheduler_is_one_line_and_keeps_the_points(tmp_path):
     assert err.strip().splitlines() == [err.strip()] and "scheduler was lost" in err
     assert list(out.glob("points/*.json"))            # what was solved stays
     assert not (out / "sweep.json").exists()
+
+
+def test_error_bars_on_the_cluster_equal_the_local_ones(cluster, tmp_path):
+    # The three meshes of an error estimate, solved at once on the cluster's workers: the
+    # same meshes and solves as here, so the same frequencies and bars to round-off, and
+    # the bars hold the closed form (TE101 = (c/2) sqrt(1/a² + 1/d²), Pozar §6.3).
+    from femcav.case import load_case
+    from femcav.runner import solve_case
+    from femcav.study.cluster import optional_cluster_pool
+
+    path = tmp_path / "box.toml"
+    path.write_text(BOX.split("[sweep]")[0].replace("[solve]", "[solve]\nerror_estimate = true"))
+    case = load_case(path)
+    local = solve_case(case, case.solve)
+    with optional_cluster_pool(cluster.address, Progress(quiet=True)) as pool:
+        remote = solve_case(case, case.solve, pool=pool)
+    assert len(remote.modes) == len(local.modes)
+    for a, b in zip(local.modes, remote.modes):
+        assert b.frequency_hz == pytest.approx(a.frequency_hz, rel=1e-12)
+        assert b.error_estimate_hz == pytest.approx(a.error_estimate_hz, rel=1e-6)
+    assert abs(remote.modes[0].frequency_hz - te101(0.028)) <= remote.modes[0].error_estimate_hz

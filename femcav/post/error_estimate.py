@@ -141,8 +141,8 @@ def _estimate(index, sizes, use, mean, matched, overlaps, j, group, order_rate) 
 def estimate_over_meshes(solve_at: Callable[[float, int], tuple], sizes: Sequence[float], *,
                          modes: int, near_hz: float | None = None,
                          order_rate: float | Callable[[object], float] = 2.0,
-                         size_measure: str = "nominal", progress: Progress = SILENT
-                         ) -> EstimatedResult:
+                         size_measure: str = "nominal", solve_many: Callable | None = None,
+                         progress: Progress = SILENT) -> EstimatedResult:
     """Solve the part at every mesh size (metres, any order; at least two, three for an
     observed rate) and give each of the ``modes`` requested modes of the finest mesh an
     error estimate. ``solve_at(size, count)`` returns (model, result) for a mesh of ``size``
@@ -153,7 +153,10 @@ def estimate_over_meshes(solve_at: Callable[[float, int], tuple], sizes: Sequenc
     on a smooth part (the eigenvalue error goes like h^(2k); D. Boffi, Acta Numerica 19
     (2010), from memory); it is the fallback when the observed rate cannot be trusted; it may
     be a function of the model (femcav.post.singularity.bar_rate lowers it for parts with
-    singular edges), called on the first mesh's. ``size_measure`` "dofs" extrapolates in
+    singular edges), called on the first element solve_at returns (the model, or whatever
+    the caller's order_rate takes). ``solve_many(sizes, count)``, when given, solves the
+    sizes at once (on a cluster) and returns the list of those pairs; solve_at then only
+    serves a mesh added later. ``size_measure`` "dofs" extrapolates in
     N^(-1/d) (d = 3 for tetrahedra, 2 for a section) instead of the nominal size."""
     if size_measure not in SIZE_MEASURES:
         raise ValueError(f"size_measure must be one of {SIZE_MEASURES}, got {size_measure!r}")
@@ -163,10 +166,11 @@ def estimate_over_meshes(solve_at: Callable[[float, int], tuple], sizes: Sequenc
     asked = modes + extra_modes(modes)
     results, solved, wanted = [], [], len(sizes)
     ratio = sizes[-2] / sizes[-1]
+    ready = dict(zip(sizes, solve_many(sizes, asked))) if solve_many is not None else {}
     while sizes:
         size = sizes.pop(0)
         t0 = time.perf_counter()
-        model, result = solve_at(size, asked)
+        model, result = ready.pop(size) if size in ready else solve_at(size, asked)
         if callable(order_rate):
             order_rate = float(order_rate(model))
             progress.step(f"error estimate: theoretical rate h^{order_rate:.3g}")
