@@ -93,6 +93,13 @@ class Case:
     tolerance_samples: object = None
 
 
+def in_case(exc: InputError, source: str | None) -> InputError:
+    """A core error located in the case file: its source, and the key of the request
+    parameter it names (the [solve] table holds them all: order, form, method, ...)."""
+    field = f"solve.{exc.option}" if exc.field is None and exc.option else None
+    return exc.located(source=source, field=field)
+
+
 def read_case_data(path: str | Path) -> dict:
     """The raw TOML tables of a case file (for studies that vary them before validation)."""
     path = Path(path)
@@ -149,7 +156,7 @@ def case_from_data(data: dict, path: Path) -> Case:
         from .study.monte_carlo import parse_monte_carlo
         samples = parse_monte_carlo(_table(data, "tolerances"), tolerances)
     except InputError as exc:
-        raise exc.located(source=source) from None
+        raise in_case(exc, source) from None
     return Case(path=path, title=title, geometry=geometry, regions=regions, walls=walls,
                 solve=solve, mesh=mesh, symmetry=symmetry, tolerances=tolerances,
                 probes=probes, filling_axis=filling_axis, beam=beam,
@@ -293,7 +300,7 @@ def build_mesh(case: Case) -> TaggedMesh:
             return build_part(g.builder, sizing=sizing, symmetry=tuple(case.symmetry),
                               **g.parameters)
         except InputError as exc:
-            raise exc.located(source=str(case.path)) from None
+            raise in_case(exc, str(case.path)) from None
     if not g.mesh_path.is_file():
         raise InputError(f"mesh file {str(g.mesh_path)!r} not found", source=str(case.path),
                          field="geometry.mesh")

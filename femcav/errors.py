@@ -13,20 +13,27 @@ from __future__ import annotations
 
 
 class InputError(Exception):
-    """A mistake in the user's input, located by source (a file) and field (a key path)."""
+    """A mistake in the user's input, located by source (a file) and field (a key path).
 
-    def __init__(self, message: str, *, source: str | None = None, field: str | None = None):
+    Below the case layer the solver knows no file keys: it names the request parameter at
+    fault as ``option`` ("order", "method", ...), and the case layer, which knows where each
+    parameter is written (case.in_case: the [solve] table), turns it into a field."""
+
+    def __init__(self, message: str, *, source: str | None = None, field: str | None = None,
+                 option: str | None = None):
         super().__init__(message)
         self.message = message
         self.source = source
         self.field = field
+        self.option = option
 
     def located(self, *, source: str | None = None, field: str | None = None) -> "InputError":
         """The same error with a source or field filled in where it was still unknown."""
-        return InputError(self.message, source=self.source or source, field=self.field or field)
+        return InputError(self.message, source=self.source or source, field=self.field or field,
+                          option=self.option)
 
     def __str__(self) -> str:
-        where = ": ".join(part for part in (self.source, self.field) if part)
+        where = ": ".join(part for part in (self.source, self.field or self.option) if part)
         # Keys, file names and values in a message come from the user: escaped here, in the
         # one place every message is formatted, so no raise site can forget it.
         return printable(f"{where}: {self.message}" if where else self.message)

@@ -8,7 +8,7 @@ from functools import partial
 from dataclasses import replace
 from pathlib import Path
 
-from .case import Case, build_mesh, case_model, load_case
+from .case import Case, build_mesh, case_model, in_case, load_case
 from .io.atomic import check_output_folder, staged_output
 from .io.results import to_csv, to_json, to_table
 from .io.vtk import write_vtu, write_wall_loss_vtu
@@ -241,7 +241,10 @@ def solve_case(case: Case, settings, progress: Progress = SILENT, pool=None):
     for the morphed solves of [tolerances]."""
     from .merit import with_figures_of_merit
 
-    return with_figures_of_merit(_solve_modes(case, settings, progress, pool), case.beam)
+    try:
+        return with_figures_of_merit(_solve_modes(case, settings, progress, pool), case.beam)
+    except InputError as exc:
+        raise in_case(exc, str(case.path)) from None
 
 
 def _solve_modes(case: Case, settings, progress: Progress, pool=None):
@@ -275,7 +278,7 @@ def _solve_modes(case: Case, settings, progress: Progress, pool=None):
                 labelled.append((label, solve_model(model, **_solve_options(settings),
                                                     progress=progress)))
         except InputError as exc:
-            raise exc.located(source=str(case.path)) from None
+            raise in_case(exc, str(case.path)) from None
     if settings.sensitivities:
         labelled = [(label, _with_sensitivities(r)) for label, r in labelled]
     labelled = [(label, _with_labels(case, r)) for label, r in labelled]
@@ -313,7 +316,7 @@ def check_probes_inside(case: Case, mesh) -> None:
             refuse_outside(points_outside(mesh.points, mesh.tets, folded), probe.points,
                            f"probes.{probe.name}")
         except InputError as exc:
-            raise exc.located(source=str(case.path)) from None
+            raise in_case(exc, str(case.path)) from None
 
 
 def _with_field_figures(case: Case, result):
@@ -359,7 +362,7 @@ def check_probes_on_section(case: Case, section) -> None:
         try:
             refuse_outside(section_outside(section, rz), p, f"probes.{probe.name}")
         except InputError as exc:
-            raise exc.located(source=str(case.path)) from None
+            raise in_case(exc, str(case.path)) from None
 
 
 def _with_tolerances(case: Case, result: SolveResult, progress: Progress,
@@ -496,4 +499,4 @@ def _solve_axisymmetric(case: Case, settings, progress: Progress, pool=None):
     try:
         return solve_with_error_bars(case, {}, settings, progress, pool)
     except InputError as exc:
-        raise exc.located(source=str(case.path)) from None
+        raise in_case(exc, str(case.path)) from None

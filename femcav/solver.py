@@ -125,10 +125,10 @@ def check_request(modes, near_hz) -> None:
     """InputError unless ``modes`` is a count >= 1 and ``near_hz`` is None or positive."""
     if not isinstance(modes, int) or modes < 1:
         raise InputError(f"the number of modes must be a whole number >= 1, got {modes!r}",
-                         field="solve.modes")
+                         option="modes")
     if near_hz is not None and not near_hz > 0:
         raise InputError(f"the target frequency must be positive, got {near_hz!r} Hz",
-                         field="solve.near")
+                         option="near")
 
 
 def frequency_to_k0_squared(f_hz: float) -> float:
@@ -149,7 +149,7 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
                   f"tetrahedra, {G.shape[1]} gradient DOFs")
     if space.n_dofs < modes + 2:
         raise InputError(f"the mesh has only {space.n_dofs} free DOFs, too few for {modes} "
-                         "modes; refine the mesh", field="solve.modes")
+                         "modes; refine the mesh", option="modes")
 
     request = EigenRequest(count=modes,
                            target=None if near_hz is None else frequency_to_k0_squared(near_hz))

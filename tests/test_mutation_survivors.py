@@ -9,6 +9,8 @@ import numpy as np
 import pytest
 import scipy.sparse as sp
 
+from femcav.case import in_case
+
 
 # --- fem -------------------------------------------------------------------------------------
 
@@ -25,12 +27,15 @@ def test_space_defaults_and_refusals():
     assert space.dofs.N == space.mesh.edges.shape[1]
     with pytest.raises(InputError) as refused:
         build_space(model, "X", 1)
-    assert (refused.value.field, refused.value.message) == (
-        "solve.form", "unknown field form 'X'; allowed: E, H")
+    # the core names the request parameter; the case layer names its key (issue 18)
+    assert (refused.value.option, refused.value.message) == (
+        "form", "unknown field form 'X'; allowed: E, H")
+    assert in_case(refused.value, "c.toml").field == "solve.form"
     with pytest.raises(InputError) as refused:
         build_space(model, "E", 4)
-    assert (refused.value.field, refused.value.message) == (
-        "solve.order", "element order must be one of 1, 2, 3, got 4")
+    assert (refused.value.option, refused.value.message) == (
+        "order", "element order must be one of 1, 2, 3, got 4")
+    assert str(in_case(refused.value, "c.toml")).startswith("c.toml: solve.order: ")
 
 
 def test_mass_matrix_against_scikit_fem_and_grounding():
@@ -135,12 +140,13 @@ def test_eigen_refusals_name_the_key_or_the_backend():
     with pytest.raises(InputError) as refused:
         choose("fastest", n=1000, nnz=20000, request=EigenRequest(5), order=1,
                library="superlu")
-    assert refused.value.field == "solve.method"
+    assert refused.value.option == "method"
     for request, order in ((EigenRequest(5, target=1e4), 1), (EigenRequest(5), 4)):
         with pytest.raises(InputError) as refused:
             choose("iterative", n=1000, nnz=20000, request=request, order=order,
                    library="superlu")
-        assert refused.value.field == "solve.method"
+        assert refused.value.option == "method"
+        assert in_case(refused.value, None).field == "solve.method"
     with pytest.raises(ValueError, match="^LOBPCG finds the lowest modes only; for modes near "
                                          "a target frequency use the shift-invert backend$"):
         lobpcg.solve(None, None, None, EigenRequest(5, target=1e4), None, lowest_scale=1.0)

@@ -86,7 +86,7 @@ def line_field_integrals(space: OrderSpace, dofs, omega: float, line: BeamLine
     if space.form != "E":
         raise InputError("beam figures of a body of revolution need the E form (the field "
                          "on the axis of the H form is a limit of 1/r terms)",
-                         field="solve.form")
+                         option="form")
     mesh = space.edge_basis.mesh
     mapping = space.edge_basis.mapping
     cells, local = _on_edges(mesh, _axis_facets(space))

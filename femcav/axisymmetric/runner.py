@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from dataclasses import replace
 
-from ..case import Case, case_materials
+from ..case import Case, case_materials, in_case
 from ..errors import InputError
 from ..geometry import BUILDERS, builder_layout
 from ..geometry.section import mesh_section
@@ -66,7 +66,7 @@ def solve_axisymmetric_case(case: Case, settings, progress: Progress) -> Axisymm
                                     form=settings.form or "E", progress=progress)
         return label_cells(case, result, progress)
     except InputError as exc:
-        raise exc.located(source=str(case.path)) from None
+        raise in_case(exc, str(case.path)) from None
 
 
 def label_cells(case: Case, result: AxisymmetricResult, progress: Progress

@@ -160,7 +160,7 @@ def _checked_orders(orders) -> tuple[int, ...]:
     if not out or not all(isinstance(m, int) and not isinstance(m, bool) and m >= 0
                           for m in out):
         raise InputError(f"azimuthal_orders must be a list of whole numbers >= 0, got "
-                         f"{orders!r}", field="solve.azimuthal_orders")
+                         f"{orders!r}", option="azimuthal_orders")
     return out
 
 

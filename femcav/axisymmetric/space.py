@@ -175,10 +175,10 @@ def build_order_space(model: AxisymmetricModel, m: int, order: int,
                       mesh: MeshTri | None = None, form: str = "E") -> OrderSpace:
     if order not in ELEMENTS:
         raise InputError(f"the axisymmetric solver has element orders 1, 2 and 3, got "
-                         f"{order!r}", field="solve.order")
+                         f"{order!r}", option="order")
     if not isinstance(m, int) or m < 0:
         raise InputError(f"azimuthal orders are whole numbers >= 0, got {m!r}",
-                         field="solve.azimuthal_orders")
+                         option="azimuthal_orders")
     mesh = skfem_mesh(model) if mesh is None else mesh
     edge_element, node_element = ELEMENTS[order]
     intorder = quadrature_order(order)
@@ -187,7 +187,7 @@ def build_order_space(model: AxisymmetricModel, m: int, order: int,
 
     if form not in FORMS:
         raise InputError(f"unknown field form {form!r}; allowed: {', '.join(FORMS)}",
-                         field="solve.form")
+                         option="form")
     # Boundary facets: on the axis (both ends at r = 0), on a PMC wall, and all others PEC or
     # metal, named or not (an unnamed boundary is the metal enclosure, as in 3D). The walls
     # whose kind is essential in this form fix their tangential DOFs.

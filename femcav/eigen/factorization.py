@@ -87,10 +87,10 @@ def get_factorizer(name: str) -> Callable[..., Solve]:
 
     if name not in FACTORIZERS:
         raise InputError(f"unknown factorisation {name!r}; allowed: {', '.join(FACTORIZERS)}",
-                         field="solve.factorization")
+                         option="factorization")
     if name == "pardiso" and not available():
         raise InputError("factorization = \"pardiso\" needs MKL: pip install 'femcav[fast]' "
-                         "(or use \"auto\" or \"superlu\")", field="solve.factorization")
+                         "(or use \"auto\" or \"superlu\")", option="factorization")
     return FACTORIZERS[name]
 
 

@@ -46,7 +46,7 @@ def choose(method: str, *, n: int, nnz: int, request: EigenRequest, order: int, 
            free_bytes: float | None = None) -> Choice:
     if method not in METHODS:
         raise InputError(f"must be one of {', '.join(map(repr, METHODS))}, got {method!r}",
-                         field="solve.method")
+                         option="method")
     free = available_bytes() if free_bytes is None else free_bytes
     budget = MEMORY_SHARE * free
     block = request.count + max(4, request.count // 2)
@@ -59,11 +59,11 @@ def choose(method: str, *, n: int, nnz: int, request: EigenRequest, order: int, 
         if request.target is not None:
             raise InputError("the iterative method finds the lowest modes only; for modes near "
                              "a frequency use method = \"direct\" (or \"auto\")",
-                             field="solve.method")
+                             option="method")
         if order not in ITERATIVE_ORDERS:
             raise InputError(f"the iterative method supports element order "
                              f"{', '.join(map(str, ITERATIVE_ORDERS))}; got order {order}",
-                             field="solve.method")
+                             option="method")
         choice = Choice("iterative", "asked for", iterative, free)
     elif method == "direct":
         choice = Choice("direct", "asked for", direct, free)

@@ -99,10 +99,10 @@ def build_space(model: Model, form: str = "E", order: int = 1) -> EdgeSpace:
 
     if form not in FORMS:
         raise InputError(f"unknown field form {form!r}; allowed: {', '.join(FORMS)}",
-                         field="solve.form")
+                         option="form")
     if order not in ORDERS:
         raise InputError(f"element order must be one of {', '.join(map(str, ORDERS))}, got "
-                         f"{order!r}", field="solve.order")
+                         f"{order!r}", option="order")
     mesh = _skfem_mesh(model.mesh)
     uniform = all(m.is_uniform for m in model.materials.values())
     element, scalar_element = ElementTetNedelec(order), ElementTetLagrange(order)

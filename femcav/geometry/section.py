@@ -32,7 +32,7 @@ def _rectangle(solid, tol: float) -> tuple[float, float, float]:
             return float(solid.radius), float(z0), float(z1)
     raise InputError(f"{solid} is not a body of revolution about the z axis, so this part "
                      "has no axisymmetric model; solve it in 3D (drop azimuthal_orders)",
-                     field="solve.azimuthal_orders")
+                     option="azimuthal_orders")
 
 
 def axisymmetric_layout_check(layout: Layout) -> None:

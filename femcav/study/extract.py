@@ -28,6 +28,7 @@ import re
 from dataclasses import dataclass, replace
 from pathlib import Path
 
+from ..case import in_case
 from ..errors import InputError
 from ..io import strict_json
 from ..io.atomic import check_output_folder, staged_output
@@ -135,7 +136,7 @@ def run_extract(path: str | Path, *, out: str | Path | None = None,
         tan_delta = (1.0 / spec.loaded_q - 1.0 / q_wall - others) / p_sample
         perturbation = _perturbation_estimate(empty, empty_mode, spec)
     except InputError as exc:
-        raise exc.located(source=str(path)) from None
+        raise in_case(exc, str(path)) from None
     document = {"format": "femcav-extract", "format_version": 1, "case": str(path),
                 "sample": spec.sample, "mode": spec.mode, "eps_r": eps, "tan_delta": tan_delta,
                 "filling_factor": p_sample, "q_wall_calibrated": q_wall,

@@ -34,7 +34,7 @@ import numpy as np
 
 from ..axisymmetric.model import make_axisymmetric_model
 from ..axisymmetric.space import build_order_space, skfem_mesh
-from ..case import case_from_data, case_materials, case_model, read_case_data
+from ..case import case_from_data, case_materials, case_model, in_case, read_case_data
 from ..fem.space import build_space
 from ..geometry.meridional import MeridionalMesh
 from ..errors import InputError, ResourceError
@@ -127,7 +127,7 @@ def load_study(path: Path, parse, trials=lambda spec: ()):
                 raise InputError(f"the point {at} is refused: {exc.field}: {exc.message}",
                                  field=culprit) from None
     except InputError as exc:
-        raise exc.located(source=str(path)) from None
+        raise in_case(exc, str(path)) from None
     return data, spec, base
 
 
@@ -269,7 +269,7 @@ def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
                       _solve_points(data, path, spec, fingerprints, todo, folder, jobs,
                                     progress) or {})
         except InputError as exc:
-            raise exc.located(source=str(path)) from None
+            raise in_case(exc, str(path)) from None
         results = [done[i] if i in done else None if i in failed else read_point(folder, i)
                    for i in range(len(points))]
         document = _tracked_document(data, path, spec, base, results, progress)

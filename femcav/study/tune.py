@@ -23,6 +23,7 @@ from pathlib import Path
 
 from scipy.optimize import brentq
 
+from ..case import in_case
 from ..errors import InputError
 from ..io import strict_json
 from ..io.atomic import check_output_folder, staged_output
@@ -197,7 +198,7 @@ def _tune(data, path: Path, spec: TuneSpec, base, folder: Path, pool, progress: 
         iterations = len(runs.points) - before
         final = _final_with_error_bar(runs, value, progress)
     except InputError as exc:
-        raise exc.located(source=str(path)) from None
+        raise in_case(exc, str(path)) from None
     document = {"format": "femcav-tune", "format_version": 1, "case": str(path),
                 "parameter": spec.path, "unit": _axis(spec).unit,
                 "target_hz": spec.target_hz, "mode": spec.mode, "value": value,
