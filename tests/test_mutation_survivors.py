@@ -130,8 +130,8 @@ def test_v_cycle_hierarchy_matches_pyamg_and_converges():
 
 
 def test_eigen_refusals_name_the_key_or_the_backend():
-    """An unknown method is a user mistake on the method parameter; asking LOBPCG for modes near a
-    target is a programming mistake that names the backend to use instead."""
+    """An unknown method is a user mistake on the method parameter; asking LOBPCG for
+    modes near a target is a programming mistake that names the backend to use instead."""
     from femcav.eigen import lobpcg
     from femcav.eigen.interface import EigenRequest
     from femcav.eigen.selection import choose
