@@ -35,12 +35,7 @@ def show(folder: str | Path, *, mode: int | None = None, arrows: str = "E") -> l
         for row in modes:
             if mode is not None and row["index"] != mode:
                 continue
-            label = row.get("field_class")
-            if row.get("azimuthal_order") is not None:
-                label = f"m = {row['azimuthal_order']}, {label}"
-            title = (f"{document.get('title', '')}\nmode {row['index']}: "
-                     f"{format_frequency(row['frequency_hz'], 7)}"
-                     + (f" ({label})" if label else ""))
+            title = picture_title(document, row)
             name = f"mode_{row['index']:02d}.png"
             files.write_with(name, lambda p, r=row, t=title: draw_mode_picture(
                 grid, r["index"], t, p, arrows=arrows), suffix=".png")
@@ -53,6 +48,28 @@ def show(folder: str | Path, *, mode: int | None = None, arrows: str = "E") -> l
             files.write_with("report.html", lambda p: write_report(document, pictures, p))
         written.append(folder / "report.html")
     return written
+
+
+def mode_description(row: dict) -> str:
+    """What is known of a mode's kind: its label, its azimuthal order and field class, its
+    symmetry class; "" when nothing is."""
+    parts = []
+    if row.get("label"):
+        parts.append(row["label"])
+    if row.get("azimuthal_order") is not None:
+        parts.append(f"m = {row['azimuthal_order']}, {row.get('field_class')}")
+    elif row.get("field_class"):
+        parts.append(row["field_class"])
+    if row.get("symmetry"):
+        parts.append(row["symmetry"])
+    return "; ".join(dict.fromkeys(parts))
+
+
+def picture_title(document: dict, row: dict) -> str:
+    """The title of a mode's picture: the case, the mode number, frequency and kind."""
+    kind = mode_description(row)
+    return (f"{document.get('title', '')}\nmode {row['index']}: "
+            f"{format_frequency(row['frequency_hz'], 7)}" + (f" ({kind})" if kind else ""))
 
 
 def _write_probe_plots(files, folder: Path, document: dict) -> list[Path]:
