@@ -190,3 +190,13 @@ def test_the_report_says_timings_in_words_and_shows_the_second_tables(tmp_path):
     assert "assembly_s" not in html and "eigen_s" not in html
     assert "eigen solve 1.00 s" in html
     assert "Frequency spread from [tolerances]" in html and "TM010" in html
+
+
+def test_a_bare_number_too_small_for_a_part_is_refused_naming_the_unit(tmp_path):
+    from femcav.errors import InputError
+
+    # 0.5 µm written as a bare 5e-7: below the 1 µm femcav takes for a dimension
+    text = BOX.format(width=5e-7, height='"10 mm"', length='"25 mm"')
+    with pytest.raises(InputError, match=r"geometry.width: .*the bare number 5e-07 is read "
+                                         r"as 5e-07 m"):
+        load_case(_case(tmp_path, text))
