@@ -236,3 +236,23 @@ def test_mesh_picture_shows_a_post_inside_a_one_region_part():
     flagged = {tuple(sorted(f)) for f in outer[inside]}
     # every post triangle is drawn as a wall inside the part, and nothing else is
     assert flagged == post and len(post) > 0
+
+
+def test_spectrum_leaves_room_for_its_markers(tmp_path, monkeypatch):
+    import matplotlib.pyplot as plt
+
+    from femcav.viz.spectrum import write_spectrum
+
+    figures = []
+    monkeypatch.setattr(plt, "close", figures.append)
+    qs = [1.2e4, 3.0e3, 9.9e3]
+    document = {"title": "t", "weyl": {}, "request": {"near_hz": None},
+                "modes": [{"index": k + 1, "frequency_hz": 9e9 + k * 1e9, "q_total": q}
+                          for k, q in enumerate(qs)]}
+    write_spectrum(document, tmp_path / "spectrum.png")
+    top_axes = figures[0].axes[0]
+    low, high = top_axes.get_ylim()
+    # a marker at the top (or bottom) of a log axis is cut in half: keep a margin
+    monkeypatch.undo()
+    plt.close(figures[0])
+    assert high > 1.5 * max(qs) and low < min(qs) / 1.5
