@@ -5,9 +5,11 @@ r^(-1/3) beside a right-angled edge, common practice), and the finite-element fi
 takes whatever large value its smallest elements allow. A scale topped at the largest value
 then paints the rest of the part near the bottom of the colour map. The scale here tops at
 the SCALE_PERCENTILE-th percentile of the magnitude weighted by cell volume (or face area):
-the value that all but (100 - SCALE_PERCENTILE) % of the part's volume stays under. The
-small, graded cells at singular edges hold little volume, so they no longer set it; the
-cells above it are drawn in the top colour, and the colour bar says so.
+the value that all but (100 - SCALE_PERCENTILE) % of the part's volume stays under, with
+HEADROOM above it, or at the largest value where that is lower (a smooth field, whose peak
+is then not flattened). The small, graded cells at singular edges hold little volume, so
+they no longer set it; the cells above it are drawn in the top colour, and the colour bar
+says so.
 """
 
 from __future__ import annotations
@@ -15,12 +17,16 @@ from __future__ import annotations
 import numpy as np
 
 SCALE_PERCENTILE = 99.0
+# a smooth field's maximum is within a few per cent of its 99th percentile by volume (a
+# pillbox's TM010), a singular one's many times above it: the scale keeps the maximum when
+# it is within this factor
+HEADROOM = 1.2
 
 
 def clipped_top(values: np.ndarray, weights: np.ndarray,
                 percentile: float = SCALE_PERCENTILE) -> float:
-    """The weighted ``percentile`` of ``values`` (weights: cell volumes or face areas); a
-    positive number even for a zero field."""
+    """HEADROOM times the weighted ``percentile`` of ``values`` (weights: cell volumes or
+    face areas), or their maximum if lower; a positive number even for a zero field."""
     values = np.asarray(values, dtype=float).ravel()
     weights = np.abs(np.asarray(weights, dtype=float).ravel())
     if values.size == 0 or not np.any(weights > 0):
@@ -28,14 +34,14 @@ def clipped_top(values: np.ndarray, weights: np.ndarray,
     order = np.argsort(values)
     cumulative = np.cumsum(weights[order])
     k = int(np.searchsorted(cumulative, percentile / 100.0 * cumulative[-1]))
-    top = float(values[order][min(k, values.size - 1)])
+    top = min(HEADROOM * float(values[order][min(k, values.size - 1)]), float(values.max()))
     return top if top > 0 else (float(values.max()) or 1.0)
 
 
 def scale_note(percentile: float = SCALE_PERCENTILE, what: str = "volume") -> str:
     """The colour bar's words for the clipping."""
-    return (f"scale clipped at the {percentile:g}th percentile by {what}; "
-            "higher values in the top colour")
+    return (f"scale tops at {HEADROOM:g} x the {percentile:g}th percentile by {what} or at "
+            "the maximum if lower; higher values in the top colour")
 
 
 def colour_bar(quantity: str, what: str = "volume", ink: str = "#1E2328") -> dict:
