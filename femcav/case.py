@@ -16,10 +16,12 @@ from pathlib import Path
 import numpy as np
 
 from . import schema
+from .bare_numbers import bare_number_warnings
 from .errors import InputError
 from .expressions import Expression
 from .geometry import BUILDERS, build_part, builder_layout, read_mesh
 from .geometry.mesh import TaggedMesh
+from .geometry.names import check_case_names
 from .geometry.params import checked_length, parse_params
 from .materials import VACUUM, Material
 from .metals import CONDUCTIVITY_S_PER_M
@@ -43,6 +45,8 @@ class GeometrySpec:
     parameters: dict[str, object] = field(default_factory=dict)   # SI values
     mesh_path: Path | None = None
     mesh_unit_m: float = 1.0
+    # said on stderr before the work starts (femcav.bare_numbers)
+    warnings: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -147,6 +151,8 @@ def case_from_data(data: dict, path: Path) -> Case:
                              field="solve.error_estimate" if "error_estimate" in
                              _table(data, "solve") else "solve.accuracy")
         symmetry = _symmetry(_table(data, "symmetry"), geometry, walls)
+        if geometry.builder is not None:    # names are checked before any meshing
+            check_case_names(geometry.builder, geometry.parameters, regions, walls)
         if solve.azimuthal_orders is not None:
             _check_axisymmetric(solve, geometry, symmetry)
         tolerances = _tolerances(_table(data, "tolerances"), geometry, symmetry, solve)
@@ -357,8 +363,9 @@ def _geometry(spec: dict, base: Path) -> GeometrySpec:
     given = {k: v for k, v in spec.items() if k != "builder"}
     parameters = (builder.parse(given, "geometry") if hasattr(builder, "parse")
                   else parse_params(builder.PARAMETERS, given, "geometry"))
-    builder_layout(name, parameters)  # refuse parameters that do not fit together, now
-    return GeometrySpec(builder=name, parameters=parameters)
+    layout = builder_layout(name, parameters)  # refuse parameters that do not fit, now
+    return GeometrySpec(builder=name, parameters=parameters,
+                        warnings=bare_number_warnings(given, layout.extent()))
 
 
 def _mesh(spec: dict, region_tables: dict, geometry: GeometrySpec) -> MeshSpec:
@@ -390,6 +397,7 @@ def _symmetry(spec: dict, geometry: GeometrySpec, walls: dict) -> dict[str, tupl
         raise InputError("symmetry cuts apply to builders; for an imported mesh, mesh the "
                          "part already cut and give the cut faces a wall kind", field="symmetry")
     check_table(spec, schema.SYMMETRY, "symmetry")
+    spec = schema.canonical_table(spec, schema.SYMMETRY)
     out = {}
     for axis, choice in spec.items():
         if f"symmetry_{axis}" in walls:
@@ -464,6 +472,7 @@ _LOSS_KEYS = ("conductivity", "metal", "roughness", "surface_resistance", "tempe
 def _wall(name: str, spec: dict) -> Wall:
     where = f"walls.{name}"
     check_table(spec, schema.WALL, where)
+    spec = schema.canonical_table(spec, schema.WALL)     # "PEC", "Copper", "aluminum"
     kind = spec.get("kind")
     if kind is None:
         kinds = ", ".join(map(repr, schema.WALL.keys["kind"].allowed()))

@@ -87,6 +87,8 @@ def _parser() -> argparse.ArgumentParser:
     show.add_argument("--mode", metavar="K", type=int, help="only mode K")
     show.add_argument("--arrows", choices=("E", "H"), default="E",
                       help="which field the arrows show (default E)")
+    show.add_argument("--field", choices=("E", "H"), default="E",
+                      help="which field's magnitude the colours show (default E)")
     mesh = commands.add_parser(
         "mesh", help="mesh without solving; print quality, write mesh and picture",
         description="Mesh CASE without solving. Print the element count, the minimum element "
@@ -314,7 +316,7 @@ def _report(folder, *, quiet: bool) -> None:
 def _show(args) -> int:
     from .viz.show import show
 
-    for path in show(args.folder, mode=args.mode, arrows=args.arrows):
+    for path in show(args.folder, mode=args.mode, arrows=args.arrows, field=args.field):
         print(path)
     return 0
 

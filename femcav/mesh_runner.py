@@ -31,6 +31,8 @@ def mesh_case(path: str | Path, *, out: str | Path | None = None,
 
     case = load_case(path)
     progress.step(f"case {case.path}: {case.title}")
+    for warning in case.geometry.warnings:
+        progress.warn(warning)
     folder = check_output_folder(Path(out) if out is not None
                                  else default_output_folder(case.path))
     mesh = build_mesh(case)

@@ -211,6 +211,8 @@ def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: i
                      factorization=factorization, method=method)
     settings = replace(case.solve, **{k: v for k, v in overrides.items() if v is not None})
     progress.step(f"case {case.path}: {case.title}")
+    for warning in case.geometry.warnings:
+        progress.warn(warning)
     folder = check_output_folder(Path(out) if out is not None
                                  else default_output_folder(case.path))
     from .study.cluster import optional_cluster_pool

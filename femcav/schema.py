@@ -116,12 +116,31 @@ class Key:
     choices: tuple | str = ()
     default: object = None
     doc: str = ""
+    # a string choice matches whatever its letter case ("PEC", "Copper"); ``spellings``
+    # (a dict, or "module:NAME" of one) maps other common spellings to a choice
+    fold_case: bool = False
+    spellings: dict | str = field(default_factory=dict)
 
     def allowed(self) -> tuple:
-        if isinstance(self.choices, str):
-            module, _, name = self.choices.partition(":")
-            return tuple(getattr(importlib.import_module(module), name))
-        return self.choices
+        return tuple(_named(self.choices)) if isinstance(self.choices, str) else self.choices
+
+    def canonical(self, value):
+        """The allowed choice ``value`` spells (itself when it is one, or when no other
+        spelling is accepted)."""
+        allowed = self.allowed()
+        if not self.fold_case or not isinstance(value, str) or value in allowed:
+            return value
+        folded = value.strip().lower()
+        by_case = {str(choice).lower(): choice for choice in allowed}
+        spellings = _named(self.spellings) if isinstance(self.spellings, str) else self.spellings
+        return by_case.get(folded, spellings.get(folded, value))
+
+
+def _named(reference: str):
+    """The object "module:NAME" names (read when needed, so that this module imports no
+    solver code)."""
+    module, _, name = reference.partition(":")
+    return getattr(importlib.import_module(module), name)
 
 
 @dataclass(frozen=True)
@@ -225,9 +244,10 @@ REGION = Table({
 REGIONS = Table(each=Key(TABLE, doc="a region: eps_r, mu_r, tan_delta, mesh_size"))
 
 WALL = Table({
-    "kind": Key(STRING, choices="femcav.walls:KINDS"),
+    "kind": Key(STRING, choices="femcav.walls:KINDS", fold_case=True),
     "conductivity": Key(QUANTITY, unit="conductivity", range=CONDUCTIVITY),
-    "metal": Key(STRING, choices="femcav.wall_resistance:METAL_NAMES"),
+    "metal": Key(STRING, choices="femcav.wall_resistance:METAL_NAMES", fold_case=True,
+                 spellings="femcav.wall_resistance:METAL_SPELLINGS"),
     "roughness": Key(QUANTITY, unit="length", range=ROUGHNESS),
     "surface_resistance": Key(QUANTITY, unit="resistance", range=SURFACE_RESISTANCE),
     "temperature": Key(QUANTITY, unit="temperature", range=TEMPERATURE,
@@ -237,7 +257,8 @@ WALL = Table({
 })
 WALLS = Table(each=Key(TABLE, doc='a wall: kind = "pec", "pmc" or "metal"'))
 
-SYMMETRY = Table({axis: Key(STRING, choices=("pec", "pmc", "both")) for axis in "xyz"})
+SYMMETRY = Table({axis: Key(STRING, choices=("pec", "pmc", "both"), fold_case=True)
+                  for axis in "xyz"})
 
 SOLVE = Table({
     "modes": Key(WHOLE, range=MODES, default=10),
@@ -362,9 +383,17 @@ def check_table(value, table: Table, where: str, *, unknown: str = "") -> dict:
     return value
 
 
+def canonical_table(spec: dict, table: Table) -> dict:
+    """``spec`` with every value a key accepts in another spelling ("PEC", "aluminum")
+    written as the choice it means; other values as they are."""
+    return {name: (table.keys[name].canonical(value) if name in table.keys else value)
+            for name, value in spec.items()} if isinstance(spec, dict) else spec
+
+
 def check_value(value, key: Key, field: str) -> None:
     """The type of ``value`` and, for keys with a fixed set of values, its membership."""
     allowed = key.allowed()
+    value = key.canonical(value)
     if not key.type.accepts(value):
         if allowed:
             raise InputError(f"must be one of {_listing(allowed)}, got {type_name(value)}",
@@ -390,6 +419,7 @@ def parse_value(value, key: Key, field: str):
     """One value against its declaration: type, unit, range (in SI); a list item by item
     (``field[i]``)."""
     check_value(value, key, field)
+    value = key.canonical(value)
     if isinstance(value, list):
         return [_parse_item(v, key, f"{field}[{i}]") for i, v in enumerate(value)]
     return _parse_item(value, key, field)

@@ -17,6 +17,10 @@ from .walls import Wall
 
 # every name a case may give as ``metal``
 METAL_NAMES = (*CONDUCTIVITY_S_PER_M, *SUPERCONDUCTORS)
+# other common spellings (lower case) of those names: the American spelling and the
+# chemical symbols (any letter case is accepted besides: schema.Key.fold_case)
+METAL_SPELLINGS = {"aluminum": "aluminium", "al": "aluminium", "cu": "copper", "ag": "silver",
+                   "au": "gold", "nb": "niobium"}
 
 
 def is_superconducting(wall: Wall) -> bool:

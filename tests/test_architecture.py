@@ -20,7 +20,7 @@ PACKAGE = Path(__file__).resolve().parent.parent / "femcav"
 # lower number = lower layer; a module may import from its own layer or below
 LAYERS = {
     "errors": 0, "units": 0, "progress": 0, "metals": 0, "analytic": 0, "schema": 0,
-    "memory_room": 0, "exit_codes": 0, "superconductors": 0,
+    "memory_room": 0, "exit_codes": 0, "superconductors": 0, "bare_numbers": 0,
     "expressions": 1, "materials": 1, "walls": 1, "wall_resistance": 1,
     "geometry": 2, "model": 2, "sizing": 3,
     "fem": 3, "eigen": 3,

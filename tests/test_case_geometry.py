@@ -133,7 +133,7 @@ BAD = {
     "unknown builder parameter": (BOX.replace('length = "25 mm"', 'length = "25 mm"\ndepth = 1'),
                                   "geometry.depth: unknown key; this builder takes width"),
     "puck without material": (DR.format(offset="0 mm").replace("[regions.puck]\neps_r = 24\n", ""),
-                              "regions: the mesh region(s) 'puck' have no material"),
+                              "regions: the region 'puck' has no material"),
     "mesh size in geometry": (BOX.replace('length = "25 mm"', 'length = "25 mm"\nmesh_size = 1'),
                               "geometry.mesh_size: element sizes go in the [mesh] table"),
     "per_wavelength alone": (BOX.replace('size = "3 mm"', "per_wavelength = 12"),

@@ -62,7 +62,8 @@ def test_report_is_well_formed_and_self_contained(report):
     parser = _Structure()
     parser.feed(text)
     assert not parser.errors and not parser.stack
-    assert len(parser.images) == 4                          # the spectrum and 3 modes
+    # the spectrum, and for each of 3 modes its fields and its loss on the metal wall
+    assert len(parser.images) == 7
     assert all(i["src"].startswith("data:image/png;base64,") for i in parser.images)
     assert "http://" not in text and "https://" not in text   # nothing to fetch
     assert "engineering estimates" in text
@@ -92,5 +93,5 @@ def test_report_renders_in_headless_chromium(report, tmp_path):
     found = re.search(r'id="probe">images (\d+)/(\d+) rows (\d+)<', out.stdout)
     assert found, out.stderr[-2000:]
     ok, total, rows = map(int, found.groups())
-    assert total == 4 and ok == total          # no broken image
+    assert total == 7 and ok == total          # no broken image
     assert rows >= 4

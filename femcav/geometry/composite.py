@@ -125,5 +125,10 @@ def layout(solids, background) -> Layout:
                   outer_wall=outer_wall, description=f"composite of {len(solids)} solids")
 
 
+def wall_names(solids, background) -> tuple[str, ...]:
+    """The walls the case may name: those of the named space solids and of the metal ones."""
+    return tuple(name for role, name, _ in solids if name and role in ("space", "metal"))
+
+
 def symmetry_planes(**_) -> dict[str, float]:
     return {}

@@ -69,8 +69,17 @@ def parse_params(declared: dict[str, Param], given: dict, where: str) -> dict[st
         if param.minimum == "nonnegative" and not all(v >= 0 for v in values):
             raise InputError(f"must not be negative, got {given[key]!r}", field=field)
         for i, v in enumerate(values):
-            checked_length(v, f"{field}[{i}]" if param.kind == "point" else field,
-                           positive=_is_dimension(param))
+            try:
+                checked_length(v, f"{field}[{i}]" if param.kind == "point" else field,
+                               positive=_is_dimension(param))
+            except InputError as exc:
+                raw = given[key][i] if param.kind == "point" else given[key]
+                if isinstance(raw, (int, float)) and not isinstance(raw, bool):
+                    # a bare number is metres: say so, with the unit most likely meant
+                    exc = InputError(f"{exc.message} (the bare number {raw:g} is read as "
+                                     f"{raw:g} m; write \"{raw:g} mm\" or \"{raw:g} um\" if "
+                                     "that was meant)", field=exc.field)
+                raise exc from None
     check_proportions({key: out[key] for key in given}, declared, where)
     return out
 

@@ -31,7 +31,7 @@ import csv
 import io
 import math
 
-from . import merit_columns, strict_json
+from . import merit_columns, second_tables, strict_json
 from ..post import checks, resolution
 from .probe_table import field_figure_rows
 from ..solver import SolveResult
@@ -97,6 +97,10 @@ def _resolution_fields(mode) -> dict:
 
 def _has_symmetry(result: SolveResult) -> bool:
     return any(m.symmetry is not None for m in result.modes)
+
+
+def _has_labels(result) -> bool:
+    return any(getattr(m, "label", None) for m in result.modes)
 
 
 def _is_axisymmetric(result) -> bool:
@@ -176,7 +180,7 @@ def to_csv(result: SolveResult) -> str:
     columns = CSV_COLUMNS + (("symmetry",) if _has_symmetry(result) else ()) + (
         ("azimuthal_order", "field_class") if _is_axisymmetric(result) else ()) + (
         ("q_dielectric_complex",) if any(m.q_dielectric_complex for m in result.modes) else ()
-    ) + merit_columns.csv_columns(result)
+    ) + (("label",) if _has_labels(result) else ()) + merit_columns.csv_columns(result)
     writer = csv.DictWriter(out, fieldnames=columns, extrasaction="ignore", lineterminator="\n")
     writer.writeheader()
     for row in mode_rows(result):
@@ -197,7 +201,10 @@ def to_table(result: SolveResult) -> str:
     lossy = any(m.losses for m in result.modes)
     bars = any(m.error_estimate_hz is not None for m in result.modes)
     axisymmetric = _is_axisymmetric(result)
+    label_width = max([len(getattr(m, "label", None) or "") for m in result.modes]
+                      + [len("label")]) if _has_labels(result) else 0
     lines = [f"{'mode':>4}  {'frequency':>16}  " + (f"{'± error':>12}  " if bars else "")
+             + (f"{'label':<{label_width}}  " if label_width else "")
              + (f"{'symmetry':<{width}}  " if sym else "")
              + (f"{'m':>2}  {'class':<8}  " if axisymmetric else "")
              + (f"{'Q wall':>9}  {'Q diel.':>9}  {'Q total':>9}  " if lossy else "")
@@ -214,19 +221,22 @@ def to_table(result: SolveResult) -> str:
             status += "; Q warning (see loss_warnings)"
         lines.append(f"{m.index:>4}  {format_frequency(m.frequency_hz, 7):>16}  "
                      + (f"{_bar(m):>12}  " if bars else "")
+                     + (f"{getattr(m, 'label', None) or '-':<{label_width}}  "
+                        if label_width else "")
                      + (f"{m.symmetry:<{width}}  " if sym else "")
                      + (f"{m.m:>2}  {m.field_class:<8}  " if axisymmetric else "")
                      + (_q_columns(m) if lossy else "")
                      + merit_columns.table_cells(result, m)
                      + f"{c.residual:9.1e}  {c.divergence:10.1e}  {c.orthogonality:13.1e}  "
                      f"{status}")
-    return "\n".join(lines + monte_carlo_lines(result))
+    return ("\n".join(lines + monte_carlo_lines(result))
+            + second_tables.as_text(mode_rows(result)))
 
 
 def monte_carlo_lines(result) -> list[str]:
     """The spread of every mode under the table (empty without a Monte-Carlo draw)."""
     entries = [(m, (m.tolerance or {}).get("monte_carlo")) for m in result.modes
-               if getattr(m, "tolerance", None)]
+               if m.tolerance]
     entries = [(m, e) for m, e in entries if e is not None]
     if not entries:
         return []

@@ -1,8 +1,10 @@
 """A picture of a tagged mesh: every region's boundary in its own colour, edges drawn thin.
 
-With more than one region, the largest (by volume; usually the air or vacuum filling the
-enclosure) shows only its outer skin, see-through, so that the parts inside it (a dielectric
-puck, a block, a support) can be seen; every other region is drawn opaque. The picture is
+The largest region (by volume; usually the air or vacuum filling the enclosure, or the only
+region) shows only its outer skin, see-through, so that the parts inside it (a dielectric
+puck, a block, a support) can be seen; every other region is drawn opaque, and so are the
+walls inside the part's outline (a tuning post, a re-entrant rod, a gap: viz.inner_walls),
+in grey. The picture is
 rendered off-screen with pyvista at a fixed size, so the same case always gives an image
 of the same shape.
 """
@@ -16,6 +18,7 @@ import numpy as np
 
 from ..geometry.mesh import TaggedMesh
 from ..units import format_length
+from .inner_walls import off_hull
 
 IMAGE_SIZE = (1200, 900)
 
@@ -25,6 +28,7 @@ PALETTE = ("#0072B2", "#E69F00", "#009E73", "#CC79A7", "#56B4E9", "#D55E00", "#F
 BACKGROUND = "#F6F5F1"
 INK = "#1E2328"
 SEE_THROUGH = 0.22
+INNER_METAL = "#8A8D91"   # walls inside the part's outline: posts, rods, gaps
 MARGIN = 24       # pixels
 KEY_STEP = 34     # pixels between key lines
 
@@ -39,8 +43,9 @@ def region_colours(mesh: TaggedMesh) -> dict[str, str]:
 
 
 def see_through_region(mesh: TaggedMesh) -> str | None:
-    """The region drawn as a see-through skin: the largest, if there is more than one."""
-    if len(mesh.region_names) < 2:
+    """The region drawn as a see-through skin: the largest (the only one of a one-region
+    part, whose inner metal then shows through it)."""
+    if not mesh.region_names:
         return None
     volume = np.abs(mesh.tet_volumes())
     return max(mesh.region_names,
@@ -88,25 +93,40 @@ def _compose(pv, plotter, mesh: TaggedMesh, title: str) -> None:
     colours = region_colours(mesh)
     skin_only = see_through_region(mesh)
     surfaces = region_surfaces(mesh)
+    inner = np.zeros((0, 3), dtype=np.int64)
     for name, colour in colours.items():
         bounding, outer = surfaces[name]
         see_through = name == skin_only
         triangles = outer if see_through else bounding
+        if see_through:
+            # metal inside the part (posts, rods, gaps) is drawn opaque behind the skin
+            inside = off_hull(mesh.points, triangles)
+            inner, triangles = triangles[inside], triangles[~inside]
+            if len(colours) == 1 and not len(inner):
+                see_through = False       # a plain can: nothing inside to show
+                skin_only = None
         if len(triangles):
             plotter.add_mesh(pv.PolyData.from_regular_faces(mesh.points, triangles),
                              color=colour, opacity=SEE_THROUGH if see_through else 1.0,
                              show_edges=True, edge_color=_edge_colour(colour), line_width=0.6,
                              ambient=0.2)
+    if len(inner):
+        plotter.add_mesh(pv.PolyData.from_regular_faces(mesh.points, inner), color=INNER_METAL,
+                         show_edges=True, edge_color=_edge_colour(INNER_METAL),
+                         line_width=0.6, ambient=0.2)
     plotter.view_isometric()
     plotter.camera.zoom(0.85)  # leave room for the title and the key
 
     # Title and key down the left edge, one column, so long region names never run off.
     plotter.add_text(f"{title}: {mesh.n_tets} tetrahedra", position=(MARGIN, height - 48),
                      font_size=15, color=INK)
-    for i, (name, colour) in enumerate(colours.items()):
+    key = [(f"{name} (see-through)" if name == skin_only else name, colour,
+            name == skin_only) for name, colour in colours.items()]
+    if len(inner):
+        key.append(("walls inside the part (metal, gaps)", INNER_METAL, False))
+    for i, (label, colour, see_through) in enumerate(key):
         y = height - 92 - i * KEY_STEP
-        _swatch(pv, plotter, MARGIN, y, colour, see_through=name == skin_only)
-        label = f"{name} (see-through)" if name == skin_only else name
+        _swatch(pv, plotter, MARGIN, y, colour, see_through=see_through)
         plotter.add_text(label, position=(MARGIN + 34, y - 2), font_size=11, color=INK)
     extent = mesh.points.max(axis=0) - mesh.points.min(axis=0)
     plotter.add_text("extent " + " x ".join(format_length(float(e), 4) for e in extent),

@@ -12,6 +12,7 @@ import base64
 import html
 from pathlib import Path
 
+from ..io.second_tables import second_tables
 from ..units import format_frequency
 from .figures_of_merit import beam_section, wall_description
 
@@ -84,7 +85,8 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
     table = ("<table><thead><tr>" + "".join(f"<th>{e(h)}</th>" for h in head)
              + "</tr></thead><tbody>" + "".join(rows) + "</tbody></table>")
 
-    timings = ", ".join(f"{e(k)} {v:.2f} s" for k, v in (document.get("timings_s") or {}).items())
+    timings = ", ".join(f"{e(timing_name(k))} {v:.2f} s"
+                        for k, v in (document.get("timings_s") or {}).items())
     weyl = document.get("weyl") or {}
     summary = [
         ("case file", document.get("case") or "-"),
@@ -112,7 +114,7 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
     elif geometry.get("mesh"):
         summary.insert(1, ("geometry", f"imported mesh {geometry['mesh']}"))
     for name, m in (model.get("regions") or {}).items():
-        material = f"eps_r {m['eps_r']}, mu_r {m['mu_r']}, tan delta {m['tan_delta']}"
+        material = f"ε_r {m['eps_r']}, μ_r {m['mu_r']}, tan δ {m['tan_delta']}"
         summary.append((f"region {name}", material))
     for name, w in (model.get("walls") or {}).items():
         what = w["kind"].upper() if w["kind"] != "metal" else wall_description(w)
@@ -134,8 +136,15 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
     for m in modes:
         picture = pictures.get(f"mode_{m['index']:02d}")
         if picture is not None and picture.is_file():
-            caption = f"Mode {m['index']}: {format_frequency(m['frequency_hz'], 7)}"
+            caption = (f"Mode {m['index']}: {format_frequency(m['frequency_hz'], 7)}"
+                       + (f" ({m['label']})" if m.get("label") else ""))
             mode_figures.append(f"<figure>{_image(picture, caption)}<figcaption>{e(caption)}"
+                                "</figcaption></figure>")
+        heat = pictures.get(f"wall_loss_{m['index']:02d}")
+        if heat is not None and heat.is_file():
+            caption = (f"Mode {m['index']}: loss per area on the metal walls (W/m² at 1 J "
+                       "stored, from wall_loss.vtu)")
+            mode_figures.append(f"<figure>{_image(heat, caption)}<figcaption>{e(caption)}"
                                 "</figcaption></figure>")
     if mode_figures:
         figures.append("<h2>Fields</h2>" + "".join(mode_figures))
@@ -156,9 +165,32 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
             f"<title>{e(title)}</title>\n<style>{STYLE}</style>\n</head>\n<body>\n"
             f"<h1>{e(title)}</h1>\n<p class=\"caution\">{e(CAUTION)}</p>\n"
             f"<h2>Case</h2>\n{summary_html}\n<h2>Modes</h2>\n{table}\n"
+            + _second_tables_html(modes) + "\n"
             + beam_section(document) + "\n"
             + "\n".join(figures) + f"\n<h2>Checks</h2>\n{checks}\n</body>\n</html>\n")
     path.write_text(page, encoding="utf-8")
+
+
+# the keys of modes.json's timings_s as the report says them
+TIMING_NAMES = {"assembly_s": "assembly", "eigen_s": "eigen solve",
+                "complex_check_s": "complex check"}
+
+
+def timing_name(key: str) -> str:
+    """A timing key in words; a key not listed loses its "_s" and underscores."""
+    return TIMING_NAMES.get(key) or key.removesuffix("_s").replace("_", " ")
+
+
+def _second_tables_html(modes: list[dict]) -> str:
+    """The tolerance, sensitivity and filling tables (io.second_tables) as HTML."""
+    e = html.escape
+    parts = []
+    for t in second_tables(modes):
+        parts.append(f"<h3>{e(t.title[0].upper() + t.title[1:])}</h3><table><thead><tr>"
+                     + "".join(f"<th>{e(h)}</th>" for h in t.headings) + "</tr></thead><tbody>"
+                     + "".join("<tr>" + "".join(f"<td>{e(c)}</td>" for c in row) + "</tr>"
+                               for row in t.rows) + "</tbody></table>")
+    return "\n".join(parts)
 
 
 def _check_cell(mode: dict) -> str:

@@ -14,14 +14,18 @@ from ..units import format_frequency
 from .mode_picture import draw_mode_picture
 
 
-def show(folder: str | Path, *, mode: int | None = None, arrows: str = "E") -> list[Path]:
+def show(folder: str | Path, *, mode: int | None = None, arrows: str = "E",
+         field: str = "E") -> list[Path]:
+    """Draw the pictures (and, for all modes, the spectrum and report); ``field``: the
+    magnitude in colour, ``arrows``: the field of the arrows ("E" or "H" each)."""
     folder = Path(folder)
     document = read_modes_document(folder)
     modes = document["modes"]
     if mode is not None and not 1 <= mode <= len(modes):
         raise InputError(f"the folder has modes 1 to {len(modes)}, not {mode}", field="--mode")
     wanted = [row["index"] for row in modes if mode is None or row["index"] == mode]
-    grid = read_fields(folder, wanted, arrows)
+    grid = read_fields(folder, wanted, arrows, field)
+    walls = read_wall_losses(folder)
     written = []
     # redrawing every mode replaces all the pictures; one mode adds to them
     with staged_output(folder, kind="pictures",
@@ -35,16 +39,18 @@ def show(folder: str | Path, *, mode: int | None = None, arrows: str = "E") -> l
         for row in modes:
             if mode is not None and row["index"] != mode:
                 continue
-            label = row.get("field_class")
-            if row.get("azimuthal_order") is not None:
-                label = f"m = {row['azimuthal_order']}, {label}"
-            title = (f"{document.get('title', '')}\nmode {row['index']}: "
-                     f"{format_frequency(row['frequency_hz'], 7)}"
-                     + (f" ({label})" if label else ""))
+            title = picture_title(document, row)
             name = f"mode_{row['index']:02d}.png"
             files.write_with(name, lambda p, r=row, t=title: draw_mode_picture(
-                grid, r["index"], t, p, arrows=arrows), suffix=".png")
+                grid, r["index"], t, p, arrows=arrows, field=field), suffix=".png")
             written.append(folder / name)
+            if walls is not None and f"m{row['index']:02d}_loss" in walls.cell_data:
+                from .wall_loss_picture import draw_wall_loss_picture
+
+                name = f"wall_loss_{row['index']:02d}.png"
+                files.write_with(name, lambda p, r=row, t=title: draw_wall_loss_picture(
+                    walls, r["index"], t, p), suffix=".png")
+                written.append(folder / name)
     if mode is None:
         from .report import write_report
 
@@ -53,6 +59,28 @@ def show(folder: str | Path, *, mode: int | None = None, arrows: str = "E") -> l
             files.write_with("report.html", lambda p: write_report(document, pictures, p))
         written.append(folder / "report.html")
     return written
+
+
+def mode_description(row: dict) -> str:
+    """What is known of a mode's kind: its label, its azimuthal order and field class, its
+    symmetry class; "" when nothing is."""
+    parts = []
+    if row.get("label"):
+        parts.append(row["label"])
+    if row.get("azimuthal_order") is not None:
+        parts.append(f"m = {row['azimuthal_order']}, {row.get('field_class')}")
+    elif row.get("field_class"):
+        parts.append(row["field_class"])
+    if row.get("symmetry"):
+        parts.append(row["symmetry"])
+    return "; ".join(dict.fromkeys(parts))
+
+
+def picture_title(document: dict, row: dict) -> str:
+    """The title of a mode's picture: the case, the mode number, frequency and kind."""
+    kind = mode_description(row)
+    return (f"{document.get('title', '')}\nmode {row['index']}: "
+            f"{format_frequency(row['frequency_hz'], 7)}" + (f" ({kind})" if kind else ""))
 
 
 def _write_probe_plots(files, folder: Path, document: dict) -> list[Path]:
@@ -108,7 +136,27 @@ def read_modes_document(folder: Path) -> dict:
     return document
 
 
-def read_fields(folder: Path, indices: list[int], arrows: str):
+def read_wall_losses(folder: Path):
+    """wall_loss.vtu read with pyvista, or None when the folder has none (no metal walls)
+    or it cannot be read (then its pictures are left out; the field pictures stay)."""
+    path = folder / "wall_loss.vtu"
+    if not path.is_file():
+        return None
+    import pyvista as pv
+    from vtkmodules.vtkCommonCore import vtkObject
+
+    shown = vtkObject.GetGlobalWarningDisplay()
+    vtkObject.GlobalWarningDisplayOff()
+    try:
+        walls = pv.read(path)
+    except Exception:  # noqa: BLE001 - VTK's readers raise many kinds
+        return None
+    finally:
+        vtkObject.SetGlobalWarningDisplay(shown)
+    return walls if getattr(walls, "n_cells", 0) else None
+
+
+def read_fields(folder: Path, indices: list[int], arrows: str, field: str = "E"):
     """fields.vtu with the arrays the pictures of ``indices`` need, or BrokenResultFolder."""
     fields = folder / "fields.vtu"
     if not fields.is_file():
@@ -131,7 +179,7 @@ def read_fields(folder: Path, indices: list[int], arrows: str):
         raise BrokenResultFolder(folder, "fields.vtu holds no cells (damaged or cut "
                                          "short); solve the case again")
     needed = ["region"] + [f"m{k:02d}_{name}" for k in indices
-                           for name in dict.fromkeys(("E", arrows))]
+                           for name in dict.fromkeys((field, arrows))]
     missing = [name for name in needed if name not in grid.cell_data]
     if missing:
         shown_names = ", ".join(missing[:4]) + (" ..." if len(missing) > 4 else "")
