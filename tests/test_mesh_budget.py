@@ -130,8 +130,11 @@ def test_ctrl_c_during_meshing_ends_with_one_line(tmp_path):
     case.write_text('[geometry]\nbuilder = "box"\nwidth = "30 mm"\nheight = "30 mm"\n'
                     'length = "30 mm"\n[mesh]\nsize = "0.45 mm"\n')
     env = {**os.environ, "PYTHONPATH": str(ROOT), "OMP_NUM_THREADS": "1"}
+    # The child gets SIGINT's default action back: a suite started in the background by a
+    # non-interactive shell runs with SIGINT ignored, which the child would inherit.
     process = subprocess.Popen([sys.executable, "-m", "femcav", "mesh", str(case)],
-                               stderr=subprocess.PIPE, text=True, env=env, cwd=tmp_path)
+                               stderr=subprocess.PIPE, text=True, env=env, cwd=tmp_path,
+                               preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL))
     try:
         first = process.stderr.readline()           # "[ ... s] case ...": meshing follows
         assert "case" in first
