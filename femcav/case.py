@@ -264,12 +264,9 @@ def _tolerances(spec: dict, geometry: GeometrySpec, symmetry: dict,
     if geometry.builder is None:
         raise InputError("dimension tolerances move a builder's part; an imported mesh has "
                          "no parameters", field="tolerances")
-    # a Monte-Carlo draw re-meshes every sample, so it also takes axisymmetric solves
-    axisymmetric = solve.azimuthal_orders is not None and "samples" not in spec
-    if symmetry or axisymmetric or solve.error_estimate:
-        raise InputError("dimension tolerances are for whole-part 3D solves without error "
-                         "bars (drop [symmetry], azimuthal_orders or error_estimate; with "
-                         "samples = N, axisymmetric solves are allowed)", field="tolerances")
+    if symmetry or solve.error_estimate:
+        raise InputError("dimension tolerances are for whole-part solves without error "
+                         "bars (drop [symmetry] or error_estimate)", field="tolerances")
     check_table(spec, schema.TOLERANCES, "tolerances")
     out = {}
     for name, raw in spec.items():

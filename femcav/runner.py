@@ -254,6 +254,8 @@ def _solve_modes(case: Case, settings, progress: Progress, pool=None):
         result = _solve_axisymmetric(case, settings, progress, pool)
         if settings.sensitivities:
             result = _with_sensitivities(result)
+        if case.tolerances:         # re-meshed sections (axisymmetric.runner)
+            result = _with_tolerances(case, result, settings, progress)
         if settings.accuracy is not None:
             result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
         return _with_field_figures(case, result)
@@ -288,8 +290,8 @@ def _solve_modes(case: Case, settings, progress: Progress, pool=None):
               else merge_classes(labelled, settings.modes, settings.near_hz))
     if settings.accuracy is not None:
         result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
-    if case.tolerances and settings.azimuthal_orders is None:   # morphed 3D meshes only
-        result = _with_tolerances(case, result, progress, pool)
+    if case.tolerances:
+        result = _with_tolerances(case, result, settings, progress, pool)
     return _with_field_figures(case, result)
 
 
@@ -367,15 +369,20 @@ def check_probes_on_section(case: Case, section) -> None:
             raise in_case(exc, str(case.path)) from None
 
 
-def _with_tolerances(case: Case, result: SolveResult, progress: Progress,
-                     pool=None) -> SolveResult:
+def _with_tolerances(case: Case, result, settings, progress: Progress, pool=None):
     """Each mode's df/dp for the toleranced lengths and the spread they imply: each
     |df/dp| tol alone, their sum (worst case) and root-sum-square (independent errors)."""
     import math
 
     from .study.morph import dimension_derivatives
 
-    derivatives = dimension_derivatives(case, result, list(case.tolerances), progress, pool)
+    if settings.azimuthal_orders is not None:
+        from .axisymmetric.runner import section_dimension_derivatives
+        derivatives = section_dimension_derivatives(case, result, list(case.tolerances),
+                                                    settings, progress)
+    else:
+        derivatives = dimension_derivatives(case, result, list(case.tolerances), progress,
+                                            pool)
     modes = []
     for k, mode in enumerate(result.modes):
         spread = {n: abs(derivatives[n][k]) * tol for n, tol in case.tolerances.items()}

@@ -417,7 +417,6 @@ def test_monte_carlo_on_a_local_cluster_matches_the_bessel_derivatives_closely(t
     ('samples = 10\nradius = { tolerance = "20 um", distribution = "flat" }',
      "tolerances.radius.distribution"),
     ('samples = 10\nradius = { distribution = "normal" }', "tolerances.radius"),
-    ('radius = "20 um"', "tolerances"),            # axisymmetric: only with samples
 ])
 def test_bad_monte_carlo_tables_are_input_errors(tmp_path, table, field):
     from femcav.case import load_case

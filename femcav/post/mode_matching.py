@@ -22,7 +22,7 @@ import scipy.sparse as sp
 from scipy.optimize import linear_sum_assignment
 from scipy.sparse.csgraph import connected_components
 
-from .field_overlap import Overlaps
+from .field_overlap import Overlaps, result_overlaps
 
 # Relative frequency difference below which two modes of one mesh are treated as one
 # degenerate eigenspace. Lowest-order meshes of 1.3 to 1.9 mm split the degenerate pairs of
@@ -122,3 +122,13 @@ def _pair_inside_clusters(partner, single, c_groups, f_groups, coarse_hz, fine_h
             out[js[np.argsort(fine_hz[js], kind="stable")]] = cs[np.argsort(coarse_hz[cs],
                                                                             kind="stable")]
     return out
+
+
+def result_partners(previous, current) -> np.ndarray:
+    """For each mode of the result ``current``, its partner's index among the modes of
+    ``previous`` (-1: none), by field overlap (results of one field form with
+    mode_spaces(), 3D or on a section)."""
+    matching = match_modes(result_overlaps(previous, current),
+                           np.array([m.frequency_hz for m in previous.modes]),
+                           np.array([m.frequency_hz for m in current.modes]))
+    return matching.partner

@@ -14,17 +14,12 @@ from itertools import pairwise
 
 import numpy as np
 
-from ..post.field_overlap import result_overlaps
-from ..post.mode_matching import match_modes
+from ..post.mode_matching import result_partners
 
 
 def step_partners(previous, current) -> np.ndarray:
-    """For each mode of ``current``, its partner's index in ``previous`` (-1: none); both
-    are results of one field form (with mode_spaces(), as post.field_overlap asks)."""
-    overlaps = result_overlaps(previous, current)
-    matching = match_modes(overlaps, np.array([m.frequency_hz for m in previous.modes]),
-                           np.array([m.frequency_hz for m in current.modes]))
-    return matching.partner
+    """For each mode of ``current``, its partner's index in ``previous`` (-1: none)."""
+    return result_partners(previous, current)
 
 
 def track(results, count: int) -> list[list[int | None]]:
