@@ -8,6 +8,7 @@ from dataclasses import replace
 from ..case import Case, case_materials, in_case
 from ..errors import InputError
 from ..geometry import BUILDERS, builder_layout
+from ..geometry.params import moved_parameters
 from ..geometry.section import mesh_section
 from ..geometry.section_import import read_section
 from ..post.mode_matching import result_partners
@@ -103,16 +104,9 @@ def section_dimension_derivatives(case: Case, result: AxisymmetricResult, names,
     step = SECTION_STEP * builder_layout(g.builder, g.parameters).extent()
     out = {}
     for name in names:
-        key, _, index = name.partition("[")
         frequencies = []
         for sign in (+1, -1):
-            params = dict(g.parameters)
-            if index:
-                point = list(params[key])
-                point[int(index[:-1])] += sign * step
-                params[key] = tuple(point)
-            else:
-                params[key] = params[key] + sign * step
+            params = moved_parameters(g.parameters, name, sign * step)
             moved_case = replace(case, geometry=replace(g, parameters=params))
             moved = solve_axisymmetric_case(moved_case, replace(
                 settings, modes=len(result.modes) + 3), SILENT)

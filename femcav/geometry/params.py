@@ -110,3 +110,17 @@ def require(condition: bool, message: str, field: str) -> None:
     """Refuse parameters that are each valid but do not fit together."""
     if not condition:
         raise InputError(message, field=field)
+
+
+def moved_parameters(parameters: dict, name: str, delta: float) -> dict:
+    """``parameters`` with the length ``name`` ("radius", or "block_corner[0]" for one
+    coordinate of a point) moved by ``delta`` metres."""
+    key, _, index = name.partition("[")
+    moved = dict(parameters)
+    if index:
+        point = list(moved[key])
+        point[int(index[:-1])] += delta
+        moved[key] = tuple(point)
+    else:
+        moved[key] = moved[key] + delta
+    return moved

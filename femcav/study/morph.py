@@ -29,6 +29,7 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from ..errors import InputError
+from ..geometry.params import moved_parameters
 from ..geometry.mesh import TaggedMesh
 from ..geometry.parts import Layout
 from ..geometry.solids import Box, Cylinder
@@ -198,15 +199,8 @@ def dimension_derivatives(case, result, names, progress=None,
                    order=result.order)
     meshes = []                     # the morphed meshes for + δ, then - δ, per name
     for name in names:
-        key, _, index = name.partition("[")
         for sign in (+1, -1):
-            params = dict(g.parameters)
-            if index:
-                point = list(params[key])
-                point[int(index[:-1])] += sign * step
-                params[key] = tuple(point)
-            else:
-                params[key] = params[key] + sign * step
+            params = moved_parameters(g.parameters, name, sign * step)
             meshes.append(morph(mesh, old, builder_layout(g.builder, params)))
     if pool is None:            # one at a time, as they are used: one solve in memory
         solved = (_solve_morphed(case, m, options) for m in meshes)
