@@ -15,6 +15,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..fem.quadrature_fields import at_quadrature
 from ..fem.space import EdgeSpace
 
 DEFAULT_AXIS = (0.0, 0.0, 1.0)
@@ -48,11 +49,10 @@ def magnetic_filling(space: EdgeSpace, dofs: np.ndarray,
                      axis=DEFAULT_AXIS) -> MagneticFilling:
     """``dofs`` over all edges of ``space``."""
     axis = unit_axis(axis)
-    field = space.basis.interpolate(dofs)
     if space.form == "E":   # H ∝ ∇×E / μ_r; stiffness_coef is 1/μ_r
-        H = field.curl * space.stiffness_coef[None]
+        H = at_quadrature(space.basis, dofs, "curl") * space.stiffness_coef[None]
     else:
-        H = np.asarray(field)
+        H = at_quadrature(space.basis, dofs)
     dx = space.basis.dx
     squared = np.sum(np.sum(H**2, axis=0) * dx, axis=1)
     along = np.sum(np.einsum("i,ijk->jk", np.asarray(axis), H) ** 2 * dx, axis=1)
