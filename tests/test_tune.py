@@ -70,3 +70,26 @@ def test_bad_tune_tables(tmp_path, change, message):
     case.write_text(CASE.replace(*change))
     with pytest.raises(InputError, match=message):
         run_tune(case, out=tmp_path / "out")
+
+
+def test_each_value_is_solved_once(tmp_path, monkeypatch):
+    # Brent's method (scipy's brentq) evaluates the two bracket ends first; run_tune has
+    # already solved them to check that the target lies between them. A solve per value is
+    # enough: the same value gives the same mesh and the same frequency (issue 25).
+    from femcav.study import tune
+
+    solved = []
+    original = tune._Evaluations.solve
+
+    def counting(self, value):
+        solved.append(value)
+        return original(self, value)
+
+    monkeypatch.setattr(tune._Evaluations, "solve", counting)
+    case = tmp_path / "tune.toml"
+    case.write_text(CASE.replace('size = "2.5 mm"', 'size = "4 mm"')
+                    .replace("mode = 1", "mode = 1\ntolerance = 1e-3"))
+    document, _ = run_tune(case, out=tmp_path / "out")
+    assert len(solved) == len(set(solved))
+    # the reference point, both ends and every root-finder step, nothing else
+    assert len(solved) == 3 + document["iterations"]

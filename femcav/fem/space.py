@@ -58,6 +58,13 @@ class EdgeSpace:
         return CellBasis(self.mesh, self.element, quadrature=self.quadrature, dofs=self.dofs)
 
     @cached_property
+    def quadrature_map(self):
+        """The element map at the quadrature points (fem.quadrature_fields), built on first
+        use and kept for every mode's post-processing."""
+        from .quadrature_fields import quadrature_map
+        return quadrature_map(self)
+
+    @cached_property
     def scalar_basis(self):
         from skfem import CellBasis
         return CellBasis(self.mesh, self.scalar_element, quadrature=self.quadrature,

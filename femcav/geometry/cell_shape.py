@@ -28,7 +28,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq
 
 from .params import require
 from .profile import EllipticArc, Segment
@@ -107,6 +106,8 @@ def half_cell(equator_radius: float, iris_radius: float, half_length: float,
             f"join them: lengthen {names['half_length']} ({half_length:g} m) or shorten the "
             f"ellipses' semi-axes", f"geometry.{names['half_length']}")
     k = down[-1]
+    from scipy.optimize import brentq   # on use: loading scipy.optimize costs every command ~0.1 s
+
     alpha = brentq(f, grid[k], grid[k + 1], xtol=1e-15)
     c, s = math.cos(alpha), math.sin(alpha)
     h_iris = math.hypot(iris_semi_z * c, iris_semi_r * s)

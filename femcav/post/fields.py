@@ -43,7 +43,7 @@ def centroid_basis(space: EdgeSpace):
     for all the modes of a result: it costs about 15 interpolations (0.3 s at 50k DOFs)."""
     from skfem import Basis
 
-    return Basis(space.mesh, space.basis.elem, intorder=1)
+    return Basis(space.mesh, space.element, intorder=1)
 
 
 def mode_fields(space: EdgeSpace, dofs: np.ndarray, omega: float,

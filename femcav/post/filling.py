@@ -15,6 +15,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..fem.quadrature_fields import fields_at_quadrature
 from ..fem.space import EdgeSpace
 
 DEFAULT_AXIS = (0.0, 0.0, 1.0)
@@ -48,12 +49,12 @@ def magnetic_filling(space: EdgeSpace, dofs: np.ndarray,
                      axis=DEFAULT_AXIS) -> MagneticFilling:
     """``dofs`` over all edges of ``space``."""
     axis = unit_axis(axis)
-    field = space.basis.interpolate(dofs)
+    fields = fields_at_quadrature(space, dofs)
     if space.form == "E":   # H ∝ ∇×E / μ_r; stiffness_coef is 1/μ_r
-        H = field.curl * space.stiffness_coef[None]
+        H = fields.curl * space.stiffness_coef[None]
     else:
-        H = np.asarray(field)
-    dx = space.basis.dx
+        H = fields.value
+    dx = fields.dx
     squared = np.sum(np.sum(H**2, axis=0) * dx, axis=1)
     along = np.sum(np.einsum("i,ijk->jk", np.asarray(axis), H) ** 2 * dx, axis=1)
     mesh = space.model.mesh

@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.constants import epsilon_0, mu_0
 
+from ..fem.quadrature_fields import fields_at_quadrature
 from ..fem.space import EdgeSpace
 from ..wall_resistance import wall_surface_resistance
 from ..walls import METAL
@@ -54,7 +55,7 @@ def metal_faces(space: EdgeSpace) -> MetalFaces | None:
     if not pairs:
         return None
     facets = np.array([f for f, _ in pairs], dtype=np.int64)
-    basis = FacetBasis(space.mesh, space.basis.elem, facets=facets, intorder=2 * space.order)
+    basis = FacetBasis(space.mesh, space.element, facets=facets, intorder=2 * space.order)
     mu_by_region = {rid: model.materials[name].mu_r
                     for name, rid in model.mesh.region_names.items()}
     elements = space.mesh.f2t[0, facets]
@@ -65,13 +66,13 @@ def metal_faces(space: EdgeSpace) -> MetalFaces | None:
 
 def electric_energy_by_region(space: EdgeSpace, dofs: np.ndarray, omega: float) -> dict:
     """∫ ε0 ε_r |E|² dV per region (4 W_e,i), for the mode's DOFs as stored."""
-    field_values = space.basis.interpolate(dofs)
+    fields = fields_at_quadrature(space, dofs)
     if space.form == "E":
-        integrand = space.mass_coef * np.sum(np.asarray(field_values) ** 2, axis=0) * epsilon_0
+        integrand = space.mass_coef * np.sum(fields.value ** 2, axis=0) * epsilon_0
     else:  # E = curl H / (jω ε0 ε_r): ε0 ε_r |E|² = |curl H|² / (ω² ε0 ε_r)
-        integrand = (space.stiffness_coef * np.sum(field_values.curl ** 2, axis=0)
+        integrand = (space.stiffness_coef * np.sum(fields.curl ** 2, axis=0)
                      / (omega**2 * epsilon_0))
-    per_element = np.sum(integrand * space.basis.dx, axis=1)
+    per_element = np.sum(integrand * fields.dx, axis=1)
     tm = space.model.mesh
     return {name: float(per_element[tm.tet_region == rid].sum())
             for name, rid in tm.region_names.items()}

@@ -19,7 +19,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.optimize import linear_sum_assignment
 from scipy.sparse.csgraph import connected_components
 
 from .field_overlap import Overlaps, result_overlaps
@@ -81,6 +80,8 @@ def match_modes(overlaps: Overlaps, coarse_hz: np.ndarray, fine_hz: np.ndarray,
     """Pair every fine mode with a coarse one (rows of ``overlaps`` are coarse modes)."""
     coarse_hz, fine_hz = np.asarray(coarse_hz, float), np.asarray(fine_hz, float)
     c_groups, f_groups = clusters(coarse_hz, degenerate_rtol), clusters(fine_hz, degenerate_rtol)
+    from scipy.optimize import linear_sum_assignment   # on use: loading scipy.optimize costs every command ~0.1 s
+
     score = subspace_overlaps(overlaps, c_groups, f_groups)
     rows, cols = linear_sum_assignment(1.0 - score.T)   # rows: fine, cols: coarse
     partner = np.full(fine_hz.size, -1)
@@ -96,6 +97,8 @@ def match_modes(overlaps: Overlaps, coarse_hz: np.ndarray, fine_hz: np.ndarray,
 def _pair_inside_clusters(partner, single, c_groups, f_groups, coarse_hz, fine_hz):
     """Re-pair the members of each matched group of clusters: by individual overlap when that
     is clear, else in frequency order."""
+    from scipy.optimize import linear_sum_assignment   # on use: loading scipy.optimize costs every command ~0.1 s
+
     nc, nf = coarse_hz.size, fine_hz.size
     c_of = np.empty(nc, int)
     for g, members in enumerate(c_groups):

@@ -41,6 +41,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.constants import c as C0
 
+from ..fem.quadrature_fields import fields_at_quadrature
+
 MIN_POINTS_PER_WAVELENGTH = {1: 4.0, 2: 1.6, 3: 1.4}
 
 REFINE_ADVICE = ("refine the mesh ([mesh] size or max_frequency) or raise [solve] order, "
@@ -125,8 +127,8 @@ def edge_space_scales(space) -> tuple[np.ndarray, np.ndarray]:
 def edge_space_energy(space, dofs: np.ndarray, k0_squared: float) -> np.ndarray:
     """Electric plus magnetic energy of a mode per tetrahedron (relative scale): the mass
     term plus the curl term over k0² (their sums are equal at resonance)."""
-    field = space.basis.interpolate(dofs)
-    density = (space.mass_coef * np.sum(np.asarray(field) ** 2, axis=0)
-               + space.stiffness_coef * np.sum(np.asarray(field.curl) ** 2, axis=0)
+    fields = fields_at_quadrature(space, dofs)
+    density = (space.mass_coef * np.sum(fields.value ** 2, axis=0)
+               + space.stiffness_coef * np.sum(fields.curl ** 2, axis=0)
                / max(k0_squared, np.finfo(float).tiny))
-    return np.sum(density * space.basis.dx, axis=1)
+    return np.sum(density * fields.dx, axis=1)

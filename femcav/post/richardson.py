@@ -45,7 +45,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq, minimize_scalar
 
 RATE_BAND = (0.5, 8.0)
 # The observed rate "agrees with theory" within this relative difference.
@@ -101,6 +100,8 @@ def _three_mesh_rate(h: np.ndarray, d: np.ndarray) -> float:
         return 0.0
     if gap(hi) < 0:
         return math.inf
+    from scipy.optimize import brentq   # on use: loading scipy.optimize costs every command ~0.1 s
+
     return float(brentq(gap, lo, hi, xtol=1e-10))
 
 
@@ -115,6 +116,8 @@ def _least_squares_rate(h: np.ndarray, f: np.ndarray) -> float:
     grid = np.geomspace(*_SEARCH, 200)
     best = grid[int(np.argmin([misfit(p) for p in grid]))]
     lo, hi = best / 1.1, best * 1.1
+    from scipy.optimize import minimize_scalar   # on use: loading scipy.optimize costs every command ~0.1 s
+
     return float(minimize_scalar(misfit, bounds=(lo, hi), method="bounded").x)
 
 

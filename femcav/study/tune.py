@@ -117,6 +117,10 @@ class _Evaluations:
         self.pool = pool            # a femcav.study.cluster.ClusterPool, or None: solve here
         self.points: list[tuple[float, object, int]] = []   # (value, result, mode index)
         self._ready: dict[float, object] = {}
+        # Brent's method starts by evaluating the bracket ends that run_tune has already
+        # solved to check the bracket: each value is solved once (issue 25: the two ends
+        # were solved twice, 22 s of a 105 s tune).
+        self._solved: dict[float, float] = {}
 
     def prefetch(self, values) -> None:
         """Solve ``values`` at once on the cluster, for the calls to come (no-op here)."""
@@ -140,6 +144,8 @@ class _Evaluations:
         self.points.append((reference, result, self.spec.mode - 1))
 
     def frequency(self, value: float) -> float:
+        if value in self._solved:
+            return self._solved[value]
         t0 = time.perf_counter()
         result = self.solve(value)
         near_value, near_result, near_index = min(self.points, key=lambda p: abs(p[0] - value))
@@ -153,6 +159,7 @@ class _Evaluations:
         index = found[0]
         self.points.append((value, result, index))
         f = result.modes[index].frequency_hz
+        self._solved[value] = f
         self.progress.step(f"tune: {self.spec.path} = {format_value(_axis(self.spec), value)}"
                            f": mode at {format_frequency(f, 9)} "
                            f"({time.perf_counter() - t0:.1f} s)")
