@@ -17,12 +17,11 @@ import math
 import numpy as np
 from scipy.constants import c as C0
 
-from .geometry.parts import Layout, Sizing
+from .geometry.parts import DEFAULT_SIZE_FRACTION, Layout, Sizing
 from .materials import VACUUM, Material
 from .schema import EPS_R
 
 DEFAULT_PER_WAVELENGTH = 15.0
-DEFAULT_SIZE_FRACTION = 0.1
 
 
 def max_refractive_index(material: Material, layout: Layout) -> float:

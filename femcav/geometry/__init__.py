@@ -7,7 +7,7 @@ from . import (box, coax, composite, dr_fixture, elliptical_cells, loaded_box, p
                tuned_box, tuned_pillbox)
 from .importer import read_mesh
 from .mesh import TaggedMesh
-from .parts import Layout, Sizing, mesh_layout, symmetry_wall_name
+from .parts import DEFAULT_SIZE_FRACTION, Layout, Sizing, mesh_layout, symmetry_wall_name
 
 BUILDERS = {"box": box, "pillbox": pillbox, "loaded_box": loaded_box, "coax": coax,
             "dr_fixture": dr_fixture, "tuned_box": tuned_box, "tuned_pillbox": tuned_pillbox,
@@ -31,7 +31,6 @@ def build_part(name: str, *, mesh_size: float | None = None, sizing: Sizing | No
             raise InputError(f"this {name} has no symmetry plane normal to {axis}; it has "
                              f"{', '.join(planes) or 'none'}", field=f"symmetry.{axis}")
     if sizing is None:
-        from ..sizing import DEFAULT_SIZE_FRACTION
         sizing = Sizing(size=mesh_size or DEFAULT_SIZE_FRACTION * layout.extent(), curved=curved)
     return mesh_layout(layout, sizing, {axis: planes[axis] for axis in symmetry}, name=name)
 

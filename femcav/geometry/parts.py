@@ -24,6 +24,10 @@ from .solids import Box, Solid
 AXES = "xyz"
 
 
+# Without a [mesh] size: elements this fraction of the part's extent.
+DEFAULT_SIZE_FRACTION = 0.1
+
+
 @dataclass(frozen=True)
 class Layout:
     space: list[Solid]

@@ -10,9 +10,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-PALETTE = ("#0072B2", "#D55E00", "#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#F0E442",
-           "#000000")
-MARKERS = ("o", "s", "^", "D", "v", "P", "X", "*")
+from ..viz.chart_style import MARKERS, PALETTE
 
 
 def write_mode_chart(document: dict, path: Path) -> None:

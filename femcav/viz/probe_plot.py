@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from ..study.chart import MARKERS, PALETTE
+from .chart_style import MARKERS, PALETTE
 from ..units import format_frequency
 
 SIZE_INCHES = (8.0, 6.2)

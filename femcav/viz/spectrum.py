@@ -19,7 +19,7 @@ from pathlib import Path
 import numpy as np
 from scipy.constants import c as C0
 
-from ..study.chart import MARKERS, PALETTE
+from .chart_style import MARKERS, PALETTE
 
 SIZE_INCHES = (8.0, 6.2)
 
