@@ -420,6 +420,13 @@ def test_mode_chart_shows_lengths_in_millimetres(tmp_path, monkeypatch):
     assert list(line.get_ydata()) == pytest.approx([9.5, 9.2])
 
 
+# a made-up box with a dielectric block, as a case file's raw tables
+LOADED_BOX = {"geometry": {"builder": "loaded_box", "width": "20 mm", "height": "10 mm",
+                           "length": "30 mm", "block_corner": ["1 mm", "2 mm", "3 mm"],
+                           "block_size": ["4 mm", "5 mm", "6 mm"]},
+              "regions": {"block": {"eps_r": 4.0}}}
+
+
 def test_tune_reference_value_of_a_point_coordinate():
     """`geometry.NAME[i]` starts the tuning from coordinate i of the point, in metres."""
     from pathlib import Path
@@ -427,10 +434,7 @@ def test_tune_reference_value_of_a_point_coordinate():
     from femcav.case import case_from_data
     from femcav.study.tune import TuneSpec, _reference_value
 
-    data = {"geometry": {"builder": "loaded_box", "width": "20 mm", "height": "10 mm",
-                         "length": "30 mm", "block_corner": ["1 mm", "2 mm", "3 mm"],
-                         "block_size": ["4 mm", "5 mm", "6 mm"]},
-            "regions": {"block": {"eps_r": 4.0}}}
+    data = LOADED_BOX
     case = case_from_data(data, Path("made-up.toml"))
     for path, expected in (("geometry.block_corner[1]", 2e-3), ("geometry.block_size[2]", 6e-3),
                            ("geometry.width", 20e-3), ("regions.block.eps_r", 4.0)):
@@ -482,3 +486,165 @@ def test_sweep_axis_from_to_points():
         parse_axis("geometry.radius", "sweep")
     assert (refused.value.field, refused.value.message) == (
         "sweep", "must be a table, got a string")
+
+
+# --- fem: the element's degrees of freedom against their textbook definition ----------------
+
+def textbook_moments(k, field):
+    """Nédélec's moments of order k (Numer. Math. 35 (1980) 315-341; the list in
+    femcav/fem/nedelec.py's notes) on the reference tetrahedron, integrated with quadrature
+    rules that are not femcav's: numpy's Gauss-Legendre on the edges, scikit-fem's rules on
+    the faces and inside. ``field`` maps points (3, n) to values (..., 3, n); edges and
+    faces in scikit-fem's local order, q a monomial of the edge or face parameters."""
+    from skfem.quadrature import get_quadrature
+    from skfem.refdom import RefTet, RefTri
+
+    corners = np.array([[0.0, 0, 0], [1, 0, 0], [0, 1, 0], [0, 0, 1]])
+    rows = []
+    s, w = np.polynomial.legendre.leggauss(12)
+    s, w = (s + 1) / 2, w / 2                                   # on [0, 1]
+    for a, b in RefTet.edges:
+        t = corners[b] - corners[a]
+        u = np.einsum("...cn,c->...n", field(corners[a][:, None] + np.outer(t, s)), t)
+        rows += [u @ (w * s**p) for p in range(k)]
+    (st, wt) = get_quadrature(RefTri, 2 * k + 2)
+    for a, b, c in RefTet.facets:
+        X = corners[a][:, None] + np.outer(corners[b] - corners[a], st[0]) + np.outer(
+            corners[c] - corners[a], st[1])
+        values = field(X)
+        for i in range(k - 1):
+            for j in range(k - 1 - i):
+                q = wt * st[0] ** i * st[1] ** j
+                rows += [np.einsum("...cn,c->...n", values, t) @ q
+                         for t in (corners[b] - corners[a], corners[c] - corners[a])]
+    if k >= 3:
+        X, wv = get_quadrature(RefTet, 2 * k + 2)
+        rows += [np.einsum("...cn,c->...n", field(X), corners[m] - corners[0]) @ wv
+                 for m in (1, 2, 3)]
+    return np.array(rows)
+
+
+@pytest.mark.parametrize("order", [1, 2, 3])
+def test_edge_element_basis_is_dual_to_the_textbook_moments(order):
+    """Each basis function has one textbook moment equal to 1 and all others 0 (the element
+    is defined as the dual basis of the moments: Nédélec 1980; Monk, Finite Element Methods
+    for Maxwell's Equations, 2003, §5.5; from memory), and femcav's DOFs of any smooth field
+    are those moments (in its own order). For order 1 the edge moment of a constant field is
+    its circulation c · (x_b - x_a) along the edge (Whitney's element: common practice)."""
+    from femcav.fem.nedelec import ElementTetNedelec, dofs_of
+
+    element = ElementTetNedelec(order)
+    T = textbook_moments(order, lambda X: element.reference_tables(X)[0])
+    n = T.shape[0]
+    assert T.shape == (n, n) == (element.reference_tables(np.zeros((3, 1)))[0].shape[0],) * 2
+    assert np.allclose(np.sort(np.abs(T), axis=1)[:, :-1], 0.0, atol=1e-10)
+    assert np.allclose(np.sort(np.abs(T), axis=1)[:, -1], 1.0, atol=1e-10)
+    assert sorted(np.argmax(np.abs(T), axis=1)) == list(range(n))        # a permutation
+    assert np.allclose(T[np.abs(T) > 0.5], 1.0)
+
+    coefficients = np.random.default_rng(order).standard_normal((3, 3, order + 2))
+
+    def smooth(X):                          # a polynomial field of degree order + 1
+        return np.stack([sum(coefficients[c, a, p] * X[a] ** p for a in range(3)
+                             for p in range(order + 2)) for c in range(3)])
+    assert np.allclose(T @ dofs_of(order, smooth), textbook_moments(order, smooth),
+                       rtol=1e-12, atol=1e-12)
+    if order == 1:
+        c = np.array([0.3, -1.2, 2.0])
+        circulations = [c @ (np.eye(4, 3, -1)[b] - np.eye(4, 3, -1)[a])
+                        for a, b in ((0, 1), (1, 2), (0, 2), (0, 3), (1, 3), (2, 3))]
+        constant = dofs_of(1, lambda X: np.broadcast_to(c[:, None], X.shape))
+        assert np.allclose(constant, circulations, rtol=1e-14)
+
+
+# --- study: what a study may vary, and its refusals ------------------------------------------
+
+@pytest.mark.parametrize("spec, field, message", [
+    # a point has coordinates 0, 1, 2 only (this index once passed to a traceback)
+    ({"parameter": "geometry.block_corner[3]", "values": [1, 2]}, "sweep.parameter",
+     "cannot vary 'geometry.block_corner[3]'; name a builder length (geometry.radius, "
+     "geometry.block_corner[0]), regions.NAME.eps_r / mu_r / tan_delta or "
+     "walls.NAME.conductivity"),
+    ({"values": ["1 mm"]}, "sweep.parameter",
+     "missing: the parameter to vary, e.g. \"geometry.radius\""),
+    ({"parameter": "geometry.radius", "values": ["1 mm"], "points": 3}, "sweep",
+     "give either values or from, to and points"),
+    ({"parameter": "geometry.radius", "values": []}, "sweep.values", "must be a non-empty list"),
+    ({"parameter": "geometry.radius", "from": "1 mm"}, "sweep",
+     "missing to, points (or give values = [...])"),
+    ({"parameter": "geometry.radius", "values": ["1 mm", "0.1 cm"]}, "sweep",
+     "lists a value twice"),
+])
+def test_sweep_axis_refusals_name_the_key(spec, field, message):
+    """Each mistake in a study axis is one InputError at its key path (the project's
+    input-error contract, DEVELOPERS.md)."""
+    from femcav.errors import InputError
+    from femcav.study.parameters import parse_axis
+
+    with pytest.raises(InputError) as refused:
+        parse_axis(spec, "sweep")
+    assert (refused.value.field, refused.value.message) == (field, message)
+
+
+def test_axis_kinds_units_and_the_value_written_into_the_case():
+    """A path names a length (m), a number or a conductivity (S/m); a study writes the value
+    into a copy of the case tables at that path, and a conductivity replaces a metal preset
+    (the copy is deep: the base case stays as it was)."""
+    from femcav.errors import InputError
+    from femcav.study.parameters import format_value, parse_axis, with_value
+
+    axes = {path: parse_axis({"parameter": path, "values": values}, "tune")
+            for path, values in (("geometry.block_corner[2]", ["2 mm", "3 mm"]),
+                                 ("regions.puck.tan_delta", [1e-4, 2e-4]),
+                                 ("walls.lid.conductivity", ["1e7 S/m", "2e7 S/m"]))}
+    assert [(a.kind, a.unit, a.where) for a in axes.values()] == [
+        ("length", "m", "tune"), ("number", "", "tune"), ("conductivity", "S/m", "tune")]
+    assert axes["geometry.block_corner[2]"].label() == "geometry.block_corner[2] (m)"
+    assert axes["regions.puck.tan_delta"].label() == "regions.puck.tan_delta"
+    assert axes["geometry.block_corner[2]"].values == pytest.approx((2e-3, 3e-3), rel=1e-12)
+    assert axes["walls.lid.conductivity"].origins == ("tune.values[0]", "tune.values[1]")
+    assert format_value(axes["regions.puck.tan_delta"], 1.5e-4) == "0.00015"
+    assert "mm" in format_value(axes["geometry.block_corner[2]"], 2e-3)
+    assert "S/m" in format_value(axes["walls.lid.conductivity"], 1e7)
+
+    base = {"geometry": {"block_corner": ["1 mm", "2 mm", "3 mm"], "width": "20 mm"},
+            "regions": {"puck": {"eps_r": 30.0}}, "walls": {"lid": {"metal": "copper"}}}
+    point = with_value(base, "geometry.block_corner[1]", 5e-3)
+    assert point["geometry"]["block_corner"] == ["1 mm", 5e-3, "3 mm"]
+    assert with_value(base, "geometry.width", 0.03)["geometry"]["width"] == 0.03
+    assert with_value(base, "regions.puck.tan_delta", 2e-4)["regions"]["puck"] == {
+        "eps_r": 30.0, "tan_delta": 2e-4}
+    assert with_value(base, "walls.lid.conductivity", 1e7)["walls"]["lid"] == {
+        "kind": "metal", "conductivity": 1e7}
+    assert with_value(base, "walls.side.conductivity", 1e7)["walls"]["side"] == {
+        "kind": "metal", "conductivity": 1e7}
+    assert base["walls"]["lid"] == {"metal": "copper"} and base["geometry"]["width"] == "20 mm"
+    with pytest.raises(InputError) as refused:
+        with_value({"geometry": {"block_corner": "1 mm"}}, "geometry.block_corner[0]", 1e-3)
+    assert (refused.value.field, refused.value.message) == (
+        "geometry.block_corner", "geometry.block_corner must be given as a list of three "
+        "lengths to vary one of them")
+
+
+def test_a_study_may_vary_only_lengths_the_builder_has():
+    from pathlib import Path
+
+    from femcav.case import case_from_data
+    from femcav.errors import InputError
+    from femcav.study.parameters import check_parameter_exists, parse_axis
+
+    data = LOADED_BOX
+    case = case_from_data(data, Path("made-up.toml"))
+    for path in ("geometry.width", "geometry.block_size[0]", "regions.other.eps_r"):
+        check_parameter_exists(parse_axis({"parameter": path, "values": [1, 2]}, "sweep"), case)
+    for path, message in (
+            ("geometry.radius", "loaded_box has no length 'radius'; this builder takes width, "
+                                "height, length, block_corner, block_size"),
+            ("geometry.block_size", "a point's coordinate is named NAME[0], NAME[1] or NAME[2]; "
+                                    "a length by its name"),
+            ("geometry.width[1]", "a point's coordinate is named NAME[0], NAME[1] or NAME[2]; "
+                                  "a length by its name")):
+        with pytest.raises(InputError) as refused:
+            check_parameter_exists(parse_axis({"parameter": path, "values": [1, 2]}, "sweep"),
+                                   case)
+        assert (refused.value.field, refused.value.message) == ("sweep.parameter", message)
