@@ -648,3 +648,139 @@ def test_a_study_may_vary_only_lengths_the_builder_has():
             check_parameter_exists(parse_axis({"parameter": path, "values": [1, 2]}, "sweep"),
                                    case)
         assert (refused.value.field, refused.value.message) == ("sweep.parameter", message)
+
+
+# --- post: where the perturbation Q stops being valid ----------------------------------------
+
+def _quantities(text):
+    """The lengths printed in a warning, in metres."""
+    import re
+    scale = {"m": 1.0, "mm": 1e-3, "µm": 1e-6}
+    return [float(v) * scale[u] for v, u in re.findall(r"([0-9.e+-]+) (m|mm|µm)\b", text)]
+
+
+def test_wall_q_is_flagged_where_the_skin_depth_is_not_small():
+    """Q_w = 2 L_w / δ for a smooth wall (Collin, Foundations for Microwave Engineering, 2nd
+    ed., §7.1; from memory), so δ > 0.1 L_w exactly when Q_w < 20; a rough wall's larger R_s
+    (Hammerstad-Jensen factor, 1 + (2/π) atan(1.4 (Δ/δ)²), from memory) means a longer L_w.
+    δ = sqrt(2 / (ω μ0 σ)) (Pozar, Microwave Engineering, 4th ed., §1.7)."""
+    from dataclasses import dataclass
+
+    from scipy.constants import mu_0
+
+    from femcav.post.losses import LossReport
+    from femcav.post.loss_validity import ADVICE, loss_validity_summary, loss_warnings
+    from femcav.walls import Wall
+
+    f = 10e9
+    omega = 2 * np.pi * f
+    copper, brass = 5.8e7, 1.5e7                    # S/m (common practice)
+    delta = {name: np.sqrt(2 / (omega * mu_0 * s)) for name, s in (("lid", copper),
+                                                                     ("side", brass))}
+    walls = {"lid": Wall("metal", copper), "side": Wall("metal", brass),
+             "rough": Wall("metal", copper, roughness=float(delta["lid"])),
+             "cut": Wall("pmc")}
+    # Q_lid = 12 / 0.7 = 17.1 < 20: flagged; Q_side = 12 / 0.25 = 48: not
+    report = LossReport(q_wall=12.0, q_dielectric=None, q_total=12.0,
+                        wall_loss_share={"lid": 0.7, "side": 0.25, "cut": 0.05, "gone": 0.0})
+    (warning,) = loss_warnings(f, report, walls)
+    assert warning.startswith("wall lid: skin depth ") and warning.endswith(
+        "Q_wall by perturbation not valid")
+    printed_delta, printed_length = _quantities(warning)
+    assert printed_delta == pytest.approx(delta["lid"], rel=5e-3)
+    assert printed_length == pytest.approx(12.0 / 0.7 * delta["lid"] / 2, rel=5e-3)
+    for q_wall, flagged in ((19.0, True), (21.0, False)):          # either side of Q_w = 20
+        one = LossReport(q_wall=q_wall, q_dielectric=None, q_total=q_wall,
+                         wall_loss_share={"side": 1.0})
+        assert bool(loss_warnings(f, one, walls)) is flagged, q_wall
+    # roughness Δ = δ raises R_s by 1 + (2/π) atan(1.4) = 1.61, so Q 17.1 is L_w = 13.7 δ
+    rough = LossReport(q_wall=12.0, q_dielectric=None, q_total=12.0,
+                       wall_loss_share={"rough": 0.7})
+    assert loss_warnings(f, rough, walls) == []
+    assert loss_warnings(f, None, walls) == []
+
+    lossy = LossReport(q_wall=None, q_dielectric=8.0, q_total=8.0)
+    assert loss_warnings(f, lossy, walls) == [
+        "Q_dielectric = 8 < 10: loss not small, Q_dielectric by perturbation not valid"]
+    both = LossReport(q_wall=30.0, q_dielectric=30.0, q_total=15.0 / 2)
+    assert loss_warnings(f, both, {}) == [
+        "Q_total = 7.5 < 10: loss not small, Q_total by perturbation not valid"]
+
+    @dataclass
+    class Mode:
+        index: int
+        loss_warnings: tuple
+
+    assert loss_validity_summary([Mode(1, ()), Mode(2, ())]) == []
+    assert loss_validity_summary([Mode(1, ("a", "b")), Mode(2, ()), Mode(3, ("c",))]) == [
+        "mode 1: a; b", "mode 3: c", ADVICE]
+
+
+def test_complex_check_flags_an_unpaired_mode_or_a_disagreeing_q():
+    """The perturbation Q_d is trusted when 1/Q_d is within 10 % of the complex solve's."""
+    from dataclasses import dataclass
+
+    from femcav.post.losses import LossReport
+    from femcav.post.loss_validity import complex_check_warnings, with_complex_warnings
+
+    @dataclass
+    class Mode:
+        losses: object
+        q_dielectric_complex: float | None
+        loss_warnings: tuple = ("earlier",)
+
+    def report(q):
+        return LossReport(q_wall=None, q_dielectric=q, q_total=q)
+    assert complex_check_warnings(Mode(report(100.0), None)) == [
+        "no complex eigenvalue left to pair with this mode (one mode each at most)"]
+    assert complex_check_warnings(Mode(report(100.0), 105.0)) == []       # 1/Q 4.8 % apart
+    assert complex_check_warnings(Mode(report(100.0), 95.0)) == []        # 5 % apart
+    assert complex_check_warnings(Mode(None, 95.0)) == []
+    (apart,) = complex_check_warnings(Mode(report(100.0), 125.0))        # 20 % apart
+    assert apart.startswith("Q_dielectric 100 by perturbation against 125 from the complex solve")
+    assert complex_check_warnings(Mode(report(100.0), 80.0))             # 25 % apart
+    (mode,) = with_complex_warnings([Mode(report(100.0), 125.0)])
+    assert mode.loss_warnings == ("earlier", apart)
+
+
+def test_v_cycle_of_the_vector_laplacian_aggregates_whole_vertices():
+    """Hiptmair and Xu's auxiliary problem is the vector Laplacian (three uncoupled copies of
+    the nodal Laplacian, node-major): the V-cycle is pyamg's smoothed aggregation on 3 x 3
+    blocks with the given near-null fields (here the curl-free linear fields, as the HX
+    preconditioner passes), so that each vertex's three components share their aggregate,
+    and it converges as a preconditioner (R. Hiptmair and J. Xu, SIAM J. Numer. Anal. 45
+    (2007) 2483-2509, from memory; pyamg's gallery and solver as the reference)."""
+    import pyamg
+    from pyamg.gallery import poisson
+    from scipy.sparse.linalg import LinearOperator, cg
+
+    from femcav.eigen.hx import MAX_COARSE, BlockVCycle, linear_fields
+
+    side = 9
+    A = sp.kron(poisson((side, side, side), format="csr"), np.eye(3)).tocsr()
+    grid = np.arange(side, dtype=float)
+    points = np.array(np.meshgrid(grid, grid, grid, indexing="ij")).reshape(3, -1)
+    fields = linear_fields(points)
+    cycle = BlockVCycle(A, near_null=fields, blocksize=3)
+    state = np.random.get_state()
+    np.random.seed(2024)
+    try:
+        reference = pyamg.smoothed_aggregation_solver(
+            A.tobsr(blocksize=(3, 3)), B=fields, max_coarse=MAX_COARSE, max_levels=25,
+            keep=False, improve_candidates=None)
+    finally:
+        np.random.set_state(state)
+    assert cycle.n_levels == len(reference.levels) >= 2
+    for ours, theirs in zip(cycle.P, reference.levels[:-1]):
+        assert ours.shape == theirs.P.shape
+        assert abs(ours - theirs.P.tocsr()).max() < 1e-12 * abs(theirs.P).max()
+    P = sp.csr_matrix(cycle.P[0])
+    pattern = [frozenset(P.indices[P.indptr[i]:P.indptr[i + 1]] // fields.shape[1])
+               for i in range(A.shape[0])]
+    assert all(pattern[3 * v] == pattern[3 * v + 1] == pattern[3 * v + 2]
+               for v in range(A.shape[0] // 3))
+    b = np.random.default_rng(4).standard_normal(A.shape[0])
+    steps = []
+    x, info = cg(A, b, M=LinearOperator(A.shape, matvec=cycle), rtol=1e-8, maxiter=200,
+                 callback=lambda xk: steps.append(1))
+    assert info == 0 and len(steps) <= 25, len(steps)
