@@ -788,3 +788,29 @@ def test_v_cycle_of_the_vector_laplacian_aggregates_whole_vertices():
     x, info = cg(A, b, M=LinearOperator(A.shape, matvec=cycle), rtol=1e-8, maxiter=200,
                  callback=lambda xk: steps.append(1))
     assert info == 0 and len(steps) <= 25, len(steps)
+
+
+def test_factoriser_names_and_refusals(monkeypatch):
+    """A factoriser is asked for by name on solve.factorization; PARDISO without MKL is a
+    user mistake that says how to install it or what to use instead, and "auto" then means
+    SuperLU."""
+    from femcav.eigen import factorization, pardiso
+    from femcav.errors import InputError
+
+    assert factorization.get_factorizer("superlu") is factorization.FACTORIZERS["superlu"]
+    with pytest.raises(InputError) as refused:
+        factorization.get_factorizer("cholmod")
+    assert (refused.value.field, refused.value.message) == (
+        "solve.factorization", "unknown factorisation 'cholmod'; allowed: auto, superlu, pardiso")
+    monkeypatch.setattr(pardiso, "available", lambda: False)
+    with pytest.raises(InputError) as refused:
+        factorization.get_factorizer("pardiso")
+    assert (refused.value.field, refused.value.message) == (
+        "solve.factorization", "factorization = \"pardiso\" needs MKL: pip install "
+        "'femcav[fast]' (or use \"auto\" or \"superlu\")")
+    assert factorization.describe("auto") == "SuperLU (MKL PARDISO not installed)"
+    assert factorization.library("auto") == "superlu"
+    assert [factorization.describe(n) for n in ("superlu", "pardiso")] == ["SuperLU",
+                                                                          "MKL PARDISO"]
+    monkeypatch.setattr(pardiso, "available", lambda: True)
+    assert factorization.describe("auto") == "MKL PARDISO"
