@@ -814,3 +814,54 @@ def test_factoriser_names_and_refusals(monkeypatch):
                                                                           "MKL PARDISO"]
     monkeypatch.setattr(pardiso, "available", lambda: True)
     assert factorization.describe("auto") == "MKL PARDISO"
+
+
+def test_sweep_grid_order_and_what_a_study_refuses(tmp_path):
+    """A two-parameter sweep is the grid of both axes, the first varying fastest, each value
+    keeping the key it came from; a study refuses what mode tracking cannot follow, and a
+    point that would be refused is named with its values, at the key of the culprit value."""
+    from conftest import box_case
+    from femcav.errors import InputError
+    from femcav.study.sweep import load_study, parse_sweep, sweep_trials
+
+    def refused(data):
+        with pytest.raises(InputError) as caught:
+            parse_sweep(data)
+        return caught.value.field, caught.value.message
+
+    first = {"parameter": "geometry.width", "values": ["20 mm", "21 mm"]}
+    second = {"parameter": "geometry.length", "from": "25 mm", "to": "27 mm", "points": 3}
+    spec = parse_sweep({"sweep": {**first, "second": second}})
+    assert np.allclose(spec.points(), [(0.020, 0.025), (0.021, 0.025), (0.020, 0.026),
+                                       (0.021, 0.026), (0.020, 0.027), (0.021, 0.027)])
+    assert [[(axis.path, key) for axis, _, key in trial] for trial in sweep_trials(spec)][:3] == [
+        [("geometry.width", "sweep.values[0]"), ("geometry.length", "sweep.second.from")],
+        [("geometry.width", "sweep.values[1]"), ("geometry.length", "sweep.second.from")],
+        [("geometry.width", "sweep.values[0]"), ("geometry.length", "sweep.second")]]
+    assert np.allclose(parse_sweep({"sweep": first}).points(), [(0.020,), (0.021,)])
+    assert refused({}) == ("sweep", "the case has no [sweep] table (parameter and values, or "
+                                    "from, to and points)")
+    assert refused({"sweep": {**first, "second": {**first, "values": ["30 mm"]}}}) == (
+        "sweep.second", "the second parameter is the first one again")
+    many = {"parameter": "geometry.width", "from": "20 mm", "to": "30 mm", "points": 400}
+    assert refused({"sweep": {**many, "second": {**second, "points": 251}}}) == (
+        "sweep.second", "400 x 251 = 100400 points; at most 100000 in a sweep")
+
+    sweep = '[sweep]\nparameter = "geometry.width"\nvalues = ["20 mm", "21 mm"]\n'
+    for text, field, start in (
+            (box_case() + sweep + '[symmetry]\nx = "pec"\n', "symmetry",
+             "studies track modes over the whole part; drop [symmetry]"),
+            ('[geometry]\nbuilder = "pillbox"\nradius = "12 mm"\nlength = "18 mm"\n'
+             '[solve]\nazimuthal_orders = [0]\n[sweep]\nparameter = "geometry.radius"\n'
+             'values = ["12 mm", "13 mm"]\n', "solve.azimuthal_orders",
+             "studies track modes of 3D solves; axisymmetric tracking is not yet available"),
+            (box_case(extra="error_estimate = true\n") + sweep, "solve.error_estimate",
+             "error bars at every study point are not yet available"),
+            (box_case() + sweep.replace('"21 mm"', '"-8 mm"'), "sweep.values[1]",
+             "the point geometry.width = -8 mm is refused: geometry.width: ")):
+        case = tmp_path / "case.toml"
+        case.write_text(text)
+        with pytest.raises(InputError) as caught:
+            load_study(case, parse_sweep, sweep_trials)
+        assert caught.value.field == field and caught.value.source == str(case)
+        assert caught.value.message.startswith(start), caught.value.message
