@@ -865,3 +865,52 @@ def test_sweep_grid_order_and_what_a_study_refuses(tmp_path):
             load_study(case, parse_sweep, sweep_trials)
         assert caught.value.field == field and caught.value.source == str(case)
         assert caught.value.message.startswith(start), caught.value.message
+
+
+def test_tune_table_and_its_starting_value():
+    """The bracket is sorted with each end keeping its key; defaults for mode and tolerance;
+    each mistake is refused at its key; the starting value is read from the case as written
+    (a region's number, a wall's conductivity), and what cannot be started from is refused."""
+    from pathlib import Path
+
+    from femcav.case import case_from_data
+    from femcav.errors import InputError
+    from femcav.study.tune import TuneSpec, _reference_value, parse_tune, tune_trials
+
+    spec = parse_tune({"tune": {"parameter": "geometry.width", "bracket": ["22 mm", "18 mm"],
+                                "target": "9 GHz"}})
+    assert spec.bracket == pytest.approx((0.018, 0.022)) and spec.target_hz == 9e9
+    assert spec.bracket_keys == ("tune.bracket[1]", "tune.bracket[0]")
+    assert (spec.kind, spec.mode) == ("length", 1) and 0 < spec.tolerance < 1e-3
+    assert [[(a.path, v, k) for a, v, k in t] for t in tune_trials(spec)] == [
+        [("geometry.width", spec.bracket[0], "tune.bracket[1]")],
+        [("geometry.width", spec.bracket[1], "tune.bracket[0]")]]
+    for table, field, message in (
+            (None, "tune", "the case has no [tune] table (parameter, bracket, target, mode)"),
+            ({"parameter": "geometry.width", "target": "9 GHz"}, "tune", "missing bracket"),
+            ({"bracket": [1, 2]}, "tune", "missing parameter, target"),
+            ({"parameter": "geometry.width", "bracket": ["2 cm", "20 mm"], "target": "9 GHz"},
+             "tune.bracket", "the two ends of the bracket are equal")):
+        with pytest.raises(InputError) as refused:
+            parse_tune({} if table is None else {"tune": table})
+        assert (refused.value.field, refused.value.message) == (field, message)
+
+    data = {**LOADED_BOX, "regions": {"block": {"eps_r": "2 + x / 0.02", "mu_r": 1.5}},
+            "walls": {"lid": {"kind": "metal", "conductivity": "20 MS/m"},
+                      "floor": {"kind": "pec"}}}
+    case = case_from_data(data, Path("made-up.toml"))
+
+    def start(path):
+        return _reference_value(data, TuneSpec(path=path, kind="number", bracket=(0.0, 1.0),
+                                               target_hz=1e9, mode=1, tolerance=1e-6), case)
+    assert start("regions.block.mu_r") == 1.5
+    assert start("walls.lid.conductivity") == pytest.approx(2e7)
+    for path, message in (
+            ("regions.air.eps_r", "region 'air' has no table in the case"),
+            ("regions.block.eps_r", "regions.block.eps_r is given as an expression; only a "
+                                    "number can be tuned"),
+            ("walls.floor.conductivity", "the wall has no conductivity to start from"),
+            ("walls.side.conductivity", "the wall has no conductivity to start from")):
+        with pytest.raises(InputError) as refused:
+            start(path)
+        assert (refused.value.field, refused.value.message) == ("tune.parameter", message)
