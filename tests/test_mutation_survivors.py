@@ -914,3 +914,29 @@ def test_tune_table_and_its_starting_value():
         with pytest.raises(InputError) as refused:
             start(path)
         assert (refused.value.field, refused.value.message) == ("tune.parameter", message)
+
+
+def test_check_failures_say_which_limit_and_by_how_much():
+    """A check at its limit passes; above it, the failure names the quantity, its value and
+    the limit (1e-6 each)."""
+    from femcav.post.checks import ModeChecks
+
+    assert ModeChecks(1e-6, 1e-6, 1e-6).failures() == [] and ModeChecks(1e-6, 0, 0).passed
+    assert ModeChecks(2.5e-6, 0.0, 0.0).failures() == ["residual 2.5e-06 > 1e-06"]
+    assert ModeChecks(0.0, 3e-3, 0.0).failures() == ["divergence 3.0e-03 > 1e-06"]
+    assert ModeChecks(0.0, 0.0, 0.5).failures() == ["orthogonality 5.0e-01 > 1e-06"]
+    assert len(ModeChecks(1.0, 1.0, 1.0).failures()) == 3
+    assert ModeChecks(float("nan"), 0.0, 0.0).failures() == ["residual nan > 1e-06"]
+
+
+def test_mesh_sizes_from_counts_and_the_resolvable_frequency():
+    """A quasi-uniform 3D mesh of N elements has h ∝ N^(-1/3) (common practice), so eight
+    times the DOFs halve h; points per wavelength fall like 1/f for a fixed field shape, so a
+    mode at f with twice the points it needs marks 2 f as the highest frequency resolved."""
+    from femcav.post.resolution import Resolution, resolvable_frequency_hz
+    from femcav.post.richardson import sizes_from_dofs
+
+    h = sizes_from_dofs([1000, 8000, 27000])
+    assert h == pytest.approx([0.1, 0.05, 1 / 30], rel=1e-12)
+    assert resolvable_frequency_hz(5e9, Resolution(points_per_wavelength=12.0,
+                                                   required=6.0)) == pytest.approx(10e9)
