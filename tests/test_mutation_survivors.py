@@ -940,3 +940,60 @@ def test_mesh_sizes_from_counts_and_the_resolvable_frequency():
     assert h == pytest.approx([0.1, 0.05, 1 / 30], rel=1e-12)
     assert resolvable_frequency_hz(5e9, Resolution(points_per_wavelength=12.0,
                                                    required=6.0)) == pytest.approx(10e9)
+
+
+# --- post: the field class and the azimuthal order on closed-form fields ---------------------
+
+@pytest.mark.parametrize("ez, hz, label", [
+    (0.019, 0.5, "TE-like"), (0.021, 0.5, "hybrid"), (0.5, 0.019, "TM-like"),
+    (0.019, 0.019, "TEM-like"), (0.5, 0.021, "hybrid"), (0.0, 1.0, "TE-like"),
+])
+def test_field_class_by_the_axial_energy_share(ez, hz, label):
+    """The class is read off the weighted share of |E_z|² and |H_z|² in the energy, each
+    against 2 % (femcav/post/classify.py's documented rule); points with a small weight count
+    little."""
+    from femcav.post.classify import field_class
+
+    E = np.tile([np.sqrt(1 - ez), 0.0, np.sqrt(ez)], (3, 1))
+    H = np.tile([0.0, np.sqrt(1 - hz), np.sqrt(hz)], (3, 1))
+    w = np.array([0.5, 0.3, 0.2])
+    assert field_class(E, H, w) == label
+    # a point with all of its field along z, but 1 % of the weight: still below 2 %
+    E2, H2 = np.array([[1.0, 0, 0], [0, 0, 1.0]]), np.array([[0, 1.0, 0], [0, 0, 1.0]])
+    assert field_class(E2, H2, np.array([0.99, 0.01])) == "TEM-like"
+    assert field_class(E2, H2, np.array([0.97, 0.03])) == "hybrid"
+
+
+def pillbox_points(radius, length, inner=0.0, count=20000, seed=7):
+    rng = np.random.default_rng(seed)
+    r = np.sqrt(inner**2 + (radius**2 - inner**2) * rng.random(count))
+    phi, z = 2 * np.pi * rng.random(count), length * rng.random(count)
+    return np.column_stack([r * np.cos(phi), r * np.sin(phi), z]), r, phi, z
+
+
+def test_azimuthal_order_of_te_and_tem_fields():
+    """TE_211 of a pillbox, H_z = J_2(p'_21 r / a) cos 2φ sin(πz/d), E transverse (Pozar,
+    Microwave Engineering, 4th ed., §6.4; scipy.special for J_2 and p'_21): read from H_z.
+    The TEM field of a coaxial line, E = r̂ / r, H = φ̂ / r (Pozar §3.5): no axial field,
+    order 0 read from the radial E. Too few points for the ring: unclassified."""
+    from scipy.special import jnp_zeros, jv
+
+    from femcav.post.classify import azimuthal_label
+
+    radius, length = 0.010, 0.015
+    points, r, phi, z = pillbox_points(radius, length)
+    w = np.full(r.size, 1.0 / r.size)
+    hz = jv(2, jnp_zeros(2, 1)[0] * r / radius) * np.cos(2 * phi) * np.sin(np.pi * z / length)
+    H = np.column_stack([0.3 * np.cos(phi) * hz, 0.3 * np.sin(phi) * hz, hz])
+    E = np.column_stack([-np.sin(2 * phi), np.cos(2 * phi), np.zeros_like(r)]) * np.abs(hz)[:, None]
+    assert azimuthal_label(points, w, E, H) == "m = 2, TE-like"
+
+    points, r, phi, z = pillbox_points(radius, length, inner=0.003)
+    r_hat = np.column_stack([np.cos(phi), np.sin(phi), np.zeros_like(r)])
+    phi_hat = np.column_stack([-np.sin(phi), np.cos(phi), np.zeros_like(r)])
+    w = np.full(r.size, 1.0 / r.size)
+    assert azimuthal_label(points, w, r_hat / r[:, None], phi_hat / r[:, None]) == (
+        "m = 0, TEM-like")
+    few = slice(0, 30)
+    assert azimuthal_label(points[few], w[few], (r_hat / r[:, None])[few],
+                           (phi_hat / r[:, None])[few]) == "unclassified (TEM-like)"
