@@ -997,3 +997,39 @@ def test_azimuthal_order_of_te_and_tem_fields():
     few = slice(0, 30)
     assert azimuthal_label(points[few], w[few], (r_hat / r[:, None])[few],
                            (phi_hat / r[:, None])[few]) == "unclassified (TEM-like)"
+
+
+def test_richardson_bars_are_roaches_grid_convergence_index():
+    """Roache's grid convergence index on the finest mesh, GCI = Fs |f2 - f3| / (r^p - 1),
+    with Fs = 1.25 for a three-mesh study whose observed rate is believed and Fs = 3 for two
+    meshes (P. J. Roache, Verification and Validation in Computational Science and
+    Engineering, 1998, ch. 5; from memory), on exact f = f0 + C h^p sequences."""
+    from femcav.post.richardson import extrapolate
+
+    h = np.array([4e-3, 2e-3, 1e-3])
+    f0, C = 10e9, -2e14
+    f = f0 + C * h**2
+    x = extrapolate(h, f, order_rate=2.0)
+    assert (x.fallback, x.reason, x.safety_factor) == (False, "", 1.25)
+    assert x.rate_used == pytest.approx(2.0, abs=1e-8)
+    assert x.error_hz == pytest.approx(1.25 * abs(f[2] - f[1]) / (2**2 - 1), rel=1e-9)
+    assert x.error_hz == pytest.approx(1.25 * abs(f[2] - f0), rel=1e-9)
+
+    # p = 2.4 is within 25 % of the order's 2: still believed, the bar taken at rate 2 (the
+    # slower, larger correction), f0 from the observed rate
+    g = f0 + C * 1e-1 * (h / 1e-3) ** 2.4
+    y = extrapolate(h, g, order_rate=2.0)
+    assert y.safety_factor == 1.25 and y.fitted_rate == pytest.approx(2.4, rel=1e-8)
+    assert y.extrapolated_hz == pytest.approx(f0, rel=1e-9)       # p found to 1e-10
+    assert y.error_hz == pytest.approx(1.25 * abs(g[2] - g[1]) / (2**2 - 1), rel=1e-9)
+
+    two = extrapolate(h[1:], f[1:], order_rate=2.0)
+    assert (two.fallback, two.reason, two.safety_factor) == (
+        True, "two meshes: rate not observable", 3.0)
+    assert two.error_hz == pytest.approx(3.0 * abs(f[2] - f[1]) / (2**2 - 1), rel=1e-12)
+    assert math.isnan(two.fitted_rate) and two.rate_used == 2.0
+
+    # order 3 elements converge at h^6 (twice the order): p = 2 data disagree
+    slow = extrapolate(h, f, order_rate=6.0)
+    assert slow.safety_factor == 3.0 and not slow.fallback
+    assert slow.error_hz >= 3.0 * abs(f[2] - f0)
