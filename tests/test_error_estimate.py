@@ -295,6 +295,18 @@ def test_true_error_lies_within_the_bar(part, box_results, pillbox_results):
     assert max(resolved) <= 15, resolved
 
 
+def test_default_is_every_mode_of_the_finest_mesh_and_mistakes_are_refused(box_results):
+    # without ``indices`` every mode of the finest result gets its estimate, in its order
+    every = estimate_from_results(box_results, SIZES, order_rate=2.0)
+    finest = box_results[int(np.argmin(SIZES))]
+    assert [e.index for e in every] == [m.index for m in finest.modes]
+    assert [e.frequency_hz for e in every] == [m.frequency_hz for m in finest.modes]
+    for results, sizes in ((box_results[:1], SIZES[:1]), (box_results, SIZES[:2])):
+        with pytest.raises(ValueError, match="^need one result per mesh size and at least "
+                                             "two meshes$"):
+            estimate_from_results(results, sizes)
+
+
 def test_driver_trims_to_the_request_in_the_h_form():
     near = 16.3e9
     stream = io.StringIO()

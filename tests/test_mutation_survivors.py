@@ -222,6 +222,10 @@ def te_tm_amplitudes(index):
     ((1, 1, 1), 0.0, 1.0, "TM111"),
     ((1, 1, 1), 1.0, 1.0, "TE/TM111 (degenerate pair, mixed)"),
     ((2, 1, 0), 0.0, 1.0, "TM210"),
+    # each index up to 4, the highest the labeller tries
+    ((4, 0, 2), 1.0, 0.0, "TE402"),
+    ((2, 4, 1), 0.0, 1.0, "TM241"),
+    ((1, 1, 4), 1.0, 0.0, "TE114"),
 ])
 def test_box_label_of_closed_form_fields(index, te_part, tm_part, label):
     from femcav.post.classify import box_label
