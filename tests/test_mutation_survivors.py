@@ -1033,7 +1033,44 @@ def test_richardson_bars_are_roaches_grid_convergence_index():
     assert two.error_hz == pytest.approx(3.0 * abs(f[2] - f[1]) / (2**2 - 1), rel=1e-12)
     assert math.isnan(two.fitted_rate) and two.rate_used == 2.0
 
+    # rates outside the plausible band [0.5, 8], or differences that change sign: the
+    # theoretical rate with Fs = 3, and the reason said
+    for p, reason in ((12.0, "fitted rate 12 outside [0.5, 8]"),
+                      (0.3, "fitted rate 0.3 outside [0.5, 8]")):
+        x = extrapolate(h, f0 + 1e6 * (h / 1e-3) ** p, order_rate=2.0)
+        assert (x.fallback, x.reason, x.safety_factor, x.rate_used) == (True, reason, 3.0, 2.0)
+    x = extrapolate(h, f + np.array([0.0, 7e8, 0.0]), order_rate=2.0)
+    assert x.reason == "frequency differences change sign between meshes"
+
     # order 3 elements converge at h^6 (twice the order): p = 2 data disagree
     slow = extrapolate(h, f, order_rate=6.0)
     assert slow.safety_factor == 3.0 and not slow.fallback
     assert slow.error_hz >= 3.0 * abs(f[2] - f0)
+
+
+def test_a_degenerate_pair_is_extrapolated_by_its_mean():
+    """Two modes of one degenerate pair, split on every mesh by noise of either sign: their
+    mean converges like the eigenvalue itself (it is the trace of the perturbation on the
+    eigenspace: T. Kato, Perturbation Theory for Linear Operators, ch. 2; from memory), so
+    both are extrapolated to the exact f0, and each member's bar adds its distance from the
+    mean on the finest mesh (triangle inequality)."""
+    from femcav.post.error_estimate import estimate_matched
+
+    sizes = np.array([4e-3, 2e-3, 1e-3])
+    f0, C = 10e9, -2e14
+    mean = f0 + C * sizes**2
+    split = np.array([3e5, -2e5, 1e5])                   # mesh noise, far below 1e-6 f
+    single = 7e9 + 1e14 * sizes**2
+    matched = [[float(s), float(m + d), float(m - d)] for s, m, d in zip(single, mean, split)]
+    overlaps = [[1.0] * 3 for _ in sizes]
+    lone, first, second = estimate_matched(sizes, matched, overlaps, order_rate=2.0)
+    assert (lone.cluster, lone.cluster_size) == ((), 1)
+    assert (first.cluster, second.cluster) == ((2, 3), (2, 3)) and first.cluster_size == 2
+    assert [e.index for e in (lone, first, second)] == [1, 2, 3]
+    for member, sign in ((first, 1), (second, -1)):
+        assert member.extrapolated_hz == pytest.approx(f0, rel=1e-9)
+        assert member.frequency_hz == mean[-1] + sign * split[-1]
+        # Roache's GCI of the mean (Fs 1.25, rate 2, r = 2) plus the member's own split
+        assert member.error_estimate_hz == pytest.approx(
+            1.25 * abs(mean[-1] - mean[-2]) / 3 + abs(split[-1]), rel=1e-9)
+    assert lone.extrapolated_hz == pytest.approx(7e9, rel=1e-9)
