@@ -149,6 +149,11 @@ def test_transfer_reproduces_a_field_of_the_space_even_outside_the_coarse_mesh()
     transfer = transfer_matrix(space, points)
     assert transfer.outside_points > wall.shape[1] // 2
     assert transfer.outside_points < points.shape[1] - inner.shape[1] // 2
+    # a point on the true wall is outside a chord's facet by a sliver of its element, while
+    # points well inside are inside (worst barycentric coordinate 0 at most)
+    assert -0.5 < transfer.worst_barycentric < 0.0
+    assert transfer_matrix(space, inner).worst_barycentric == 0.0
+    assert transfer_matrix(space, inner).outside_points == 0
     got = (transfer.matrix @ dofs).reshape(3, -1)
     np.testing.assert_allclose(got, field(points), atol=1e-10 * np.abs(field(points)).max())
 
