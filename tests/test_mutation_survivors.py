@@ -1074,3 +1074,33 @@ def test_a_degenerate_pair_is_extrapolated_by_its_mean():
         assert member.error_estimate_hz == pytest.approx(
             1.25 * abs(mean[-1] - mean[-2]) / 3 + abs(split[-1]), rel=1e-9)
     assert lone.extrapolated_hz == pytest.approx(7e9, rel=1e-9)
+
+
+@pytest.mark.parametrize("form", ["E", "H"])
+def test_mode_fields_carry_half_the_joule_in_each_field(form):
+    """At resonance the time-averaged electric and magnetic energies are equal (Pozar,
+    Microwave Engineering, 4th ed., §6.1; common practice), so with the mode scaled to 1 J
+    each energy density integrates to 1/2 J; and TE101 of a box, E_y = E0 sin(πx/a)
+    sin(πz/d) with W_e = ε0 E0² a b d / 16 (§6.3), peaks at E0 = sqrt(8 / (ε0 a b d))."""
+    from scipy.constants import epsilon_0
+
+    from femcav.geometry import build_part
+    from femcav.materials import Material
+    from femcav.model import make_model
+    from femcav.post.fields import mode_fields
+    from femcav.solver import solve_model
+
+    a, b, d = BOX
+    part = build_part("box", width=a, height=b, length=d, mesh_size=0.004)
+    result = solve_model(make_model(part, {"inside": Material()}, {}), modes=1, form=form,
+                         order=2)
+    (mode,) = result.modes
+    fields = mode_fields(result.space, mode.dofs, 2 * np.pi * mode.frequency_hz)
+    corners = part.points[part.tets]
+    volume = np.abs(np.linalg.det(corners[:, 1:] - corners[:, :1])) / 6
+    assert np.sum(fields.w_e * volume) == pytest.approx(0.5, rel=0.03)
+    assert np.sum(fields.w_m * volume) == pytest.approx(0.5, rel=0.03)
+    peak = np.sqrt(8 / (epsilon_0 * a * b * d))
+    assert np.abs(fields.E[:, 1]).max() == pytest.approx(peak, rel=0.1)
+    assert np.abs(fields.E[:, 1]).max() <= 1.02 * peak
+    assert np.abs(fields.E[:, [0, 2]]).max() < 0.05 * peak
