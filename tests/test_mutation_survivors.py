@@ -1104,3 +1104,60 @@ def test_mode_fields_carry_half_the_joule_in_each_field(form):
     assert np.abs(fields.E[:, 1]).max() == pytest.approx(peak, rel=0.1)
     assert np.abs(fields.E[:, 1]).max() <= 1.02 * peak
     assert np.abs(fields.E[:, [0, 2]]).max() < 0.05 * peak
+
+
+def test_lobpcg_on_a_matrix_pencil_against_scipy_eigh():
+    """The block iteration on a plain symmetric-definite pencil (a 1D Laplacian against a
+    random SPD mass matrix) finds scipy.linalg.eigh's lowest pairs; its report says what
+    was asked and done (block = count + max(3, count // 4) columns unless ``extra`` says,
+    converged below the tolerance); null vectors the deflation did not remove come back as
+    additional pairs below the lowest-mode scale; too small a problem is refused."""
+    import scipy.linalg as la
+    from scipy.sparse.linalg import splu
+
+    from femcav.eigen import lobpcg
+    from femcav.eigen.interface import EigenRequest
+
+    n = 240
+    rng = np.random.default_rng(11)
+    laplacian = sp.diags([-np.ones(n - 1), 2 * np.ones(n), -np.ones(n - 1)], [-1, 0, 1])
+    B = sp.random(n, n, density=0.02, random_state=3) * 0.05
+    M = (sp.identity(n) + B @ B.T).tocsc()
+
+    class NoKernel:
+        def remove(self, X):
+            return X
+
+    def run(K, count, M=M, **options):
+        shifted = splu((K + 0.05 * M).tocsc())
+        return lobpcg.solve(K.tocsr(), M.tocsr(), NoKernel(), EigenRequest(count),
+                            lambda R: shifted.solve(np.asarray(R)), lowest_scale=0.05,
+                            **options)
+
+    K = laplacian.tocsr()
+    exact = la.eigh(K.toarray(), M.toarray(), eigvals_only=True)
+    pairs = run(K, 8)
+    assert pairs.values == pytest.approx(exact[:8], rel=1e-9)
+    residual = K @ pairs.vectors - M @ pairs.vectors * pairs.values
+    assert np.linalg.norm(residual, axis=0).max() < 1e-7 * np.linalg.norm(K @ pairs.vectors,
+                                                                         axis=0).min()
+    assert np.allclose(pairs.vectors.T @ M @ pairs.vectors, np.eye(8), atol=1e-8)
+    stats = pairs.stats
+    assert (stats["block_size"], stats["requested"], stats["converged"]) == (11, 8, True)
+    assert stats["largest_residual"] == stats["residual_history"][-1] < stats["tolerance"] == 1e-9
+    assert 0 < stats["iterations"] < len(stats["residual_history"]) + 1
+    assert run(K, 8, extra=5).stats["block_size"] == 13
+    assert run(K, 20).stats["block_size"] == 25
+
+    # two decoupled nodes with no stiffness: two static (null) vectors, returned as well
+    K0 = sp.block_diag([laplacian, sp.csr_matrix((2, 2))]).tocsr()
+    with_static = run(K0, 3, M=sp.block_diag([M, sp.identity(2)]).tocsc())
+    assert with_static.stats["requested"] == 5
+    assert np.abs(with_static.values[:2]).max() < 1e-12
+    assert with_static.values[2:] == pytest.approx(exact[:3], rel=1e-9)
+
+    with pytest.raises(ValueError, match="^8 DOFs are too few for 5 modes with LOBPCG$"):
+        lobpcg.solve(sp.identity(8).tocsr(), sp.identity(8).tocsr(), NoKernel(),
+                     EigenRequest(5), lambda R: R, lowest_scale=1.0)
+    with pytest.raises(ValueError, match="^count must be >= 1, got 0$"):
+        lobpcg.solve(K, M, NoKernel(), EigenRequest(0), lambda R: R, lowest_scale=1.0)
