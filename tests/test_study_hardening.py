@@ -339,6 +339,10 @@ def test_a_damaged_point_is_solved_again(solved, tmp_path, capsys, damage):
     document, _ = run_sweep(case, out=out)
     err = capsys.readouterr().err
     assert "cannot be read" in err and "point 2" in err
+    # the file and what is wrong with it (the standard library's exception names)
+    said = {"cut json": "001.json: JSONDecodeError: ", "garbage json": "001.json: not a point "
+            "summary", "no npz": "001.npz: FileNotFoundError: "}.get(damage, "001.npz: ")
+    assert said in err, err
     assert (points / "000.json").stat().st_mtime_ns == stamp          # the others reused
     np.testing.assert_allclose(first_track(document), first_track(expected), rtol=1e-6)
 
