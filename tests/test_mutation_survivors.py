@@ -871,7 +871,7 @@ def test_sweep_grid_order_and_what_a_study_refuses(tmp_path):
         assert caught.value.message.startswith(start), caught.value.message
 
 
-def test_tune_table_and_its_starting_value():
+def test_tune_table_and_its_starting_value(tmp_path):
     """The bracket is sorted with each end keeping its key; defaults for mode and tolerance;
     each mistake is refused at its key; the starting value is read from the case as written
     (a region's number, a wall's conductivity), and what cannot be started from is refused."""
@@ -898,6 +898,17 @@ def test_tune_table_and_its_starting_value():
         with pytest.raises(InputError) as refused:
             parse_tune({} if table is None else {"tune": table})
         assert (refused.value.field, refused.value.message) == (field, message)
+
+    # a length the builder lacks is refused at the tune table's key, before any solve
+    from conftest import box_case
+    from femcav.study.sweep import load_study
+    case_file = tmp_path / "tune.toml"
+    case_file.write_text(box_case() + '[tune]\nparameter = "geometry.radius"\n'
+                         'bracket = ["1 mm", "2 mm"]\ntarget = "9 GHz"\n')
+    with pytest.raises(InputError) as refused:
+        load_study(case_file, parse_tune, tune_trials)
+    assert refused.value.field == "tune.parameter"
+    assert refused.value.message.startswith("box has no length 'radius'")
 
     data = {**LOADED_BOX, "regions": {"block": {"eps_r": "2 + x / 0.02", "mu_r": 1.5}},
             "walls": {"lid": {"kind": "metal", "conductivity": "20 MS/m"},
