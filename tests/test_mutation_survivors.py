@@ -582,6 +582,12 @@ def test_edge_element_basis_is_dual_to_the_textbook_moments(order):
      "missing to, points (or give values = [...])"),
     ({"parameter": "geometry.radius", "values": ["1 mm", "0.1 cm"]}, "sweep",
      "lists a value twice"),
+    # a value that is not of the parameter's kind, at its own key
+    ({"parameter": "regions.puck.eps_r", "values": [2, "2 mm"]}, "sweep.values[1]",
+     "must be a number, got a string"),
+    ({"parameter": "geometry.radius", "from": "1 mm", "to": "2 inches", "points": 3},
+     "sweep.to", "unknown length unit 'inches' in '2 inches'; known units: pm, nm, um, µm, "
+     "μm, mil, thou, mm, cm, in, inch, ft, m, km"),
 ])
 def test_sweep_axis_refusals_name_the_key(spec, field, message):
     """Each mistake in a study axis is one InputError at its key path (the project's
