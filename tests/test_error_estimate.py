@@ -150,6 +150,11 @@ def test_transfer_reproduces_a_field_of_the_space_even_outside_the_coarse_mesh()
     transfer = transfer_matrix(space, points)
     assert transfer.outside_points > wall.shape[1] // 2
     assert transfer.outside_points < points.shape[1] - inner.shape[1] // 2
+    # a point on the true wall is outside a chord's facet by a sliver of its element, while
+    # points well inside are inside (worst barycentric coordinate 0 at most)
+    assert -0.5 < transfer.worst_barycentric < 0.0
+    assert transfer_matrix(space, inner).worst_barycentric == 0.0
+    assert transfer_matrix(space, inner).outside_points == 0
     got = (transfer.matrix @ dofs).reshape(3, -1)
     np.testing.assert_allclose(got, field(points), atol=1e-10 * np.abs(field(points)).max())
 
@@ -294,6 +299,18 @@ def test_true_error_lies_within_the_bar(part, box_results, pillbox_results):
     assert resolved, "no well-resolved mode: the bound below would test nothing"
     # a bar, not a shrug: the study below measured 1.2 to 11.6 times the true error
     assert max(resolved) <= 15, resolved
+
+
+def test_default_is_every_mode_of_the_finest_mesh_and_mistakes_are_refused(box_results):
+    # without ``indices`` every mode of the finest result gets its estimate, in its order
+    every = estimate_from_results(box_results, SIZES, order_rate=2.0)
+    finest = box_results[int(np.argmin(SIZES))]
+    assert [e.index for e in every] == [m.index for m in finest.modes]
+    assert [e.frequency_hz for e in every] == [m.frequency_hz for m in finest.modes]
+    for results, sizes in ((box_results[:1], SIZES[:1]), (box_results, SIZES[:2])):
+        with pytest.raises(ValueError, match="^need one result per mesh size and at least "
+                                             "two meshes$"):
+            estimate_from_results(results, sizes)
 
 
 def test_driver_trims_to_the_request_in_the_h_form():

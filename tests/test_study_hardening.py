@@ -205,6 +205,21 @@ def test_a_worker_sees_its_share_of_the_memory():
     assert share <= memory.shared_room() / 3 * 1.1
 
 
+def _process_id_after_a_pause(seconds: float) -> int:
+    time.sleep(seconds)
+    return os.getpid()
+
+
+def test_the_pool_starts_the_workers_asked_for():
+    # one more than the cores: the pool itself must not cap the count (usable_jobs does)
+    from femcav.study.workers import cpu_count, worker_pool
+    jobs = cpu_count() + 1
+    with worker_pool(jobs) as pool:
+        futures = [pool.submit(_process_id_after_a_pause, 1.0) for _ in range(jobs)]
+        workers = {f.result(timeout=120) for f in futures}
+    assert len(workers) == jobs and os.getpid() not in workers
+
+
 @pytest.mark.parametrize("error", [MemoryError("Unable to allocate 7.45 GiB"), MemoryError()])
 def test_memory_error_is_one_line_and_status_4(monkeypatch, capsys, tmp_path, error):
     import femcav.study.sweep as sweep
@@ -324,6 +339,10 @@ def test_a_damaged_point_is_solved_again(solved, tmp_path, capsys, damage):
     document, _ = run_sweep(case, out=out)
     err = capsys.readouterr().err
     assert "cannot be read" in err and "point 2" in err
+    # the file and what is wrong with it (the standard library's exception names)
+    said = {"cut json": "001.json: JSONDecodeError: ", "garbage json": "001.json: not a point "
+            "summary", "no npz": "001.npz: FileNotFoundError: "}.get(damage, "001.npz: ")
+    assert said in err, err
     assert (points / "000.json").stat().st_mtime_ns == stamp          # the others reused
     np.testing.assert_allclose(first_track(document), first_track(expected), rtol=1e-6)
 

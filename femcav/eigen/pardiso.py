@@ -143,12 +143,15 @@ class _Factor:
         return x
 
 
-def _release(lib, pt, iparm, n, mtype) -> None:
+def _release(lib, pt, iparm, n, mtype) -> int:
+    """Free PARDISO's memory for one factorisation; its error code (0: done), which a
+    finaliser cannot act on but a test can check."""
     error = ctypes.c_int32(0)
     i32 = lambda v: ctypes.byref(ctypes.c_int32(v))
     lib.pardiso(pt.ctypes.data_as(ctypes.c_void_p), i32(1), i32(1), i32(mtype), i32(RELEASE),
                 i32(n), None, None, None, None, i32(1), iparm.ctypes.data_as(_INT_P), i32(0),
                 None, None, ctypes.byref(error))
+    return error.value
 
 
 def pardiso(A, *, definite: bool = False, memory_limit: int | None = None):

@@ -20,7 +20,7 @@ from ..errors import InputError
 from ..schema import MAX_STUDY_VALUES, SWEEP_AXIS, VARIED, check_table, parse_value, read
 from ..units import format_length, format_si
 
-_PATH = re.compile(r"^(geometry)\.(\w+)(?:\[(\d)\])?$|^(regions)\.(\w+)\.(eps_r|mu_r|tan_delta)$"
+_PATH = re.compile(r"^(geometry)\.(\w+)(?:\[([012])\])?$|^(regions)\.(\w+)\.(eps_r|mu_r|tan_delta)$"
                    r"|^(walls)\.(\w+)\.(conductivity)$")
 KINDS = {"eps_r": "number", "mu_r": "number", "tan_delta": "number",
          "conductivity": "conductivity"}
