@@ -22,14 +22,15 @@ A, L = 0.010, 0.015
 def pillbox_case(**solve):
     data = {"title": "Made-up pillbox", "geometry": {"builder": "pillbox", "radius": A,
                                                     "length": L},
-            "mesh": {"size": 0.002, "curved": True}, "solve": {"modes": 3, "order": 2, **solve}}
+            "mesh": {"size": 0.0025, "curved": True}, "solve": {"modes": 3, "order": 2, **solve}}
     return case_from_data(data, Path("pillbox.toml"))
 
 
 def test_pillbox_derivatives_against_the_bessel_formulas():
     # f = c/(2π) sqrt((x/a)² + (lπ/L)²) (Pozar §6.4, from memory): df/da = -c (x/a)² / (2π a k)
     # and df/dL = -c (lπ/L)² / (2π L k) with k = 2π f / c. TM010 (x = p01, l = 0), TE111
-    # (x = p'11, l = 1, a pair).
+    # (x = p'11, l = 1, a pair). Measured at this 2.5 mm curved mesh: within 1.8e-4 (TE111
+    # radius; 2 mm: 8.7e-5, in 2.5 times the time).
     case = pillbox_case()
     result = solve_case(case, case.solve)
     d = dimension_derivatives(case, result, ["radius", "length"])
