@@ -388,7 +388,7 @@ def test_imported_section_case_file(tmp_path):
     case.write_text('title = "Made-up spherical cell"\n[geometry]\nmesh = "sphere.msh"\n'
                     '[regions.inside]\neps_r = 1\n[walls.shell]\nkind = "metal"\n'
                     'metal = "copper"\n[solve]\nmodes = 2\nazimuthal_orders = [0]\n')
-    assert main(["solve", str(case), "--out", str(tmp_path / "out"), "-q"]) == 0
+    assert main(["solve", str(case), "--out", str(tmp_path / "out"), "-q", "--no-report"]) == 0
     modes = json.loads((tmp_path / "out" / "modes.json").read_text())["modes"]
     assert modes[0]["field_class"] == "TM-like" and modes[0]["q_wall"] > 0
     # TM_101 of a sphere: kR = 2.7437 (the first root of (x j_1(x))' = 0)
