@@ -118,8 +118,7 @@ def transfer_matrix(coarse: EdgeSpace, points: np.ndarray) -> Transfer:
     worst = _barycentric_min(reference[:, :, 0])
     n = points.shape[1]
     rows, cols, vals = [], [], []
-    for i in range(basis.Nbfun):
-        value = np.asarray(basis.elem.gbasis(basis.mapping, reference, i, tind=cells)[0])
+    for i, value in enumerate(_basis_values(basis, reference, cells)):
         for component in range(3):
             rows.append(component * n + np.arange(n))
             cols.append(basis.element_dofs[i, cells])
@@ -129,6 +128,24 @@ def transfer_matrix(coarse: EdgeSpace, points: np.ndarray) -> Transfer:
     return Transfer(matrix=matrix, n_points=n,
                     outside_points=int(np.sum(worst < -INSIDE_TOLERANCE)),
                     worst_barycentric=float(min(worst.min(), 0.0)))
+
+
+def _basis_values(basis, reference: np.ndarray, cells: np.ndarray):
+    """The value (3, n, 1) of each basis function at the points, as scikit-fem's gbasis
+    gives it (the covariant Piola map, the same einsum), with the inverse Jacobian computed
+    once for all functions rather than once per function, and no curl: on curved meshes
+    that repeated map made most of the transfer's time."""
+    from skfem.element import ElementHcurl
+
+    elem, mapping = basis.elem, basis.mapping
+    if not (isinstance(elem, ElementHcurl) and mapping.mesh.dim() == 3):
+        for i in range(basis.Nbfun):
+            yield np.asarray(elem.gbasis(mapping, reference, i, tind=cells)[0])
+        return
+    inverse = mapping.invDF(reference, tind=cells)
+    for i in range(basis.Nbfun):
+        phi, _ = elem.lbasis(reference, i)
+        yield np.einsum("ijkl,ikl,k->jkl", inverse, phi, elem.orient(mapping, i, cells))
 
 
 def _reference_coordinates(mapping, points: np.ndarray, where: Location) -> np.ndarray:
