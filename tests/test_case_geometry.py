@@ -97,7 +97,7 @@ per_wavelength = 10
 
 def test_symmetry_labels_in_json(tmp_path, capsys):
     case = write(tmp_path, BOX + '[symmetry]\nx = "both"\n')
-    assert main(["solve", str(case), "-q"]) == 0
+    assert main(["solve", str(case), "-q", "--no-report"]) == 0
     document = json.loads((tmp_path / "case-results" / "modes.json").read_text())
     labels = {m["symmetry"] for m in document["modes"]}
     assert labels <= {"x:PEC", "x:PMC"} and len(labels) == 2

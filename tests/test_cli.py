@@ -70,14 +70,15 @@ def test_solve_writes_documented_results(tmp_path, capsys):
 def test_factorization_chosen_on_the_command_line(tmp_path, capsys):
     case = write_case(tmp_path, SMALL_BOX)
     out = tmp_path / "lu"
-    assert main(["solve", str(case), "--out", str(out), "--factorization", "superlu", "-q"]) == 0
+    assert main(["solve", str(case), "--out", str(out), "--factorization", "superlu", "-q",
+                 "--no-report"]) == 0
     assert json.loads((out / "modes.json").read_text())["factorization"] == "SuperLU"
 
 
 def test_default_output_folder_and_near_and_form(tmp_path, capsys):
     case = write_case(tmp_path, SMALL_BOX)
     assert main(["solve", str(case), "--near", "12 GHz", "--modes", "2", "--form", "H",
-                 "-q"]) == 0
+                 "-q", "--no-report"]) == 0
     document = json.loads((tmp_path / "case-results" / "modes.json").read_text())
     assert document["form"] == "H" and document["request"]["near_hz"] == 12e9
     assert len(document["modes"]) == 2
@@ -86,7 +87,7 @@ def test_default_output_folder_and_near_and_form(tmp_path, capsys):
 def test_failed_checks_are_loud(tmp_path, capsys, monkeypatch):
     monkeypatch.setattr(checks, "RESIDUAL_LIMIT", 0.0)
     case = write_case(tmp_path, SMALL_BOX)
-    assert main(["solve", str(case), "-q"]) == 3
+    assert main(["solve", str(case), "-q", "--no-report"]) == 3
     captured = capsys.readouterr()
     assert "FAILED" in captured.out and "FAILED its checks" in captured.err
     document = json.loads((tmp_path / "case-results" / "modes.json").read_text())
@@ -185,7 +186,7 @@ def test_imported_gmsh22_mesh_with_unit(tmp_path, capsys):
     case = write_case(tmp_path, '[geometry]\nmesh = "mm.msh"\nmesh_unit = "mm"\n'
                                 '[regions.air]\neps_r = 1\n[regions.slab]\neps_r = 1\n'
                                 '[solve]\nmodes = 1\n')
-    assert main(["solve", str(case), "-q"]) == 0
+    assert main(["solve", str(case), "-q", "--no-report"]) == 0
     document = json.loads((tmp_path / "case-results" / "modes.json").read_text())
     # Both regions vacuum: the empty-box TE101 again (Pozar §6.3), coarse mesh.
     f = document["modes"][0]["frequency_hz"]

@@ -127,7 +127,7 @@ def test_consistent_negative_orientation_solves(tmp_path, capsys):
         folder.mkdir()
         one_region(folder / "part.msh", points, tets[:, order])
         assert np.all(np.sign(signed_volumes(points, tets[:, order])) == sign)
-        assert main(["solve", str(write_case(folder)), "-q"]) == 0
+        assert main(["solve", str(write_case(folder)), "-q", "--no-report"]) == 0
         modes = json.loads((folder / "case-results" / "modes.json").read_text())["modes"]
         frequencies.append(modes[0]["frequency_hz"])
     # Vertex order is a convention: the same mesh either way round gives the same mode.
@@ -214,7 +214,7 @@ def test_builder_mesh_passes(tmp_path, capsys):
     case = tmp_path / "case.toml"
     case.write_text('[geometry]\nbuilder = "pillbox"\nradius = "12 mm"\nlength = "18 mm"\n'
                     '[mesh]\nsize = "3 mm"\n[solve]\nmodes = 1\n')
-    assert main(["solve", str(case), "-q"]) == 0
+    assert main(["solve", str(case), "-q", "--no-report"]) == 0
     mode = json.loads((tmp_path / "case-results" / "modes.json").read_text())["modes"][0]
     # TM010: f = c j01 / (2 pi a), j01 the first zero of J0 (Pozar §6.4); coarse mesh.
     from scipy.special import jn_zeros

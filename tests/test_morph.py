@@ -22,14 +22,15 @@ A, L = 0.010, 0.015
 def pillbox_case(**solve):
     data = {"title": "Made-up pillbox", "geometry": {"builder": "pillbox", "radius": A,
                                                     "length": L},
-            "mesh": {"size": 0.002, "curved": True}, "solve": {"modes": 3, "order": 2, **solve}}
+            "mesh": {"size": 0.0025, "curved": True}, "solve": {"modes": 3, "order": 2, **solve}}
     return case_from_data(data, Path("pillbox.toml"))
 
 
 def test_pillbox_derivatives_against_the_bessel_formulas():
     # f = c/(2π) sqrt((x/a)² + (lπ/L)²) (Pozar §6.4, from memory): df/da = -c (x/a)² / (2π a k)
     # and df/dL = -c (lπ/L)² / (2π L k) with k = 2π f / c. TM010 (x = p01, l = 0), TE111
-    # (x = p'11, l = 1, a pair).
+    # (x = p'11, l = 1, a pair). Measured at this 2.5 mm curved mesh: within 1.8e-4 (TE111
+    # radius; 2 mm: 8.7e-5, in 2.5 times the time).
     case = pillbox_case()
     result = solve_case(case, case.solve)
     d = dimension_derivatives(case, result, ["radius", "length"])
@@ -91,7 +92,7 @@ def test_tolerance_table_reports_the_frequency_spread(tmp_path):
     case.write_text('title = "Made-up wavemeter, tolerances"\n[geometry]\nbuilder = "pillbox"\n'
                     'radius = "10 mm"\nlength = "15 mm"\n[mesh]\nsize = "3 mm"\ncurved = true\n'
                     '[solve]\nmodes = 1\norder = 2\n[tolerances]\nradius = "20 um"\nlength = "50 um"\n')
-    assert main(["solve", str(case), "--out", str(tmp_path / "out"), "-q"]) == 0
+    assert main(["solve", str(case), "--out", str(tmp_path / "out"), "-q", "--no-report"]) == 0
     mode = json.loads((tmp_path / "out" / "modes.json").read_text())["modes"][0]
     t = mode["tolerance"]
     # TM010 depends on the radius only: Δf = f · 20 µm / 10 mm

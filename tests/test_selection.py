@@ -91,7 +91,7 @@ def test_command_line_refuses_a_solve_that_does_not_fit(tmp_path, capsys, monkey
     assert "needs about" in capsys.readouterr().err
     assert not (tmp_path / "out").exists()
     monkeypatch.undo()
-    assert main(["solve", str(case), "--out", str(tmp_path / "ok"), "-q"]) == 0
+    assert main(["solve", str(case), "--out", str(tmp_path / "ok"), "-q", "--no-report"]) == 0
     assert json.loads((tmp_path / "ok" / "modes.json").read_text())["dofs"] > 0
 
 

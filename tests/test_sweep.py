@@ -17,6 +17,8 @@ from femcav.study.sweep import run_sweep
 
 A, B = 0.02286, 0.01016
 
+# At 3 mm (order 2) the nine modes of every point were within 3.5e-4 of the formula,
+# against the 3e-3 asked below (2.2 mm gave 1.1e-4 in 2.5 times the time).
 BOX_SWEEP = f"""
 title = "Made-up WR-90 cavity, length sweep"
 [geometry]
@@ -25,7 +27,7 @@ width = "{A * 1e3} mm"
 height = "{B * 1e3} mm"
 length = "28 mm"
 [mesh]
-size = "2.2 mm"
+size = "3 mm"
 [solve]
 modes = 9
 order = 2
@@ -108,7 +110,7 @@ block_size = ["4 mm", "{B * 1e3} mm", "30 mm"]
 [regions.block]
 eps_r = 4.0
 [mesh]
-size = "1.8 mm"
+size = "2.5 mm"
 [solve]
 modes = 2
 order = 2
@@ -122,7 +124,8 @@ points = 4
 
 def test_slab_thickness_sweep_against_the_slab_loaded_formula(tmp_path):
     # TE10p of a guide half filled across x (the transverse resonance of Pozar §3.3 / our
-    # femcav.analytic.slab, solved with brentq) at every slab thickness.
+    # femcav.analytic.slab, solved with brentq) at every slab thickness. Measured at this
+    # 2.5 mm mesh: within 5.7e-5 (1.8 mm: 3.7e-5, in three times the time).
     case = tmp_path / "slab.toml"
     case.write_text(SLAB_SWEEP)
     document, _ = run_sweep(case, out=tmp_path / "out", jobs=2)   # in two processes

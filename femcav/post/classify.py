@@ -52,15 +52,19 @@ def box_label(points: np.ndarray, w: np.ndarray, E: np.ndarray, H: np.ndarray,
     a, b, d = size
     x, y, z = points.T
     total = np.sum(w * np.sum(E**2, axis=1))
+    # cos and sin of every index along each axis, once: the triple loop only multiplies
+    # (the same values as evaluating them inside it; it took 0.04 s a mode that way)
+    cos_x, sin_x = _standing_waves(x, a)
+    cos_y, sin_y = _standing_waves(y, b)
+    cos_z, sin_z = _standing_waves(z, d)
     best, best_share = None, 0.0
     for m in range(MAX_INDEX + 1):
         for n in range(MAX_INDEX + 1):
             for l in range(MAX_INDEX + 1):
                 if (m > 0) + (n > 0) + (l > 0) < 2:
                     continue
-                X, Y, Z = m * np.pi * x / a, n * np.pi * y / b, l * np.pi * z / d
-                shapes = (np.cos(X) * np.sin(Y) * np.sin(Z), np.sin(X) * np.cos(Y) * np.sin(Z),
-                          np.sin(X) * np.sin(Y) * np.cos(Z))
+                shapes = (cos_x[m] * sin_y[n] * sin_z[l], sin_x[m] * cos_y[n] * sin_z[l],
+                          sin_x[m] * sin_y[n] * cos_z[l])
                 share = 0.0
                 for c, phi in enumerate(shapes):
                     norm = np.sum(w * phi**2)
@@ -81,6 +85,12 @@ def box_label(points: np.ndarray, w: np.ndarray, E: np.ndarray, H: np.ndarray,
     if kind == "hybrid" and l >= 1 and m >= 1 and n >= 1:
         return f"TE/TM{triple} (degenerate pair, mixed)"
     return "unclassified"
+
+
+def _standing_waves(u: np.ndarray, length: float) -> tuple[list, list]:
+    """cos(kπu/L) and sin(kπu/L) for k = 0 ... MAX_INDEX."""
+    phases = [k * np.pi * u / length for k in range(MAX_INDEX + 1)]
+    return [np.cos(p) for p in phases], [np.sin(p) for p in phases]
 
 
 def azimuthal_label(points: np.ndarray, w: np.ndarray, E: np.ndarray, H: np.ndarray) -> str:
