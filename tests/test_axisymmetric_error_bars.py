@@ -122,3 +122,24 @@ def test_a_reentrant_section_corner_gets_the_singular_rate():
     section = mesh_section(layout, Sizing(size=0.004))
     materials = {name: Material() for name in section.region_names}
     assert bar_rate(make_axisymmetric_model(section, materials, {}), 2) == SINGULAR_RATE
+
+
+def test_a_size_that_repeats_the_mesh_is_replaced_by_a_finer_one():
+    # A mesher that answers two sizes with one mesh adds nothing to the sequence: the
+    # estimate drops the repeat and solves one finer mesh instead, so three distinct meshes
+    # remain, and the bars still hold the Bessel-zero values (Pozar §6.3).
+    from femcav.error_bars import estimate_errors
+
+    layout = BUILDERS["pillbox"].layout(radius=A, length=D)
+
+    def build(size):               # sizes above 5 mm all give the 5 mm mesh
+        section = mesh_section(layout, Sizing(size=min(size, 0.005)))
+        return make_axisymmetric_model(section, {"inside": Material()}, {})
+
+    estimated = estimate_errors(build, [0.0075, 0.006, 0.0045], modes=3, size_measure="dofs",
+                                solve=solve_axisymmetric, orders=(0, 1), order=2)
+    assert estimated.sizes == pytest.approx((0.006, 0.0045, 0.0045 * 0.0045 / 0.006))
+    assert len(set(estimated.dofs)) == 3
+    for mode, bar in zip(estimated.finest.modes, estimated.estimates):
+        assert abs(mode.frequency_hz - closed_form(mode.m, mode.frequency_hz)) <= \
+            bar.error_estimate_hz
