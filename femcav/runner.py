@@ -17,7 +17,7 @@ from .errors import InputError
 from .geometry import symmetry_wall_name
 from .post.error_estimate import estimate_over_meshes, mesh_dimension
 from .post.singularity import bar_rate
-from .solver import SolveResult, merge_classes, solve_model
+from .solver import AccuracyReport, SolveResult, merge_classes, solve_model
 from .walls import METAL, Wall
 
 
@@ -183,10 +183,11 @@ def _worst_bar(result: SolveResult) -> float:
     return max(bars) if len(bars) == len(result.modes) else math.inf
 
 
-def _accuracy_summary(result: SolveResult, target: float) -> dict:
+def _accuracy_summary(result: SolveResult, target: float) -> AccuracyReport:
     worst = _worst_bar(result)
-    return {"target": target, "largest_relative_bar": worst if math.isfinite(worst) else None,
-            "reached": worst <= target}
+    return AccuracyReport(target=target,
+                          largest_relative_bar=worst if math.isfinite(worst) else None,
+                          reached=worst <= target)
 
 
 def default_output_folder(case_path: Path) -> Path:

@@ -72,6 +72,16 @@ class Mode:
         return 2 if self.m else 1
 
 
+@dataclass(frozen=True)
+class AccuracyReport:
+    """Whether a solve met its accuracy target ([solve] accuracy): the target and the
+    largest error bar relative to its frequency (None when a mode has no bar)."""
+
+    target: float
+    largest_relative_bar: float | None
+    reached: bool
+
+
 class ModeVerdicts:
     """What a result's modes say together (a SolveResult or an AxisymmetricResult)."""
 
@@ -98,7 +108,7 @@ class SolveResult(ModeVerdicts):
     request: EigenRequest | None = None
     near_hz: float | None = None
     classes: list[dict] = field(default_factory=list)   # per symmetry class: label, dofs, modes
-    accuracy: dict | None = None   # target, largest relative bar, reached (with a target)
+    accuracy: AccuracyReport | None = None     # with a [solve] accuracy target
 
     @property
     def form(self) -> str:

@@ -27,6 +27,7 @@ from ..post.loss_validity import with_complex_warnings, with_loss_warnings
 from ..post.resolution import mode_resolution
 from ..progress import SILENT, Progress
 from ..solver import (
+    AccuracyReport,
     Mode,
     ModeVerdicts,
     check_request,
@@ -60,7 +61,7 @@ class AxisymmetricResult(ModeVerdicts):
     eigen_stats: dict = field(default_factory=dict)
     form: str = "E"
     element_kind = "triangles (meridional section)"
-    accuracy: dict | None = None   # target, largest relative bar, reached (with a target)
+    accuracy: AccuracyReport | None = None     # with a [solve] accuracy target
     static_fields_dropped = 0
     classes = ()
 

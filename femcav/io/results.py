@@ -30,6 +30,7 @@ from __future__ import annotations
 import csv
 import io
 import math
+from dataclasses import asdict
 
 from . import merit_columns, second_tables, strict_json
 from ..post import checks, resolution
@@ -138,7 +139,7 @@ def to_json(result: SolveResult, *, title: str, case: str | None,
                                                       in result.dofs_by_order.items()},
                                     "element": "triangles of the meridional section"}
     if result.accuracy is not None:
-        document["accuracy"] = result.accuracy
+        document["accuracy"] = asdict(result.accuracy)
     document.update(merit_columns.json_top_level(result))
     return strict_json.dumps(document, indent=2)
 
