@@ -224,16 +224,21 @@ class _Close(Exception):
 
 def _root(runs: _Evaluations, spec: TuneSpec) -> float:
     """Brent's method on f(value) - target, stopped as soon as a solved frequency is within
-    the relative tolerance of the target: each point is a new mesh, so below the mesh noise
-    (about 1e-5 at usual sizes) further steps only chase it."""
+    the relative tolerance of the target, or once the value is known to within the change
+    that moves the frequency by that tolerance (at the bracket's mean slope): each point is a
+    new mesh, so below the mesh noise (1e-5 to 1e-4 at usual sizes) further steps only chase
+    it."""
     def miss(v: float) -> float:
         f = runs.frequency(v)
         if abs(f - spec.target_hz) <= spec.tolerance * spec.target_hz:
             raise _Close(v)
         return f - spec.target_hz
     lo, hi = spec.bracket
+    slope = abs(runs.frequency(hi) - runs.frequency(lo)) / (hi - lo)
+    floor = 1e-12 * max(abs(lo), abs(hi))
+    xtol = max(spec.tolerance * spec.target_hz / slope, floor) if slope > 0 else floor
     try:
-        return brentq(miss, lo, hi, xtol=1e-12 * max(abs(lo), abs(hi)), rtol=1e-15, maxiter=60)
+        return brentq(miss, lo, hi, xtol=xtol, rtol=1e-15, maxiter=60)
     except _Close as close:
         return close.value
 
