@@ -95,3 +95,31 @@ def test_each_value_is_solved_once(tmp_path, monkeypatch):
     assert len(solved) == len(set(solved))
     # the reference point, both ends and every root-finder step, nothing else
     assert len(solved) == 3 + document["iterations"]
+
+
+def test_root_finder_stops_at_the_tolerance_not_in_the_mesh_noise():
+    # Every tune step is a new mesh, so f(value) carries noise (here 1e-4 of f, as a coarse
+    # mesh gives). A straight line f = f0 (1 - v / 0.1 m) crossing the target at 5 mm has
+    # its root known in closed form; the finder must stop once the value is pinned to what
+    # moves f by the tolerance (1e-7 here, well below the noise, so that no step lands
+    # within it by chance), not run on towards xtol = 1e-12 chasing noise.
+    import numpy as np
+
+    from femcav.study.tune import TuneSpec, _root
+
+    rng = np.random.default_rng(7)
+    f0, target = 10e9, 9.5e9
+
+    class Runs:
+        calls = 0
+
+        def frequency(self, v):
+            Runs.calls += 1
+            return f0 * (1 - v / 0.1) * (1 + 1e-4 * rng.standard_normal())
+
+    spec = TuneSpec(path="geometry.x", kind="length", bracket=(0.0, 0.01), target_hz=target,
+                    mode=1, tolerance=1e-7)
+    value = _root(Runs(), spec)
+    # the noise moves the root by about 1e-4 / (1 - 0.05) of 0.1 m: 10 µm
+    assert abs(value - 0.005) < 5e-5
+    assert Runs.calls <= 16, Runs.calls     # 13 with the stop rule, 21 without it (seed 7)
