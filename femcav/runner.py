@@ -8,7 +8,15 @@ from functools import partial
 from dataclasses import replace
 from pathlib import Path
 
-from .case import Case, build_mesh, case_model, in_case, load_case
+from .case import (
+    Case,
+    build_mesh,
+    case_from_data,
+    case_model,
+    in_case,
+    load_case,
+    read_case_data,
+)
 from .io.atomic import check_output_folder, staged_output
 from .io.results import to_csv, to_json, to_table
 from .io.vtk import write_vtu, write_wall_loss_vtu
@@ -135,8 +143,6 @@ def _cluster_sequence(pool, case: Case, walls: dict[str, Wall], settings):
     """solve_many(sizes, count) -> [(rate, result)]: every mesh a task on the cluster of
     ``pool``, each task the case's tables, the extra walls, the settings and a size; the
     worker returns the bar rate of its model (post.singularity) with the result."""
-    from .case import read_case_data
-
     data = read_case_data(case.path)
 
     def solve_many(sizes, count):
@@ -147,8 +153,6 @@ def _cluster_sequence(pool, case: Case, walls: dict[str, Wall], settings):
 
 def solve_mesh_task(task):
     """A cluster task of an error-bar sequence (see _cluster_sequence)."""
-    from .case import case_from_data
-
     data, path, walls, settings, size, count = task
     case = case_from_data({k: v for k, v in data.items()
                            if k not in ("sweep", "tune", "extract", "tolerances")},
