@@ -26,6 +26,8 @@ from .mode_matching import DEGENERATE_RTOL, clusters, match_modes
 from .richardson import extrapolate, sizes_from_dofs
 
 SIZE_MEASURES = ("nominal", "dofs")
+# Finer meshes added at most in place of sizes that repeated the mesh before them.
+MAX_ADDED_MESHES = 3
 
 
 def extra_modes(count: int) -> int:
@@ -164,7 +166,7 @@ def estimate_over_meshes(solve_at: Callable[[float, int], tuple], sizes: Sequenc
     if len(sizes) < 2 or len(set(sizes)) != len(sizes) or sizes[-1] <= 0:
         raise ValueError(f"need at least two distinct positive mesh sizes, got {sizes}")
     asked = modes + extra_modes(modes)
-    results, solved, wanted = [], [], len(sizes)
+    results, solved, wanted, added = [], [], len(sizes), 0
     ratio = sizes[-2] / sizes[-1]
     ready = dict(zip(sizes, solve_many(sizes, asked))) if solve_many is not None else {}
     while sizes:
@@ -182,6 +184,10 @@ def estimate_over_meshes(solve_at: Callable[[float, int], tuple], sizes: Sequenc
             # it adds nothing to the sequence, so one more, finer mesh is solved instead.
             results.pop()
             solved.pop()
+            added += 1
+            if added > MAX_ADDED_MESHES:
+                raise ValueError(f"the mesher gave the same mesh for {added + 1} sizes down to "
+                                 f"{format_length(size, 3)}: it does not follow the size")
             if len(solved) + len(sizes) + 1 < wanted or not sizes:
                 sizes.append((sizes[-1] if sizes else size) / ratio)
             progress.step("error estimate: that size gave the same mesh as the one before; "
