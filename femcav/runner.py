@@ -25,7 +25,7 @@ from .errors import InputError
 from .geometry import symmetry_wall_name
 from .post.error_estimate import estimate_over_meshes, mesh_dimension
 from .post.singularity import bar_rate
-from .solver import AccuracyReport, SolveResult, merge_classes, solve_model
+from .solver import AccuracyReport, SolveResult, ToleranceSpread, merge_classes, solve_model
 from .walls import METAL, Wall
 
 
@@ -391,11 +391,11 @@ def _with_tolerances(case: Case, result, settings, progress: Progress, pool=None
     modes = []
     for k, mode in enumerate(result.modes):
         spread = {n: abs(derivatives[n][k]) * tol for n, tol in case.tolerances.items()}
-        modes.append(replace(mode, tolerance={
-            "df_dp_hz_per_m": {n: derivatives[n][k] for n in case.tolerances},
-            "tolerance_m": dict(case.tolerances), "delta_f_hz": spread,
-            "worst_case_hz": sum(spread.values()),
-            "rss_hz": math.sqrt(sum(v * v for v in spread.values()))}))
+        modes.append(replace(mode, tolerance=ToleranceSpread(
+            df_dp_hz_per_m={n: derivatives[n][k] for n in case.tolerances},
+            tolerance_m=dict(case.tolerances), delta_f_hz=spread,
+            worst_case_hz=sum(spread.values()),
+            rss_hz=math.sqrt(sum(v * v for v in spread.values())))))
     return replace(result, modes=modes)
 
 

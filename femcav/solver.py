@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass, field, replace
+from dataclasses import asdict, dataclass, field, replace
 from functools import partial
 
 import numpy as np
@@ -50,7 +50,7 @@ class Mode:
     # df/dε_r and df/dμ_r per region, Hz ([solve] sensitivities; post.sensitivity)
     sensitivity: dict | None = None
     # per builder length: df/dp (Hz/m) and the frequency tolerance it implies ([tolerances])
-    tolerance: dict | None = None
+    tolerance: ToleranceSpread | None = None
     label: str | None = None      # from the field (post.classify), e.g. "TE101"
     # elements per local wavelength where the mode's energy is (post.resolution)
     resolution: Resolution | None = None
@@ -70,6 +70,25 @@ class Mode:
     def multiplicity(self) -> int:
         """Modes of the full part: the cos mφ and sin mφ pair of an order m >= 1."""
         return 2 if self.m else 1
+
+
+@dataclass(frozen=True)
+class ToleranceSpread:
+    """What the [tolerances] imply for one mode: df/dp per builder length (Hz/m), the
+    tolerances (m), each one's frequency change alone, their sum (worst case) and
+    root-sum-square (independent errors); and, with ``samples``, the Monte-Carlo spread
+    (study.monte_carlo). Fields a study did not compute are None."""
+
+    df_dp_hz_per_m: dict[str, float] | None = None
+    tolerance_m: dict[str, float] | None = None
+    delta_f_hz: dict[str, float] | None = None
+    worst_case_hz: float | None = None
+    rss_hz: float | None = None
+    monte_carlo: dict | None = None
+
+    def as_dict(self) -> dict:
+        """The fields that were computed, for modes.json."""
+        return {k: v for k, v in asdict(self).items() if v is not None}
 
 
 @dataclass(frozen=True)

@@ -456,10 +456,10 @@ def test_tolerance_derivatives_on_the_cluster_equal_the_local_ones(cluster, tmp_
         remote = solve_case(case, case.solve, pool=pool)
     assert any(m.startswith(f"cluster {cluster.address}: ") for m in messages)
     for a, b in zip(local.modes, remote.modes):
-        assert b.tolerance["df_dp_hz_per_m"]["length"] == pytest.approx(
-            a.tolerance["df_dp_hz_per_m"]["length"], rel=1e-9, abs=0)
+        assert b.tolerance.df_dp_hz_per_m["length"] == pytest.approx(
+            a.tolerance.df_dp_hz_per_m["length"], rel=1e-9, abs=0)
     # TE101 falls as the box grows (df/dd = -(c/2)² / (d³ f), Pozar §6.3, from memory)
-    assert local.modes[0].tolerance["df_dp_hz_per_m"]["length"] < 0
+    assert local.modes[0].tolerance.df_dp_hz_per_m["length"] < 0
 
 
 @pytest.mark.slow        # a scheduler and workers of its own: 10 s

@@ -72,7 +72,7 @@ def mode_rows(result: SolveResult) -> list[dict]:
         if m.sensitivity is not None:
             row["sensitivity_hz"] = m.sensitivity
         if m.tolerance is not None:
-            row["tolerance"] = m.tolerance
+            row["tolerance"] = m.tolerance.as_dict()
         if m.label is not None:
             row["label"] = m.label
         if m.phase_advance_rad is not None:
@@ -236,8 +236,7 @@ def to_table(result: SolveResult) -> str:
 
 def monte_carlo_lines(result) -> list[str]:
     """The spread of every mode under the table (empty without a Monte-Carlo draw)."""
-    entries = [(m, (m.tolerance or {}).get("monte_carlo")) for m in result.modes
-               if m.tolerance]
+    entries = [(m, m.tolerance.monte_carlo) for m in result.modes if m.tolerance]
     entries = [(m, e) for m, e in entries if e is not None]
     if not entries:
         return []

@@ -32,6 +32,7 @@ import numpy as np
 from ..errors import InputError
 from ..progress import SILENT, Progress
 from ..schema import TOLERANCE_ENTRY, TOLERANCES, read
+from ..solver import ToleranceSpread
 
 UNIFORM_STD = 1 / math.sqrt(3)   # standard deviation of U(-1, 1) (common practice)
 
@@ -151,7 +152,8 @@ def with_monte_carlo(case, result, settings, *, pool=None, progress: Progress = 
         entry = dict(spreads.get(key, {"samples": 0}), samples_failed=len(failed),
                      distributions=dict(spec.distributions), seed=spec.seed,
                      linear_std_hz=_linear_std(mode, spec))
-        modes.append(replace(mode, tolerance={**(mode.tolerance or {}), "monte_carlo": entry}))
+        modes.append(replace(mode, tolerance=replace(mode.tolerance or ToleranceSpread(),
+                                                     monte_carlo=entry)))
     return replace(result, modes=modes)
 
 
@@ -187,7 +189,7 @@ def _spreads(result, solved: dict[int, list]) -> dict[tuple, dict]:
 
 
 def _linear_std(mode, spec: MonteCarloSpec) -> float | None:
-    derivatives = (mode.tolerance or {}).get("df_dp_hz_per_m")
+    derivatives = mode.tolerance.df_dp_hz_per_m if mode.tolerance else None
     if not derivatives:
         return None
     return math.sqrt(sum((derivatives[n] * spec.standard_deviation(n)) ** 2
