@@ -196,13 +196,28 @@ def to_csv(result: SolveResult) -> str:
     return out.getvalue()
 
 
+# Significant digits of a frequency in the table without an error bar.
+TABLE_DIGITS = 7
+
+
+def frequency_digits(mode) -> int:
+    """Digits that a mode's frequency earns in the table: down to the second significant
+    digit of its error bar (7.68695 GHz ± 268 MHz prints as 7.69 GHz), at least 3; without a
+    bar, TABLE_DIGITS. modes.json and modes.csv keep full precision."""
+    bar = mode.error_estimate_hz
+    if bar is None or not bar > 0 or not mode.frequency_hz > 0:
+        return TABLE_DIGITS
+    earned = math.floor(math.log10(mode.frequency_hz)) - math.floor(math.log10(bar)) + 2
+    return max(3, min(earned, 12))
+
+
 def to_table(result: SolveResult) -> str:
     width = max([len(m.symmetry or "") for m in result.modes] + [len("symmetry")])
     sym = _has_symmetry(result)
     lossy = any(m.losses for m in result.modes)
     bars = any(m.error_estimate_hz is not None for m in result.modes)
     axisymmetric = _is_axisymmetric(result)
-    label_width = max([len(getattr(m, "label", None) or "") for m in result.modes]
+    label_width = max([len(m.label or "") for m in result.modes]
                       + [len("label")]) if _has_labels(result) else 0
     lines = [f"{'mode':>4}  {'frequency':>16}  " + (f"{'± error':>12}  " if bars else "")
              + (f"{'label':<{label_width}}  " if label_width else "")
@@ -220,9 +235,10 @@ def to_table(result: SolveResult) -> str:
                       f"< {res.required:g}" + ("" if c.passed else "; " + status))
         if m.loss_warnings:
             status += "; Q warning (see loss_warnings)"
-        lines.append(f"{m.index:>4}  {format_frequency(m.frequency_hz, 7):>16}  "
+        shown = format_frequency(m.frequency_hz, frequency_digits(m))
+        lines.append(f"{m.index:>4}  {shown:>16}  "
                      + (f"{_bar(m):>12}  " if bars else "")
-                     + (f"{getattr(m, 'label', None) or '-':<{label_width}}  "
+                     + (f"{m.label or '-':<{label_width}}  "
                         if label_width else "")
                      + (f"{m.symmetry:<{width}}  " if sym else "")
                      + (f"{m.m:>2}  {m.field_class:<8}  " if axisymmetric else "")
