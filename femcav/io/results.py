@@ -200,14 +200,14 @@ def to_csv(result: SolveResult) -> str:
 TABLE_DIGITS = 7
 
 
-def frequency_digits(mode) -> int:
-    """Digits that a mode's frequency earns in the table: down to the second significant
-    digit of its error bar (7.68695 GHz ± 268 MHz prints as 7.69 GHz), at least 3; without a
-    bar, TABLE_DIGITS. modes.json and modes.csv keep full precision."""
-    bar = mode.error_estimate_hz
-    if bar is None or not bar > 0 or not mode.frequency_hz > 0:
-        return TABLE_DIGITS
-    earned = math.floor(math.log10(mode.frequency_hz)) - math.floor(math.log10(bar)) + 2
+def frequency_digits(frequency_hz: float, bar_hz: float | None,
+                     default: int = TABLE_DIGITS) -> int:
+    """Digits that a frequency earns in a table: down to the second significant digit of
+    its error bar (7.68695 GHz ± 268 MHz prints as 7.69 GHz), at least 3; without a bar,
+    ``default``. modes.json and modes.csv keep full precision."""
+    if bar_hz is None or not bar_hz > 0 or not frequency_hz > 0:
+        return default
+    earned = math.floor(math.log10(frequency_hz)) - math.floor(math.log10(bar_hz)) + 2
     return max(3, min(earned, 12))
 
 
@@ -235,7 +235,8 @@ def to_table(result: SolveResult) -> str:
                       f"< {res.required:g}" + ("" if c.passed else "; " + status))
         if m.loss_warnings:
             status += "; Q warning (see loss_warnings)"
-        shown = format_frequency(m.frequency_hz, frequency_digits(m))
+        shown = format_frequency(m.frequency_hz,
+                                 frequency_digits(m.frequency_hz, m.error_estimate_hz))
         lines.append(f"{m.index:>4}  {shown:>16}  "
                      + (f"{_bar(m):>12}  " if bars else "")
                      + (f"{m.label or '-':<{label_width}}  "

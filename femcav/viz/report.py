@@ -12,6 +12,7 @@ import base64
 import html
 from pathlib import Path
 
+from ..io.results import frequency_digits
 from ..io.second_tables import second_tables
 from ..units import format_frequency
 from .figures_of_merit import beam_section, wall_description
@@ -65,7 +66,8 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
         "residual", "divergence", "orthogonality", "check"]
     rows = []
     for m in modes:
-        cells = [str(m["index"]), e(format_frequency(m["frequency_hz"], 9))]
+        digits = frequency_digits(m["frequency_hz"], m.get("error_estimate_hz"), default=9)
+        cells = [str(m["index"]), e(format_frequency(m["frequency_hz"], digits))]
         if bars:
             bar = m.get("error_estimate_hz")
             cells.append("-" if bar is None else e(format_frequency(bar, 3)))
