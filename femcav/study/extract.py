@@ -38,7 +38,7 @@ from ..schema import EXTRACT, check_table, read
 from ..units import format_frequency
 from .parameters import with_value
 from .sweep import TRACKING_SPARE, load_study, study_case
-from .tracking import step_partners
+from ..post.mode_matching import result_partners
 from .tune import TuneSpec, _Evaluations, _root
 
 @dataclass(frozen=True)
@@ -126,7 +126,7 @@ def run_extract(path: str | Path, *, out: str | Path | None = None,
         result = solve_case(case, replace(case.solve, modes=case.solve.modes + TRACKING_SPARE
                                           + spec.mode), SILENT)
         _, near, index = min(runs.points, key=lambda p: abs(p[0] - eps))
-        found = [j for j, p in enumerate(step_partners(near, result)) if p == index]
+        found = [j for j, p in enumerate(result_partners(near, result)) if p == index]
         mode = result.modes[found[0]]
         losses = mode.losses
         q_wall = losses.q_wall * q_wall_scale

@@ -33,6 +33,7 @@ from ..geometry.params import moved_parameters
 from ..geometry.mesh import TaggedMesh
 from ..geometry.parts import Layout
 from ..geometry.solids import Box, Cylinder
+from ..post.mode_matching import result_partners
 
 # δ relative to the part's extent for the central difference
 STEP = 1e-3
@@ -189,7 +190,6 @@ def dimension_derivatives(case, result, names, progress=None,
     cluster of ``pool`` (femcav.study.cluster.ClusterPool; each task the case's tables and
     its morphed mesh)."""
     from ..geometry import builder_layout
-    from .tracking import step_partners
 
     g = case.geometry
     old = builder_layout(g.builder, g.parameters)
@@ -214,7 +214,7 @@ def dimension_derivatives(case, result, names, progress=None,
         frequencies = []
         for _ in (+1, -1):
             moved = next(solved)
-            partner = step_partners(result, moved)
+            partner = result_partners(result, moved)
             successor = {int(p): j for j, p in enumerate(partner) if p >= 0}
             frequencies.append([moved.modes[successor[k]].frequency_hz if k in successor
                                 else np.nan for k in range(len(result.modes))])

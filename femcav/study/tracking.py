@@ -17,17 +17,12 @@ import numpy as np
 from ..post.mode_matching import result_partners
 
 
-def step_partners(previous, current) -> np.ndarray:
-    """For each mode of ``current``, its partner's index in ``previous`` (-1: none)."""
-    return result_partners(previous, current)
-
-
 def track(results, count: int) -> list[list[int | None]]:
     """tracks[k][i]: the 0-based index, in results[i].modes, of the mode that the k-th mode
     of results[0] has become (None once the track has ended)."""
     tracks = [[k] for k in range(min(count, len(results[0].modes)))]
     for previous, current in pairwise(results):
-        partner = step_partners(previous, current)
+        partner = result_partners(previous, current)
         successor = {int(p): j for j, p in enumerate(partner) if p >= 0}
         for t in tracks:
             t.append(None if t[-1] is None else successor.get(t[-1]))

@@ -32,7 +32,7 @@ from ..schema import TUNE, check_table, read
 from ..units import format_frequency
 from .parameters import format_value, parameter_kind, varied_value, with_value
 from .sweep import TRACKING_SPARE, checked_for_tracking, load_study, study_case
-from .tracking import step_partners
+from ..post.mode_matching import result_partners
 
 
 
@@ -131,9 +131,6 @@ class _Evaluations:
     def solve(self, value: float):
         if value in self._ready:
             return self._ready.pop(value)
-        for solved, result, _ in self.points:   # Brent's method asks for the ends again
-            if solved == value:
-                return result
         task = (self.data, self.path, self.spec, value)
         return solve_at(task) if self.pool is None else self.pool.gather(solve_at, [task])[0]
 
@@ -142,6 +139,7 @@ class _Evaluations:
         if len(result.modes) < self.spec.mode:
             raise InputError(f"the case has only {len(result.modes)} modes", field="tune.mode")
         self.points.append((reference, result, self.spec.mode - 1))
+        self._solved[reference] = result.modes[self.spec.mode - 1].frequency_hz
 
     def frequency(self, value: float) -> float:
         if value in self._solved:
@@ -149,7 +147,7 @@ class _Evaluations:
         t0 = time.perf_counter()
         result = self.solve(value)
         near_value, near_result, near_index = min(self.points, key=lambda p: abs(p[0] - value))
-        partner = step_partners(near_result, result)
+        partner = result_partners(near_result, result)
         found = [j for j, p in enumerate(partner) if p == near_index]
         if not found:
             raise InputError(f"mode {self.spec.mode} could not be followed from "
@@ -255,7 +253,7 @@ def _final_with_error_bar(runs: _Evaluations, value: float, progress: Progress) 
     settings = replace(case.solve, error_estimate=True,
                        modes=max(case.solve.modes, runs.spec.mode) + TRACKING_SPARE)
     result = solve_case(case, settings, SILENT)
-    partner = step_partners(last_result, result)
+    partner = result_partners(last_result, result)
     found = [j for j, p in enumerate(partner) if p == last_index]
     mode = result.modes[found[0]] if found else min(
         result.modes, key=lambda m: abs(m.frequency_hz - f_last))
