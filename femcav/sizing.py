@@ -37,7 +37,7 @@ def max_refractive_index(material: Material, layout: Layout) -> float:
         # values outside the eps_r range are refused at the mesh nodes (Material.check);
         # here they must only not turn the sizes into NaN or a runaway
         eps = float(np.clip(values, EPS_R.low, EPS_R.high).max()) if values.size else 1.0
-    return math.sqrt(max(eps, 1.0) * material.mu_r)
+    return math.sqrt(max(eps, 1.0) * material.mu_scalar)
 
 
 def builder_sizing(case, layout: Layout, *, section: bool = False) -> Sizing:

@@ -18,11 +18,11 @@ from .memory_room import format_bytes
 from .eigen.pardiso import TooLarge
 from .eigen.problem import EigenProblem
 from .errors import InputError
-from .fem.assembly import assemble, assemble_mass, assemble_stiffness
+from .fem.assembly import assemble
+from .fem.coefficients import GENERAL, isotropic_part
 from .fem.auxiliary import auxiliary_space
 from .fem.gradient import kernel_basis
 from .fem.space import EdgeSpace, build_space
-from .materials import tan_delta_by_cell
 from .model import Model
 from .post.checks import ModeChecks, check_modes
 from .post.loss_validity import with_complex_warnings, with_loss_warnings
@@ -42,9 +42,11 @@ class Mode:
     dofs: np.ndarray
     symmetry: str | None = None   # the symmetry class, e.g. "x:PMC y:PEC", when cut
     losses: LossReport | None = None   # Q factors by perturbation, when the case has losses
-    # from the direct complex solve with lossy permittivity ([solve] complex_check)
-    complex_frequency_hz: float | None = None
-    q_dielectric_complex: float | None = None
+    # complex frequency (Hz) when the pencil is complex symmetric (losses inside the solve),
+    # or from the complex check's partner ([solve] complex_check); Q = Re f / (2 |Im f|)
+    complex_frequency_hz: complex | None = None
+    q_eigenvalue: float | None = None          # the Q of every loss inside the operator
+    q_dielectric_complex: float | None = None  # the complex check's Q (dielectric loss)
     error_estimate_hz: float | None = None   # from a mesh sequence ([solve] error_estimate)
     extrapolated_hz: float | None = None
     # df/dε_r and df/dμ_r per region, Hz ([solve] sensitivities; post.sensitivity)
@@ -128,6 +130,8 @@ class SolveResult(ModeVerdicts):
     near_hz: float | None = None
     classes: list[dict] = field(default_factory=list)   # per symmetry class: label, dofs, modes
     accuracy: AccuracyReport | None = None     # with a [solve] accuracy target
+    # the complex check's own solve (losses inside): its modes, with complex fields
+    complex_check: "SolveResult | None" = None
 
     @property
     def form(self) -> str:
@@ -166,32 +170,77 @@ def frequency_to_k0_squared(f_hz: float) -> float:
 
 def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, form: str = "E",
                 order: int = 1, factorization: str = "auto", method: str = "auto",
-                complex_check: bool = False, progress: Progress = SILENT) -> SolveResult:
+                complex_check: bool = False, losses_inside: bool = False,
+                progress: Progress = SILENT) -> SolveResult:
+    """The ``modes`` lowest modes of ``model`` (or those nearest ``near_hz``).
+
+    A lossless model with real or Hermitian materials is a Hermitian pencil: real
+    frequencies, and Q from perturbation formulas. With ``losses_inside`` (the loss tangents
+    in the operator) or complex-symmetric material tensors the pencil is complex symmetric:
+    every mode gets a complex frequency, its Q (``q_eigenvalue``) from the imaginary part,
+    and a complex field. ``complex_check`` is that second solve run beside the first one,
+    each real mode paired with its complex partner."""
     check_request(modes, near_hz)
-    timings = {}
     t0 = time.perf_counter()
-    space = build_space(model, form, order)
+    space = build_space(model, form, order, losses_inside=losses_inside)
+    if space.pencil_kind == GENERAL:
+        raise InputError("the material tensors make the problem neither Hermitian (lossless, "
+                         "gyrotropic) nor symmetric (lossy, reciprocal); check the tensors' "
+                         "transposes", field="regions")
+    result = solve_space(space, modes=modes, near_hz=near_hz, factorization=factorization,
+                         method=method, progress=progress, started=t0)
+    if complex_check and space.hermitian:
+        t0 = time.perf_counter()
+        lossy = solve_space(build_space(model, form, order, losses_inside=True),
+                            modes=len(result.modes) + max(4, len(result.modes) // 2),
+                            near_hz=None, shift=result.eigen_stats.get(
+                                "shift", -result.eigen_stats["lowest_scale"]),
+                            factorization=factorization, method="auto", progress=SILENT,
+                            started=t0, post=False)
+        paired = with_complex_warnings(with_complex_frequencies(
+            result.modes, np.array([frequency_to_k0_squared(m.complex_frequency_hz)
+                                    for m in lossy.modes])))
+        result.timings["complex_check_s"] = time.perf_counter() - t0
+        progress.step(f"complex check done in {result.timings['complex_check_s']:.2f} s")
+        result = replace(result, modes=paired, complex_check=lossy)
+    return result
+
+
+def solve_space(space: EdgeSpace, *, modes: int, near_hz: float | None,
+                factorization: str = "auto", method: str = "auto",
+                progress: Progress = SILENT, started: float | None = None,
+                shift: float | None = None, post: bool = True) -> SolveResult:
+    """Assemble ``space``'s pencil, solve it with the backend that suits it, check every
+    pair and make the modes; ``shift`` (k0², 1/m²) overrides the target of a
+    complex-symmetric solve; without ``post`` the modes carry checks and fields only."""
+    model, form, order = space.model, space.form, space.order
+    timings = {}
+    t0 = time.perf_counter() if started is None else started
     K, M = assemble(space)
     G = kernel_basis(space)
     timings["assembly_s"] = time.perf_counter() - t0
-    progress.step(f"assembled {form} form, order {order}: {space.n_dofs} DOFs, {space.mesh.nelements} "
-                  f"tetrahedra, {G.shape[1]} gradient DOFs")
+    progress.step(f"assembled {form} form, order {order}: {space.n_dofs} DOFs, "
+                  f"{space.mesh.nelements} tetrahedra, {G.shape[1]} gradient DOFs"
+                  + ("" if space.hermitian else "; complex symmetric (losses inside)"))
     if space.n_dofs < modes + 2:
         raise InputError(f"the mesh has only {space.n_dofs} free DOFs, too few for {modes} "
                          "modes; refine the mesh", option="modes")
 
-    request = EigenRequest(count=modes,
-                           target=None if near_hz is None else frequency_to_k0_squared(near_hz))
+    target = (shift if shift is not None
+              else None if near_hz is None else frequency_to_k0_squared(near_hz))
+    request = EigenRequest(count=modes, target=target)
     choice = selection.choose(method, n=K.shape[0], nnz=K.nnz, request=request, order=order,
-                              library=library(factorization))
+                              library=library(factorization), hermitian=space.hermitian)
     progress.step(choice.describe())
     factorize = partial(get_factorizer(factorization),
                         memory_limit=int(selection.MEMORY_SHARE * choice.free_bytes))
     progress.step(f"sparse direct solves: {describe(factorization)}")
-    # In either form mass_coef.max() / stiffness_coef.min() is eps_max * mu_max.
+    # In either form mass / stiffness is eps * mu: its largest value bounds the spectrum.
     scale = ((math.pi / model.mesh.bounding_size()) ** 2
-             / (space.mass_coef.max() / space.stiffness_coef.min()))
-    problem = EigenProblem(K, M, G, lowest_scale=scale, auxiliary=partial(auxiliary_space, space))
+             / (isotropic_part(space.mass_coef).max()
+                / isotropic_part(space.stiffness_coef).min()))
+    problem = EigenProblem(K, M, G, lowest_scale=scale, hermitian=space.hermitian,
+                           auxiliary=partial(auxiliary_space, space))
     t0 = time.perf_counter()
     try:
         setting = backends.setting_for(problem, factorize, progress)
@@ -205,71 +254,79 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     pairs.stats["factorization"] = describe(factorization)
     pairs.stats["method"] = choice.method
     pairs.stats["peak_estimate_bytes"] = choice.peak_bytes   # sizes a sweep's --jobs
+    pairs.stats["lowest_scale"] = scale
 
-    static = pairs.values < STATIC_FRACTION * scale
+    static = np.abs(pairs.values) < STATIC_FRACTION * scale
     values, vectors = pairs.values[~static], pairs.vectors[:, ~static]
-    keep = select_modes(np.sqrt(np.maximum(values, 0)), modes,
-                   None if request.target is None else math.sqrt(request.target))
+    keep = select_modes(np.sqrt(values).real if np.iscomplexobj(values)
+                        else np.sqrt(np.maximum(values, 0)), modes,
+                        None if request.target is None else math.sqrt(abs(request.target)))
     values, vectors = values[keep], vectors[:, keep]
-    checks = check_modes(K, M, setting.projector, values, vectors)
+    checks = check_modes(K, M, setting.projector, values, vectors, hermitian=space.hermitian)
 
     full = space.constraint.expand(vectors)
-    frequencies = C0 * np.sqrt(np.maximum(values, 0.0)) / (2 * math.pi)
-    lossy = has_losses(space)
-    faces = metal_faces(space) if lossy else None
-    sizes, index = edge_space_scales(space)
-    result_modes = [Mode(index=i + 1, frequency_hz=float(f), k0_squared=float(v), checks=ch,
-                         dofs=full[:, i],
-                         losses=mode_losses(space, full[:, i], f, faces) if lossy else None,
-                         resolution=mode_resolution(float(f), order, sizes, index,
-                                                    edge_space_energy(space, full[:, i], v)))
-                    for i, (f, v, ch) in enumerate(zip(frequencies, values, checks))]
-    result_modes = with_loss_warnings(result_modes, model.walls)
+    derived = _PostInputs.of(space) if post else None
+    result_modes = [_mode(space, i, value, full[:, i], check, derived)
+                    for i, (value, check) in enumerate(zip(values, checks))]
+    if post:
+        result_modes = with_loss_warnings(result_modes, model.walls)
     progress.step(f"eigen solve done: {len(result_modes)} modes in {timings['eigen_s']:.2f} s")
-    if complex_check:
-        t0 = time.perf_counter()
-        result_modes = with_complex_warnings(
-            _complex_check(space, K, M, G, factorize, result_modes,
-                           pairs.stats.get("shift", -scale)))
-        timings["complex_check_s"] = time.perf_counter() - t0
-        progress.step(f"complex check done in {timings['complex_check_s']:.2f} s")
     return SolveResult(modes=result_modes, space=space, dofs=space.n_dofs,
                        elements=int(space.mesh.nelements), static_fields_dropped=int(static.sum()),
                        timings=timings, eigen_stats=pairs.stats, request=request,
                        near_hz=near_hz)
 
 
-def _complex_check(space: EdgeSpace, K, M, G, factorize, modes: list[Mode], shift: float
-                   ) -> list[Mode]:
-    """Solve again with eps_r (1 - j tan δ) and give each mode its complex frequency and the
-    Q it implies, Q = Re ω / (2 Im ω); modes and eigenvalues are paired one-to-one by
-    nearest real frequency."""
-    tan_delta = _tan_delta_at_quadrature(space)
-    if space.form == "E":   # M becomes ∫ eps_r (1 - j tan δ) u·v
-        M_loss = assemble_mass(space, space.mass_coef * tan_delta)
-        K_c, M_c = K.astype(complex), M - 1j * M_loss
-    else:                   # 1/(eps_r (1 - j t)) = (1/eps_r)(1 + j t)/(1 + t²)
-        K_re = assemble_stiffness(space, space.stiffness_coef / (1 + tan_delta**2))
-        K_im = assemble_stiffness(space, space.stiffness_coef * tan_delta / (1 + tan_delta**2))
-        K_c, M_c = K_re + 1j * K_im, M.astype(complex)
-    return with_complex_frequencies(modes, complex_eigenvalues(K_c, M_c, G, factorize,
-                                                               shift=shift, count=len(modes)))
+@dataclass(frozen=True)
+class _PostInputs:
+    """What every mode's post-processing reads of the space, computed once per solve."""
+
+    faces: object          # post.losses.MetalFaces or None
+    lossy: bool
+    sizes: np.ndarray      # per element: mean edge length and refractive index
+    index: np.ndarray
+
+    @classmethod
+    def of(cls, space: EdgeSpace) -> "_PostInputs":
+        lossy = has_losses(space)
+        return cls(metal_faces(space) if lossy else None, lossy, *edge_space_scales(space))
+
+
+def _mode(space: EdgeSpace, i: int, value, dofs: np.ndarray, check: ModeChecks,
+          derived: _PostInputs | None) -> Mode:
+    """Mode i (0-based) from its eigenvalue k0² (real, or complex when the pencil is complex
+    symmetric) and its field over all edges; losses and resolution with ``derived``."""
+    frequency = C0 * np.sqrt(complex(value) if np.iscomplexobj(value)
+                             else max(float(value), 0.0)) / (2 * math.pi)
+    lossy_values = {}
+    if np.iscomplexobj(value):
+        lossy_values = dict(complex_frequency_hz=complex(frequency),
+                            q_eigenvalue=quality_factor(complex(frequency)))
+    f = float(np.real(frequency))
+    k0_squared = float(np.real(value))
+    if derived is None:
+        return Mode(index=i + 1, frequency_hz=f, k0_squared=k0_squared, checks=check,
+                    dofs=dofs, **lossy_values)
+    return Mode(index=i + 1, frequency_hz=f, k0_squared=k0_squared, checks=check, dofs=dofs,
+                losses=mode_losses(space, dofs, f, derived.faces) if derived.lossy else None,
+                resolution=mode_resolution(f, space.order, derived.sizes, derived.index,
+                                           edge_space_energy(space, dofs, k0_squared)),
+                **lossy_values)
+
+
+def quality_factor(frequency: complex) -> float:
+    """Q = Re f / (2 |Im f|) of a complex frequency (infinite for a real one)."""
+    return frequency.real / (2 * abs(frequency.imag)) if frequency.imag else math.inf
 
 
 def complex_eigenvalues(K, M, G, factorize, *, shift: float, count: int) -> np.ndarray:
     """The complex k0² of the complex-symmetric pencil K x = k0² M x nearest the real
-    ``shift`` (the real solve's), a few more than ``count`` so that every real mode finds
-    its partner; the kernel range(G) deflated."""
+    ``shift``, a few more than ``count`` so that every real mode finds its partner; the
+    kernel range(G) deflated (the sections' complex check)."""
     problem = EigenProblem(K, M, G, lowest_scale=abs(shift), hermitian=False)
     request = EigenRequest(count + max(4, count // 2), target=shift)
     return backends.solve("arnoldi", problem, request,
                           backends.setting_for(problem, factorize)).values
-
-
-def _tan_delta_at_quadrature(space: EdgeSpace) -> np.ndarray:
-    tm = space.model.mesh
-    return tan_delta_by_cell(space.model.materials, tm.region_names, tm.tet_region,
-                             space.mass_coef)
 
 
 def select_modes(ascending: np.ndarray, count: int, target: float | None) -> np.ndarray:

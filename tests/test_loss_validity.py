@@ -70,7 +70,7 @@ def test_a_very_lossy_dielectric_is_flagged_and_pairs_one_to_one(tmp_path, capsy
     assert all(row["q_dielectric"] == pytest.approx(0.1) for row in rows)
     assert all(any("Q_dielectric = 0.1 < 10" in w for w in row["loss_warnings"])
                for row in rows)
-    paired = [row["complex_frequency_hz"] for row in rows]
+    paired = [tuple(row["complex_frequency_hz"]) for row in rows]
     assert len(set(paired)) == len(paired)        # never one eigenvalue for two modes
     assert "complex_check = true solves" in capsys.readouterr().err
 

@@ -53,6 +53,7 @@ def make_axisymmetric_model(section: MeridionalMesh, materials: dict[str, Materi
         points = np.column_stack([rz[:, 0], np.zeros(len(rz)), rz[:, 1]])
         try:
             material.check(points, field=f"regions.{name}")
+            material.require_isotropic(name, "the body-of-revolution solver")
         except InputError as exc:
             raise exc.located(source=source) from None
         if not material.is_uniform:

@@ -36,8 +36,9 @@ def solve(K, M, projector, factorize, *, shift: float, count: int) -> EigenPairs
 
 
 def with_complex_frequencies(modes: list, k0_squared: np.ndarray) -> list:
-    """Each mode (a dataclass with frequency_hz) given a complex frequency among the complex
-    eigenvalues ``k0_squared``, and the Q it implies, Q = Re ω / (2 Im ω).
+    """Each mode (a dataclass with frequency_hz) given a complex frequency among those of
+    the complex eigenvalues ``k0_squared`` (1/m²), and the Q it implies,
+    Q = Re f / (2 |Im f|).
 
     The pairing is one-to-one: the assignment that minimises the total distance between
     real frequencies and the real parts of the complex ones (Hungarian method), so that two
@@ -49,17 +50,16 @@ def with_complex_frequencies(modes: list, k0_squared: np.ndarray) -> list:
     from scipy.constants import c
     from scipy.optimize import linear_sum_assignment
 
-    omegas = c * np.sqrt(k0_squared)
-    real = np.array([2 * math.pi * m.frequency_hz for m in modes])
-    rows, cols = linear_sum_assignment(np.abs(real[:, None] - omegas.real[None, :]))
+    found = c * np.sqrt(np.asarray(k0_squared, dtype=complex)) / (2 * math.pi)
+    real = np.array([m.frequency_hz for m in modes])
+    rows, cols = linear_sum_assignment(np.abs(real[:, None] - found.real[None, :]))
     partner = dict(zip(rows.tolist(), cols.tolist()))
     out = []
     for i, mode in enumerate(modes):
         if i not in partner:
             out.append(replace(mode, complex_frequency_hz=None, q_dielectric_complex=None))
             continue
-        w = omegas[partner[i]]
-        q = w.real / (2 * abs(w.imag)) if w.imag != 0 else math.inf
-        out.append(replace(mode, complex_frequency_hz=float(w.real / (2 * math.pi)),
-                           q_dielectric_complex=float(q)))
+        f = complex(found[partner[i]])
+        q = f.real / (2 * abs(f.imag)) if f.imag != 0 else math.inf
+        out.append(replace(mode, complex_frequency_hz=f, q_dielectric_complex=float(q)))
     return out

@@ -43,7 +43,9 @@ class Choice:
 
 
 def choose(method: str, *, n: int, nnz: int, request: EigenRequest, order: int, library: str,
-           free_bytes: float | None = None) -> Choice:
+           free_bytes: float | None = None, hermitian: bool = True) -> Choice:
+    """The backend for a pencil of ``n`` DOFs: "direct" or "iterative" for a Hermitian one,
+    "arnoldi" for a complex-symmetric one (``hermitian`` False: losses inside the solve)."""
     if method not in METHODS:
         raise InputError(f"must be one of {', '.join(map(repr, METHODS))}, got {method!r}",
                          option="method")
@@ -52,10 +54,19 @@ def choose(method: str, *, n: int, nnz: int, request: EigenRequest, order: int, 
     block = request.count + max(4, request.count // 2)
     direct = direct_peak_bytes(n, nnz, 2 * block + 1, library)
     iterative = iterative_peak_bytes(n, nnz, block)
-    iterative_possible = request.target is None and order in AUTO_ITERATIVE_ORDERS
+    iterative_possible = (hermitian and request.target is None
+                          and order in AUTO_ITERATIVE_ORDERS)
     threshold = ITERATIVE_FROM_DOFS[library]
 
-    if method == "iterative":
+    if not hermitian:
+        if method == "iterative":
+            raise InputError("the iterative method needs a lossless (Hermitian) problem; with "
+                             "losses inside the solve use method = \"direct\" (or \"auto\")",
+                             option="method")
+        # complex values: twice the real factorisation and vectors
+        choice = Choice("arnoldi", "complex-symmetric pencil (losses inside the solve): "
+                        "shift-invert Arnoldi", 2 * direct, free)
+    elif method == "iterative":
         if request.target is not None:
             raise InputError("the iterative method finds the lowest modes only; for modes near "
                              "a frequency use method = \"direct\" (or \"auto\")",

@@ -16,6 +16,7 @@ from __future__ import annotations
 import numpy as np
 import scipy.sparse as sp
 
+from .coefficients import is_tensor
 from .space import EdgeSpace
 
 # Elements per block: bounds the temporary (block, points, 3, n_basis) array to ~100 MB at
@@ -24,12 +25,13 @@ BLOCK = 4096
 
 
 def assemble_stiffness(space: EdgeSpace, coefficient):
-    """∫ a curl u · curl v over the kept DOFs, a given at the quadrature points."""
+    """∫ curl v · a curl u over the kept DOFs, a (a scalar or a 3x3 tensor, real or complex)
+    given at the quadrature points."""
     return _reduced_csr(space, _element_matrices(space, coefficient, curl=True))
 
 
 def assemble_mass(space: EdgeSpace, coefficient):
-    """∫ b u · v over the kept DOFs, b given at the quadrature points."""
+    """∫ v · b u over the kept DOFs, b given at the quadrature points as for the stiffness."""
     return _reduced_csr(space, _element_matrices(space, coefficient, curl=False))
 
 
@@ -63,13 +65,16 @@ def _element_matrices(space: EdgeSpace, coefficient, *, curl: bool) -> np.ndarra
     for start in range(0, n_elements, BLOCK):
         block = np.arange(start, min(start + BLOCK, n_elements))
         J = np.moveaxis(mapping.DF(X, tind=block), (0, 1), (2, 3))   # (block, points, 3, 3)
-        det = np.linalg.det(J)
-        if curl:
-            metric = np.einsum("eqij,eqik->eqjk", J, J) / np.abs(det)[..., None, None]
-        else:
+        det = np.abs(np.linalg.det(J))[..., None, None]
+        c = coefficient[block]
+        if curl:     # Jᵀ a J / |det J|
+            metric = (np.einsum("eqij,eqik->eqjk", J, J) if not is_tensor(c)
+                      else np.einsum("eqji,eqjk,eqkl->eqil", J, c, J)) / det
+        else:        # J⁻¹ b J⁻ᵀ |det J|
             inverse = np.linalg.inv(J)
-            metric = np.einsum("eqij,eqkj->eqik", inverse, inverse) * np.abs(det)[..., None, None]
-        metric = metric * (W * coefficient[block])[..., None, None]
+            metric = (np.einsum("eqij,eqkj->eqik", inverse, inverse) if not is_tensor(c)
+                      else np.einsum("eqij,eqjk,eqlk->eqil", inverse, c, inverse)) * det
+        metric = metric * (W[:, None, None] if is_tensor(c) else (W * c)[..., None, None])
         weighted = np.einsum("eqab,qbn->eqan", metric, table)   # metric applied to the basis
         local[block] = reference.T @ weighted.reshape(block.size, n_points * 3, n_basis)
     return local

@@ -13,6 +13,7 @@ import scipy.sparse as sp
 
 from ..eigen.problem import AuxiliarySpace
 from ..walls import essential_kinds
+from .coefficients import isotropic_part
 from .interpolation import nodal_vector_interpolation
 
 NODAL_PROBLEMS = ("galerkin", "laplacian")
@@ -67,8 +68,8 @@ def nodal_laplacian(space, shift: float) -> sp.csr_matrix:
     # gradients of the hat functions: rows of J^{-1} for vertices 1..3, minus their sum
     inv = np.linalg.inv(J)                                   # (n_e, 3, 3)
     grads = np.concatenate([-inv.sum(axis=1, keepdims=True), inv], axis=1)   # (n_e, 4, 3)
-    a = space.stiffness_coef.mean(axis=1)
-    b = space.mass_coef.mean(axis=1)
+    a = isotropic_part(space.stiffness_coef).mean(axis=1)
+    b = isotropic_part(space.mass_coef).mean(axis=1)
     stiff = np.einsum("eic,ejc->eij", grads, grads) * (a * volume)[:, None, None]
     mass = (np.ones((4, 4)) + np.eye(4))[None] * (b * volume / 20.0)[:, None, None]
     local = stiff + shift * mass

@@ -15,6 +15,7 @@ from ..errors import InputError
 from ..materials import check_permittivity
 from ..model import FORMS, Model
 from ..walls import essential_kinds
+from .coefficients import HERMITIAN, as_tensor, inverse, isotropic_part, pencil_kind
 from .constraints import Constraint
 from .lagrange import ElementTetLagrange
 from .nedelec import ElementTetNedelec
@@ -26,8 +27,8 @@ class EdgeSpace:
     """Everything assembly and post-processing need to know about the discretisation.
 
     ``stiffness_coef`` and ``mass_coef`` hold the coefficients of the form at the quadrature
-    points (n_elements, n_points): 1/mu_r and eps_r in the E form, 1/eps_r and mu_r in the H
-    form. ``constraint`` keeps the edge DOFs that remain after the essential walls,
+    points (fem.coefficients: (n_elements, n_points), or (..., 3, 3) tensors, real or
+    complex): 1/mu_r and eps_r in the E form, 1/eps_r and mu_r in the H form. ``constraint`` keeps the edge DOFs that remain after the essential walls,
     ``scalar_constraint`` the DOFs of the matching scalar (gradient) space.
     """
 
@@ -49,6 +50,16 @@ class EdgeSpace:
     @property
     def n_dofs(self) -> int:
         return self.constraint.size
+
+    @cached_property
+    def pencil_kind(self) -> str:
+        """fem.coefficients.HERMITIAN (real symmetric included), SYMMETRIC (complex
+        symmetric: lossy or absorbing) or GENERAL."""
+        return pencil_kind(self.stiffness_coef, self.mass_coef)
+
+    @property
+    def hermitian(self) -> bool:
+        return self.pencil_kind == HERMITIAN
 
     @cached_property
     def basis(self):
@@ -75,10 +86,11 @@ class EdgeSpace:
 
     def samples(self) -> tuple[np.ndarray, np.ndarray]:
         """The quadrature points (3, P) and their weights: the mass coefficient times the
-        volume, so that the weighted sum of u·v is the M-inner product."""
+        volume, so that the weighted sum of u·v is the M-inner product (for a tensor or a
+        lossy coefficient, its real isotropic part: a weight for matching modes)."""
         basis = self.basis
         return (basis.mapping.F(basis.X).reshape(3, -1),       # element-major, as basis.dx
-                (self.mass_coef * basis.dx).ravel())
+                (isotropic_part(self.mass_coef) * basis.dx).ravel())
 
     def sampled_fields(self, vectors: np.ndarray) -> np.ndarray:
         """The fields of the columns of ``vectors`` at ``samples()``' points: (3, P, n)."""
@@ -100,7 +112,11 @@ class EdgeSpace:
 ORDERS = (1, 2, 3)
 
 
-def build_space(model: Model, form: str = "E", order: int = 1) -> EdgeSpace:
+def build_space(model: Model, form: str = "E", order: int = 1, *,
+                losses_inside: bool = False) -> EdgeSpace:
+    """The space of ``model`` in the E or H ``form``; with ``losses_inside`` the loss
+    tangents enter the coefficients (eps_r (1 - j tan δ)), so the pencil is complex
+    symmetric and its eigenvalues carry the dielectric Q."""
     from skfem.assembly import Dofs
     from skfem.quadrature import get_quadrature
 
@@ -129,8 +145,9 @@ def build_space(model: Model, form: str = "E", order: int = 1) -> EdgeSpace:
     scalar_constraint = Constraint.keeping(scalar_dofs.N, _ground(
         mesh, np.setdiff1d(np.arange(scalar_dofs.N), fixed_scalar)))
 
-    eps, mu = _coefficients(model, mesh.mapping().F(quadrature[0]))
-    stiffness_coef, mass_coef = (1.0 / mu, eps) if form == "E" else (1.0 / eps, mu)
+    eps, mu = _coefficients(model, mesh.mapping().F(quadrature[0]),
+                            losses_inside=losses_inside)
+    stiffness_coef, mass_coef = (inverse(mu), eps) if form == "E" else (inverse(eps), mu)
     return EdgeSpace(model=model, form=form, order=order, mesh=mesh, element=element,
                      scalar_element=scalar_element, quadrature=quadrature, dofs=dofs,
                      scalar_dofs=scalar_dofs, constraint=constraint,
@@ -196,17 +213,33 @@ def _ground(mesh, nodes: np.ndarray) -> np.ndarray:
     return nodes[keep[nodes]]
 
 
-def _coefficients(model: Model, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """eps_r and mu_r at the quadrature points x (3, n_elements, n_points), shape
-    (n_elements, n_points)."""
-    eps = np.empty(x.shape[1:])
-    mu = np.empty(x.shape[1:])
+def _coefficients(model: Model, x: np.ndarray, *, losses_inside: bool = False
+                  ) -> tuple[np.ndarray, np.ndarray]:
+    """eps_r and mu_r at the quadrature points x (3, n_elements, n_points): shape
+    (n_elements, n_points), or (n_elements, n_points, 3, 3) when a region is anisotropic;
+    complex with ``losses_inside`` (eps_r (1 - j tan δ)) or complex tensors."""
     tm = model.mesh
-    for name, region_id in tm.region_names.items():
-        material = model.materials[name]
-        rows = tm.tet_region == region_id
-        eps[rows] = material.eps_at(x[0][rows], x[1][rows], x[2][rows])
-        mu[rows] = material.mu_r
-        check_permittivity(eps[rows], (x[0][rows], x[1][rows], x[2][rows]),
-                           field=f"regions.{name}.eps_r")
+    materials = [(model.materials[name], tm.tet_region == rid)
+                 for name, rid in tm.region_names.items()]
+    tensor = any(not m.is_isotropic for m, _ in materials)
+    lossy = losses_inside and any(m.tan_delta for m, _ in materials)
+    complex_values = lossy or any(np.iscomplexobj(t) for m, _ in materials
+                                  for t in (m.eps_tensor, m.mu_tensor) if t is not None)
+    shape = x.shape[1:] + ((3, 3) if tensor else ())
+    eps = np.empty(shape, dtype=complex if complex_values else float)
+    mu = np.empty_like(eps)
+    for (material, rows), name in zip(materials, tm.region_names):
+        if material.eps_tensor is not None:
+            eps[rows] = material.eps_tensor
+        else:
+            where = (x[0][rows], x[1][rows], x[2][rows])
+            value = material.eps_at(*where)
+            check_permittivity(value, where, field=f"regions.{name}.eps_r")
+            eps[rows] = as_tensor(value) if tensor else value
+        if losses_inside and material.tan_delta:
+            eps[rows] *= 1 - 1j * material.tan_delta
+        if material.mu_tensor is not None:
+            mu[rows] = material.mu_tensor
+        else:
+            mu[rows] = np.eye(3) * material.mu_r if tensor else material.mu_r
     return eps, mu

@@ -9,9 +9,10 @@ each mode has ``index``, ``frequency_hz``, ``k0_squared_per_m2``, ``residual``,
 (post.resolution), ``loss_warnings`` (post.loss_validity), ``error_estimate_hz`` (null unless a mesh sequence was
 solved; then also ``extrapolated_hz``), ``q_wall``, ``q_dielectric``, ``q_total`` (null without such
 loss), ``wall_loss_share``, ``region_loss_share`` (name -> fraction of that loss),
-``filling_factor`` (region -> share of the electric energy), with ``complex_frequency_hz`` and
-``q_dielectric_complex`` after a complex check (null for a mode no complex eigenvalue was
-paired with), and ``symmetry`` (the class label, e.g. "x:PMC y:PEC")
+``filling_factor`` (region -> share of the electric energy), with ``complex_frequency_hz``
+([real, imaginary] in Hz) and ``q_dielectric_complex`` after a complex check (null for a mode
+no complex eigenvalue was paired with), or ``complex_frequency_hz`` and ``q_eigenvalue`` (the
+Q of every loss inside the solve) when the losses were inside the solve, and ``symmetry`` (the class label, e.g. "x:PMC y:PEC")
 when the model was cut by symmetry planes; then the top level has ``symmetry_classes``.
 A mode of the axisymmetric solver also has ``azimuthal_order``, ``field_class`` (TE-like,
 TM-like, TEM-like, hybrid) and ``multiplicity`` (2 for m >= 1: the cos mφ and sin mφ pair); then the
@@ -77,9 +78,13 @@ def mode_rows(result: SolveResult) -> list[dict]:
             row["label"] = m.label
         if m.phase_advance_rad is not None:
             row["phase_advance_rad"] = m.phase_advance_rad
-        if complex_checked:
-            row["complex_frequency_hz"] = m.complex_frequency_hz
-            row["q_dielectric_complex"] = m.q_dielectric_complex
+        if complex_checked:   # [real, imaginary]
+            f = m.complex_frequency_hz
+            row["complex_frequency_hz"] = None if f is None else [f.real, f.imag]
+            if m.q_eigenvalue is not None:
+                row["q_eigenvalue"] = m.q_eigenvalue
+            else:
+                row["q_dielectric_complex"] = m.q_dielectric_complex
         row["loss_warnings"] = list(m.loss_warnings)
         row.update(field_figure_rows(m))
         row.update(merit_columns.json_fields(m))

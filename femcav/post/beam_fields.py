@@ -139,6 +139,7 @@ def _materials_at(space: EdgeSpace, x: np.ndarray, cells: np.ndarray):
         rows = region == rid
         if rows.any():
             material = model.materials[name]
+            material.require_isotropic(name)
             eps[rows] = material.eps_at(x[0, rows], x[1, rows], x[2, rows])
             mu[rows] = material.mu_r
     return eps, mu

@@ -39,15 +39,25 @@ class ModeChecks:
         return out
 
 
-def check_modes(K, M, projector, values: np.ndarray, vectors: np.ndarray) -> list[ModeChecks]:
+def check_modes(K, M, projector, values: np.ndarray, vectors: np.ndarray, *,
+                hermitian: bool = True) -> list[ModeChecks]:
+    """The checks of each pair. The modes of a Hermitian pencil are orthogonal in xᴴ M y;
+    those of a complex-symmetric one (losses inside) in the bilinear xᵀ M y, so that is
+    the product whose off-diagonal must vanish there."""
     MX = M @ vectors
     KX = K @ vectors
     residual = (np.linalg.norm(KX - MX * values, axis=0)
                 / np.maximum(np.linalg.norm(MX * values, axis=0), np.finfo(float).tiny))
-    norms = np.sqrt(column_dots(vectors, MX))
     grad = projector.gradient_part(vectors)
-    divergence = np.sqrt(np.abs(column_dots(grad, M @ grad))) / norms
-    gram = np.abs(ct(vectors) @ MX) / np.outer(norms, norms)
+    if hermitian:
+        norms = np.sqrt(column_dots(vectors, MX))
+        divergence = np.sqrt(np.abs(column_dots(grad, M @ grad))) / norms
+        gram = np.abs(ct(vectors) @ MX)
+    else:
+        norms = np.sqrt(np.abs(np.einsum("ij,ij->j", vectors, MX)))
+        divergence = np.sqrt(np.abs(np.einsum("ij,ij->j", grad, M @ grad))) / norms
+        gram = np.abs(vectors.T @ MX)
+    gram = gram / np.outer(norms, norms)
     np.fill_diagonal(gram, 0.0)
     orthogonality = gram.max(axis=1) if len(values) > 1 else np.zeros(len(values))
     return [ModeChecks(float(r), float(d), float(o))

@@ -33,6 +33,7 @@ def centroid_materials(space: EdgeSpace) -> tuple[np.ndarray, np.ndarray]:
     for name, region_id in tm.region_names.items():
         rows = tm.tet_region == region_id
         material = space.model.materials[name]
+        material.require_isotropic(name)
         eps[rows] = material.eps_at(c[rows, 0], c[rows, 1], c[rows, 2])
         mu[rows] = material.mu_r
     return eps, mu

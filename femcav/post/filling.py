@@ -15,6 +15,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..fem import coefficients
 from ..fem.quadrature_fields import fields_at_quadrature
 from ..fem.space import EdgeSpace
 
@@ -50,12 +51,12 @@ def magnetic_filling(space: EdgeSpace, dofs: np.ndarray,
     """``dofs`` over all edges of ``space``."""
     axis = unit_axis(axis)
     fields = fields_at_quadrature(space, dofs)
-    if space.form == "E":   # H ∝ ∇×E / μ_r; stiffness_coef is 1/μ_r
-        H = fields.curl * space.stiffness_coef[None]
+    if space.form == "E":   # H ∝ μ_r⁻¹ ∇×E; stiffness_coef is μ_r⁻¹
+        H = coefficients.apply(space.stiffness_coef, fields.curl)
     else:
         H = fields.value
     dx = fields.dx
-    squared = np.sum(np.sum(H**2, axis=0) * dx, axis=1)
-    along = np.sum(np.einsum("i,ijk->jk", np.asarray(axis), H) ** 2 * dx, axis=1)
+    squared = np.sum(np.sum(np.abs(H) ** 2, axis=0) * dx, axis=1)
+    along = np.sum(np.abs(np.einsum("i,ijk->jk", np.asarray(axis), H)) ** 2 * dx, axis=1)
     mesh = space.model.mesh
     return region_shares(squared, along, mesh.tet_region, mesh.region_names, axis)

@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.constants import epsilon_0, mu_0
 
+from ..fem.coefficients import inverse, quadratic
 from ..fem.quadrature_fields import fields_at_quadrature
 from ..fem.space import EdgeSpace
 from ..wall_resistance import wall_surface_resistance
@@ -43,7 +44,7 @@ class MetalFaces:
     facets: np.ndarray      # facet indices of the scikit-fem mesh
     wall: np.ndarray        # wall name per facet
     basis: object           # FacetBasis on those facets
-    mu_r: np.ndarray        # mu_r of the element behind each facet
+    inverse_mu_r: np.ndarray   # μ_r⁻¹ of the element behind each facet, (n,) or (n, 3, 3)
 
 
 def metal_faces(space: EdgeSpace) -> MetalFaces | None:
@@ -56,22 +57,26 @@ def metal_faces(space: EdgeSpace) -> MetalFaces | None:
         return None
     facets = np.array([f for f, _ in pairs], dtype=np.int64)
     basis = FacetBasis(space.mesh, space.element, facets=facets, intorder=2 * space.order)
-    mu_by_region = {rid: model.materials[name].mu_r
-                    for name, rid in model.mesh.region_names.items()}
     elements = space.mesh.f2t[0, facets]
-    mu_r = np.array([mu_by_region[r] for r in model.mesh.tet_region[elements]])
+    inverse_mu = space.stiffness_coef if space.form == "E" else inverse(space.mass_coef)
     return MetalFaces(facets=facets, wall=np.array([n for _, n in pairs]), basis=basis,
-                      mu_r=mu_r)
+                      inverse_mu_r=inverse_mu[elements, 0])   # constant per element
+
+
+def _times_inverse_mu(inverse_mu: np.ndarray, curl: np.ndarray) -> np.ndarray:
+    """μ_r⁻¹ curl E on facets: ``curl`` (3, n_facets, n_points), one μ_r⁻¹ per facet."""
+    if inverse_mu.ndim == 3:
+        return np.einsum("fij,jfq->ifq", inverse_mu, curl)
+    return curl * inverse_mu[None, :, None]
 
 
 def electric_energy_by_region(space: EdgeSpace, dofs: np.ndarray, omega: float) -> dict:
     """∫ ε0 ε_r |E|² dV per region (4 W_e,i), for the mode's DOFs as stored."""
     fields = fields_at_quadrature(space, dofs)
     if space.form == "E":
-        integrand = space.mass_coef * np.sum(fields.value ** 2, axis=0) * epsilon_0
-    else:  # E = curl H / (jω ε0 ε_r): ε0 ε_r |E|² = |curl H|² / (ω² ε0 ε_r)
-        integrand = (space.stiffness_coef * np.sum(fields.curl ** 2, axis=0)
-                     / (omega**2 * epsilon_0))
+        integrand = quadratic(space.mass_coef, fields.value) * epsilon_0
+    else:  # E = ε_r⁻¹ curl H / (jω ε0): ε0 Ē·ε_r E = curl H̄·ε_r⁻¹ curl H / (ω² ε0)
+        integrand = quadratic(space.stiffness_coef, fields.curl) / (omega**2 * epsilon_0)
     per_element = np.sum(integrand * fields.dx, axis=1)
     tm = space.model.mesh
     return {name: float(per_element[tm.tet_region == rid].sum())
@@ -96,14 +101,14 @@ def mode_losses(space: EdgeSpace, dofs: np.ndarray, frequency_hz: float,
     if faces is not None:
         field_values = faces.basis.interpolate(dofs)
         if space.form == "E":   # |H| = |curl E| / (ω μ0 μ_r)
-            H = field_values.curl / (omega * mu_0 * faces.mu_r[None, :, None])
+            H = _times_inverse_mu(faces.inverse_mu_r, field_values.curl) / (omega * mu_0)
         else:
             H = np.asarray(field_values)
         n = faces.basis.normals
         H_t = H - np.sum(H * n, axis=0) * n
         walls = space.model.walls
         rs = np.array([wall_surface_resistance(walls[w], omega) for w in faces.wall])
-        loss_at_points = 0.5 * rs[:, None] * np.sum(H_t**2, axis=0)       # W/m²
+        loss_at_points = 0.5 * rs[:, None] * np.sum(np.abs(H_t) ** 2, axis=0)       # W/m²
         power = np.sum(loss_at_points * faces.basis.dx, axis=1)            # W per face
         total_p = float(power.sum())
         q_wall = omega * stored / total_p

@@ -123,6 +123,7 @@ def materials_at(materials: dict, region_names: dict[str, int], region_of_cell: 
     for name, region_id in region_names.items():
         rows = region_of_cell == region_id
         if rows.any():
+            materials[name].require_isotropic(name)
             eps[rows] = materials[name].eps_at(points[rows, 0], points[rows, 1], points[rows, 2])
             mu[rows] = materials[name].mu_r
     return eps, mu

@@ -41,6 +41,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.constants import c as C0
 
+from ..fem.coefficients import isotropic_part, quadratic
 from ..fem.quadrature_fields import fields_at_quadrature
 
 MIN_POINTS_PER_WAVELENGTH = {1: 4.0, 2: 1.6, 3: 1.4}
@@ -120,7 +121,8 @@ def edge_space_scales(space) -> tuple[np.ndarray, np.ndarray]:
     mean over its quadrature points; in either form mass / stiffness coefficient is ε_r μ_r)."""
     mesh = space.mesh
     h = mean_edge_length(mesh.p.T, mesh.t.T)
-    index = np.sqrt(np.mean(space.mass_coef / space.stiffness_coef, axis=1))
+    index = np.sqrt(np.mean(isotropic_part(space.mass_coef)
+                            / isotropic_part(space.stiffness_coef), axis=1))
     return h, index
 
 
@@ -128,7 +130,7 @@ def edge_space_energy(space, dofs: np.ndarray, k0_squared: float) -> np.ndarray:
     """Electric plus magnetic energy of a mode per tetrahedron (relative scale): the mass
     term plus the curl term over k0² (their sums are equal at resonance)."""
     fields = fields_at_quadrature(space, dofs)
-    density = (space.mass_coef * np.sum(fields.value ** 2, axis=0)
-               + space.stiffness_coef * np.sum(fields.curl ** 2, axis=0)
-               / max(k0_squared, np.finfo(float).tiny))
+    density = (quadratic(space.mass_coef, fields.value)
+               + quadratic(space.stiffness_coef, fields.curl)
+               / max(abs(k0_squared), np.finfo(float).tiny))
     return np.sum(density * fields.dx, axis=1)

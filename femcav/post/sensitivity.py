@@ -23,10 +23,12 @@ import numpy as np
 def material_sensitivities(space, dofs: np.ndarray, frequency_hz: float) -> dict:
     """{"eps_r": {region: df/dε_r in Hz}, "mu_r": {region: df/dμ_r in Hz}} for one mode of
     a 3D edge space."""
+    for name, material in space.model.materials.items():
+        material.require_isotropic(name, "material sensitivities")
     values = space.basis.interpolate(dofs)
-    u_sq = np.sum(np.asarray(values) ** 2, axis=0)
-    curl_sq = np.sum(np.asarray(values.curl) ** 2, axis=0)
-    s, m = space.stiffness_coef, space.mass_coef
+    u_sq = np.sum(np.abs(np.asarray(values)) ** 2, axis=0)
+    curl_sq = np.sum(np.abs(np.asarray(values.curl)) ** 2, axis=0)
+    s, m = np.real(space.stiffness_coef), np.real(space.mass_coef)
     if space.form == "E":        # u = E, curl u ∝ μ_r H
         electric_unit, electric = u_sq, m * u_sq
         magnetic_unit, magnetic = s**2 * curl_sq, s * curl_sq
