@@ -30,7 +30,7 @@ _PUBLIC = {
     # case files and the studies
     "case_model": ".case",
     "load_case": ".case",
-    "run_case": ".runner",
+    "run_case": ".solve_command",
     "run_sweep": ".study.sweep",
     "run_tune": ".study.tune",
     "run_extract": ".study.extract",

@@ -68,6 +68,7 @@ class SolveSpec:
     form: str | None = None   # None: H with metal walls, else E (see runner.choose_form)
     order: int = 1
     complex_check: bool = False
+    losses_inside: bool = False        # tan δ in the operator: complex modes (solver.py)
     error_estimate: bool = False       # solve a mesh sequence and bar every frequency
     accuracy: float | None = None      # relative target for the bars (refine until met)
     max_dofs: int = 400_000
@@ -159,7 +160,6 @@ def case_from_data(data: dict, path: Path) -> Case:
         probes = _probes(_table(data, "probes"))
         filling_axis = _filling_axis(_table(data, "filling"))
         beam = _beam(data["beam"], geometry, solve, symmetry) if "beam" in data else None
-        from .study.monte_carlo import parse_monte_carlo
         samples = parse_monte_carlo(_table(data, "tolerances"), tolerances)
     except InputError as exc:
         raise in_case(exc, source) from None
@@ -167,6 +167,39 @@ def case_from_data(data: dict, path: Path) -> Case:
                 solve=solve, mesh=mesh, symmetry=symmetry, tolerances=tolerances,
                 probes=probes, filling_axis=filling_axis, beam=beam,
                 tolerance_samples=samples)
+
+
+UNIFORM_STD = 1 / math.sqrt(3)   # standard deviation of U(-1, 1) (common practice)
+
+
+@dataclass(frozen=True)
+class MonteCarloSpec:
+    samples: int
+    seed: int
+    tolerances: dict[str, float]        # builder length (NAME or NAME[i]) -> m
+    distributions: dict[str, str]       # the same names -> "normal" | "uniform"
+
+    def standard_deviation(self, name: str) -> float:
+        scale = UNIFORM_STD if self.distributions[name] == "uniform" else 1.0
+        return scale * self.tolerances[name]
+
+
+def parse_monte_carlo(spec: dict, tolerances: dict[str, float]) -> MonteCarloSpec | None:
+    """The draw a checked [tolerances] table asks for (None without ``samples``)."""
+    if "samples" not in spec:
+        if "seed" in spec:
+            raise InputError("seed is for a Monte-Carlo draw: give samples = N too",
+                             field="tolerances.seed")
+        return None
+    if not tolerances:
+        raise InputError("samples = N draws the lengths listed here; list at least one",
+                         field="tolerances.samples")
+    distributions = {name: (read(spec[name], "distribution", schema.TOLERANCE_ENTRY,
+                                 f"tolerances.{name}") if isinstance(spec[name], dict)
+                            else "normal") for name in tolerances}
+    return MonteCarloSpec(samples=read(spec, "samples", schema.TOLERANCES, "tolerances"),
+                          seed=read(spec, "seed", schema.TOLERANCES, "tolerances"),
+                          tolerances=dict(tolerances), distributions=distributions)
 
 
 PROBE_NAME = re.compile(r"[A-Za-z0-9_-]{1,64}")
@@ -537,7 +570,7 @@ def _solve(spec: dict) -> SolveSpec:
         if "order" not in spec:
             v["order"] = AXISYMMETRIC_ORDER
     return SolveSpec(modes=v["modes"], near_hz=v["near"], form=v["form"], order=v["order"],
-                     complex_check=v["complex_check"],
+                     complex_check=v["complex_check"], losses_inside=v["losses_inside"],
                      error_estimate=v["error_estimate"] or accuracy is not None,
                      accuracy=accuracy, max_dofs=v["max_dofs"],
                      factorization=v["factorization"], method=v["method"],
@@ -569,6 +602,10 @@ def _check_axisymmetric(solve: SolveSpec, geometry: GeometrySpec, symmetry: dict
     if solve.method == "iterative":
         raise InputError("the axisymmetric solver uses the direct shift-invert path (its "
                          "problems are small)", field="solve.method")
+    if solve.losses_inside:
+        raise InputError("losses inside the solve are for 3D parts so far; on a section use "
+                         "complex_check = true (the complex frequency beside the real one)",
+                         field="solve.losses_inside")
 
 
 _RELATIVE_UNITS = {"ppm": 1e-6, "ppb": 1e-9, "%": 1e-2}

@@ -194,7 +194,7 @@ def _solve(args) -> int:
                              "samples of [tolerances]; this case has none",
                              field="--cluster", source=args.case)
     from .io.results import to_table
-    from .runner import run_case
+    from .solve_command import run_case
 
     case, result, folder = run_case(case, out=args.out, modes=args.modes, near_hz=near_hz,
                                     form=args.form, order=args.order,

@@ -1,4 +1,6 @@
-"""A case file from start to finish: load, mesh, solve, write the result files."""
+"""The driver of a loaded case: mesh, model, solve (symmetry classes, error bars, sections),
+labels, sensitivities, tolerances and field figures; nothing is written here
+(femcav.solve_command writes the result folder)."""
 
 from __future__ import annotations
 
@@ -14,12 +16,8 @@ from .case import (
     case_from_data,
     case_model,
     in_case,
-    load_case,
     read_case_data,
 )
-from .io.atomic import check_output_folder, staged_output
-from .io.results import to_csv, to_json, to_table
-from .io.vtk import write_vtu, write_wall_loss_vtu
 from .progress import SILENT, Progress
 from .errors import InputError
 from .geometry import symmetry_wall_name
@@ -70,6 +68,7 @@ REFINEMENT_RATIO = 1.35
 def _solve_options(settings) -> dict:
     return dict(modes=settings.modes, near_hz=settings.near_hz, form=settings.form,
                 order=settings.order, complex_check=settings.complex_check,
+                losses_inside=settings.losses_inside,
                 factorization=settings.factorization, method=settings.method)
 
 
@@ -130,6 +129,7 @@ def _mesh_sequence(case: Case, walls: dict[str, Wall], settings):
         measure = "nominal"
         solve, options = solve_model, dict(
             form=settings.form, order=settings.order, complex_check=settings.complex_check,
+            losses_inside=settings.losses_inside,
             factorization=settings.factorization, method=settings.method)
 
     def solve_at(size: float, count: int):
@@ -196,49 +196,6 @@ def _accuracy_summary(result: SolveResult, target: float) -> AccuracyReport:
 
 def default_output_folder(case_path: Path) -> Path:
     return case_path.parent / f"{case_path.stem}-results"
-
-
-def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: int | None = None,
-             near_hz: float | None = None, form: str | None = None, order: int | None = None,
-             factorization: str | None = None, method: str | None = None,
-             cluster: str | None = None,
-             progress: Progress = SILENT) -> tuple[Case, SolveResult, Path]:
-    """Solve a case file and write table.txt, modes.csv, modes.json and fields.vtu (and
-    wall_loss.vtu when the case has metal walls).
-
-    Command-line values (modes, near_hz, form, order, factorization, method) override the
-    case file's [solve] table. ``path`` may also be a case already loaded (load_case).
-    ``cluster``: where the samples of a Monte-Carlo tolerance draw are solved (a Dask
-    scheduler's address or local:N; femcav.study.cluster).
-    """
-    case = path if isinstance(path, Case) else load_case(path)
-    overrides = dict(modes=modes, near_hz=near_hz, form=form, order=order,
-                     factorization=factorization, method=method)
-    settings = replace(case.solve, **{k: v for k, v in overrides.items() if v is not None})
-    progress.step(f"case {case.path}: {case.title}")
-    for warning in case.geometry.warnings:
-        progress.warn(warning)
-    folder = check_output_folder(Path(out) if out is not None
-                                 else default_output_folder(case.path))
-    from .study.cluster import optional_cluster_pool
-    with optional_cluster_pool(cluster, progress) as pool:      # None without --cluster
-        result = solve_case(case, settings, progress, pool=pool)
-        if case.tolerance_samples is not None:
-            from .study.monte_carlo import with_monte_carlo
-            result = with_monte_carlo(case, result, settings, pool=pool, progress=progress)
-    with staged_output(folder, kind="solve", replaces=("solve", "pictures")) as files:
-        _write_tables(files, case, result)
-        if settings.azimuthal_orders is not None:
-            from .axisymmetric.revolve import write_revolved_vtu
-            files.write_with("fields.vtu", lambda p: write_revolved_vtu(result, p),
-                             suffix=".vtu")
-        else:
-            files.write_with("fields.vtu", lambda p: write_vtu(result, p), suffix=".vtu")
-        if any(getattr(m.losses, "wall_loss_density", None) is not None for m in result.modes):
-            files.write_with("wall_loss.vtu", lambda p: write_wall_loss_vtu(result, p),
-                             suffix=".vtu")
-    progress.step(f"results written to {folder}")
-    return case, result, folder
 
 
 def solve_case(case: Case, settings, progress: Progress = SILENT, pool=None):
@@ -379,7 +336,7 @@ def _with_tolerances(case: Case, result, settings, progress: Progress, pool=None
     |df/dp| tol alone, their sum (worst case) and root-sum-square (independent errors)."""
     import math
 
-    from .study.morph import dimension_derivatives
+    from .morph import dimension_derivatives
 
     if settings.azimuthal_orders is not None:
         from .axisymmetric.runner import section_dimension_derivatives
@@ -453,53 +410,6 @@ def _with_sensitivities(result):
             modes[i] = replace(modes[i], sensitivity=sensitivities(
                 space, modes[i].dofs, modes[i].frequency_hz))
     return replace(result, modes=modes)
-
-
-def _write_tables(files, case: Case, result) -> None:
-    files.write_text("table.txt", to_table(result) + "\n")
-    files.write_text("modes.csv", to_csv(result))
-    files.write_text("modes.json", to_json(result, title=case.title, case=str(case.path),
-                                           model=model_summary(case, result)))
-    if case.probes:
-        from .io.probe_table import to_probes_csv
-        files.write_text("probes.csv", to_probes_csv(result))
-
-
-def _plain(value):
-    """A builder parameter as JSON data: a composite's solids (dataclasses in tuples) become
-    {"shape": ..., fields} inside lists."""
-    from dataclasses import asdict, is_dataclass
-
-    if is_dataclass(value):
-        return {"shape": type(value).__name__.lower(), **_plain(asdict(value))}
-    if isinstance(value, dict):
-        return {k: _plain(v) for k, v in value.items()}
-    if isinstance(value, (tuple, list)):
-        return [_plain(v) for v in value]
-    return value
-
-
-def model_summary(case: Case, result) -> dict:
-    """What the part is, for the report: geometry, regions with their materials, walls."""
-    g = case.geometry
-    geometry = ({"builder": g.builder, "parameters": {k: _plain(v)
-                                                      for k, v in g.parameters.items()}}
-                if g.builder else {"mesh": str(g.mesh_path), "unit_m": g.mesh_unit_m})
-    if settings_orders := case.solve.azimuthal_orders:
-        geometry["section"] = f"meridional, azimuthal orders {list(settings_orders)}"
-    regions = {}
-    for name, material in case.regions.items():
-        regions[name] = {"eps_r": "expression" if callable(material.eps_r)
-                         else material.eps_r, "mu_r": material.mu_r,
-                         "tan_delta": material.tan_delta}
-    walls = {name: {"kind": w.kind, "conductivity_s_per_m": w.conductivity,
-                    "metal": w.metal, "roughness_m": w.roughness,
-                    "surface_resistance_ohm": w.surface_resistance,
-                    "temperature_k": w.temperature,
-                    "residual_resistance_ohm": w.residual_resistance}
-             for name, w in case.walls.items()}
-    return {"geometry": geometry, "regions": regions, "walls": walls,
-            "symmetry": {axis: list(kinds) for axis, kinds in case.symmetry.items()}}
 
 
 def _solve_axisymmetric(case: Case, settings, progress: Progress, pool=None):

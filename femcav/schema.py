@@ -266,6 +266,8 @@ SOLVE = Table({
     "form": Key(STRING, choices="femcav.model:FORMS"),
     "order": Key(WHOLE, choices="femcav.fem.space:ORDERS", default=1),
     "complex_check": Key(BOOL, default=False),
+    "losses_inside": Key(BOOL, default=False,
+                         doc="loss tangents in the operator: complex frequencies, Q from them"),
     "error_estimate": Key(BOOL, default=False),
     "accuracy": Key(either(NUMBER, STRING), range=ACCURACY,
                     doc='relative: 1e-5, "10 ppm", "0.01 %"'),

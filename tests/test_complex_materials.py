@@ -143,3 +143,27 @@ def test_bad_tensors_are_refused(box_mesh):
     general = np.array([[3.0, 1.0, 0], [0.2j, 3.0, 0], [0, 0, 3.0]])
     with pytest.raises(InputError, match="neither Hermitian"):
         _solve(box_mesh, Material(eps_r=general), modes=2)
+
+
+def test_case_file_losses_inside_the_solve(tmp_path):
+    """[solve] losses_inside: modes.json gives [Re f, Im f] and the Q they imply, which for a
+    filled box is Q_d = 1/tan δ to first order (Pozar §6.1, common practice)."""
+    import json
+
+    from femcav.cli import main
+    from conftest import box_case
+
+    tan_delta = 1e-3
+    case = tmp_path / "case.toml"
+    case.write_text(box_case("5 mm", 2, dims=("22.86 mm", "10.16 mm", "30 mm"))
+                    .replace("modes = 2", "modes = 2\nlosses_inside = true")
+                    + f"[regions.inside]\neps_r = 2.0\ntan_delta = {tan_delta}\n")
+    out = tmp_path / "out"
+    assert main(["solve", str(case), "--out", str(out), "-q", "--no-report"]) == 0
+    rows = json.loads((out / "modes.json").read_text())["modes"]
+    for row in rows:
+        real, imaginary = row["complex_frequency_hz"]
+        assert real == pytest.approx(row["frequency_hz"])
+        assert row["q_eigenvalue"] == pytest.approx(real / (2 * imaginary))
+        assert row["q_eigenvalue"] == pytest.approx(1 / tan_delta, rel=1e-5)
+    assert "Q (f)" in (out / "table.txt").read_text()

@@ -29,7 +29,7 @@ from femcav.geometry import build_part
 from femcav.materials import Material
 from femcav.model import make_model
 from femcav.post.filling import magnetic_filling
-from femcav.runner import run_case
+from femcav import run_case
 from femcav.solver import solve_model
 
 from test_losses import BOX_WALLS, COPPER, metal, te10l_q_wall

@@ -14,7 +14,7 @@ from scipy.special import jn_zeros, jnp_zeros
 from femcav.case import case_from_data
 from femcav.cli import main
 from femcav.runner import solve_case
-from femcav.study.morph import dimension_derivatives, morph
+from femcav.morph import dimension_derivatives, morph
 
 A, L = 0.010, 0.015
 

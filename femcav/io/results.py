@@ -220,6 +220,7 @@ def to_table(result: SolveResult) -> str:
     width = max([len(m.symmetry or "") for m in result.modes] + [len("symmetry")])
     sym = _has_symmetry(result)
     lossy = any(m.losses for m in result.modes)
+    inside = any(m.q_eigenvalue is not None for m in result.modes)
     bars = any(m.error_estimate_hz is not None for m in result.modes)
     axisymmetric = _is_axisymmetric(result)
     label_width = max([len(m.label or "") for m in result.modes]
@@ -229,6 +230,7 @@ def to_table(result: SolveResult) -> str:
              + (f"{'symmetry':<{width}}  " if sym else "")
              + (f"{'m':>2}  {'class':<8}  " if axisymmetric else "")
              + (f"{'Q wall':>9}  {'Q diel.':>9}  {'Q total':>9}  " if lossy else "")
+             + (f"{'Q (f)':>9}  " if inside else "")
              + merit_columns.table_heading(result)
              + f"{'residual':>9}  {'divergence':>10}  {'orthogonality':>13}  check"]
     for m in result.modes:
@@ -249,6 +251,7 @@ def to_table(result: SolveResult) -> str:
                      + (f"{m.symmetry:<{width}}  " if sym else "")
                      + (f"{m.m:>2}  {m.field_class:<8}  " if axisymmetric else "")
                      + (_q_columns(m) if lossy else "")
+                     + (f"{_q_text(m.q_eigenvalue):>9}  " if inside else "")
                      + merit_columns.table_cells(result, m)
                      + f"{c.residual:9.1e}  {c.divergence:10.1e}  {c.orthogonality:13.1e}  "
                      f"{status}")
@@ -278,7 +281,11 @@ def monte_carlo_lines(result) -> list[str]:
 def _q_columns(mode) -> str:
     loss = mode.losses
     values = (loss.q_wall, loss.q_dielectric, loss.q_total) if loss else (None, None, None)
-    return "".join(f"{'-' if q is None else format(q, '.5g'):>9}  " for q in values)
+    return "".join(f"{_q_text(q):>9}  " for q in values)
+
+
+def _q_text(q: float | None) -> str:
+    return "-" if q is None else format(q, ".5g")
 
 
 def _bar(mode) -> str:

@@ -51,8 +51,12 @@ def mode_fields(space: EdgeSpace, dofs: np.ndarray, omega: float,
                 materials: tuple[np.ndarray, np.ndarray] | None = None,
                 basis=None) -> CentroidFields:
     """Fields of one mode; ``dofs`` are over all edges and M-normalised (xᵀ M x = 1);
-    ``basis`` is centroid_basis(space), built here when not given."""
+    ``basis`` is centroid_basis(space), built here when not given. A complex mode (losses
+    inside the solve) is turned to the phase where its field is most nearly real; E and H
+    are then that phase's real parts, the energy densities time averages of the whole."""
     centroid = centroid_basis(space) if basis is None else basis
+    if np.iscomplexobj(dofs):
+        dofs = most_real_phase(dofs)
     field = centroid.interpolate(dofs)
     value = np.asarray(field)[:, :, 0].T
     curl = field.curl[:, :, 0].T
@@ -63,6 +67,12 @@ def mode_fields(space: EdgeSpace, dofs: np.ndarray, omega: float,
     else:
         H = value * np.sqrt(2.0 / mu_0)
         E = curl * np.sqrt(2.0 / mu_0) / (omega * epsilon_0 * eps[:, None])
-    w_e = 0.25 * epsilon_0 * eps * np.einsum("ij,ij->i", E, E)
-    w_m = 0.25 * mu_0 * mu * np.einsum("ij,ij->i", H, H)
-    return CentroidFields(E=E, H=H, w_e=w_e, w_m=w_m)
+    w_e = 0.25 * epsilon_0 * eps * np.sum(np.abs(E) ** 2, axis=1)
+    w_m = 0.25 * mu_0 * mu * np.sum(np.abs(H) ** 2, axis=1)
+    return CentroidFields(E=E.real, H=H.real, w_e=w_e, w_m=w_m)
+
+
+def most_real_phase(x: np.ndarray) -> np.ndarray:
+    """x e^{-jθ} with θ = arg(Σ x²) / 2: Σ (x e^{-jθ})² is then real and positive, which is
+    the phase where the real part carries the most of the vector."""
+    return x * np.exp(-0.5j * np.angle(np.sum(x * x)))

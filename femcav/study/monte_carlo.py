@@ -14,7 +14,7 @@ azimuthal order and rank within that order for a body of revolution, by rank for
 solve (so a 3D spread is meaningful only while the tolerances move no two modes across
 each other; the linear estimate beside it says how far they move). The spread is the mean,
 the standard deviation (n - 1 in the denominator) and the 1st and 99th percentiles over the
-samples that solved. Beside it, where the derivatives exist (3D, femcav.study.morph), the
+samples that solved. Beside it, where the derivatives exist (3D, femcav.morph), the
 linear estimate of the standard deviation: sqrt(Σ (df/dp σ_p)²) with σ_p the tolerance
 (normal) or tolerance/√3 (uniform). The sample solves are not stored: a stopped study
 starts again.
@@ -24,48 +24,14 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass, replace
-from pathlib import Path
+from dataclasses import replace
 
 import numpy as np
 
 from ..errors import InputError
 from ..progress import SILENT, Progress
-from ..schema import TOLERANCE_ENTRY, TOLERANCES, read
+from ..case import MonteCarloSpec
 from ..solver import ToleranceSpread
-
-UNIFORM_STD = 1 / math.sqrt(3)   # standard deviation of U(-1, 1) (common practice)
-
-
-@dataclass(frozen=True)
-class MonteCarloSpec:
-    samples: int
-    seed: int
-    tolerances: dict[str, float]        # builder length (NAME or NAME[i]) -> m
-    distributions: dict[str, str]       # the same names -> "normal" | "uniform"
-
-    def standard_deviation(self, name: str) -> float:
-        scale = UNIFORM_STD if self.distributions[name] == "uniform" else 1.0
-        return scale * self.tolerances[name]
-
-
-def parse_monte_carlo(spec: dict, tolerances: dict[str, float]) -> MonteCarloSpec | None:
-    """The draw a checked [tolerances] table asks for (None without ``samples``)."""
-    if "samples" not in spec:
-        if "seed" in spec:
-            raise InputError("seed is for a Monte-Carlo draw: give samples = N too",
-                             field="tolerances.seed")
-        return None
-    if not tolerances:
-        raise InputError("samples = N draws the lengths listed here; list at least one",
-                         field="tolerances.samples")
-    distributions = {name: (read(spec[name], "distribution", TOLERANCE_ENTRY,
-                                 f"tolerances.{name}") if isinstance(spec[name], dict)
-                            else "normal") for name in tolerances}
-    return MonteCarloSpec(samples=read(spec, "samples", TOLERANCES, "tolerances"),
-                          seed=read(spec, "seed", TOLERANCES, "tolerances"),
-                          tolerances=dict(tolerances), distributions=distributions)
-
 
 def draw(spec: MonteCarloSpec, nominal: dict[str, float]) -> list[dict[str, float]]:
     """``spec.samples`` draws of every toleranced length about its ``nominal`` value."""

@@ -150,7 +150,7 @@ def run_one(case: ReferenceCase, mode: str, adjust_case=None) -> dict:
 def _solve_once(case: ReferenceCase, size: float, folder: Path, bars: bool,
                 adjust_case) -> dict:
     from ..case import load_case
-    from ..runner import run_case
+    from ..solve_command import run_case
 
     folder.mkdir(parents=True)
     text = case.case_text(size) + ("error_estimate = true\n" if bars else "")

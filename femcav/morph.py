@@ -28,12 +28,12 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-from ..errors import InputError
-from ..geometry.params import moved_parameters
-from ..geometry.mesh import TaggedMesh
-from ..geometry.parts import Layout
-from ..geometry.solids import Box, Cylinder
-from ..post.mode_matching import result_partners
+from .errors import InputError
+from .geometry.params import moved_parameters
+from .geometry.mesh import TaggedMesh
+from .geometry.parts import Layout
+from .geometry.solids import Box, Cylinder
+from .post.mode_matching import result_partners
 
 # δ relative to the part's extent for the central difference
 STEP = 1e-3
@@ -167,14 +167,14 @@ def _harmonic(mesh: TaggedMesh, n: int, known: np.ndarray, values: np.ndarray) -
 def solve_morphed(task):
     """A cluster task: the case's tables, a morphed mesh and the solve options in, the
     solved modes out."""
-    from ..case import case_from_data
+    from .case import case_from_data
     data, path, mesh, options = task
     return _solve_morphed(case_from_data(data, path), mesh, options)
 
 
 def _solve_morphed(case, mesh, options: dict):
-    from ..case import case_model
-    from ..solver import solve_model
+    from .case import case_model
+    from .solver import solve_model
     return solve_model(case_model(case, mesh), **options)
 
 
@@ -189,7 +189,7 @@ def dimension_derivatives(case, result, names, progress=None,
     differences on morphed meshes; the morphed solves run here, or all at once on the
     cluster of ``pool`` (femcav.study.cluster.ClusterPool; each task the case's tables and
     its morphed mesh)."""
-    from ..geometry import builder_layout
+    from .geometry import builder_layout
 
     g = case.geometry
     old = builder_layout(g.builder, g.parameters)
@@ -205,7 +205,7 @@ def dimension_derivatives(case, result, names, progress=None,
     if pool is None:            # one at a time, as they are used: one solve in memory
         solved = (_solve_morphed(case, m, options) for m in meshes)
     else:
-        from ..case import read_case_data
+        from .case import read_case_data
         data = read_case_data(case.path)
         solved = iter(pool.gather(solve_morphed, [(data, case.path, m, options)
                                                   for m in meshes]))
