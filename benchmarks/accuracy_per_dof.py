@@ -52,7 +52,7 @@ def run_one(order: int, curved: bool, size: float, factorization: str) -> dict:
     return {"order": order, "curved": curved, "size": size, "dofs": result.dofs,
             "mesh_s": t_mesh, "solve_s": result.timings["assembly_s"] + result.timings["eigen_s"],
             "tm010_error": float(errors[0]), "max_error": float(errors.max()),
-            "factorization": result.eigen_stats["factorization"]}
+            "factorization": result.eigen_stats.factorization}
 
 
 def main() -> None:

@@ -39,4 +39,4 @@ if __name__ == "__main__":
     peak_gb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024**2
     print(f"h = {size_mm} mm: {result.dofs} DOFs, TM010 relative error {error:.2e}, "
           f"{time.perf_counter() - t0:.0f} s, peak {peak_gb:.1f} GB "
-          f"({result.eigen_stats['factorization']})")
+          f"({result.eigen_stats.factorization})")

@@ -73,7 +73,7 @@ def run_one(part: str, size_mm: float, backend: str) -> dict:
     return {"part": part, "size_mm": size_mm, "backend": backend, "dofs": result.dofs,
             "mesh_s": t_mesh, "assembly_s": result.timings["assembly_s"],
             "eigen_s": result.timings["eigen_s"],
-            "steps": stats.get("iterations", stats.get("operator_applications")),
+            "steps": stats.steps,
             "peak_gb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024**2,
             "max_error": error, "passed": result.passed,
             "frequencies_hz": freqs.tolist()}

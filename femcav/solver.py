@@ -13,7 +13,7 @@ from scipy.constants import c as C0
 from .eigen import backends, selection
 from .eigen.complex_shift_invert import with_complex_frequencies
 from .eigen.factorization import describe, get_factorizer, library
-from .eigen.interface import STATIC_FRACTION, EigenRequest
+from .eigen.interface import STATIC_FRACTION, EigenRequest, EigenStats
 from .memory_room import format_bytes
 from .eigen.pardiso import TooLarge
 from .eigen.problem import EigenProblem
@@ -50,7 +50,7 @@ class Mode:
     error_estimate_hz: float | None = None   # from a mesh sequence ([solve] error_estimate)
     extrapolated_hz: float | None = None
     # df/dε_r and df/dμ_r per region, Hz ([solve] sensitivities; post.sensitivity)
-    sensitivity: dict | None = None
+    sensitivity: object = None    # post.sensitivity.MaterialSensitivity
     # per builder length: df/dp (Hz/m) and the frequency tolerance it implies ([tolerances])
     tolerance: ToleranceSpread | None = None
     label: str | None = None      # from the field (post.classify), e.g. "TE101"
@@ -125,10 +125,11 @@ class SolveResult(ModeVerdicts):
     elements: int
     static_fields_dropped: int
     timings: dict[str, float]
-    eigen_stats: dict = field(default_factory=dict)
+    eigen_stats: EigenStats = field(default_factory=EigenStats)
     request: EigenRequest | None = None
     near_hz: float | None = None
     classes: list[dict] = field(default_factory=list)   # per symmetry class: label, dofs, modes
+    eigen_stats_by_class: dict[str, EigenStats] = field(default_factory=dict)
     accuracy: AccuracyReport | None = None     # with a [solve] accuracy target
     # the complex check's own solve (losses inside): its modes, with complex fields
     complex_check: "SolveResult | None" = None
@@ -193,8 +194,9 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
         t0 = time.perf_counter()
         lossy = solve_space(build_space(model, form, order, losses_inside=True),
                             modes=len(result.modes) + max(4, len(result.modes) // 2),
-                            near_hz=None, shift=result.eigen_stats.get(
-                                "shift", -result.eigen_stats["lowest_scale"]),
+                            near_hz=None, shift=(result.eigen_stats.shift
+                                                 if result.eigen_stats.shift is not None
+                                                 else -result.eigen_stats.lowest_scale),
                             factorization=factorization, method="auto", progress=SILENT,
                             started=t0, post=False)
         paired = with_complex_warnings(with_complex_frequencies(
@@ -251,10 +253,9 @@ def solve_space(space: EdgeSpace, *, modes: int, near_hz: float | None,
                          "can be spared; use a coarser mesh or symmetry planes",
                          field="solve") from None
     timings["eigen_s"] = time.perf_counter() - t0
-    pairs.stats["factorization"] = describe(factorization)
-    pairs.stats["method"] = choice.method
-    pairs.stats["peak_estimate_bytes"] = choice.peak_bytes   # sizes a sweep's --jobs
-    pairs.stats["lowest_scale"] = scale
+    stats = replace(pairs.stats, factorization=describe(factorization), method=choice.method,
+                    peak_estimate_bytes=choice.peak_bytes,   # sizes a sweep's --jobs
+                    lowest_scale=scale)
 
     static = np.abs(pairs.values) < STATIC_FRACTION * scale
     values, vectors = pairs.values[~static], pairs.vectors[:, ~static]
@@ -273,7 +274,7 @@ def solve_space(space: EdgeSpace, *, modes: int, near_hz: float | None,
     progress.step(f"eigen solve done: {len(result_modes)} modes in {timings['eigen_s']:.2f} s")
     return SolveResult(modes=result_modes, space=space, dofs=space.n_dofs,
                        elements=int(space.mesh.nelements), static_fields_dropped=int(static.sum()),
-                       timings=timings, eigen_stats=pairs.stats, request=request,
+                       timings=timings, eigen_stats=stats, request=request,
                        near_hz=near_hz)
 
 
@@ -355,7 +356,8 @@ def merge_classes(labelled: list[tuple[str, SolveResult]], count: int,
         modes=modes, space=results[0].space, dofs=max(r.dofs for r in results),
         elements=results[0].elements,
         static_fields_dropped=sum(r.static_fields_dropped for r in results), timings=timings,
-        eigen_stats={label: r.eigen_stats for label, r in labelled},
+        eigen_stats=results[0].eigen_stats,
+        eigen_stats_by_class={label: r.eigen_stats for label, r in labelled},
         request=results[0].request, near_hz=near_hz,
         classes=[{"symmetry": label, "dofs": r.dofs,
                   "modes": sum(m.symmetry == label for m in modes)} for label, r in labelled])

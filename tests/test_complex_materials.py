@@ -62,7 +62,7 @@ def test_lossy_filling_inside_the_solve_gives_complex_frequencies_q_and_fields(b
     lossless = _solve(box_mesh, Material(eps_r=2.5), modes=4, order=2)
     lossy = _solve(box_mesh, Material(eps_r=2.5 * (1 - 1j * tan_delta)), modes=4, order=2,
                    losses_inside=True)
-    assert lossy.eigen_stats["method"] == "arnoldi"
+    assert lossy.eigen_stats.method == "arnoldi"
     f = np.array([m.complex_frequency_hz for m in lossy.modes])
     f0 = np.array([m.frequency_hz for m in lossless.modes])
     exact = f0 / np.sqrt(1 - 1j * tan_delta)
@@ -92,7 +92,7 @@ def test_complex_check_returns_the_lossy_modes_with_their_fields(box_mesh):
 def test_diagonal_anisotropic_filling_against_the_separable_solution(box_mesh):
     eps = (2.0, 3.0, 4.0)
     result = _solve(box_mesh, Material(eps_r=np.diag(eps)), modes=6, order=2)
-    assert result.space.pencil_kind == HERMITIAN and result.eigen_stats["method"] != "arnoldi"
+    assert result.space.pencil_kind == HERMITIAN and result.eigen_stats.method != "arnoldi"
     found = np.array([m.frequency_hz for m in result.modes])
     exact = anisotropic_box_frequencies(eps, 6)
     assert np.all(exact[1:] / exact[:-1] - 1 > 1e-3)   # distinct, so pairing by order holds

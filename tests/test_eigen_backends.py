@@ -141,7 +141,7 @@ def test_complex_hermitian_problem_gives_the_real_spectrum(box_problem, name):
     assert np.isrealobj(found.values)
     assert np.allclose(found.values[:4], real.values[:4], rtol=1e-9)
     if name == "iterative":   # the gauge changes nothing the iteration sees
-        assert abs(found.stats["iterations"] - real.stats["iterations"]) <= 1
+        assert abs(found.stats.iterations - real.stats.iterations) <= 1
     # the vectors are the real modes in the new gauge: |<D y, x>_M| = 1 for a simple mode
     y = D @ found.vectors[:, 0]
     x = real.vectors[:, 0]

@@ -1162,16 +1162,16 @@ def test_lobpcg_on_a_matrix_pencil_against_scipy_eigh():
                                                                          axis=0).min()
     assert np.allclose(pairs.vectors.T @ M @ pairs.vectors, np.eye(8), atol=1e-8)
     stats = pairs.stats
-    assert (stats["block_size"], stats["requested"], stats["converged"]) == (11, 8, True)
-    assert stats["largest_residual"] == stats["residual_history"][-1] < stats["tolerance"] == 1e-9
-    assert 0 < stats["iterations"] < len(stats["residual_history"]) + 1
-    assert run(K, 8, extra=5).stats["block_size"] == 13
-    assert run(K, 20).stats["block_size"] == 25
+    assert (stats.block_size, stats.requested, stats.converged) == (11, 8, True)
+    assert stats.largest_residual == stats.residual_history[-1] < stats.tolerance == 1e-9
+    assert 0 < stats.iterations < len(stats.residual_history) + 1
+    assert run(K, 8, extra=5).stats.block_size == 13
+    assert run(K, 20).stats.block_size == 25
 
     # two decoupled nodes with no stiffness: two static (null) vectors, returned as well
     K0 = sp.block_diag([laplacian, sp.csr_matrix((2, 2))]).tocsr()
     with_static = run(K0, 3, M=sp.block_diag([M, sp.identity(2)]).tocsc())
-    assert with_static.stats["requested"] == 5
+    assert with_static.stats.requested == 5
     assert np.abs(with_static.values[:2]).max() < 1e-12
     assert with_static.values[2:] == pytest.approx(exact[:3], rel=1e-9)
 

@@ -107,6 +107,6 @@ def test_both_methods_through_the_solver_agree():
     runs = {m: solve_model(model, modes=6, method=m) for m in ("direct", "iterative")}
     a, b = ([m.frequency_hz for m in runs[k].modes] for k in ("direct", "iterative"))
     assert max(abs(x / y - 1) for x, y in zip(a, b)) < 1e-8
-    assert runs["iterative"].eigen_stats["method"] == "iterative" and runs["iterative"].passed
+    assert runs["iterative"].eigen_stats.method == "iterative" and runs["iterative"].passed
     reference = lowest_box_frequencies(0.02286, 0.01016, 0.030, 6)
     assert max(abs(x / y - 1) for x, y in zip(b, reference)) < 1.5e-2

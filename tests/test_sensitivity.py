@@ -37,9 +37,9 @@ def test_puck_sensitivities_match_central_differences(dr_mesh):
         s = material_sensitivities(base.space, mode.dofs, mode.frequency_hz)
         d_eps = (up.modes[k].frequency_hz - down.modes[k].frequency_hz) / 0.6
         d_mu = (mu_up.modes[k].frequency_hz - mu_down.modes[k].frequency_hz) / 0.02
-        assert s["eps_r"]["puck"] == pytest.approx(d_eps, rel=1e-3)
-        assert s["mu_r"]["puck"] == pytest.approx(d_mu, rel=1e-3)
-        assert s["eps_r"]["puck"] < 0 and s["eps_r"]["air"] < 0
+        assert s.eps_r["puck"] == pytest.approx(d_eps, rel=1e-3)
+        assert s.mu_r["puck"] == pytest.approx(d_mu, rel=1e-3)
+        assert s.eps_r["puck"] < 0 and s.eps_r["air"] < 0
 
 
 AXI_CASE = """
@@ -87,8 +87,8 @@ def test_axisymmetric_sensitivities_match_differences_and_the_scaling_law(tmp_pa
     eps = {"air": 1.0, "puck": 30.0, "support": 2.1}
     for k, mode in enumerate(base):
         s = mode.sensitivity
-        assert sum(eps[r] * s["eps_r"][r] for r in eps) == pytest.approx(
+        assert sum(eps[r] * s.eps_r[r] for r in eps) == pytest.approx(
             -mode.frequency_hz / 2, rel=1e-9)
-        assert sum(s["mu_r"].values()) == pytest.approx(-mode.frequency_hz / 2, rel=1e-9)
+        assert sum(s.mu_r.values()) == pytest.approx(-mode.frequency_hz / 2, rel=1e-9)
         d_eps = (up[k].frequency_hz - down[k].frequency_hz) / 0.6
-        assert s["eps_r"]["puck"] == pytest.approx(d_eps, rel=1e-3)
+        assert s.eps_r["puck"] == pytest.approx(d_eps, rel=1e-3)

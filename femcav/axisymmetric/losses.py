@@ -84,7 +84,7 @@ def electric_energy_by_region(space: OrderSpace, dofs, omega: float = 1.0
     return energy, float(np.sum(axial * dx) / max(per_cell.sum(), np.finfo(float).tiny))
 
 
-def material_sensitivities(space: OrderSpace, dofs, frequency_hz: float) -> dict:
+def material_sensitivities(space: OrderSpace, dofs, frequency_hz: float):
     """df/dε_r and df/dμ_r per region (post.sensitivity) for one mode of order m."""
     electric, _, magnetic, _ = _energy_densities(space, dofs, 2 * math.pi * frequency_hz)
     section = space.model.section

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 from scipy.constants import c as C0
@@ -18,7 +18,7 @@ from scipy.constants import c as C0
 from ..eigen import backends
 from ..eigen.complex_shift_invert import with_complex_frequencies
 from ..eigen.factorization import describe, get_factorizer
-from ..eigen.interface import STATIC_FRACTION, EigenRequest
+from ..eigen.interface import STATIC_FRACTION, EigenRequest, EigenStats
 from ..errors import InputError
 from ..eigen.problem import EigenProblem
 from ..materials import tan_delta_by_cell
@@ -58,7 +58,8 @@ class AxisymmetricResult(ModeVerdicts):
     timings: dict[str, float]
     request: EigenRequest
     near_hz: float | None = None
-    eigen_stats: dict = field(default_factory=dict)
+    eigen_stats: EigenStats = field(default_factory=EigenStats)   # of the first order solved
+    eigen_stats_by_class: dict[int, EigenStats] = field(default_factory=dict)   # per order m
     form: str = "E"
     element_kind = "triangles (meridional section)"
     accuracy: AccuracyReport | None = None     # with a [solve] accuracy target
@@ -117,7 +118,8 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
         setting = backends.setting_for(problem, factorize, progress)
         pairs = backends.solve("direct", problem, EigenRequest(count, target), setting)
         timings["eigen_s"] += time.perf_counter() - t0
-        stats[m] = {**pairs.stats, "factorization": describe(factorization)}
+        stats[m] = replace(pairs.stats, factorization=describe(factorization),
+                           method="direct", lowest_scale=scale)
         keep = pairs.values >= STATIC_FRACTION * scale
         values, vectors = pairs.values[keep], pairs.vectors[:, keep]
         checks = check_modes(K, M, setting.projector, values, vectors)
@@ -150,7 +152,9 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
     return AxisymmetricResult(modes=result_modes, spaces=spaces, dofs_by_order=dofs,
                               order=order, elements=model.section.n_triangles,
                               timings=timings, request=EigenRequest(modes, target),
-                              near_hz=near_hz, eigen_stats=stats, form=form)
+                              near_hz=near_hz, form=form,
+                              eigen_stats=next(iter(stats.values()), EigenStats()),
+                              eigen_stats_by_class=stats)
 
 
 def _checked_orders(orders) -> tuple[int, ...]:

@@ -12,7 +12,7 @@ from __future__ import annotations
 import numpy as np
 from scipy.sparse.linalg import LinearOperator, eigs
 
-from .interface import EigenPairs
+from .interface import EigenPairs, EigenStats
 
 
 def solve(K, M, projector, factorize, *, shift: float, count: int) -> EigenPairs:
@@ -32,7 +32,7 @@ def solve(K, M, projector, factorize, *, shift: float, count: int) -> EigenPairs
     vectors = vectors / np.where(scale != 0, scale, 1.0)
     order = np.argsort(values.real)
     return EigenPairs(values=values[order], vectors=vectors[:, order],
-                      stats={"shift": shift, "requested": int(min(count, n - 2))})
+                      stats=EigenStats(shift=shift, requested=int(min(count, n - 2))))
 
 
 def with_complex_frequencies(modes: list, k0_squared: np.ndarray) -> list:

@@ -47,7 +47,7 @@ import numpy as np
 import scipy.linalg as la
 
 from .hermitian import column_dots, ct, hermitian_part
-from .interface import STATIC_FRACTION, EigenPairs, EigenRequest
+from .interface import STATIC_FRACTION, EigenPairs, EigenRequest, EigenStats
 
 TOLERANCE = 1e-9
 MAX_ITERATIONS = 1000
@@ -197,9 +197,10 @@ def solve(K, M, projector, request: EigenRequest, preconditioner, *, lowest_scal
     if progress:
         progress.step(f"LOBPCG {'converged' if converged else 'stopped'} after {iteration} "
                       f"iterations ({t_iter:.2f} s), largest relative residual {history[-1]:.1e}")
-    stats = {"iterations": iteration, "converged": converged, "block_size": m,
-             "preconditioner_setup_seconds": getattr(preconditioner, "setup_seconds", None),
-             "iteration_seconds": t_iter, "largest_residual": history[-1],
-             "second_orthogonalization_passes": second_passes,
-             "residual_history": history, "tolerance": tol, "requested": wanted}
+    stats = EigenStats(iterations=iteration, converged=converged, block_size=m,
+                       preconditioner_setup_seconds=getattr(preconditioner, "setup_seconds",
+                                                            None),
+                       iteration_seconds=t_iter, largest_residual=history[-1],
+                       second_orthogonalization_passes=second_passes,
+                       residual_history=tuple(history), tolerance=tol, requested=wanted)
     return EigenPairs(values=values[order], vectors=X[:, order], stats=stats)

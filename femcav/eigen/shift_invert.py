@@ -15,7 +15,7 @@ import numpy as np
 from scipy.sparse.linalg import LinearOperator, eigsh
 
 from .hermitian import column_dots
-from .interface import EigenPairs, EigenRequest
+from .interface import EigenPairs, EigenRequest, EigenStats
 from .projection import GradientProjector
 
 ARPACK_TOLERANCE = 1e-10
@@ -66,6 +66,6 @@ def solve(K, M, projector: GradientProjector, request: EigenRequest, factorize,
     values = column_dots(vectors, K @ vectors)
     order = np.argsort(values)
     return EigenPairs(values=values[order], vectors=vectors[:, order],
-                      stats={"factor_seconds": t_factor, "iteration_seconds": t_iter,
-                             "operator_applications": applications[0], "shift": sigma,
-                             "requested": k})
+                      stats=EigenStats(factor_seconds=t_factor, iteration_seconds=t_iter,
+                                       operator_applications=applications[0], shift=sigma,
+                                       requested=k))

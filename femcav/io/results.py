@@ -71,7 +71,7 @@ def mode_rows(result: SolveResult) -> list[dict]:
         if m.extrapolated_hz is not None:
             row["extrapolated_hz"] = m.extrapolated_hz
         if m.sensitivity is not None:
-            row["sensitivity_hz"] = m.sensitivity
+            row["sensitivity_hz"] = m.sensitivity.as_dict()
         if m.tolerance is not None:
             row["tolerance"] = m.tolerance.as_dict()
         if m.label is not None:
@@ -130,7 +130,7 @@ def to_json(result: SolveResult, *, title: str, case: str | None,
         "limits": {"residual": checks.RESIDUAL_LIMIT, "divergence": checks.DIVERGENCE_LIMIT,
                    "orthogonality": checks.ORTHOGONALITY_LIMIT},
         "timings_s": result.timings,
-        "factorization": _factorization(result.eigen_stats),
+        "factorization": result.eigen_stats.factorization,
         "modes": mode_rows(result),
     }
     if result.classes:
@@ -171,14 +171,6 @@ def weyl_summary(result) -> dict:
     volume = float(np.sum(np.abs(mesh.tet_volumes()) * (eps * mu) ** 1.5)) * 2**cuts
     classes = max(1, len(result.classes))
     return {"optical_volume_m3": volume, "listed_share": classes / 2**cuts, "note": ""}
-
-
-def _factorization(stats: dict) -> str | None:
-    """The sparse direct library used; merged symmetry classes keep stats per class."""
-    if "factorization" in stats:
-        return stats["factorization"]
-    inner = [v for v in stats.values() if isinstance(v, dict)]
-    return inner[0].get("factorization") if inner else None
 
 
 def to_csv(result: SolveResult) -> str:

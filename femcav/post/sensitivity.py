@@ -17,12 +17,25 @@ from the curl of the one that is.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
 
-def material_sensitivities(space, dofs: np.ndarray, frequency_hz: float) -> dict:
-    """{"eps_r": {region: df/dε_r in Hz}, "mu_r": {region: df/dμ_r in Hz}} for one mode of
-    a 3D edge space."""
+@dataclass(frozen=True)
+class MaterialSensitivity:
+    """df/dε_r and df/dμ_r of one mode per region, in Hz per unit change."""
+
+    eps_r: dict[str, float]
+    mu_r: dict[str, float]
+
+    def as_dict(self) -> dict:
+        return {"eps_r": dict(self.eps_r), "mu_r": dict(self.mu_r)}
+
+
+def material_sensitivities(space, dofs: np.ndarray, frequency_hz: float
+                           ) -> MaterialSensitivity:
+    """df/dε_r and df/dμ_r per region for one mode of a 3D edge space."""
     for name, material in space.model.materials.items():
         material.require_isotropic(name, "material sensitivities")
     values = space.basis.interpolate(dofs)
@@ -43,7 +56,7 @@ def material_sensitivities(space, dofs: np.ndarray, frequency_hz: float) -> dict
 
 def sensitivities_from_densities(frequency_hz: float, weight: np.ndarray,
                                  cell_region: np.ndarray, region_names: dict[str, int],
-                                 electric: tuple, magnetic: tuple) -> dict:
+                                 electric: tuple, magnetic: tuple) -> MaterialSensitivity:
     """The formula above from energy densities at quadrature points (cells, points), any
     discretisation: ``electric`` = (|E|² without ε_r, ε_r |E|²), ``magnetic`` likewise with
     μ_r; each pair in one unit, whichever; ``weight`` the quadrature weights (times r on a
@@ -53,4 +66,4 @@ def sensitivities_from_densities(frequency_hz: float, weight: np.ndarray,
         whole = float(np.sum(total * weight))
         return {name: -0.5 * frequency_hz * float(cells[cell_region == rid].sum()) / whole
                 for name, rid in region_names.items()}
-    return {"eps_r": per_region(*electric), "mu_r": per_region(*magnetic)}
+    return MaterialSensitivity(eps_r=per_region(*electric), mu_r=per_region(*magnetic))

@@ -154,7 +154,7 @@ def run_extract(path: str | Path, *, out: str | Path | None = None,
 def _perturbation_estimate(empty, empty_mode, spec: ExtractSpec) -> dict:
     """The small-sample formulas with F from the empty mode (see the module notes)."""
     s = material_sensitivities(empty.space, empty_mode.dofs, empty_mode.frequency_hz)
-    share = -2.0 * s["eps_r"][spec.sample] / empty_mode.frequency_hz       # F
+    share = -2.0 * s.eps_r[spec.sample] / empty_mode.frequency_hz       # F
     eps1 = 1.0 + 2.0 * (spec.empty_hz - spec.loaded_hz) / (spec.empty_hz * share)
     eps2 = (1.0 / spec.loaded_q - 1.0 / spec.empty_q) / share
     return {"eps_r": eps1, "tan_delta": eps2 / eps1, "field_share": share}

@@ -169,7 +169,7 @@ def solve_point(data: dict, path: Path, axes, values, fingerprint: str,
                        dofs=full_vectors(result),
                        form=result.form, order=result.order,
                        seconds=time.perf_counter() - t0, fingerprint=fingerprint,
-                       peak_estimate_bytes=result.eigen_stats.get("peak_estimate_bytes"))
+                       peak_estimate_bytes=result.eigen_stats.peak_estimate_bytes)
 
 
 def full_vectors(result) -> np.ndarray:
