@@ -4,8 +4,6 @@ from __future__ import annotations
 
 import math
 
-from scipy.constants import mu_0
-
 # Conductivities at room temperature, S/m: D. M. Pozar, Microwave Engineering, 4th ed.,
 # Appendix F, "Conductivities for some materials" (values from memory of that table).
 CONDUCTIVITY_S_PER_M = {
@@ -19,6 +17,8 @@ CONDUCTIVITY_S_PER_M = {
 
 def skin_depth(omega: float, conductivity: float, mu_r: float = 1.0) -> float:
     """δ = sqrt(2 / (ω μ σ)) (Pozar §1.7, common practice)."""
+    from scipy.constants import mu_0   # on first use: reading a case file needs no scipy
+
     return math.sqrt(2.0 / (omega * mu_0 * mu_r * conductivity))
 
 
@@ -31,6 +31,8 @@ def surface_resistance(omega: float, conductivity: float, roughness_m: float | N
     design", IEEE MTT-S Int. Microwave Symp. Digest, 1980, pp. 407-409; from memory). It grows
     from 1 for a smooth wall to 2 for a very rough one.
     """
+    from scipy.constants import mu_0
+
     rs = math.sqrt(omega * mu_0 / (2.0 * conductivity))
     if roughness_m:
         ratio = roughness_m / skin_depth(omega, conductivity)

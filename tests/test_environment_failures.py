@@ -15,7 +15,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-import femcav.runner
+import femcav.solve_command
 from conftest import box_case
 from femcav import exit_codes
 from femcav.cli import main
@@ -102,7 +102,7 @@ def test_disk_full_while_writing_keeps_the_previous_results(tmp_path, capsys, mo
     assert main(["solve", str(case), "--out", str(out), "-q", "--no-report"]) == 0
     before = {p.name: p.read_bytes() for p in out.iterdir()}
     capsys.readouterr()
-    monkeypatch.setattr(femcav.runner, "write_vtu", _fill_then_fail(
+    monkeypatch.setattr(femcav.solve_command, "write_vtu", _fill_then_fail(
         OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))))
     assert main(["solve", str(case), "--out", str(out), "-q", "--no-report"]) == \
         exit_codes.FILE_SYSTEM
@@ -126,7 +126,7 @@ def test_disk_full_in_a_sweep_leaves_no_temporary(tmp_path, capsys, monkeypatch)
 def test_ctrl_c_while_writing(tmp_path, capsys, monkeypatch):
     case = write_case(tmp_path)
     out = tmp_path / "out"
-    monkeypatch.setattr(femcav.runner, "write_vtu", _fill_then_fail(KeyboardInterrupt()))
+    monkeypatch.setattr(femcav.solve_command, "write_vtu", _fill_then_fail(KeyboardInterrupt()))
     assert main(["solve", str(case), "--out", str(out), "-q"]) == exit_codes.INTERRUPTED
     assert "interrupted" in one_line(capsys.readouterr().err)
     assert temporaries(out) == [] and not (out / "modes.json").exists()
@@ -163,7 +163,7 @@ def test_ctrl_c_on_a_running_solve(tmp_path):
 def test_out_of_memory(tmp_path, capsys, monkeypatch):
     def no_memory(*args, **kwargs):
         raise MemoryError
-    monkeypatch.setattr(femcav.runner, "solve_case", no_memory)
+    monkeypatch.setattr(femcav.solve_command, "solve_case", no_memory)
     case = write_case(tmp_path)
     assert main(["solve", str(case), "--out", str(tmp_path / "out"), "-q"]) == \
         exit_codes.OUT_OF_MEMORY

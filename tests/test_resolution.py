@@ -94,10 +94,10 @@ def test_a_target_above_the_mesh_is_said_plainly(tmp_path, capsys):
 
 
 def test_fewer_modes_than_asked_is_said(tmp_path, capsys, monkeypatch):
-    import femcav.runner
+    import femcav.solve_command
 
     # the fields of 200 modes are not what this test is about: skip writing them
-    monkeypatch.setattr(femcav.runner, "write_vtu", lambda result, path: path.write_text(""))
+    monkeypatch.setattr(femcav.solve_command, "write_vtu", lambda result, path: path.write_text(""))
     case = tmp_path / "case.toml"
     # a 15 mm mesh at order 2: 250 free DOFs of which 33 are gradients, so at most 217
     # modes above zero frequency: fewer than the 240 asked for

@@ -19,9 +19,9 @@ import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 from scipy.spatial import cKDTree
 
-from .mesh import TaggedMesh
+from .mesh import TET_FACES, TaggedMesh
 
-FACES = np.array([[1, 2, 3], [0, 2, 3], [0, 1, 3], [0, 1, 2]])
+FACES = TET_FACES
 # Nodes closer than this share of the mesh's extent are one node (files keep 8 or more digits).
 MERGE_SHARE = 1e-9
 # The probe sits this share of the face's inradius outside it: far enough that rounding

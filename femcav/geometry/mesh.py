@@ -6,6 +6,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
+# the four faces of a tetrahedron, as the local indices of their vertices (face i is
+# opposite vertex i)
+TET_FACES = np.array([[1, 2, 3], [0, 2, 3], [0, 1, 3], [0, 1, 2]])
+
 
 @dataclass(frozen=True)
 class TaggedMesh:

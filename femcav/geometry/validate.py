@@ -11,15 +11,11 @@ from __future__ import annotations
 from dataclasses import replace
 
 import numpy as np
-import scipy.sparse as sp
-from scipy.sparse.csgraph import connected_components
 
 from ..errors import InputError
 from ..units import UNITS
 from .curved_validity import CURVED_RATIO, jacobian_ratios, worst_point
-from .inner_faces import FACES as _FACES
-from .inner_faces import inner_faces
-from .mesh import TaggedMesh
+from .mesh import TET_FACES, TaggedMesh
 from .params import MAX_LENGTH, MIN_LENGTH
 
 # A tetrahedron is degenerate when 6√2|V| / L³ (L its longest edge; the ratio is 1 for the
@@ -125,7 +121,7 @@ def _check_curved(mesh: TaggedMesh, where: _Locator) -> None:
 
 def _check_faces(mesh: TaggedMesh, where: _Locator) -> None:
     """Overlapping elements and pieces that share no face, from one sort of all faces."""
-    faces = _sorted_rows(mesh.tets[:, _FACES].reshape(-1, 3))
+    faces = _sorted_rows(mesh.tets[:, TET_FACES].reshape(-1, 3))
     order, ids = sorted_face_ids(faces, mesh.points.shape[0])
     repeat = np.zeros(len(order), dtype=bool)
     repeat[1:] = ids[1:] == ids[:-1]
@@ -143,6 +139,10 @@ def _check_faces(mesh: TaggedMesh, where: _Locator) -> None:
     sheets = _check_inner_faces(mesh, where, order[~(repeat | np.r_[repeat[1:], False])])
     second = np.flatnonzero(repeat)
     a, b = order[second - 1] // 4, order[second] // 4
+    # scipy is imported here, not at load time: a case-file error is said before it loads
+    import scipy.sparse as sp
+    from scipy.sparse.csgraph import connected_components
+
     graph = sp.coo_matrix((np.ones(a.size), (a, b)), shape=(mesh.n_tets, mesh.n_tets))
     n_pieces, label = connected_components(graph, directed=False)
     if n_pieces > 1:
@@ -163,6 +163,8 @@ def _check_inner_faces(mesh: TaggedMesh, where: _Locator, once: np.ndarray) -> T
     """Unnamed boundary faces with mesh volume beyond them would be PEC sheets nobody drew.
     A named sheet is a thin metal (or other) wall: the face across from each named face gets
     its name too, so that both sides of the sheet carry the wall's kind."""
+    from .inner_faces import inner_faces    # scipy.spatial, loaded with the first mesh
+
     found = inner_faces(mesh, once)
     bad = found.faces[~found.named]
     if len(bad):
