@@ -240,55 +240,33 @@ def _solve_status(result) -> int:
 
 def _sweep(args) -> int:
     from .progress import Progress
-    from .study.sweep import run_sweep
+    from .study.sweep import run_sweep, summary_lines
 
     document, folder = run_sweep(args.case, out=args.out, jobs=args.jobs,
                                  cluster=args.cluster, progress=Progress(quiet=args.quiet))
-    axes = " x ".join(f"{a['parameter']} ({len(a['values'])} values)"
-                      for a in document["parameters"])
-    print(f"sweep of {axes}: {len(document['points'])} points, "
-          f"{len(document['tracks'])} tracks")
-    for t in document["tracks"][:12]:
-        f = [v for v in t["frequency_hz"] if v is not None]
-        span = f"{min(f) / 1e9:.6g} to {max(f) / 1e9:.6g} GHz" if f else "-"
-        ended = "" if len(f) == len(t["frequency_hz"]) else " (lost before the end)"
-        print(f"  track {t['track']}: {span}{ended}")
-    for failed in document.get("failed_points", []):
-        print(f"  point {failed['index']} FAILED: {failed['error']}")
+    print("\n".join(summary_lines(document)))
     print(f"results: {folder}")
     return exit_codes.CHECKS_FAILED if document.get("failed_points") else 0
 
 
 def _tune(args) -> int:
     from .progress import Progress
-    from .study.tune import run_tune
-    from .units import format_frequency
+    from .study.tune import run_tune, summary_lines
 
     document, folder = run_tune(args.case, out=args.out, cluster=args.cluster,
                                 progress=Progress(quiet=args.quiet))
-    unit = document["unit"]
-    shown = (f"{document['value'] * 1e3:.7g} mm" if unit == "m"
-             else f"{document['value']:.7g} {unit}".rstrip())
-    bar = document["error_estimate_hz"]
-    print(f"{document['parameter']} = {shown} puts mode {document['mode']} at "
-          f"{format_frequency(document['frequency_hz'], 9)}"
-          + (f" ± {format_frequency(bar, 3)}" if bar is not None else "")
-          + f" (target {format_frequency(document['target_hz'], 9)}; "
-          f"{document['iterations']} root-finder steps)")
+    print("\n".join(summary_lines(document)))
     print(f"results: {folder}")
     return 0
 
 
 def _extract(args) -> int:
     from .progress import Progress
-    from .study.extract import run_extract
+    from .study.extract import run_extract, summary_lines
 
-    d, folder = run_extract(args.case, out=args.out, progress=Progress(quiet=args.quiet))
-    p = d["perturbation_estimate"]
-    print(f"sample {d['sample']!r}: eps_r = {d['eps_r']:.6g}, tan delta = {d['tan_delta']:.4g} "
-          f"(full model, {d['solves']} solves; filling factor {d['filling_factor']:.4g})")
-    print(f"small-sample perturbation formula: eps_r = {p['eps_r']:.6g}, "
-          f"tan delta = {p['tan_delta']:.4g} (field share F = {p['field_share']:.4g})")
+    document, folder = run_extract(args.case, out=args.out,
+                                   progress=Progress(quiet=args.quiet))
+    print("\n".join(summary_lines(document)))
     print(f"results: {folder}")
     return 0
 

@@ -158,3 +158,13 @@ def _perturbation_estimate(empty, empty_mode, spec: ExtractSpec) -> dict:
     eps1 = 1.0 + 2.0 * (spec.empty_hz - spec.loaded_hz) / (spec.empty_hz * share)
     eps2 = (1.0 / spec.loaded_q - 1.0 / spec.empty_q) / share
     return {"eps_r": eps1, "tan_delta": eps2 / eps1, "field_share": share}
+
+
+def summary_lines(document: dict) -> list[str]:
+    """What `femcav extract` prints of an extraction document (extract.json)."""
+    d, p = document, document["perturbation_estimate"]
+    return [f"sample {d['sample']!r}: eps_r = {d['eps_r']:.6g}, tan delta = "
+            f"{d['tan_delta']:.4g} (full model, {d['solves']} solves; filling factor "
+            f"{d['filling_factor']:.4g})",
+            f"small-sample perturbation formula: eps_r = {p['eps_r']:.6g}, "
+            f"tan delta = {p['tan_delta']:.4g} (field share F = {p['field_share']:.4g})"]

@@ -440,3 +440,20 @@ def sweep_csv(document: dict) -> str:
                                                    else f"{v:.6g}"))
         lines.append(",".join(cells))
     return "\n".join(lines) + "\n"
+
+
+def summary_lines(document: dict) -> list[str]:
+    """What `femcav sweep` prints of a sweep document (sweep.json): the axes, the tracks'
+    frequency spans and the failed points."""
+    axes = " x ".join(f"{a['parameter']} ({len(a['values'])} values)"
+                      for a in document["parameters"])
+    lines = [f"sweep of {axes}: {len(document['points'])} points, "
+             f"{len(document['tracks'])} tracks"]
+    for t in document["tracks"][:12]:
+        f = [v for v in t["frequency_hz"] if v is not None]
+        span = f"{min(f) / 1e9:.6g} to {max(f) / 1e9:.6g} GHz" if f else "-"
+        ended = "" if len(f) == len(t["frequency_hz"]) else " (lost before the end)"
+        lines.append(f"  track {t['track']}: {span}{ended}")
+    lines += [f"  point {failed['index']} FAILED: {failed['error']}"
+              for failed in document.get("failed_points", [])]
+    return lines

@@ -261,3 +261,18 @@ def _final_with_error_bar(runs: _Evaluations, value: float, progress: Progress) 
                   f"{format_frequency(mode.error_estimate_hz or math.nan, 3)}")
     return {"frequency_hz": mode.frequency_hz, "error_estimate_hz": mode.error_estimate_hz,
             "error_estimate_dofs": result.dofs}
+
+
+def summary_lines(document: dict) -> list[str]:
+    """What `femcav tune` prints of a tune document (tune.json)."""
+    from ..units import format_frequency
+
+    unit = document["unit"]
+    shown = (f"{document['value'] * 1e3:.7g} mm" if unit == "m"
+             else f"{document['value']:.7g} {unit}".rstrip())
+    bar = document["error_estimate_hz"]
+    return [f"{document['parameter']} = {shown} puts mode {document['mode']} at "
+            f"{format_frequency(document['frequency_hz'], 9)}"
+            + (f" ± {format_frequency(bar, 3)}" if bar is not None else "")
+            + f" (target {format_frequency(document['target_hz'], 9)}; "
+            f"{document['iterations']} root-finder steps)"]
