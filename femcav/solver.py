@@ -320,14 +320,24 @@ def quality_factor(frequency: complex) -> float:
     return frequency.real / (2 * abs(frequency.imag)) if frequency.imag else math.inf
 
 
-def complex_eigenvalues(K, M, G, factorize, *, shift: float, count: int) -> np.ndarray:
-    """The complex k0² of the complex-symmetric pencil K x = k0² M x nearest the real
-    ``shift``, a few more than ``count`` so that every real mode finds its partner; the
-    kernel range(G) deflated (the sections' complex check)."""
+def complex_modes(K, M, G, factorize, *, shift: float, count: int, **labels) -> list[Mode]:
+    """The modes of the complex-symmetric pencil K x = k0² M x nearest the real ``shift``,
+    a few more than ``count`` so that every real mode finds its partner, the kernel range(G)
+    deflated: complex frequency, Q from it, checks and field (``labels``: e.g. m = 1); the
+    sections' complex check."""
     problem = EigenProblem(K, M, G, lowest_scale=abs(shift), hermitian=False)
     request = EigenRequest(count + max(4, count // 2), target=shift)
-    return backends.solve("arnoldi", problem, request,
-                          backends.setting_for(problem, factorize)).values
+    setting = backends.setting_for(problem, factorize)
+    pairs = backends.solve("arnoldi", problem, request, setting)
+    checks = check_modes(K, M, setting.projector, pairs.values, pairs.vectors,
+                         hermitian=False)
+    out = []
+    for i, (value, check) in enumerate(zip(pairs.values, checks)):
+        f = complex(C0 * np.sqrt(complex(value)) / (2 * math.pi))
+        out.append(Mode(index=i + 1, frequency_hz=f.real, k0_squared=float(value.real),
+                        checks=check, dofs=pairs.vectors[:, i], complex_frequency_hz=f,
+                        q_eigenvalue=quality_factor(f), **labels))
+    return out
 
 
 def select_modes(ascending: np.ndarray, count: int, target: float | None) -> np.ndarray:

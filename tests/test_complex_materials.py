@@ -167,3 +167,30 @@ def test_case_file_losses_inside_the_solve(tmp_path):
         assert row["q_eigenvalue"] == pytest.approx(real / (2 * imaginary))
         assert row["q_eigenvalue"] == pytest.approx(1 / tan_delta, rel=1e-5)
     assert "Q (f)" in (out / "table.txt").read_text()
+
+
+def test_section_complex_check_returns_the_lossy_modes_with_their_fields():
+    """The body-of-revolution solver's complex check: for a uniformly filled pillbox the
+    complex solve's frequencies are the real ones over sqrt(1 - j tan δ) (as for the box
+    above), and each comes with a field that passes the checks."""
+    from femcav.axisymmetric.model import make_axisymmetric_model
+    from femcav.axisymmetric.solve import solve_axisymmetric
+    from femcav.geometry import BUILDERS
+    from femcav.geometry.parts import Sizing
+    from femcav.geometry.section import mesh_section
+
+    tan_delta = 1e-3
+    section = mesh_section(BUILDERS["pillbox"].layout(radius=0.01, length=0.015),
+                           Sizing(size=0.002))
+    model = make_axisymmetric_model(section, {"inside": Material(eps_r=2.0,
+                                                                 tan_delta=tan_delta)}, {})
+    result = solve_axisymmetric(model, orders=(0, 1), modes=3, order=2, complex_check=True)
+    lossy = result.complex_check
+    assert lossy is not None and {m.m for m in lossy.modes} == {0, 1}
+    assert all(m.checks.passed and np.iscomplexobj(m.dofs) for m in lossy.modes)
+    for mode in result.modes:
+        exact = mode.frequency_hz / np.sqrt(1 - 1j * tan_delta)
+        assert mode.complex_frequency_hz == pytest.approx(exact, rel=1e-8)
+        partner = min(abs(m.complex_frequency_hz - mode.complex_frequency_hz)
+                      for m in lossy.modes)
+        assert partner < 1e-12 * mode.frequency_hz          # it is one of the lossy modes

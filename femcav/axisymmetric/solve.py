@@ -31,7 +31,7 @@ from ..solver import (
     Mode,
     ModeVerdicts,
     check_request,
-    complex_eigenvalues,
+    complex_modes,
     frequency_to_k0_squared,
     select_modes,
 )
@@ -60,6 +60,8 @@ class AxisymmetricResult(ModeVerdicts):
     near_hz: float | None = None
     eigen_stats: EigenStats = field(default_factory=EigenStats)   # of the first order solved
     eigen_stats_by_class: dict[int, EigenStats] = field(default_factory=dict)   # per order m
+    # the complex check's own modes (losses inside), with their complex fields
+    complex_check: "AxisymmetricResult | None" = None
     form: str = "E"
     element_kind = "triangles (meridional section)"
     accuracy: AccuracyReport | None = None     # with a [solve] accuracy target
@@ -142,19 +144,24 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
             resolution=mode_resolution(frequency, order, *scales,
                                        cell_energy(space, vector, value))))
     result_modes = with_loss_warnings(result_modes, model.walls)
+    lossy_modes = None
     if complex_check:
         t0 = time.perf_counter()
-        result_modes = with_complex_warnings(
-            _complex_check(spaces, matrices, result_modes, factorize, scale))
+        result_modes, lossy_modes = _complex_check(spaces, matrices, result_modes, factorize,
+                                                   scale)
+        result_modes = with_complex_warnings(result_modes)
         timings["complex_check_s"] = time.perf_counter() - t0
     progress.step(f"{len(result_modes)} modes over m = {', '.join(map(str, orders))} in "
                   f"{timings['eigen_s']:.2f} s ({describe(factorization)})")
-    return AxisymmetricResult(modes=result_modes, spaces=spaces, dofs_by_order=dofs,
+    result = AxisymmetricResult(modes=result_modes, spaces=spaces, dofs_by_order=dofs,
                               order=order, elements=model.section.n_triangles,
                               timings=timings, request=EigenRequest(modes, target),
                               near_hz=near_hz, form=form,
                               eigen_stats=next(iter(stats.values()), EigenStats()),
                               eigen_stats_by_class=stats)
+    if lossy_modes is not None:   # the complex solve's modes, on the same spaces
+        result = replace(result, complex_check=replace(result, modes=lossy_modes))
+    return result
 
 
 def _checked_orders(orders) -> tuple[int, ...]:
@@ -178,8 +185,9 @@ def _complex_check(spaces: dict[int, OrderSpace], matrices: dict, modes: list[Mo
                    factorize, scale: float) -> list[Mode]:
     """Per order m: the complex k0² of K x = k0² (M - j M_tanδ) x (``matrices[m]`` = K, M, G
     of the real solve), paired one-to-one with the real modes of that m by nearest frequency;
-    Q_d = Re ω / (2 Im ω)."""
-    out = {}
+    Q_d = Re ω / (2 Im ω). Returns the paired modes and the complex solve's own modes (with
+    their complex fields), in frequency order."""
+    out, lossy = {}, []
     for m, space in spaces.items():
         own = [mode for mode in modes if mode.m == m]
         if not own:
@@ -193,9 +201,13 @@ def _complex_check(spaces: dict[int, OrderSpace], matrices: dict, modes: list[Mo
             K_c = (assemble_stiffness(space, coef)
                    + 1j * assemble_stiffness(space, coef * tan_delta))
             M_c = M.astype(complex)
-        values = complex_eigenvalues(K_c, M_c, G, factorize, shift=-scale, count=len(own))
+        found = complex_modes(K_c, M_c, G, factorize, shift=-scale, count=len(own), m=m)
+        lossy += found
+        values = np.array([frequency_to_k0_squared(f.complex_frequency_hz) for f in found])
         out.update({mode.index: mode for mode in with_complex_frequencies(own, values)})
-    return [out.get(mode.index, mode) for mode in modes]
+    lossy.sort(key=lambda mode: mode.frequency_hz)
+    return ([out.get(mode.index, mode) for mode in modes],
+            [replace(mode, index=i + 1) for i, mode in enumerate(lossy)])
 
 
 def _tan_delta_at_quadrature(space: OrderSpace) -> np.ndarray:
