@@ -602,10 +602,6 @@ def _check_axisymmetric(solve: SolveSpec, geometry: GeometrySpec, symmetry: dict
     if solve.method == "iterative":
         raise InputError("the axisymmetric solver uses the direct shift-invert path (its "
                          "problems are small)", field="solve.method")
-    if solve.losses_inside:
-        raise InputError("losses inside the solve are for 3D parts so far; on a section use "
-                         "complex_check = true (the complex frequency beside the real one)",
-                         field="solve.losses_inside")
 
 
 _RELATIVE_UNITS = {"ppm": 1e-6, "ppb": 1e-9, "%": 1e-2}

@@ -123,7 +123,7 @@ def _mesh_sequence(case: Case, walls: dict[str, Wall], settings):
         solve, options = solve_axisymmetric, dict(
             orders=settings.azimuthal_orders, order=settings.order,
             form=settings.form or "E", complex_check=settings.complex_check,
-            factorization=settings.factorization)
+            losses_inside=settings.losses_inside, factorization=settings.factorization)
     else:
         base_size, build_model = _part_model_builder(case, walls)
         measure = "nominal"

@@ -65,6 +65,7 @@ def solve_axisymmetric_case(case: Case, settings, progress: Progress) -> Axisymm
                                     modes=settings.modes, near_hz=settings.near_hz,
                                     order=settings.order, factorization=settings.factorization,
                                     complex_check=settings.complex_check,
+                                    losses_inside=settings.losses_inside,
                                     form=settings.form or "E", progress=progress)
         return label_cells(case, result, progress)
     except InputError as exc:

@@ -23,6 +23,7 @@ from ..errors import InputError
 from ..eigen.problem import EigenProblem
 from ..materials import tan_delta_by_cell
 from ..post.checks import check_modes
+from ..post.fields import most_real_phase
 from ..post.loss_validity import with_complex_warnings, with_loss_warnings
 from ..post.resolution import mode_resolution
 from ..progress import SILENT, Progress
@@ -33,6 +34,7 @@ from ..solver import (
     check_request,
     complex_modes,
     frequency_to_k0_squared,
+    quality_factor,
     select_modes,
 )
 from .losses import cell_energy, cell_scales, field_class, has_losses, mode_losses
@@ -86,13 +88,18 @@ class AxisymmetricResult(ModeVerdicts):
 def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int = 10,
                        near_hz: float | None = None, order: int = 3,
                        factorization: str = "auto", complex_check: bool = False,
-                       form: str = "E", progress: Progress = SILENT) -> AxisymmetricResult:
+                       losses_inside: bool = False, form: str = "E",
+                       progress: Progress = SILENT) -> AxisymmetricResult:
     """The lowest ``modes`` modes over the azimuthal ``orders`` (or those nearest
     ``near_hz``), Nédélec/Lagrange elements of ``order``, in the E or H ``form``; with
     ``complex_check``, every mode also gets its complex frequency from a solve with
-    ε_r (1 - j tan δ)."""
+    ε_r (1 - j tan δ). With ``losses_inside`` that complex solve is the only one: each mode
+    has a complex frequency and its Q (``q_eigenvalue``); its stored field is the real part
+    at the phase where the field is most nearly real (the imaginary part there is of order
+    tan δ), which the post-processing (losses, class, pictures) reads."""
     orders = _checked_orders(orders)
     check_request(modes, near_hz)
+    complex_check = complex_check and not losses_inside   # the one solve is that check
     factorize = get_factorizer(factorization)
     mesh = skfem_mesh(model)
     eps_mu = max(float(np.max(m.eps_at(*_probe(model)) * m.mu_r))
@@ -106,6 +113,8 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
         space = build_order_space(model, m, order, mesh, form)
         K, M = assemble_order(space)
         G = kernel_basis(space)
+        if losses_inside:
+            K, M = _lossy_pencil(space, K, M)
         timings["assembly_s"] += time.perf_counter() - t0
         spaces[m], dofs[m] = space, space.n_dofs
         if complex_check:
@@ -116,33 +125,40 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
         if count < 1:
             continue
         t0 = time.perf_counter()
-        problem = EigenProblem(K, M, G, lowest_scale=scale)
+        problem = EigenProblem(K, M, G, lowest_scale=scale, hermitian=not losses_inside)
+        backend = "arnoldi" if losses_inside else "direct"
         setting = backends.setting_for(problem, factorize, progress)
-        pairs = backends.solve("direct", problem, EigenRequest(count, target), setting)
+        pairs = backends.solve(backend, problem, EigenRequest(count, target), setting)
         timings["eigen_s"] += time.perf_counter() - t0
         stats[m] = replace(pairs.stats, factorization=describe(factorization),
-                           method="direct", lowest_scale=scale)
-        keep = pairs.values >= STATIC_FRACTION * scale
+                           method=backend, lowest_scale=scale)
+        keep = np.real(pairs.values) >= STATIC_FRACTION * scale
         values, vectors = pairs.values[keep], pairs.vectors[:, keep]
-        checks = check_modes(K, M, setting.projector, values, vectors)
+        checks = check_modes(K, M, setting.projector, values, vectors,
+                             hermitian=not losses_inside)
         for value, vector, check in zip(values, vectors.T, checks):
-            found.append((m, float(value), vector, check))
-    found.sort(key=lambda item: item[1])
-    keep = select_modes(np.sqrt([item[1] for item in found]), modes,
+            found.append((m, value, vector, check))
+    found.sort(key=lambda item: item[1].real)
+    keep = select_modes(np.sqrt([item[1].real for item in found]), modes,
                         None if target is None else math.sqrt(target))
     found = [found[i] for i in keep]
     lossy = has_losses(next(iter(spaces.values())))
     scales = cell_scales(next(iter(spaces.values())))
     result_modes = []
     for index, (m, value, vector, check) in enumerate(found, start=1):
+        lossy_values = {}
+        if np.iscomplexobj(value):
+            f = complex(C0 * np.sqrt(complex(value)) / (2 * math.pi))
+            lossy_values = dict(complex_frequency_hz=f, q_eigenvalue=quality_factor(f))
+            vector, value = most_real_phase(vector).real, float(value.real)
         frequency = C0 * math.sqrt(value) / (2 * math.pi)
         space = spaces[m]
         result_modes.append(Mode(
-            index=index, m=m, frequency_hz=frequency, k0_squared=value,
+            index=index, m=m, frequency_hz=frequency, k0_squared=float(value),
             field_class=field_class(space, vector), checks=check, dofs=vector,
             losses=mode_losses(space, vector, frequency) if lossy else None,
             resolution=mode_resolution(frequency, order, *scales,
-                                       cell_energy(space, vector, value))))
+                                       cell_energy(space, vector, value)), **lossy_values))
     result_modes = with_loss_warnings(result_modes, model.walls)
     lossy_modes = None
     if complex_check:
@@ -193,14 +209,7 @@ def _complex_check(spaces: dict[int, OrderSpace], matrices: dict, modes: list[Mo
         if not own:
             continue
         K, M, G = matrices[m]
-        tan_delta = _tan_delta_at_quadrature(space)
-        if space.form == "E":   # M becomes ∫ ε_r (1 - j tan δ) ...
-            K_c, M_c = K.astype(complex), M - 1j * assemble_mass(space, space.eps * tan_delta)
-        else:                   # 1/(ε_r (1 - j t)) = (1/ε_r)(1 + j t)/(1 + t²)
-            coef = space.stiffness_coef / (1 + tan_delta**2)
-            K_c = (assemble_stiffness(space, coef)
-                   + 1j * assemble_stiffness(space, coef * tan_delta))
-            M_c = M.astype(complex)
+        K_c, M_c = _lossy_pencil(space, K, M)
         found = complex_modes(K_c, M_c, G, factorize, shift=-scale, count=len(own), m=m)
         lossy += found
         values = np.array([frequency_to_k0_squared(f.complex_frequency_hz) for f in found])
@@ -208,6 +217,17 @@ def _complex_check(spaces: dict[int, OrderSpace], matrices: dict, modes: list[Mo
     lossy.sort(key=lambda mode: mode.frequency_hz)
     return ([out.get(mode.index, mode) for mode in modes],
             [replace(mode, index=i + 1) for i, mode in enumerate(lossy)])
+
+
+def _lossy_pencil(space: OrderSpace, K, M):
+    """(K, M) of the real pencil with the loss tangents put in: ε_r (1 - j tan δ)."""
+    tan_delta = _tan_delta_at_quadrature(space)
+    if space.form == "E":   # M becomes ∫ ε_r (1 - j tan δ) ...
+        return K.astype(complex), M - 1j * assemble_mass(space, space.eps * tan_delta)
+    # 1/(ε_r (1 - j t)) = (1/ε_r)(1 + j t)/(1 + t²)
+    coef = space.stiffness_coef / (1 + tan_delta**2)
+    return (assemble_stiffness(space, coef) + 1j * assemble_stiffness(space, coef * tan_delta),
+            M.astype(complex))
 
 
 def _tan_delta_at_quadrature(space: OrderSpace) -> np.ndarray:
