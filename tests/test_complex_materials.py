@@ -223,3 +223,21 @@ def test_section_losses_inside_the_solve(form):
         assert mode.q_eigenvalue == pytest.approx(exact.real / (2 * exact.imag), rel=1e-8)
         assert mode.checks.passed and mode.m == real.m
         assert mode.losses.q_dielectric == pytest.approx(mode.q_eigenvalue, rel=1e-5)
+
+
+def test_overlaps_of_complex_modes_ignore_a_global_phase(box_mesh):
+    """Mode matching (sweeps, error bars) of complex modes: a field times e^{jθ} is the same
+    mode, so its overlaps equal those of the real field (the M-inner product's
+    Cauchy-Schwarz bound makes the diagonal 1)."""
+    from dataclasses import replace
+
+    from femcav.post.field_overlap import result_overlaps
+
+    real = _solve(box_mesh, Material(eps_r=2.0), modes=3, order=1)
+    turned = replace(real, modes=[replace(m, dofs=m.dofs * np.exp(0.7j * (i + 1)))
+                                  for i, m in enumerate(real.modes)])
+    expected = result_overlaps(real, real)
+    found = result_overlaps(real, turned)
+    assert np.allclose(found.matrix, expected.matrix, atol=1e-12)
+    assert np.allclose(np.abs(found.inner), np.abs(expected.inner), atol=1e-12)
+    assert np.allclose(np.diag(found.matrix), 1.0)

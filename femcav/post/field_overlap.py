@@ -22,6 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..fem.point_location import Transfer
+from .fields import most_real_phase
 
 
 @dataclass(frozen=True)
@@ -46,17 +47,24 @@ def mode_overlaps(coarse, coarse_dofs: np.ndarray, fine, fine_dofs: np.ndarray) 
     if coarse.form != fine.form:
         raise ValueError(f"cannot compare an {coarse.form} form result with an {fine.form} "
                          "form one: the stored fields differ")
+    if np.iscomplexobj(coarse_dofs) or np.iscomplexobj(fine_dofs):
+        # complex modes (losses inside the solve): each turned to its most-real phase, so
+        # that the signed inner products keep their meaning; magnitudes use xᴴ y
+        coarse_dofs, fine_dofs = (np.column_stack([most_real_phase(x) for x in d.T]).astype(
+            complex) for d in (coarse_dofs, fine_dofs))
     points, weight = fine.samples()
     reader = coarse.field_reader(points)
     c = (reader.matrix @ coarse_dofs).reshape(-1, points.shape[1], coarse_dofs.shape[1])
     f = fine.sampled_fields(fine_dofs)
-    cross = np.einsum("cpi,p,cpj->ij", c, weight, f)
-    gram = np.einsum("cpi,p,cpk->ik", c, weight, c)
-    c_norm = np.sqrt(np.maximum(np.diag(gram), np.finfo(float).tiny))
-    f_norm = np.sqrt(np.maximum(np.einsum("cpj,p,cpj->j", f, weight, f), np.finfo(float).tiny))
+    c_bar, f_bar = (np.conj(a) if np.iscomplexobj(a) else a for a in (c, f))
+    cross = np.einsum("cpi,p,cpj->ij", c_bar, weight, f)
+    gram = np.einsum("cpi,p,cpk->ik", c_bar, weight, c)
+    c_norm = np.sqrt(np.maximum(np.real(np.diag(gram)), np.finfo(float).tiny))
+    f_norm = np.sqrt(np.maximum(np.real(np.einsum("cpj,p,cpj->j", f_bar, weight, f)),
+                                np.finfo(float).tiny))
     inner = cross / np.outer(c_norm, f_norm)
-    return Overlaps(matrix=np.minimum(np.abs(inner), 1.0), inner=inner,
-                    coarse_gram=gram / np.outer(c_norm, c_norm))
+    return Overlaps(matrix=np.minimum(np.abs(inner), 1.0), inner=np.real(inner),
+                    coarse_gram=np.real(gram) / np.outer(c_norm, c_norm))
 
 
 def result_overlaps(coarse, fine) -> Overlaps:
