@@ -10,13 +10,9 @@ from functools import partial
 import numpy as np
 from scipy.constants import c as C0
 
-from .eigen import backends, selection
+from .class_solve import ClassPencil, select_modes, select_union, solve_class
 from .eigen.complex_shift_invert import with_complex_frequencies
-from .eigen.factorization import describe, get_factorizer, library
-from .eigen.interface import STATIC_FRACTION, EigenRequest, EigenStats
-from .memory_room import format_bytes
-from .eigen.pardiso import TooLarge
-from .eigen.problem import EigenProblem
+from .eigen.interface import EigenRequest, EigenStats
 from .errors import InputError
 from .fem.assembly import assemble
 from .fem.coefficients import GENERAL, isotropic_part
@@ -24,7 +20,7 @@ from .fem.auxiliary import auxiliary_space
 from .fem.gradient import kernel_basis
 from .fem.space import EdgeSpace, build_space
 from .model import Model
-from .post.checks import ModeChecks, check_modes
+from .post.checks import ModeChecks
 from .post.loss_validity import with_complex_warnings, with_loss_warnings
 from .post.losses import LossReport, has_losses, metal_faces, mode_losses
 from .post.resolution import Resolution, edge_space_energy, edge_space_scales, mode_resolution
@@ -230,40 +226,20 @@ def solve_space(space: EdgeSpace, *, modes: int, near_hz: float | None,
 
     target = (shift if shift is not None
               else None if near_hz is None else frequency_to_k0_squared(near_hz))
-    request = EigenRequest(count=modes, target=target)
-    choice = selection.choose(method, n=K.shape[0], nnz=K.nnz, request=request, order=order,
-                              library=library(factorization), hermitian=space.hermitian)
-    progress.step(choice.describe())
-    factorize = partial(get_factorizer(factorization),
-                        memory_limit=int(selection.MEMORY_SHARE * choice.free_bytes))
-    progress.step(f"sparse direct solves: {describe(factorization)}")
     # In either form mass / stiffness is eps * mu: its largest value bounds the spectrum.
     scale = ((math.pi / model.mesh.bounding_size()) ** 2
              / (isotropic_part(space.mass_coef).max()
                 / isotropic_part(space.stiffness_coef).min()))
-    problem = EigenProblem(K, M, G, lowest_scale=scale, hermitian=space.hermitian,
-                           auxiliary=partial(auxiliary_space, space))
+    pencil = ClassPencil(K, M, G, lowest_scale=scale, order=order, hermitian=space.hermitian,
+                         auxiliary=partial(auxiliary_space, space))
     t0 = time.perf_counter()
-    try:
-        setting = backends.setting_for(problem, factorize, progress)
-        pairs = backends.solve(choice.method, problem, request, setting)
-    except TooLarge as error:
-        raise InputError(f"the factorisation of {K.shape[0]} DOFs needs "
-                         f"{format_bytes(error.needed)} but only {format_bytes(error.limit)} "
-                         "can be spared; use a coarser mesh or symmetry planes",
-                         field="solve") from None
+    pairs = solve_class(pencil, count=modes, target=target, method=method,
+                        factorization=factorization, progress=progress)
     timings["eigen_s"] = time.perf_counter() - t0
-    stats = replace(pairs.stats, factorization=describe(factorization), method=choice.method,
-                    peak_estimate_bytes=choice.peak_bytes,   # sizes a sweep's --jobs
-                    lowest_scale=scale)
-
-    static = np.abs(pairs.values) < STATIC_FRACTION * scale
-    values, vectors = pairs.values[~static], pairs.vectors[:, ~static]
-    keep = select_modes(np.sqrt(values).real if np.iscomplexobj(values)
-                        else np.sqrt(np.maximum(values, 0)), modes,
-                        None if request.target is None else math.sqrt(abs(request.target)))
-    values, vectors = values[keep], vectors[:, keep]
-    checks = check_modes(K, M, setting.projector, values, vectors, hermitian=space.hermitian)
+    chosen = select_union({None: pairs}, modes, target)
+    values = np.array([c.value for c in chosen])
+    vectors = np.column_stack([c.vector for c in chosen]) if chosen else pairs.vectors[:, :0]
+    checks = [c.checks for c in chosen]
 
     full = space.constraint.expand(vectors)
     derived = _PostInputs.of(space) if post else None
@@ -273,8 +249,9 @@ def solve_space(space: EdgeSpace, *, modes: int, near_hz: float | None,
         result_modes = with_loss_warnings(result_modes, model.walls)
     progress.step(f"eigen solve done: {len(result_modes)} modes in {timings['eigen_s']:.2f} s")
     return SolveResult(modes=result_modes, space=space, dofs=space.n_dofs,
-                       elements=int(space.mesh.nelements), static_fields_dropped=int(static.sum()),
-                       timings=timings, eigen_stats=stats, request=request,
+                       elements=int(space.mesh.nelements),
+                       static_fields_dropped=pairs.static_dropped, timings=timings,
+                       eigen_stats=pairs.stats, request=EigenRequest(modes, target),
                        near_hz=near_hz)
 
 
@@ -320,33 +297,23 @@ def quality_factor(frequency: complex) -> float:
     return frequency.real / (2 * abs(frequency.imag)) if frequency.imag else math.inf
 
 
-def complex_modes(K, M, G, factorize, *, shift: float, count: int, **labels) -> list[Mode]:
+def complex_modes(K, M, G, *, shift: float, count: int, order: int,
+                  factorization: str = "auto", **labels) -> list[Mode]:
     """The modes of the complex-symmetric pencil K x = k0² M x nearest the real ``shift``,
     a few more than ``count`` so that every real mode finds its partner, the kernel range(G)
     deflated: complex frequency, Q from it, checks and field (``labels``: e.g. m = 1); the
     sections' complex check."""
-    problem = EigenProblem(K, M, G, lowest_scale=abs(shift), hermitian=False)
-    request = EigenRequest(count + max(4, count // 2), target=shift)
-    setting = backends.setting_for(problem, factorize)
-    pairs = backends.solve("arnoldi", problem, request, setting)
-    checks = check_modes(K, M, setting.projector, pairs.values, pairs.vectors,
-                         hermitian=False)
+    pencil = ClassPencil(K, M, G, lowest_scale=abs(shift), order=order, hermitian=False)
+    pairs = solve_class(pencil, count=count + max(4, count // 2), target=shift,
+                        factorization=factorization)
     out = []
+    checks = pairs.checks(range(pairs.values.size))
     for i, (value, check) in enumerate(zip(pairs.values, checks)):
         f = complex(C0 * np.sqrt(complex(value)) / (2 * math.pi))
         out.append(Mode(index=i + 1, frequency_hz=f.real, k0_squared=float(value.real),
                         checks=check, dofs=pairs.vectors[:, i], complex_frequency_hz=f,
                         q_eigenvalue=quality_factor(f), **labels))
     return out
-
-
-def select_modes(ascending: np.ndarray, count: int, target: float | None) -> np.ndarray:
-    """Indices (ascending) of the ``count`` lowest values, or of those nearest ``target``
-    (ties to the lower): the one mode selection of every solver path and of the merge of
-    symmetry classes."""
-    if target is None:
-        return np.arange(min(count, ascending.size))
-    return np.sort(np.argsort(np.abs(ascending - target), kind="stable")[:count])
 
 
 def merge_classes(labelled: list[tuple[str, SolveResult]], count: int,

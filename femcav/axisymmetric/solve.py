@@ -15,14 +15,12 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 from scipy.constants import c as C0
 
-from ..eigen import backends
+from ..class_solve import ClassPencil, select_union, solve_class
 from ..eigen.complex_shift_invert import with_complex_frequencies
-from ..eigen.factorization import describe, get_factorizer
-from ..eigen.interface import STATIC_FRACTION, EigenRequest, EigenStats
+from ..eigen.factorization import describe
+from ..eigen.interface import EigenRequest, EigenStats
 from ..errors import InputError
-from ..eigen.problem import EigenProblem
 from ..materials import tan_delta_by_cell
-from ..post.checks import check_modes
 from ..post.fields import most_real_phase
 from ..post.loss_validity import with_complex_warnings, with_loss_warnings
 from ..post.resolution import mode_resolution
@@ -35,7 +33,6 @@ from ..solver import (
     complex_modes,
     frequency_to_k0_squared,
     quality_factor,
-    select_modes,
 )
 from .losses import cell_energy, cell_scales, field_class, has_losses, mode_losses
 from .model import AxisymmetricModel
@@ -100,14 +97,13 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
     orders = _checked_orders(orders)
     check_request(modes, near_hz)
     complex_check = complex_check and not losses_inside   # the one solve is that check
-    factorize = get_factorizer(factorization)
     mesh = skfem_mesh(model)
     eps_mu = max(float(np.max(m.eps_at(*_probe(model)) * m.mu_r))
                  for m in model.materials.values())
     scale = (math.pi / model.section.bounding_size()) ** 2 / eps_mu
     target = None if near_hz is None else frequency_to_k0_squared(near_hz)
     timings = {"assembly_s": 0.0, "eigen_s": 0.0}
-    found, spaces, dofs, stats, matrices = [], {}, {}, {}, {}
+    classes, spaces, dofs, matrices = {}, {}, {}, {}
     for m in orders:
         t0 = time.perf_counter()
         space = build_order_space(model, m, order, mesh, form)
@@ -125,27 +121,17 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
         if count < 1:
             continue
         t0 = time.perf_counter()
-        problem = EigenProblem(K, M, G, lowest_scale=scale, hermitian=not losses_inside)
-        backend = "arnoldi" if losses_inside else "direct"
-        setting = backends.setting_for(problem, factorize, progress)
-        pairs = backends.solve(backend, problem, EigenRequest(count, target), setting)
-        timings["eigen_s"] += time.perf_counter() - t0
-        stats[m] = replace(pairs.stats, factorization=describe(factorization),
-                           method=backend, lowest_scale=scale)
-        keep = np.real(pairs.values) >= STATIC_FRACTION * scale
-        values, vectors = pairs.values[keep], pairs.vectors[:, keep]
-        checks = check_modes(K, M, setting.projector, values, vectors,
+        # the sections are small: shift-invert (Lanczos, or Arnoldi with losses inside)
+        pencil = ClassPencil(K, M, G, lowest_scale=scale, order=order,
                              hermitian=not losses_inside)
-        for value, vector, check in zip(values, vectors.T, checks):
-            found.append((m, value, vector, check))
-    found.sort(key=lambda item: item[1].real)
-    keep = select_modes(np.sqrt([item[1].real for item in found]), modes,
-                        None if target is None else math.sqrt(target))
-    found = [found[i] for i in keep]
+        classes[m] = solve_class(pencil, count=count, target=target, method="direct",
+                                 factorization=factorization, progress=progress)
+        timings["eigen_s"] += time.perf_counter() - t0
     lossy = has_losses(next(iter(spaces.values())))
     scales = cell_scales(next(iter(spaces.values())))
     result_modes = []
-    for index, (m, value, vector, check) in enumerate(found, start=1):
+    for index, chosen in enumerate(select_union(classes, modes, target), start=1):
+        m, value, vector, check = chosen.key, chosen.value, chosen.vector, chosen.checks
         lossy_values = {}
         if np.iscomplexobj(value):
             f = complex(C0 * np.sqrt(complex(value)) / (2 * math.pi))
@@ -163,8 +149,8 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
     lossy_modes = None
     if complex_check:
         t0 = time.perf_counter()
-        result_modes, lossy_modes = _complex_check(spaces, matrices, result_modes, factorize,
-                                                   scale)
+        result_modes, lossy_modes = _complex_check(spaces, matrices, result_modes,
+                                                   factorization, scale, order)
         result_modes = with_complex_warnings(result_modes)
         timings["complex_check_s"] = time.perf_counter() - t0
     progress.step(f"{len(result_modes)} modes over m = {', '.join(map(str, orders))} in "
@@ -173,8 +159,9 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
                               order=order, elements=model.section.n_triangles,
                               timings=timings, request=EigenRequest(modes, target),
                               near_hz=near_hz, form=form,
-                              eigen_stats=next(iter(stats.values()), EigenStats()),
-                              eigen_stats_by_class=stats)
+                              eigen_stats=next((c.stats for c in classes.values()),
+                                               EigenStats()),
+                              eigen_stats_by_class={m: c.stats for m, c in classes.items()})
     if lossy_modes is not None:   # the complex solve's modes, on the same spaces
         result = replace(result, complex_check=replace(result, modes=lossy_modes))
     return result
@@ -198,7 +185,7 @@ def _probe(model: AxisymmetricModel):
 
 
 def _complex_check(spaces: dict[int, OrderSpace], matrices: dict, modes: list[Mode],
-                   factorize, scale: float) -> list[Mode]:
+                   factorization: str, scale: float, order: int) -> list[Mode]:
     """Per order m: the complex k0² of K x = k0² (M - j M_tanδ) x (``matrices[m]`` = K, M, G
     of the real solve), paired one-to-one with the real modes of that m by nearest frequency;
     Q_d = Re ω / (2 Im ω). Returns the paired modes and the complex solve's own modes (with
@@ -210,7 +197,8 @@ def _complex_check(spaces: dict[int, OrderSpace], matrices: dict, modes: list[Mo
             continue
         K, M, G = matrices[m]
         K_c, M_c = _lossy_pencil(space, K, M)
-        found = complex_modes(K_c, M_c, G, factorize, shift=-scale, count=len(own), m=m)
+        found = complex_modes(K_c, M_c, G, shift=-scale, count=len(own), order=order,
+                              factorization=factorization, m=m)
         lossy += found
         values = np.array([frequency_to_k0_squared(f.complex_frequency_hz) for f in found])
         out.update({mode.index: mode for mode in with_complex_frequencies(own, values)})
