@@ -343,7 +343,7 @@ BEAM = Table({
                          doc="the length E_acc is quoted over (default: the line's)"),
 })
 
-# The quantities a study may vary (femcav.study.parameters): the key each value goes to.
+# The quantities a study may vary (femcav.case_parameters): the key each value goes to.
 VARIED = {"eps_r": Key(NUMBER, range=EPS_R), "mu_r": REGION.keys["mu_r"],
           "tan_delta": REGION.keys["tan_delta"], "conductivity": WALL.keys["conductivity"],
           "length": Key(QUANTITY, unit="length")}

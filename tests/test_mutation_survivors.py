@@ -491,7 +491,7 @@ def test_sweep_axis_from_to_points():
     """`from`, `to`, `points` give evenly spaced values, ends included (in SI units); a
     value that is not a table is refused at its key."""
     from femcav.errors import InputError
-    from femcav.study.parameters import parse_axis
+    from femcav.case_parameters import parse_axis
 
     axis = parse_axis({"parameter": "geometry.radius", "from": "1 mm", "to": "3 mm",
                        "points": 5}, "sweep")
@@ -599,7 +599,7 @@ def test_sweep_axis_refusals_name_the_key(spec, field, message):
     """Each mistake in a study axis is one InputError at its key path (the project's
     input-error contract, DEVELOPERS.md)."""
     from femcav.errors import InputError
-    from femcav.study.parameters import parse_axis
+    from femcav.case_parameters import parse_axis
 
     with pytest.raises(InputError) as refused:
         parse_axis(spec, "sweep")
@@ -611,7 +611,7 @@ def test_axis_kinds_units_and_the_value_written_into_the_case():
     into a copy of the case tables at that path, and a conductivity replaces a metal preset
     (the copy is deep: the base case stays as it was)."""
     from femcav.errors import InputError
-    from femcav.study.parameters import format_value, parse_axis, with_value
+    from femcav.case_parameters import format_value, parse_axis, with_value
 
     axes = {path: parse_axis({"parameter": path, "values": values}, "tune")
             for path, values in (("geometry.block_corner[2]", ["2 mm", "3 mm"]),
@@ -651,7 +651,7 @@ def test_a_study_may_vary_only_lengths_the_builder_has():
 
     from femcav.case import case_from_data
     from femcav.errors import InputError
-    from femcav.study.parameters import check_parameter_exists, parse_axis
+    from femcav.case_parameters import check_parameter_exists, parse_axis
 
     data = LOADED_BOX
     case = case_from_data(data, Path("made-up.toml"))

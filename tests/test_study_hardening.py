@@ -24,9 +24,10 @@ from femcav.cli import main
 from femcav.errors import InputError
 from femcav.study import fingerprint as fp
 from femcav.study.folder_lock import folder_lock
-from femcav.study.parameters import MAX_VALUES
+from femcav.case_parameters import MAX_VALUES
 from femcav.study.point_store import load_point, read_point, save_point
-from femcav.study.sweep import MAX_GRID_POINTS, parse_sweep, plan_points, run_sweep
+from femcav.case_studies import MAX_GRID_POINTS
+from femcav.study.sweep import parse_sweep, plan_points, run_sweep
 
 A, B = 0.02286, 0.01016
 LENGTHS = (0.026, 0.028, 0.030)

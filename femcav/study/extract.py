@@ -24,8 +24,7 @@ across the field lines).
 
 from __future__ import annotations
 
-import re
-from dataclasses import dataclass, replace
+from dataclasses import replace
 from pathlib import Path
 
 from ..case import in_case
@@ -34,53 +33,12 @@ from ..io import strict_json
 from ..io.atomic import check_output_folder, staged_output
 from ..post.sensitivity import material_sensitivities
 from ..progress import SILENT, Progress
-from ..schema import EXTRACT, check_table, read
+from ..case_studies import ExtractSpec, parse_extract
 from ..units import format_frequency
-from .parameters import with_value
+from ..case_parameters import with_value
 from .sweep import TRACKING_SPARE, load_study, study_case
 from ..post.mode_matching import result_partners
 from .tune import TuneSpec, _Evaluations, _root
-
-@dataclass(frozen=True)
-class ExtractSpec:
-    sample: str
-    mode: int
-    empty_hz: float
-    empty_q: float
-    loaded_hz: float
-    loaded_q: float
-    eps_bracket: tuple[float, float]
-    tolerance: float
-
-
-def parse_extract(data: dict) -> ExtractSpec:
-    spec = data.get("extract")
-    if spec is None:
-        raise InputError("the case has no [extract] table", field="extract")
-    check_table(spec, EXTRACT, "extract")
-    missing = sorted(k for k, key in EXTRACT.keys.items() if key.default is None
-                     and k not in spec)
-    if missing:
-        raise InputError(f"missing {', '.join(missing)}", field="extract")
-    sample = spec["sample"]
-    if not re.fullmatch(r"\w+", sample):
-        raise InputError("must be the name of the sample's region", field="extract.sample")
-    if sample not in data.get("regions", {}):
-        raise InputError(f"give [regions.{sample}] with eps_r (the starting guess)",
-                         field="extract.sample")
-    v = {k: read(spec, k, EXTRACT, "extract") for k in EXTRACT.keys}
-    if not v["loaded_q"] < v["empty_q"]:
-        raise InputError("a lossless-or-lossy sample cannot raise the Q: loaded_q must be "
-                         f"below empty_q ({v['empty_q']:g})", field="extract.loaded_q")
-    bracket = [float(b) for b in read(spec, "eps_bracket", EXTRACT, "extract")]
-    if bracket[0] == bracket[1]:
-        raise InputError("the two ends are equal; give two different numbers, e.g. [1.5, 20]",
-                         field="extract.eps_bracket")
-    return ExtractSpec(sample=sample, mode=v["mode"], empty_hz=v["empty_frequency"],
-                       empty_q=v["empty_q"], loaded_hz=v["loaded_frequency"],
-                       loaded_q=v["loaded_q"], eps_bracket=tuple(sorted(bracket)),
-                       tolerance=v["tolerance"])
-
 
 def run_extract(path: str | Path, *, out: str | Path | None = None,
                 progress: Progress = SILENT) -> tuple[dict, Path]:

@@ -90,7 +90,7 @@ def with_monte_carlo(case, result, settings, *, pool=None, progress: Progress = 
     solved here or, given a femcav.study.cluster.ClusterPool, on its cluster."""
     from ..case import read_case_data
     from .fingerprint import point_fingerprint
-    from .parameters import with_value
+    from ..case_parameters import with_value
     from .sweep import study_case
 
     spec: MonteCarloSpec = case.tolerance_samples

@@ -42,10 +42,10 @@ from ..io import strict_json
 from ..io.atomic import check_output_folder, remove_stale_temporaries, staged_output
 from ..io.results import mode_rows
 from ..progress import SILENT, Progress
-from ..schema import SWEEP, check_table
+from ..case_studies import SweepSpec, parse_sweep
 from .fingerprint import point_fingerprint
 from .folder_lock import folder_lock
-from .parameters import Axis, check_parameter_exists, format_value, parse_axis, with_value
+from ..case_parameters import Axis, check_parameter_exists, format_value, with_value
 from .point_store import PointResult, load_point, read_point, save_point
 from .tracking import track
 from .workers import stop_workers, submit_without_ctrl_c, usable_jobs, worker_pool
@@ -53,38 +53,7 @@ from .workers import stop_workers, submit_without_ctrl_c, usable_jobs, worker_po
 TRACKING_SPARE = 3
 # What a study adds to the case's own [solve] options; part of every point's fingerprint.
 POINT_OPTIONS = {"extra_modes": TRACKING_SPARE}
-# The most points a sweep may have (each parameter is capped at parameters.MAX_VALUES).
-MAX_GRID_POINTS = 100_000
 FORMAT_NAME = "femcav-sweep"
-
-
-@dataclass(frozen=True)
-class SweepSpec:
-    axes: tuple[Axis, ...]          # one or two
-
-    def points(self) -> list[tuple[float, ...]]:
-        if len(self.axes) == 1:
-            return [(v,) for v in self.axes[0].values]
-        return [(a, b) for b in self.axes[1].values for a in self.axes[0].values]
-
-
-def parse_sweep(data: dict) -> SweepSpec:
-    spec = data.get("sweep")
-    if spec is None:
-        raise InputError("the case has no [sweep] table (parameter and values, or from, to "
-                         "and points)", field="sweep")
-    check_table(spec, SWEEP, "sweep")
-    first = {k: v for k, v in spec.items() if k != "second"}
-    axes = [parse_axis(first, "sweep")]
-    if "second" in spec:
-        axes.append(parse_axis(spec["second"], "sweep.second"))
-        if axes[1].path == axes[0].path:
-            raise InputError("the second parameter is the first one again", field="sweep.second")
-        size = len(axes[0].values) * len(axes[1].values)
-        if size > MAX_GRID_POINTS:
-            raise InputError(f"{len(axes[0].values)} x {len(axes[1].values)} = {size} points; "
-                             f"at most {MAX_GRID_POINTS} in a sweep", field="sweep.second")
-    return SweepSpec(axes=tuple(axes))
 
 
 def sweep_trials(spec: SweepSpec) -> list[tuple[tuple[Axis, float, str], ...]]:

@@ -12,7 +12,6 @@ from __future__ import annotations
 
 from itertools import pairwise
 
-import numpy as np
 
 from ..post.mode_matching import result_partners
 

@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass, replace
+from dataclasses import replace
 from pathlib import Path
 
 from scipy.optimize import brentq
@@ -28,44 +28,12 @@ from ..errors import InputError
 from ..io import strict_json
 from ..io.atomic import check_output_folder, staged_output
 from ..progress import SILENT, Progress
-from ..schema import TUNE, check_table, read
+from ..case_studies import TuneSpec, parse_tune
 from ..units import format_frequency
-from .parameters import format_value, parameter_kind, varied_value, with_value
+from ..case_parameters import format_value, with_value
 from .sweep import TRACKING_SPARE, checked_for_tracking, load_study, study_case
 from ..post.mode_matching import result_partners
 
-
-
-@dataclass(frozen=True)
-class TuneSpec:
-    path: str
-    kind: str
-    bracket: tuple[float, float]
-    target_hz: float
-    mode: int                   # 1-based, at the reference point
-    tolerance: float
-    bracket_keys: tuple[str, str] = ("tune.bracket", "tune.bracket")   # where each end is
-
-
-def parse_tune(data: dict) -> TuneSpec:
-    spec = data.get("tune")
-    if spec is None:
-        raise InputError("the case has no [tune] table (parameter, bracket, target, mode)",
-                         field="tune")
-    check_table(spec, TUNE, "tune")
-    missing = [k for k in ("parameter", "bracket", "target") if k not in spec]
-    if missing:
-        raise InputError(f"missing {', '.join(missing)}", field="tune")
-    kind = parameter_kind(spec["parameter"], "tune.parameter")
-    ends = sorted((varied_value(spec["parameter"], b, f"tune.bracket[{i}]"), f"tune.bracket[{i}]")
-                  for i, b in enumerate(spec["bracket"]))
-    if ends[0][0] == ends[1][0]:
-        raise InputError("the two ends of the bracket are equal", field="tune.bracket")
-    return TuneSpec(path=spec["parameter"], kind=kind, bracket=(ends[0][0], ends[1][0]),
-                    target_hz=read(spec, "target", TUNE, "tune"),
-                    mode=read(spec, "mode", TUNE, "tune"),
-                    tolerance=read(spec, "tolerance", TUNE, "tune"),
-                    bracket_keys=(ends[0][1], ends[1][1]))
 
 
 def tune_trials(spec: TuneSpec):
@@ -165,7 +133,7 @@ class _Evaluations:
 
 
 def _axis(spec: TuneSpec):
-    from .parameters import Axis
+    from ..case_parameters import Axis
     return Axis(path=spec.path, values=spec.bracket, kind=spec.kind, where="tune")
 
 

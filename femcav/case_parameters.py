@@ -16,9 +16,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import InputError
-from ..schema import MAX_STUDY_VALUES, SWEEP_AXIS, VARIED, check_table, parse_value, read
-from ..units import format_length, format_si
+from .errors import InputError
+from .schema import MAX_STUDY_VALUES, SWEEP_AXIS, VARIED, check_table, parse_value, read
+from .units import format_length, format_si
 
 _PATH = re.compile(r"^(geometry)\.(\w+)(?:\[([012])\])?$|^(regions)\.(\w+)\.(eps_r|mu_r|tan_delta)$"
                    r"|^(walls)\.(\w+)\.(conductivity)$")
@@ -111,7 +111,7 @@ def check_parameter_exists(axis: Axis, case) -> None:
     builder = case.geometry.builder
     if builder is None:
         raise InputError("an imported mesh has no builder lengths to vary", field=field)
-    from ..geometry import BUILDERS
+    from .geometry import BUILDERS
 
     declared = BUILDERS[builder].PARAMETERS
     name, index = match.group(2), match.group(3)

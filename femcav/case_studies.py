@@ -1,0 +1,119 @@
+"""The study tables of a case file ([sweep], [tune], [extract]) read into typed specs.
+
+The case layer alone reads keys: the studies (femcav.study) receive these specs, and the
+varied parameters' paths are resolved by femcav.case_parameters.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+from .case_parameters import Axis, parameter_kind, parse_axis, varied_value
+from .errors import InputError
+from .schema import EXTRACT, SWEEP, TUNE, check_table, read
+
+# The most points a sweep may have (each parameter is capped at case_parameters.MAX_VALUES).
+MAX_GRID_POINTS = 100_000
+
+
+@dataclass(frozen=True)
+class SweepSpec:
+    axes: tuple[Axis, ...]          # one or two
+
+    def points(self) -> list[tuple[float, ...]]:
+        if len(self.axes) == 1:
+            return [(v,) for v in self.axes[0].values]
+        return [(a, b) for b in self.axes[1].values for a in self.axes[0].values]
+
+
+def parse_sweep(data: dict) -> SweepSpec:
+    spec = data.get("sweep")
+    if spec is None:
+        raise InputError("the case has no [sweep] table (parameter and values, or from, to "
+                         "and points)", field="sweep")
+    check_table(spec, SWEEP, "sweep")
+    first = {k: v for k, v in spec.items() if k != "second"}
+    axes = [parse_axis(first, "sweep")]
+    if "second" in spec:
+        axes.append(parse_axis(spec["second"], "sweep.second"))
+        if axes[1].path == axes[0].path:
+            raise InputError("the second parameter is the first one again", field="sweep.second")
+        size = len(axes[0].values) * len(axes[1].values)
+        if size > MAX_GRID_POINTS:
+            raise InputError(f"{len(axes[0].values)} x {len(axes[1].values)} = {size} points; "
+                             f"at most {MAX_GRID_POINTS} in a sweep", field="sweep.second")
+    return SweepSpec(axes=tuple(axes))
+
+
+@dataclass(frozen=True)
+class TuneSpec:
+    path: str
+    kind: str
+    bracket: tuple[float, float]
+    target_hz: float
+    mode: int                   # 1-based, at the reference point
+    tolerance: float
+    bracket_keys: tuple[str, str] = ("tune.bracket", "tune.bracket")   # where each end is
+
+
+def parse_tune(data: dict) -> TuneSpec:
+    spec = data.get("tune")
+    if spec is None:
+        raise InputError("the case has no [tune] table (parameter, bracket, target, mode)",
+                         field="tune")
+    check_table(spec, TUNE, "tune")
+    missing = [k for k in ("parameter", "bracket", "target") if k not in spec]
+    if missing:
+        raise InputError(f"missing {', '.join(missing)}", field="tune")
+    kind = parameter_kind(spec["parameter"], "tune.parameter")
+    ends = sorted((varied_value(spec["parameter"], b, f"tune.bracket[{i}]"), f"tune.bracket[{i}]")
+                  for i, b in enumerate(spec["bracket"]))
+    if ends[0][0] == ends[1][0]:
+        raise InputError("the two ends of the bracket are equal", field="tune.bracket")
+    return TuneSpec(path=spec["parameter"], kind=kind, bracket=(ends[0][0], ends[1][0]),
+                    target_hz=read(spec, "target", TUNE, "tune"),
+                    mode=read(spec, "mode", TUNE, "tune"),
+                    tolerance=read(spec, "tolerance", TUNE, "tune"),
+                    bracket_keys=(ends[0][1], ends[1][1]))
+
+
+@dataclass(frozen=True)
+class ExtractSpec:
+    sample: str
+    mode: int
+    empty_hz: float
+    empty_q: float
+    loaded_hz: float
+    loaded_q: float
+    eps_bracket: tuple[float, float]
+    tolerance: float
+
+
+def parse_extract(data: dict) -> ExtractSpec:
+    spec = data.get("extract")
+    if spec is None:
+        raise InputError("the case has no [extract] table", field="extract")
+    check_table(spec, EXTRACT, "extract")
+    missing = sorted(k for k, key in EXTRACT.keys.items() if key.default is None
+                     and k not in spec)
+    if missing:
+        raise InputError(f"missing {', '.join(missing)}", field="extract")
+    sample = spec["sample"]
+    if not re.fullmatch(r"\w+", sample):
+        raise InputError("must be the name of the sample's region", field="extract.sample")
+    if sample not in data.get("regions", {}):
+        raise InputError(f"give [regions.{sample}] with eps_r (the starting guess)",
+                         field="extract.sample")
+    v = {k: read(spec, k, EXTRACT, "extract") for k in EXTRACT.keys}
+    if not v["loaded_q"] < v["empty_q"]:
+        raise InputError("a lossless-or-lossy sample cannot raise the Q: loaded_q must be "
+                         f"below empty_q ({v['empty_q']:g})", field="extract.loaded_q")
+    bracket = [float(b) for b in read(spec, "eps_bracket", EXTRACT, "extract")]
+    if bracket[0] == bracket[1]:
+        raise InputError("the two ends are equal; give two different numbers, e.g. [1.5, 20]",
+                         field="extract.eps_bracket")
+    return ExtractSpec(sample=sample, mode=v["mode"], empty_hz=v["empty_frequency"],
+                       empty_q=v["empty_q"], loaded_hz=v["loaded_frequency"],
+                       loaded_q=v["loaded_q"], eps_bracket=tuple(sorted(bracket)),
+                       tolerance=v["tolerance"])
