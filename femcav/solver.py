@@ -180,7 +180,8 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
         raise InputError(f"the mesh has only {space.n_dofs} free DOFs, too few for {modes} "
                          "modes; refine the mesh", option="modes")
 
-    request = EigenRequest(count=modes,
+    # room for a periodic cell's constant fields (one per pair at phase 0; dropped below)
+    request = EigenRequest(count=modes + len(model.periodic),
                            target=None if near_hz is None else frequency_to_k0_squared(near_hz))
     choice = selection.choose(method, n=K.shape[0], nnz=K.nnz, request=request, order=order,
                               library=library(factorization))

@@ -18,6 +18,7 @@ from ..walls import essential_kinds
 from .constraints import Constraint
 from .lagrange import ElementTetLagrange
 from .nedelec import ElementTetNedelec
+from .periodic import periodic_constraints
 from .point_location import evaluation_matrix
 
 
@@ -128,6 +129,9 @@ def build_space(model: Model, form: str = "E", order: int = 1) -> EdgeSpace:
                     else np.zeros(0, dtype=np.int64))
     scalar_constraint = Constraint.keeping(scalar_dofs.N, _ground(
         mesh, np.setdiff1d(np.arange(scalar_dofs.N), fixed_scalar)))
+    if model.periodic:   # a periodic cell: one face's DOFs follow the other's (fem.periodic)
+        constraint, scalar_constraint = periodic_constraints(
+            model, mesh, facet_wall, dofs, scalar_dofs, fixed, fixed_scalar, order)
 
     eps, mu = _coefficients(model, mesh.mapping().F(quadrature[0]))
     stiffness_coef, mass_coef = (1.0 / mu, eps) if form == "E" else (1.0 / eps, mu)

@@ -68,9 +68,9 @@ def electric_energy_by_region(space: EdgeSpace, dofs: np.ndarray, omega: float) 
     """∫ ε0 ε_r |E|² dV per region (4 W_e,i), for the mode's DOFs as stored."""
     fields = fields_at_quadrature(space, dofs)
     if space.form == "E":
-        integrand = space.mass_coef * np.sum(fields.value ** 2, axis=0) * epsilon_0
+        integrand = space.mass_coef * np.sum(np.abs(fields.value) ** 2, axis=0) * epsilon_0
     else:  # E = curl H / (jω ε0 ε_r): ε0 ε_r |E|² = |curl H|² / (ω² ε0 ε_r)
-        integrand = (space.stiffness_coef * np.sum(fields.curl ** 2, axis=0)
+        integrand = (space.stiffness_coef * np.sum(np.abs(fields.curl) ** 2, axis=0)
                      / (omega**2 * epsilon_0))
     per_element = np.sum(integrand * fields.dx, axis=1)
     tm = space.model.mesh
@@ -103,7 +103,7 @@ def mode_losses(space: EdgeSpace, dofs: np.ndarray, frequency_hz: float,
         H_t = H - np.sum(H * n, axis=0) * n
         walls = space.model.walls
         rs = np.array([wall_surface_resistance(walls[w], omega) for w in faces.wall])
-        loss_at_points = 0.5 * rs[:, None] * np.sum(H_t**2, axis=0)       # W/m²
+        loss_at_points = 0.5 * rs[:, None] * np.sum(np.abs(H_t)**2, axis=0)       # W/m²
         power = np.sum(loss_at_points * faces.basis.dx, axis=1)            # W per face
         total_p = float(power.sum())
         q_wall = omega * stored / total_p

@@ -128,7 +128,7 @@ def edge_space_energy(space, dofs: np.ndarray, k0_squared: float) -> np.ndarray:
     """Electric plus magnetic energy of a mode per tetrahedron (relative scale): the mass
     term plus the curl term over k0² (their sums are equal at resonance)."""
     fields = fields_at_quadrature(space, dofs)
-    density = (space.mass_coef * np.sum(fields.value ** 2, axis=0)
-               + space.stiffness_coef * np.sum(fields.curl ** 2, axis=0)
+    density = (space.mass_coef * np.sum(np.abs(fields.value) ** 2, axis=0)   # complex:
+               + space.stiffness_coef * np.sum(np.abs(fields.curl) ** 2, axis=0)  # periodic
                / max(k0_squared, np.finfo(float).tiny))
     return np.sum(density * fields.dx, axis=1)
