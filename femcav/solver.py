@@ -180,8 +180,7 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
         raise InputError(f"the mesh has only {space.n_dofs} free DOFs, too few for {modes} "
                          "modes; refine the mesh", option="modes")
 
-    # room for a periodic cell's constant fields (one per pair at phase 0; dropped below)
-    request = EigenRequest(count=modes + len(model.periodic),
+    request = EigenRequest(count=modes,
                            target=None if near_hz is None else frequency_to_k0_squared(near_hz))
     choice = selection.choose(method, n=K.shape[0], nnz=K.nnz, request=request, order=order,
                               library=library(factorization))
@@ -196,7 +195,9 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     t0 = time.perf_counter()
     try:
         setting = backends.setting_for(problem, factorize, progress)
-        pairs = backends.solve(choice.method, problem, request, setting)
+        # room for a periodic cell's constant fields (one per pair at phase 0; dropped below)
+        pairs = backends.solve(choice.method, problem,
+                               replace(request, count=modes + len(model.periodic)), setting)
     except TooLarge as error:
         raise InputError(f"the factorisation of {K.shape[0]} DOFs needs "
                          f"{format_bytes(error.needed)} but only {format_bytes(error.limit)} "
@@ -226,6 +227,9 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
                                                     edge_space_energy(space, full[:, i], v)))
                     for i, (f, v, ch) in enumerate(zip(frequencies, values, checks))]
     result_modes = with_loss_warnings(result_modes, model.walls)
+    if model.periodic:    # a periodic cell's modes: the phase advance of its first pair
+        result_modes = [replace(m, phase_advance_rad=model.periodic[0].phase_rad)
+                        for m in result_modes]
     progress.step(f"eigen solve done: {len(result_modes)} modes in {timings['eigen_s']:.2f} s")
     if complex_check:
         t0 = time.perf_counter()

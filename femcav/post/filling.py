@@ -55,7 +55,7 @@ def magnetic_filling(space: EdgeSpace, dofs: np.ndarray,
     else:
         H = fields.value
     dx = fields.dx
-    squared = np.sum(np.sum(H**2, axis=0) * dx, axis=1)
-    along = np.sum(np.einsum("i,ijk->jk", np.asarray(axis), H) ** 2 * dx, axis=1)
+    squared = np.sum(np.sum(np.abs(H)**2, axis=0) * dx, axis=1)       # |H|²: complex in
+    along = np.sum(np.abs(np.einsum("i,ijk->jk", np.asarray(axis), H)) ** 2 * dx, axis=1)
     mesh = space.model.mesh
     return region_shares(squared, along, mesh.tet_region, mesh.region_names, axis)

@@ -1,0 +1,91 @@
+"""[periodic] in the case file: keys, refusals, builder meshes whose two faces match, and a
+solved cell against a closed form.
+
+Reference: TM01 of a circular guide, ω² = c²((p01/R)² + β²) with β = φ/L on a chain of cells
+(D. M. Pozar, Microwave Engineering, 4th ed., §3.4, and the Floquet theorem); p01 from
+scipy.special.jn_zeros.
+"""
+
+import math
+from pathlib import Path
+
+import numpy as np
+import pytest
+from scipy.constants import c as C0
+from scipy.special import jn_zeros
+
+from femcav.case import case_from_data, case_model, load_case
+from femcav.errors import InputError
+from femcav.solver import solve_model
+
+PIPE = """
+title = "Larkspur Microwave Works: a cell of round guide (made-up example)"
+[geometry]
+builder = "pillbox"
+radius = "10 mm"
+length = "8 mm"
+[mesh]
+size = "3.5 mm"
+curved = true
+[solve]
+modes = 4
+order = 2
+"""
+
+
+def _case(tmp_path, text) -> object:
+    path = tmp_path / "case.toml"
+    path.write_text(text, encoding="utf-8")
+    return load_case(path)
+
+
+def test_one_pair_with_its_phase_in_degrees(tmp_path):
+    case = _case(tmp_path, PIPE + '[periodic]\npair = ["bottom", "top"]\nphase = "120 deg"\n')
+    (pair,) = case.periodic
+    assert (pair.wall_a, pair.wall_b) == ("bottom", "top")
+    assert pair.phase_rad == pytest.approx(2 * math.pi / 3)
+
+
+def test_an_array_of_pairs_and_a_bare_phase_in_radians(tmp_path):
+    box = PIPE.replace('builder = "pillbox"\nradius = "10 mm"\nlength = "8 mm"',
+                       'builder = "box"\nwidth = "10 mm"\nheight = "10 mm"\nlength = "10 mm"')
+    case = _case(tmp_path, box + '[[periodic]]\npair = ["x_min", "x_max"]\nphase = 0.5\n'
+                 '[[periodic]]\npair = ["z_min", "z_max"]\nphase = "-30 deg"\n')
+    assert [p.phase_rad for p in case.periodic] == pytest.approx([0.5, -math.pi / 6])
+
+
+@pytest.mark.parametrize("table, field, words", [
+    ('[periodic]\npair = ["bottom", "lid"]\n', "periodic.pair", "no wall 'lid'"),
+    ('[periodic]\npair = ["bottom", "top"]\nphase = "120"\n', "periodic.phase", "no unit"),
+    ('[periodic]\npair = ["bottom", "top"]\nphase = "2 GHz"\n', "periodic.phase", "angle unit"),
+    ('[periodic]\npair = ["bottom", "top"]\nphase = "400 deg"\n', "periodic.phase", "angle"),
+    ('[periodic]\nphase = "1 rad"\n', "periodic.pair", "needs pair"),
+    ('[periodic]\npair = ["bottom", "bottom"]\n', "periodic.pair", "two different faces"),
+    ('[[periodic]]\npair = ["bottom", "top"]\n[[periodic]]\npair = ["top", "side"]\n',
+     "periodic[1].pair", "in two periodic pairs"),
+    ('[walls.top]\nkind = "pmc"\n[periodic]\npair = ["bottom", "top"]\n', "walls.top",
+     "takes no wall kind"),
+    ('[[periodic]]\npair = ["bottom", "top"]\n' * 4, "periodic", "at most 3"),
+])
+def test_mistakes_are_refused_at_their_key(tmp_path, table, field, words):
+    with pytest.raises(InputError, match=words) as caught:
+        _case(tmp_path, PIPE + table)
+    assert caught.value.field == field
+
+
+def test_bodies_of_revolution_are_refused_for_now(tmp_path):
+    text = PIPE.replace("order = 2", "order = 2\nazimuthal_orders = [0]")
+    with pytest.raises(InputError, match="bodies of revolution") as caught:
+        _case(tmp_path, text + '[periodic]\npair = ["bottom", "top"]\n')
+    assert caught.value.field == "periodic"
+
+
+def test_builder_meshes_a_round_guide_cell_whose_tm01_follows_the_band(tmp_path):
+    case = _case(tmp_path, PIPE + '[periodic]\npair = ["bottom", "top"]\nphase = "90 deg"\n')
+    result = solve_model(case_model(case), modes=4, order=2)
+    phase = math.pi / 2
+    # Pozar §3.4: k_c = p01 / R for TM01; β = φ / L
+    tm01 = C0 / (2 * math.pi) * math.hypot(jn_zeros(0, 1)[0] / 0.010, phase / 0.008)
+    nearest = min(result.modes, key=lambda m: abs(m.frequency_hz - tm01))
+    assert nearest.frequency_hz == pytest.approx(tm01, rel=1e-3)
+    assert all(m.phase_advance_rad == pytest.approx(phase) for m in result.modes)
