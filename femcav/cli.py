@@ -72,6 +72,13 @@ def _parser() -> argparse.ArgumentParser:
         "the result again with error bars; write tune.json.")
     _cluster_option(tune)
     _study_parser(
+        commands, "dispersion",
+        "solve a periodic cell at a row of phase advances and follow its bands",
+        "Mesh the periodic cell of CASE once, solve it at every phase advance of its "
+        "[dispersion] table, follow the bands from phase to phase by field overlap, and write "
+        "dispersion.json, dispersion.csv (frequency, phase and group velocities per band and "
+        "phase) and dispersion.png into the output folder.")
+    _study_parser(
         commands, "extract",
         "find a sample's eps_r and loss tangent from measured f and Q, by the full model",
         "From the measured frequency and Q of one mode with and without the sample (the "
@@ -125,6 +132,7 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_INPUT_ERROR
     try:
         return {"mesh": _mesh, "sweep": _sweep, "tune": _tune, "extract": _extract,
+                "dispersion": _dispersion,
                 "show": _show, "verify": verification_command.run}.get(args.command,
                                                                        _solve)(args)
     except InputError as exc:
@@ -257,6 +265,23 @@ def _sweep(args) -> int:
         print(f"  point {failed['index']} FAILED: {failed['error']}")
     print(f"results: {folder}")
     return exit_codes.CHECKS_FAILED if document.get("failed_points") else 0
+
+
+def _dispersion(args) -> int:
+    from .progress import Progress
+    from .study.dispersion import run_dispersion
+
+    document, folder = run_dispersion(args.case, out=args.out,
+                                      progress=Progress(quiet=args.quiet))
+    print(f"dispersion of {document['title']}: {len(document['phases_rad'])} phases, cell "
+          f"{document['cell_length_m'] * 1e3:.6g} mm, {document['dofs']} DOFs")
+    for passband in document["passbands"]:
+        if passband["low_hz"] is not None:
+            print(f"  band {passband['band']}: {passband['low_hz'] / 1e9:.6g} to "
+                  f"{passband['high_hz'] / 1e9:.6g} GHz")
+    print(f"results: {folder}")
+    failed = any(ok is False for b in document["bands"] for ok in b["checks_passed"])
+    return exit_codes.CHECKS_FAILED if failed else 0
 
 
 def _tune(args) -> int:

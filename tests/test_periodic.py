@@ -142,12 +142,25 @@ def test_layer_stack_follows_the_transfer_matrix_band():
                       - 0.5 * (b1 / b2 + b2 / b1) * np.sin(b1 * d1) * np.sin(b2 * d2))
         return half_trace.real - np.cos(phase)
 
+    materials = {"inside": Material(), "layer": Material(eps_r=eps)}
     for degrees in (0, 90, 180):
         phase = np.radians(degrees)
         f, _ = frequencies(mesh, [PeriodicPair("z_min", "z_max", phase)], order=2, modes=1,
-                           materials={"inside": Material(), "layer": Material(eps_r=eps)})
+                           materials=materials)
         exact = brentq(mismatch, 0.9 * f[0], 1.1 * f[0], args=(phase,))
         assert f[0] == pytest.approx(exact, rel=3e-3)
+    # the lowest gap of the TE10 bands: at φ = π its two edges are the first two roots
+    grid = np.linspace(5e9, 20e9, 600)
+    values = np.array([mismatch(f, np.pi) for f in grid])
+    # at φ = π the condition touches zero from above at a gap edge only when there is no
+    # gap; here ½ tr T crosses -1, so each edge is a sign change
+    edges = [brentq(mismatch, grid[i], grid[i + 1], args=(np.pi,))
+             for i in np.flatnonzero(np.sign(values[:-1]) != np.sign(values[1:]))[:2]]
+    assert len(edges) == 2 and edges[1] > 1.02 * edges[0]          # a real gap
+    f, _ = frequencies(mesh, [PeriodicPair("z_min", "z_max", np.pi)], order=2, modes=6,
+                       materials=materials)
+    for edge in edges:    # other guide modes (with y variation) may lie between
+        assert np.min(np.abs(f / edge - 1)) < 3e-3
 
 
 def test_zero_and_pi_of_a_symmetric_cell_are_the_half_cell_solves():

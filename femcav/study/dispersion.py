@@ -1,0 +1,245 @@
+"""femcav dispersion: a periodic cell solved at a row of phase advances, on one mesh.
+
+The case's [periodic] pair (the one [dispersion] names, the first by default) takes each
+phase of [dispersion] in turn; the mesh is made once, so every phase solves the same
+discrete cell and the bands are followed from phase to phase by field overlap (the M-inner
+product of the full DOF vectors: one mesh, no interpolation). Per band and phase the file
+gives the frequency, the phase velocity ωL/φ and the group velocity twice: from the band's
+slope, L dω/dφ (central differences), and from the mode's own fields, energy flux over
+stored energy (post.group_velocity). The cell length L is the length of the pair's
+translation.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass, replace
+from pathlib import Path
+
+import numpy as np
+
+from .. import schema
+from ..case import build_mesh, case_model, in_case, load_case, read_case_data
+from ..errors import InputError
+from ..fem.assembly import assemble_mass
+from ..fem.constraints import Constraint
+from ..fem.periodic import FacePairing
+from ..io import strict_json
+from ..io.atomic import check_output_folder, staged_output
+from ..post.field_overlap import Overlaps
+from ..post.group_velocity import energy_velocity
+from ..post.mode_matching import clusters, match_modes
+from ..progress import SILENT, Progress
+from ..runner import choose_form
+from ..solver import solve_model
+from .tracking import track
+
+WHERE = "dispersion"
+
+
+@dataclass(frozen=True)
+class DispersionSpec:
+    phases_rad: tuple[float, ...]     # ascending
+    pair: int                         # 0-based index into the case's periodic pairs
+
+
+def parse_dispersion(spec) -> DispersionSpec:
+    """[dispersion]: ``values``, or ``from``, ``to`` and ``points`` (phases); ``pair``."""
+    if spec is None:
+        raise InputError("the case has no [dispersion] table; add one with from, to and points "
+                         '(e.g. from = "0 deg", to = "180 deg", points = 7) or values',
+                         field=WHERE)
+    schema.check_table(spec, schema.DISPERSION, WHERE)
+    table = schema.DISPERSION
+    if "values" in spec:
+        extra = sorted({"from", "to", "points"} & set(spec))
+        if extra:
+            raise InputError(f"give values, or from, to and points, not both ({extra[0]})",
+                             field=f"{WHERE}.{extra[0]}")
+        phases = schema.read(spec, "values", table, WHERE)
+        if not phases:
+            raise InputError("needs at least one phase", field=f"{WHERE}.values")
+    else:
+        for key in ("from", "to", "points"):
+            if key not in spec:
+                raise InputError(f"needs {key} (or values)", field=f"{WHERE}.{key}")
+        start, stop = (schema.read(spec, k, table, WHERE) for k in ("from", "to"))
+        phases = list(np.linspace(start, stop, schema.read(spec, "points", table, WHERE)))
+    unique = sorted(set(float(p) for p in phases))
+    return DispersionSpec(phases_rad=tuple(unique),
+                          pair=schema.read(spec, "pair", table, WHERE) - 1)
+
+
+def run_dispersion(path: str | Path, *, out: str | Path | None = None,
+                   progress: Progress = SILENT) -> tuple[dict, Path]:
+    """Solve the case's cell at every phase of [dispersion], follow the bands, and write
+    dispersion.json, dispersion.csv and dispersion.png."""
+    path = Path(path)
+    case = load_case(path)
+    try:
+        spec = parse_dispersion(read_case_data(path).get("dispersion"))
+        if not case.periodic:
+            raise InputError('a dispersion needs a periodic cell: add [periodic] with pair = '
+                             '["FIRST_FACE", "SECOND_FACE"]', field="periodic")
+        if spec.pair >= len(case.periodic):
+            raise InputError(f"the case has {len(case.periodic)} periodic pair(s)",
+                             field=f"{WHERE}.pair")
+    except InputError as exc:
+        raise in_case(exc, str(path)) from None
+    folder = check_output_folder(Path(out) if out is not None
+                                 else path.parent / f"{path.stem}-dispersion")
+    model = case_model(case, build_mesh(case))
+    solve = case.solve
+    form = choose_form(case, solve.form, progress)
+    results = []
+    for i, phase in enumerate(spec.phases_rad):
+        pairs = list(model.periodic)
+        pairs[spec.pair] = replace(pairs[spec.pair], phase_rad=phase)
+        t0 = time.perf_counter()
+        try:
+            result = solve_model(replace(model, periodic=tuple(pairs)), modes=solve.modes,
+                                 near_hz=solve.near_hz, form=form, order=solve.order,
+                                 factorization=solve.factorization, method=solve.method)
+        except InputError as exc:
+            raise in_case(exc, str(path)) from None
+        results.append(result)
+        lowest = ", ".join(f"{m.frequency_hz / 1e9:.6g}" for m in result.modes[:4])
+        progress.step(f"phase {i + 1}/{len(spec.phases_rad)}: {math.degrees(phase):.6g} deg: "
+                      f"{lowest} GHz ... ({result.dofs} DOFs, "
+                      f"{time.perf_counter() - t0:.2f} s)")
+    document = dispersion_document(case, spec, results)
+    with staged_output(folder, kind="dispersion") as files:
+        files.write_text("dispersion.json", strict_json.dumps(document, indent=1))
+        files.write_text("dispersion.csv", dispersion_csv(document))
+        from ..viz.dispersion_chart import write_dispersion_chart
+        files.write_with("dispersion.png", lambda p: write_dispersion_chart(document, p),
+                         suffix=".png")
+    progress.step(f"dispersion written to {folder}")
+    return document, folder
+
+
+def dispersion_document(case, spec: DispersionSpec, results: list) -> dict:
+    """Bands, velocities and passbands of the solves ``results`` (one per phase)."""
+    space = results[0].space
+    pair = space.model.periodic[spec.pair]
+    shift = FacePairing(space.mesh, space.facet_wall, pair).shift
+    length = float(np.linalg.norm(shift))
+    direction = shift / length
+    phases = np.array(spec.phases_rad)
+    tracks = track(results, len(results[0].modes), partners=_same_mesh_partners(space))
+    bands = []
+    for k, t in enumerate(tracks):
+        modes = [None if j is None else r.modes[j] for r, j in zip(results, t)]
+        f = np.array([np.nan if m is None else m.frequency_hz for m in modes])
+        omega = 2 * math.pi * f
+        single = np.array([j is not None and len(_cluster_of(r, j)) == 1
+                           for r, j in zip(results, t)])
+        slope = _slope(phases, omega, single) * length
+        flux = [None if m is None else
+                energy_velocity(r.space, m.dofs, 2 * math.pi * m.frequency_hz, direction)
+                for r, m in zip(results, modes)]
+        bands.append({
+            "band": k + 1,
+            "frequency_hz": _listed(f),
+            "phase_velocity_m_per_s": _listed(_phase_velocity(phases, omega, length)),
+            "group_velocity_slope_m_per_s": _listed(slope),
+            "group_velocity_energy_m_per_s": flux,
+            "checks_passed": [None if m is None else m.checks.passed for m in modes],
+        })
+    return {
+        "format": "femcav-dispersion", "format_version": 1,
+        "title": case.title, "case": str(case.path),
+        "pair": [pair.wall_a, pair.wall_b], "cell_length_m": length,
+        "translation_m": [float(v) for v in shift],
+        "other_pairs": [{"pair": [p.wall_a, p.wall_b], "phase_rad": p.phase_rad}
+                        for i, p in enumerate(space.model.periodic) if i != spec.pair],
+        "form": results[0].form, "order": results[0].order, "dofs": results[0].dofs,
+        "elements": results[0].elements,
+        "phases_rad": [float(p) for p in phases],
+        "phases_deg": [math.degrees(p) for p in phases],
+        "bands": bands,
+        "passbands": [_passband(b) for b in bands],
+        "timings_s": [r.timings for r in results],
+    }
+
+
+def _same_mesh_partners(space):
+    """Partners of modes solved on one mesh: overlaps are the M-inner products of the full
+    DOF vectors (the modes are M-normalised), complex for a travelling wave."""
+    full = replace(space, constraint=Constraint.keeping(space.dofs.N, np.arange(space.dofs.N)))
+    mass = assemble_mass(full, full.mass_coef)
+
+    def partners(previous, current) -> np.ndarray:
+        X = np.column_stack([m.dofs for m in previous.modes])
+        Y = np.column_stack([m.dofs for m in current.modes])
+        gram = X.conj().T @ (mass @ X)
+        x_norm = np.sqrt(np.abs(np.diag(gram)))
+        y_norm = np.sqrt(np.abs(np.einsum("ij,ij->j", Y.conj(), mass @ Y)))
+        inner = (X.conj().T @ (mass @ Y)) / np.outer(x_norm, y_norm)
+        overlaps = Overlaps(matrix=np.minimum(np.abs(inner), 1.0), inner=inner,
+                            coarse_gram=gram / np.outer(x_norm, x_norm))
+        return match_modes(overlaps, np.array([m.frequency_hz for m in previous.modes]),
+                           np.array([m.frequency_hz for m in current.modes])).partner
+    return partners
+
+
+def _cluster_of(result, index: int) -> list[int]:
+    """The modes of ``result`` degenerate with its mode ``index`` (itself included)."""
+    groups = clusters(np.array([m.frequency_hz for m in result.modes]))
+    return next(g for g in groups if index in g)
+
+
+def _phase_velocity(phases: np.ndarray, omega: np.ndarray, length: float) -> np.ndarray:
+    """ωL/φ; none at φ = 0 (a standing wave)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(np.abs(phases) > 1e-12, omega * length / phases, np.nan)
+
+
+def _slope(phases: np.ndarray, omega: np.ndarray, single: np.ndarray) -> np.ndarray:
+    """dω/dφ by central differences over each run of solved phases. A lossless cell is
+    reciprocal, so the bands satisfy ω(-φ) = ω(φ) and ω(π + x) = ω(π - x): a run that starts
+    at 0 or ends at π on a ``single`` (non-degenerate) mode is mirrored there, which makes
+    the slope at that band edge zero instead of a one-sided difference. Where two bands
+    meet (an empty guide's folded branches at π) the band goes on in the other branch and
+    the one-sided difference is kept."""
+    out = np.full(phases.shape, np.nan)
+    known = np.isfinite(omega)
+    edges = np.flatnonzero(np.diff(np.concatenate([[0], known.astype(int), [0]])))
+    for start, stop in zip(edges[::2], edges[1::2]):
+        if stop - start < 2:
+            continue
+        x, y = phases[start:stop], omega[start:stop]
+        low = abs(x[0]) < 1e-9 and single[start]
+        high = abs(x[-1] - math.pi) < 1e-9 and single[stop - 1]
+        if low:
+            x, y = np.concatenate([[-x[1]], x]), np.concatenate([[y[1]], y])
+        if high:
+            x, y = np.concatenate([x, [2 * math.pi - x[-2]]]), np.concatenate([y, [y[-2]]])
+        slope = np.gradient(y, x)
+        out[start:stop] = slope[int(low):len(slope) - int(high)]
+    return out
+
+
+def _passband(band: dict) -> dict:
+    f = [v for v in band["frequency_hz"] if v is not None]
+    return {"band": band["band"], "low_hz": min(f) if f else None,
+            "high_hz": max(f) if f else None}
+
+
+def _listed(values: np.ndarray) -> list:
+    return [None if not np.isfinite(v) else float(v) for v in values]
+
+
+CSV_COLUMNS = ("band", "phase_deg", "phase_rad", "frequency_hz", "phase_velocity_m_per_s",
+               "group_velocity_slope_m_per_s", "group_velocity_energy_m_per_s")
+
+
+def dispersion_csv(document: dict) -> str:
+    lines = [",".join(CSV_COLUMNS)]
+    for band in document["bands"]:
+        for i, (deg, rad) in enumerate(zip(document["phases_deg"], document["phases_rad"])):
+            row = [band["band"], deg, rad] + [band[key][i] for key in CSV_COLUMNS[3:]]
+            lines.append(",".join("" if v is None else repr(v) if isinstance(v, float)
+                                  else str(v) for v in row))
+    return "\n".join(lines) + "\n"
