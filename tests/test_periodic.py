@@ -205,3 +205,20 @@ def test_a_missing_surface_is_refused():
     with pytest.raises(InputError, match="no surface named 'z_top'"):
         make_model(mesh, {"inside": Material()}, {},
                    periodic=(PeriodicPair("z_min", "z_top", 1.0),))
+
+
+@pytest.mark.parametrize("form", ["E", "H"])
+def test_energy_velocity_of_the_te10_band_is_its_group_velocity(form):
+    from femcav.post.group_velocity import energy_velocity
+
+    mesh = tagged_box((A, B, L), (3, 2, 2))
+    for degrees in (30, 150):
+        phase = np.radians(degrees)
+        model = make_model(mesh, {"inside": Material()}, {},
+                           periodic=(PeriodicPair("z_min", "z_max", phase),))
+        result = solve_model(model, modes=1, order=3, form=form)
+        mode = result.modes[0]
+        omega = 2 * np.pi * mode.frequency_hz
+        # Pozar §3.3: v_g = dω/dβ = c² β / ω, β = φ / L
+        assert energy_velocity(result.space, mode.dofs, omega, (0, 0, 1)) == pytest.approx(
+            C0**2 * (phase / L) / omega, rel=1e-4)

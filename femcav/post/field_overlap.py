@@ -50,10 +50,11 @@ def mode_overlaps(coarse, coarse_dofs: np.ndarray, fine, fine_dofs: np.ndarray) 
     reader = coarse.field_reader(points)
     c = (reader.matrix @ coarse_dofs).reshape(-1, points.shape[1], coarse_dofs.shape[1])
     f = fine.sampled_fields(fine_dofs)
-    cross = np.einsum("cpi,p,cpj->ij", c, weight, f)
-    gram = np.einsum("cpi,p,cpk->ik", c, weight, c)
-    c_norm = np.sqrt(np.maximum(np.diag(gram), np.finfo(float).tiny))
-    f_norm = np.sqrt(np.maximum(np.einsum("cpj,p,cpj->j", f, weight, f), np.finfo(float).tiny))
+    cross = np.einsum("cpi,p,cpj->ij", c.conj(), weight, f)    # conj: a periodic cell's
+    gram = np.einsum("cpi,p,cpk->ik", c.conj(), weight, c)     # modes are complex
+    c_norm = np.sqrt(np.maximum(np.diag(gram).real, np.finfo(float).tiny))
+    f_norm = np.sqrt(np.maximum(np.einsum("cpj,p,cpj->j", f.conj(), weight, f).real,
+                                np.finfo(float).tiny))
     inner = cross / np.outer(c_norm, f_norm)
     return Overlaps(matrix=np.minimum(np.abs(inner), 1.0), inner=inner,
                     coarse_gram=gram / np.outer(c_norm, c_norm))
@@ -63,7 +64,9 @@ def result_overlaps(coarse, fine) -> Overlaps:
     """Overlaps of every mode of the result ``coarse`` with every mode of ``fine``, space by
     space (``mode_spaces()``: (key, space, positions of its modes)); 0 across spaces."""
     n_c, n_f = len(coarse.modes), len(fine.modes)
-    matrix, inner, gram = np.zeros((n_c, n_f)), np.zeros((n_c, n_f)), np.eye(n_c)
+    complex_fields = any(np.iscomplexobj(m.dofs) for m in (*coarse.modes, *fine.modes))
+    kind = complex if complex_fields else float
+    matrix, inner, gram = np.zeros((n_c, n_f)), np.zeros((n_c, n_f), kind), np.eye(n_c, dtype=kind)
     fine_spaces = {key: (space, positions) for key, space, positions in fine.mode_spaces()}
     for key, space, rows in coarse.mode_spaces():
         if key not in fine_spaces or not rows:
