@@ -121,3 +121,18 @@ def test_travelling_modes_overlap_as_their_hermitian_inner_product(tmp_path):
                                     for m in result.modes])
     overlaps = result_overlaps(result, turned)
     assert overlaps.matrix == pytest.approx(np.eye(3), abs=1e-6)
+
+
+def test_an_imported_mesh_whose_faces_differ_is_refused_at_the_place(tmp_path):
+    # a pillbox with a tuning post through its top: the two ends cannot be meshed alike
+    from femcav.geometry import build_part
+    from femcav.io.mesh_files import write_msh
+
+    write_msh(build_part("tuned_pillbox", radius=0.01, length=0.01, post_radius=0.002,
+                         post_depth=0.003, mesh_size=0.004), tmp_path / "can.msh")
+    case = _case(tmp_path, '[geometry]\nmesh = "can.msh"\n[regions.inside]\n[periodic]\n'
+                 'pair = ["bottom", "top"]\nphase = "60 deg"\n')
+    with pytest.raises(InputError, match=r"not meshed alike: the vertex at \(.* mm on "
+                                         r"'top' has no partner on 'bottom'") as caught:
+        solve_model(case_model(case), modes=2)
+    assert caught.value.field == "periodic.pair"
