@@ -71,13 +71,16 @@ def _parser() -> argparse.ArgumentParser:
         "table until the chosen mode (followed by field overlap) sits on the target; solve "
         "the result again with error bars; write tune.json.")
     _cluster_option(tune)
-    _study_parser(
+    dispersion = _study_parser(
         commands, "dispersion",
         "solve a periodic cell at a row of phase advances and follow its bands",
         "Mesh the periodic cell of CASE once, solve it at every phase advance of its "
         "[dispersion] table, follow the bands from phase to phase by field overlap, and write "
         "dispersion.json, dispersion.csv (frequency, phase and group velocities per band and "
-        "phase) and dispersion.png into the output folder.")
+        "phase) and dispersion.png into the output folder. Phases already in the folder are "
+        "reused, on their mesh: an interrupted dispersion resumes.")
+    dispersion.add_argument("--jobs", metavar="N", type=int, default=1,
+                            help="phases solved at once in separate processes (default 1)")
     _study_parser(
         commands, "extract",
         "find a sample's eps_r and loss tangent from measured f and Q, by the full model",
@@ -271,7 +274,7 @@ def _dispersion(args) -> int:
     from .progress import Progress
     from .study.dispersion import run_dispersion
 
-    document, folder = run_dispersion(args.case, out=args.out,
+    document, folder = run_dispersion(args.case, out=args.out, jobs=args.jobs,
                                       progress=Progress(quiet=args.quiet))
     print(f"dispersion of {document['title']}: {len(document['phases_rad'])} phases, cell "
           f"{document['cell_length_m'] * 1e3:.6g} mm, {document['dofs']} DOFs")

@@ -100,3 +100,29 @@ def test_a_case_without_periodic_faces_is_refused_before_meshing(tmp_path, capsy
     path = _write(tmp_path, GUIDE)
     with pytest.raises(InputError, match=r"no \[dispersion\] table"):
         run_dispersion(path, out=tmp_path / "out")
+
+
+def test_a_second_run_reuses_the_phases_it_shares_on_their_mesh(tmp_path):
+    coarse = _write(tmp_path, GUIDE + '[dispersion]\nvalues = ["0 deg", "90 deg"]\n')
+    first, folder = run_dispersion(coarse, out=tmp_path / "out")
+    stored = {p.name: p.stat().st_mtime_ns for p in (folder / "points").glob("*.json")}
+    assert len(stored) == 2
+    finer = _write(tmp_path, GUIDE + '[dispersion]\nvalues = ["0 deg", "45 deg", "90 deg"]\n')
+    second, _ = run_dispersion(finer, out=tmp_path / "out")
+    again = {p.name: p.stat().st_mtime_ns for p in (folder / "points").glob("*.json")}
+    assert len(again) == 3 and all(again[name] == t for name, t in stored.items())
+    for band_one, band_two in zip(first["bands"], second["bands"]):
+        assert band_two["frequency_hz"][0::2] == band_one["frequency_hz"]
+    # the new phase sits on the same band (Pozar §3.3), solved on the stored mesh
+    assert second["bands"][0]["frequency_hz"][1] == pytest.approx(te_m0(1, math.pi / 4),
+                                                                  rel=4e-3)
+
+
+@pytest.mark.slow
+def test_phases_solved_in_two_processes_equal_those_solved_here(tmp_path):
+    path = _write(tmp_path, GUIDE + '[dispersion]\nfrom = "0 deg"\nto = "180 deg"\npoints = 4\n')
+    here, _ = run_dispersion(path, out=tmp_path / "here")
+    there, _ = run_dispersion(path, out=tmp_path / "there", jobs=2)
+    for a, b in zip(here["bands"], there["bands"]):
+        assert np.array(b["frequency_hz"], dtype=float) == pytest.approx(
+            np.array(a["frequency_hz"], dtype=float), rel=1e-9, nan_ok=True)
