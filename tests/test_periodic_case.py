@@ -6,6 +6,7 @@ Reference: TM01 of a circular guide, ω² = c²((p01/R)² + β²) with β = φ/L
 scipy.special.jn_zeros.
 """
 
+import json
 import math
 from pathlib import Path
 
@@ -136,3 +137,22 @@ def test_an_imported_mesh_whose_faces_differ_is_refused_at_the_place(tmp_path):
                                          r"'top' has no partner on 'bottom'") as caught:
         solve_model(case_model(case), modes=2)
     assert caught.value.field == "periodic.pair"
+
+
+def test_modes_json_and_the_report_name_the_pairs(tmp_path):
+    from femcav.runner import run_case
+
+    path = tmp_path / "case.toml"
+    path.write_text(PIPE + '[periodic]\npair = ["bottom", "top"]\nphase = "120 deg"\n',
+                    encoding="utf-8")
+    _, _, folder = run_case(path, out=tmp_path / "out")
+    document = json.loads((folder / "modes.json").read_text())
+    (pair,) = document["model"]["periodic"]
+    assert pair["pair"] == ["bottom", "top"]
+    assert pair["phase_rad"] == pytest.approx(2 * math.pi / 3)
+    assert all(m["phase_advance_rad"] == pytest.approx(2 * math.pi / 3)
+               for m in document["modes"])
+    from femcav.viz.report import write_report
+    write_report(document, {}, tmp_path / "report.html")
+    report = (tmp_path / "report.html").read_text(encoding="utf-8")
+    assert "periodic pair bottom → top" in report and "phase advance 120°" in report
