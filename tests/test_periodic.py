@@ -272,3 +272,26 @@ def test_square_lattice_of_rods_has_the_tm_gap():
         edges[point] = normalised
     assert edges["M"][0] == pytest.approx(0.322, abs=2e-3)
     assert edges["X"][1] == pytest.approx(0.443, abs=2e-3)
+
+
+def test_layer_band_reference_meets_the_closed_forms():
+    from femcav.analytic.layered_guide import layered_guide_band_frequencies
+
+    a = 0.02286
+    # two layers of one material: the empty guide's TE10 and TE20 bands (Pozar §3.3)
+    for phase in (0.3, 2.0):
+        for m in (1, 2):
+            (f,) = layered_guide_band_frequencies(a, [(2.0, 0.004), (2.0, 0.006)], phase, 1, m=m)
+            assert f == pytest.approx(C0 / (2 * np.pi * np.sqrt(2.0))
+                                      * np.hypot(m * np.pi / a, phase / 0.010), rel=1e-9)
+    # two different layers: Yeh's two-layer form of cos φ = ½ tr T (ch. 6), written out here
+    eps, d1, d2, phase = 9.8, 0.004, 0.008, 2 * np.pi / 3
+    f = layered_guide_band_frequencies(a, [(eps, d1), (1.0, d2)], phase, 2)
+    for root in f:
+        k0 = 2 * np.pi * root / C0
+        b1 = np.sqrt(complex(eps * k0**2 - (np.pi / a) ** 2))
+        b2 = np.sqrt(complex(k0**2 - (np.pi / a) ** 2))
+        half_trace = (np.cos(b1 * d1) * np.cos(b2 * d2)
+                      - 0.5 * (b1 / b2 + b2 / b1) * np.sin(b1 * d1) * np.sin(b2 * d2))
+        assert half_trace.real == pytest.approx(np.cos(phase), abs=1e-9)
+    assert f[1] > 2 * f[0]
