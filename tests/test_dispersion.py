@@ -126,3 +126,15 @@ def test_phases_solved_in_two_processes_equal_those_solved_here(tmp_path):
     for a, b in zip(here["bands"], there["bands"]):
         assert np.array(b["frequency_hz"], dtype=float) == pytest.approx(
             np.array(a["frequency_hz"], dtype=float), rel=1e-9, nan_ok=True)
+
+
+def test_one_symmetry_class_is_solved_and_both_are_refused(tmp_path):
+    # TE10 has no tangential H on the guide's middle plane x = a/2: a PMC cut keeps its
+    # band (Pozar §3.3); "both" would be two dispersions in one
+    text = GUIDE + '[dispersion]\nvalues = ["90 deg"]\n[symmetry]\nx = "pmc"\n'
+    document, _ = run_dispersion(_write(tmp_path, text), out=tmp_path / "out")
+    assert document["bands"][0]["frequency_hz"][0] == pytest.approx(te_m0(1, math.pi / 2),
+                                                                   rel=4e-3)
+    with pytest.raises(InputError, match="one symmetry class") as caught:
+        run_dispersion(_write(tmp_path, text.replace('"pmc"', '"both"')), out=tmp_path / "b")
+    assert caught.value.field == "symmetry"

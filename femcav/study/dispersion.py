@@ -39,7 +39,7 @@ from ..post.field_overlap import Overlaps
 from ..post.group_velocity import energy_velocity
 from ..post.mode_matching import clusters, match_modes
 from ..progress import SILENT, Progress
-from ..runner import choose_form
+from ..runner import choose_form, symmetry_classes
 from ..solver import solve_model
 from .fingerprint import point_fingerprint
 from .folder_lock import folder_lock
@@ -99,6 +99,7 @@ def run_dispersion(path: str | Path, *, out: str | Path | None = None, jobs: int
         if spec.pair >= len(case.periodic):
             raise InputError(f"the case has {len(case.periodic)} periodic pair(s)",
                              field=f"{WHERE}.pair")
+        cut_walls(case)
     except InputError as exc:
         raise in_case(exc, str(path)) from None
     if isinstance(jobs, bool) or not isinstance(jobs, int) or jobs < 1:
@@ -127,7 +128,7 @@ def run_dispersion(path: str | Path, *, out: str | Path | None = None, jobs: int
             progress.step(f"phase {index + 1}/{len(phases)}: "
                           f"{math.degrees(phases[index]):.6g} deg: {lowest} GHz ... "
                           f"({point.seconds:.2f} s)")
-        model = case_model(case, mesh)
+        model = case_model(case, mesh, extra_walls=cut_walls(case))
         document = dispersion_document(case, model, spec, [done[i] for i in range(len(phases))])
         with staged_output(folder, kind="dispersion") as files:
             files.write_text("dispersion.json", strict_json.dumps(document, indent=1))
@@ -139,12 +140,22 @@ def run_dispersion(path: str | Path, *, out: str | Path | None = None, jobs: int
     return document, folder
 
 
+def cut_walls(case) -> dict:
+    """The kinds of the symmetry cut faces: one class only (the bands of two classes are
+    two dispersions)."""
+    classes = symmetry_classes(case.symmetry)
+    if len(classes) > 1:
+        raise InputError('a dispersion takes one symmetry class: give each [symmetry] axis '
+                         '"pec" or "pmc", not "both"', field="symmetry")
+    return classes[0]
+
+
 def solve_phase(task) -> tuple[PointResult, int]:
     """One phase on the given mesh (in this process or a worker): the case is read and
     checked again, so a task carries only the case's path and the mesh."""
     path, mesh, pair_index, phase, fingerprint, index = task
     case = load_case(path)
-    model = case_model(case, mesh)
+    model = case_model(case, mesh, extra_walls=cut_walls(case))
     pairs = list(model.periodic)
     pairs[pair_index] = replace(pairs[pair_index], phase_rad=phase)
     solve = case.solve
