@@ -295,3 +295,26 @@ def test_layer_band_reference_meets_the_closed_forms():
                       - 0.5 * (b1 / b2 + b2 / b1) * np.sin(b1 * d1) * np.sin(b2 * d2))
         assert half_trace.real == pytest.approx(np.cos(phase), abs=1e-9)
     assert f[1] > 2 * f[0]
+
+
+def test_wall_loss_of_a_travelling_wave_gives_the_guide_attenuation():
+    # a copper WR-90 cell: Q = ωW/P per cell and v_g give α = ω / (2 Q v_g) (power falls
+    # as e^{-2αz}), against the TE10 attenuation α_c = R_s (2bπ² + a³k²) / (a³ b β k η)
+    # (Pozar §3.3, eq. 3.96; from memory)
+    from scipy.constants import epsilon_0, mu_0
+
+    from femcav.post.group_velocity import energy_velocity
+
+    a, b, length, sigma, phase = 0.02286, 0.01016, 0.010, 5.8e7, np.pi / 3
+    walls = {w: Wall("metal", conductivity=sigma) for w in ("x_min", "x_max", "y_min", "y_max")}
+    model = make_model(tagged_box((a, b, length), (4, 2, 2)), {"inside": Material()}, walls,
+                       periodic=(PeriodicPair("z_min", "z_max", phase),))
+    result = solve_model(model, modes=1, order=3, form="H")
+    mode = result.modes[0]
+    omega = 2 * np.pi * mode.frequency_hz
+    alpha = omega / (2 * mode.losses.q_wall
+                     * energy_velocity(result.space, mode.dofs, omega, (0, 0, 1)))
+    k, beta = omega / C0, phase / length
+    rs, eta = np.sqrt(omega * mu_0 / (2 * sigma)), np.sqrt(mu_0 / epsilon_0)
+    assert alpha == pytest.approx(rs * (2 * b * np.pi**2 + a**3 * k**2)
+                                  / (a**3 * b * beta * k * eta), rel=1e-3)
