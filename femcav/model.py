@@ -74,7 +74,7 @@ def make_model(mesh: TaggedMesh, materials: dict[str, Material], walls: dict[str
             material.check(points, field=f"regions.{name}")
         except InputError as exc:
             raise exc.located(source=source) from None
-    for i, pair in enumerate(periodic):
+    for pair in periodic:
         for name in (pair.wall_a, pair.wall_b):
             if name not in mesh.wall_names:
                 raise InputError(f"the mesh has no surface named {name!r} for a periodic pair; "
