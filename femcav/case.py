@@ -21,11 +21,11 @@ from .errors import InputError
 from .expressions import Expression
 from .geometry import BUILDERS, build_part, builder_layout, read_mesh
 from .geometry.mesh import TaggedMesh
-from .geometry.names import check_case_names
+from .geometry.names import check_case_names, part_names
 from .geometry.params import checked_length, parse_params
 from .materials import VACUUM, Material
 from .metals import CONDUCTIVITY_S_PER_M
-from .model import Model, make_model
+from .model import Model, PeriodicPair, make_model
 from .post.probes import ProbeSpec
 from .post.beam import BeamRequest
 from .schema import check_table, read
@@ -96,6 +96,7 @@ class Case:
     beam: BeamRequest | None = None    # [beam]: figures along a beam line (post.beam)
     # [tolerances] samples: a Monte-Carlo draw of those lengths (femcav.study.monte_carlo)
     tolerance_samples: object = None
+    periodic: tuple[PeriodicPair, ...] = ()   # [periodic] / [[periodic]]: a periodic cell
 
 
 def in_case(exc: InputError, source: str | None) -> InputError:
@@ -161,12 +162,47 @@ def case_from_data(data: dict, path: Path) -> Case:
         filling_axis = _filling_axis(_table(data, "filling"))
         beam = _beam(data["beam"], geometry, solve, symmetry) if "beam" in data else None
         samples = parse_monte_carlo(_table(data, "tolerances"), tolerances)
+        periodic = _periodic(data.get("periodic"), geometry, walls, solve)
     except InputError as exc:
         raise in_case(exc, source) from None
     return Case(path=path, title=title, geometry=geometry, regions=regions, walls=walls,
                 solve=solve, mesh=mesh, symmetry=symmetry, tolerances=tolerances,
                 probes=probes, filling_axis=filling_axis, beam=beam,
-                tolerance_samples=samples)
+                tolerance_samples=samples, periodic=periodic)
+
+
+def _periodic(spec, geometry: GeometrySpec, walls: dict, solve: SolveSpec
+              ) -> tuple[PeriodicPair, ...]:
+    """[periodic], or up to three [[periodic]] tables: the face pairs of a periodic cell."""
+    if spec is None:
+        return ()
+    if solve.azimuthal_orders is not None:
+        raise InputError("periodic cells of bodies of revolution are not supported yet; solve "
+                         "the 3D part (drop solve.azimuthal_orders)", field="periodic")
+    tables = [spec] if isinstance(spec, dict) else spec
+    surfaces = (part_names(geometry.builder, geometry.parameters).walls
+                if geometry.builder is not None else None)
+    pairs = []
+    for i, table in enumerate(tables):
+        where = "periodic" if isinstance(spec, dict) else f"periodic[{i}]"
+        check_table(table, schema.PERIODIC, where)
+        if "pair" not in table:
+            raise InputError('needs pair = ["FIRST_FACE", "SECOND_FACE"]', field=f"{where}.pair")
+        first, second = table["pair"]
+        if first == second:
+            raise InputError("a pair needs two different faces", field=f"{where}.pair")
+        for name in (first, second):
+            if surfaces is not None and name not in surfaces:
+                raise InputError(f"this {geometry.builder} has no wall {name!r}; its walls "
+                                 f"are {', '.join(map(repr, surfaces))}", field=f"{where}.pair")
+            if name in walls:
+                raise InputError(f"{name!r} is a periodic face, which takes no wall kind",
+                                 field=f"walls.{name}")
+            if any(name in (p.wall_a, p.wall_b) for p in pairs):
+                raise InputError(f"the face {name!r} is in two periodic pairs",
+                                 field=f"{where}.pair")
+        pairs.append(PeriodicPair(first, second, read(table, "phase", schema.PERIODIC, where)))
+    return tuple(pairs)
 
 
 UNIFORM_STD = 1 / math.sqrt(3)   # standard deviation of U(-1, 1) (common practice)
@@ -348,7 +384,8 @@ def case_model(case: Case, mesh: TaggedMesh | None = None,
     """The model of ``case`` (materials as in case_materials)."""
     mesh = mesh if mesh is not None else build_mesh(case)
     return make_model(mesh, case_materials(case, mesh.region_names),
-                      {**case.walls, **(extra_walls or {})}, source=str(case.path))
+                      {**case.walls, **(extra_walls or {})}, source=str(case.path),
+                      periodic=case.periodic)
 
 
 def case_materials(case: Case, region_names) -> dict[str, Material]:

@@ -9,8 +9,11 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
+import numpy as np
+
 from .case_parameters import Axis, parameter_kind, parse_axis, varied_value
 from .errors import InputError
+from . import schema
 from .schema import EXTRACT, SWEEP, TUNE, check_table, read
 
 # The most points a sweep may have (each parameter is capped at case_parameters.MAX_VALUES).
@@ -117,3 +120,39 @@ def parse_extract(data: dict) -> ExtractSpec:
                        empty_q=v["empty_q"], loaded_hz=v["loaded_frequency"],
                        loaded_q=v["loaded_q"], eps_bracket=tuple(sorted(bracket)),
                        tolerance=v["tolerance"])
+
+
+WHERE = "dispersion"    # the [dispersion] table (femcav dispersion)
+
+
+@dataclass(frozen=True)
+class DispersionSpec:
+    phases_rad: tuple[float, ...]     # ascending
+    pair: int                         # 0-based index into the case's periodic pairs
+
+
+def parse_dispersion(spec) -> DispersionSpec:
+    """[dispersion]: ``values``, or ``from``, ``to`` and ``points`` (phases); ``pair``."""
+    if spec is None:
+        raise InputError("the case has no [dispersion] table; add one with from, to and points "
+                         '(e.g. from = "0 deg", to = "180 deg", points = 7) or values',
+                         field=WHERE)
+    schema.check_table(spec, schema.DISPERSION, WHERE)
+    table = schema.DISPERSION
+    if "values" in spec:
+        extra = sorted({"from", "to", "points"} & set(spec))
+        if extra:
+            raise InputError(f"give values, or from, to and points, not both ({extra[0]})",
+                             field=f"{WHERE}.{extra[0]}")
+        phases = schema.read(spec, "values", table, WHERE)
+        if not phases:
+            raise InputError("needs at least one phase", field=f"{WHERE}.values")
+    else:
+        for key in ("from", "to", "points"):
+            if key not in spec:
+                raise InputError(f"needs {key} (or values)", field=f"{WHERE}.{key}")
+        start, stop = (schema.read(spec, k, table, WHERE) for k in ("from", "to"))
+        phases = list(np.linspace(start, stop, schema.read(spec, "points", table, WHERE)))
+    unique = sorted(set(float(p) for p in phases))
+    return DispersionSpec(phases_rad=tuple(unique),
+                          pair=schema.read(spec, "pair", table, WHERE) - 1)

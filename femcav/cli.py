@@ -71,6 +71,16 @@ def _parser() -> argparse.ArgumentParser:
         "table until the chosen mode (followed by field overlap) sits on the target; solve "
         "the result again with error bars; write tune.json.")
     _cluster_option(tune)
+    dispersion = _study_parser(
+        commands, "dispersion",
+        "solve a periodic cell at a row of phase advances and follow its bands",
+        "Mesh the periodic cell of CASE once, solve it at every phase advance of its "
+        "[dispersion] table, follow the bands from phase to phase by field overlap, and write "
+        "dispersion.json, dispersion.csv (frequency, phase and group velocities per band and "
+        "phase) and dispersion.png into the output folder. Phases already in the folder are "
+        "reused, on their mesh: an interrupted dispersion resumes.")
+    dispersion.add_argument("--jobs", metavar="N", type=int, default=1,
+                            help="phases solved at once in separate processes (default 1)")
     _study_parser(
         commands, "extract",
         "find a sample's eps_r and loss tangent from measured f and Q, by the full model",
@@ -125,6 +135,7 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_INPUT_ERROR
     try:
         return {"mesh": _mesh, "sweep": _sweep, "tune": _tune, "extract": _extract,
+                "dispersion": _dispersion,
                 "show": _show, "verify": verification_command.run}.get(args.command,
                                                                        _solve)(args)
     except InputError as exc:
@@ -247,6 +258,17 @@ def _sweep(args) -> int:
     print("\n".join(summary_lines(document)))
     print(f"results: {folder}")
     return exit_codes.CHECKS_FAILED if document.get("failed_points") else 0
+
+
+def _dispersion(args) -> int:
+    from .progress import Progress
+    from .study.dispersion import checks_failed, run_dispersion, summary_lines
+
+    document, folder = run_dispersion(args.case, out=args.out, jobs=args.jobs,
+                                      progress=Progress(quiet=args.quiet))
+    print("\n".join(summary_lines(document)))
+    print(f"results: {folder}")
+    return exit_codes.CHECKS_FAILED if checks_failed(document) else 0
 
 
 def _tune(args) -> int:

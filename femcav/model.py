@@ -13,6 +13,17 @@ from .wall_resistance import has_surface_resistance
 from .walls import KINDS, METAL, Wall, WallKinds
 
 FORMS = ("E", "H")
+# The kind of a face that a periodic pair ties to its partner: no wall condition of its own.
+PERIODIC = "periodic"
+
+
+@dataclass(frozen=True)
+class PeriodicPair:
+    """Fields on ``wall_b`` are those on ``wall_a`` (a translate of it) times e^{-j phase}."""
+
+    wall_a: str
+    wall_b: str
+    phase_rad: float
 
 
 @dataclass(frozen=True)
@@ -20,10 +31,16 @@ class Model(WallKinds):
     mesh: TaggedMesh
     materials: dict[str, Material]
     walls: dict[str, Wall] = field(default_factory=dict)
+    periodic: tuple[PeriodicPair, ...] = ()     # a periodic cell's face pairs (fem.periodic)
+
+    def wall_kind(self, wall_name: str) -> str:
+        if any(wall_name in (p.wall_a, p.wall_b) for p in self.periodic):
+            return PERIODIC
+        return super().wall_kind(wall_name)
 
 
 def make_model(mesh: TaggedMesh, materials: dict[str, Material], walls: dict[str, Wall],
-               *, source: str | None = None) -> Model:
+               *, source: str | None = None, periodic: tuple[PeriodicPair, ...] = ()) -> Model:
     """Check that case and mesh name the same regions and existing walls, then pair them."""
     missing = sorted(set(materials) - set(mesh.region_names))
     if missing:
@@ -57,7 +74,14 @@ def make_model(mesh: TaggedMesh, materials: dict[str, Material], walls: dict[str
             material.check(points, field=f"regions.{name}")
         except InputError as exc:
             raise exc.located(source=source) from None
-    return Model(mesh=mesh, materials=dict(materials), walls=dict(walls))
+    for pair in periodic:
+        for name in (pair.wall_a, pair.wall_b):
+            if name not in mesh.wall_names:
+                raise InputError(f"the mesh has no surface named {name!r} for a periodic pair; "
+                                 f"its named surfaces are {_listing(mesh.wall_names)}",
+                                 source=source, field="periodic.pair")
+    return Model(mesh=mesh, materials=dict(materials), walls=dict(walls),
+                 periodic=tuple(periodic))
 
 
 def check_wall(name: str, wall: Wall, source: str | None = None) -> None:

@@ -367,8 +367,8 @@ def _with_labels(case: Case, result: SolveResult) -> SolveResult:
     from .post.fields import centroid_basis, centroid_materials, mode_fields
 
     g = case.geometry
-    if g.builder is None:
-        return result
+    if g.builder is None or case.periodic:   # the labels name standing waves, not a
+        return result                         # periodic cell's travelling ones
     if g.builder == "box" and not case.symmetry:
         def label(points, w, f):
             return classify.box_label(points, w, f.E, f.H, (g.parameters["width"],

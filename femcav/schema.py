@@ -188,6 +188,11 @@ QUALITY_FACTOR = Range(1.0, 1e12)
 EXPRESSION_MAX_CHARS = 2000
 EXPRESSION_MAX_DEPTH = 100
 
+# A periodic cell: at most three face pairs (a 3D lattice cell), phases within one turn
+# either way (a bare number is radians).
+MAX_PERIODIC_PAIRS = 3
+PHASE = Range(-2 * math.pi, 2 * math.pi)
+
 # --- Tables ----------------------------------------------------------------------------------
 
 LENGTH = Key(QUANTITY, unit="length", range=POSITIVE)
@@ -197,8 +202,9 @@ TOP = Table({
     "title": Key(STRING), "geometry": Key(TABLE), "mesh": Key(TABLE), "regions": Key(TABLE),
     "walls": Key(TABLE), "symmetry": Key(TABLE), "solve": Key(TABLE), "sweep": Key(TABLE),
     "tune": Key(TABLE), "extract": Key(TABLE), "tolerances": Key(TABLE),
-    "probes": Key(TABLE), "filling": Key(TABLE),
-    "tune": Key(TABLE), "extract": Key(TABLE), "tolerances": Key(TABLE), "beam": Key(TABLE),
+    "probes": Key(TABLE), "filling": Key(TABLE), "beam": Key(TABLE),
+    "periodic": Key(either(TABLE, list_of(TABLE, at_most=MAX_PERIODIC_PAIRS))),
+    "dispersion": Key(TABLE),
 })
 
 GEOMETRY_MESH = Table({
@@ -341,6 +347,23 @@ BEAM = Table({
     "velocity": Key(NUMBER, range=BEAM_VELOCITY, default=1.0, doc="a fraction of c"),
     "active_length": Key(QUANTITY, unit="length", range=POSITIVE,
                          doc="the length E_acc is quoted over (default: the line's)"),
+})
+
+# [periodic] (or [[periodic]], up to three): the fields on the second face of ``pair`` are
+# those on the first, moved onto it, times e^{-j phase} (femcav.fem.periodic).
+PERIODIC = Table({
+    "pair": Key(list_of(STRING, 2), doc="two surfaces, the second a translate of the first"),
+    "phase": Key(QUANTITY, unit="angle", range=PHASE, default=0.0,
+                 doc='the phase advance per cell: "120 deg", "2.0944 rad"'),
+})
+# [dispersion] (femcav dispersion): the phases of the first pair to solve at.
+DISPERSION = Table({
+    "from": Key(QUANTITY, unit="angle", range=PHASE),
+    "to": Key(QUANTITY, unit="angle", range=PHASE),
+    "points": Key(WHOLE, range=STUDY_POINTS),
+    "values": Key(list_of(QUANTITY, at_most=MAX_STUDY_VALUES), unit="angle", range=PHASE),
+    "pair": Key(WHOLE, range=Range(1, MAX_PERIODIC_PAIRS), default=1,
+                doc="which [[periodic]] pair's phase varies (the others keep theirs)"),
 })
 
 # The quantities a study may vary (femcav.case_parameters): the key each value goes to.

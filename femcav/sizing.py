@@ -60,5 +60,6 @@ def builder_sizing(case, layout: Layout, *, section: bool = False) -> Sizing:
         size = DEFAULT_SIZE_FRACTION * layout.extent()
     return Sizing(size=size, region_sizes=region_sizes, edge_factor=spec.edge_refinement,
                   curved=spec.curved,
+                  periodic_faces=tuple((p.wall_a, p.wall_b) for p in getattr(case, "periodic", ())),
                   solve_order=(case.solve.order if section == (case.solve.azimuthal_orders
                                                                is not None) else None))

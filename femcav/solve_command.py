@@ -111,5 +111,9 @@ def model_summary(case: Case, result) -> dict:
                     "temperature_k": w.temperature,
                     "residual_resistance_ohm": w.residual_resistance}
              for name, w in case.walls.items()}
-    return {"geometry": geometry, "regions": regions, "walls": walls,
-            "symmetry": {axis: list(kinds) for axis, kinds in case.symmetry.items()}}
+    summary = {"geometry": geometry, "regions": regions, "walls": walls,
+               "symmetry": {axis: list(kinds) for axis, kinds in case.symmetry.items()}}
+    if case.periodic:     # a periodic cell: its face pairs and phases
+        summary["periodic"] = [{"pair": [p.wall_a, p.wall_b], "phase_rad": p.phase_rad}
+                               for p in case.periodic]
+    return summary

@@ -233,8 +233,9 @@ def solve_space(space: EdgeSpace, *, modes: int, near_hz: float | None,
     pencil = ClassPencil(K, M, G, lowest_scale=scale, order=order, hermitian=space.hermitian,
                          auxiliary=partial(auxiliary_space, space))
     t0 = time.perf_counter()
-    pairs = solve_class(pencil, count=modes, target=target, method=method,
-                        factorization=factorization, progress=progress)
+    # room for a periodic cell's constant fields (one per pair at phase 0; dropped as static)
+    pairs = solve_class(pencil, count=modes + len(model.periodic), target=target,
+                        method=method, factorization=factorization, progress=progress)
     timings["eigen_s"] = time.perf_counter() - t0
     chosen = select_union({None: pairs}, modes, target)
     values = np.array([c.value for c in chosen])
@@ -247,6 +248,9 @@ def solve_space(space: EdgeSpace, *, modes: int, near_hz: float | None,
                     for i, (value, check) in enumerate(zip(values, checks))]
     if post:
         result_modes = with_loss_warnings(result_modes, model.walls)
+    if model.periodic:    # a periodic cell's modes: the phase advance of its first pair
+        result_modes = [replace(m, phase_advance_rad=model.periodic[0].phase_rad)
+                        for m in result_modes]
     progress.step(f"eigen solve done: {len(result_modes)} modes in {timings['eigen_s']:.2f} s")
     return SolveResult(modes=result_modes, space=space, dofs=space.n_dofs,
                        elements=int(space.mesh.nelements),

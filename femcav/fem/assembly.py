@@ -42,7 +42,8 @@ def assemble(space: EdgeSpace):
     Real coefficients are gathered as the real and imaginary parts of one complex matrix,
     so that the summation of element contributions runs once (it is most of the assembly
     time on high-order meshes); complex ones are summed apart."""
-    if np.iscomplexobj(space.stiffness_coef) or np.iscomplexobj(space.mass_coef):
+    if (np.iscomplexobj(space.stiffness_coef) or np.iscomplexobj(space.mass_coef)
+            or space.constraint.dtype.kind == "c"):   # a phase-linked (periodic) constraint
         return (assemble_stiffness(space, space.stiffness_coef),
                 assemble_mass(space, space.mass_coef))
     combined = _reduced_csr(space, _element_matrices(space, space.stiffness_coef, curl=True)

@@ -19,6 +19,7 @@ from .coefficients import HERMITIAN, as_tensor, inverse, isotropic_part, pencil_
 from .constraints import Constraint
 from .lagrange import ElementTetLagrange
 from .nedelec import ElementTetNedelec
+from .periodic import periodic_constraints
 from .point_location import evaluation_matrix
 
 
@@ -144,6 +145,9 @@ def build_space(model: Model, form: str = "E", order: int = 1, *,
                     else np.zeros(0, dtype=np.int64))
     scalar_constraint = Constraint.keeping(scalar_dofs.N, _ground(
         mesh, np.setdiff1d(np.arange(scalar_dofs.N), fixed_scalar)))
+    if model.periodic:   # a periodic cell: one face's DOFs follow the other's (fem.periodic)
+        constraint, scalar_constraint = periodic_constraints(
+            model, mesh, facet_wall, dofs, scalar_dofs, fixed, fixed_scalar, order)
 
     eps, mu = _coefficients(model, mesh.mapping().F(quadrature[0]),
                             losses_inside=losses_inside)

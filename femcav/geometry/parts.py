@@ -19,6 +19,7 @@ import numpy as np
 from .gmsh_session import gmsh_model, write_and_read
 from .mesh import TaggedMesh
 from .mesh_budget import check_mesh_budget
+from .periodic_faces import copy_face_meshes
 from .solids import Box, Solid
 
 AXES = "xyz"
@@ -59,6 +60,9 @@ class Sizing:
     # the element order the mesh will be solved at: the element budget (mesh_budget.py) then
     # keeps memory for that solve; None: for meshing alone
     solve_order: int | None = None
+    # (first, second) wall names: the second face meshed as a copy of the first, moved onto
+    # it (a periodic cell: geometry.periodic_faces)
+    periodic_faces: tuple[tuple[str, str], ...] = ()
 
 
 def symmetry_wall_name(axis: str) -> str:
@@ -94,6 +98,7 @@ def mesh_layout(layout: Layout, sizing: Sizing, cuts: dict[str, float] | None = 
 
         walls = _name_walls(gmsh, layout, cuts, tol)
         _set_sizes(gmsh, layout, sizing, region_of, walls)
+        copy_face_meshes(gmsh, walls, sizing.periodic_faces, tol)
         gmsh.model.mesh.generate(3)
         if sizing.curved:
             # Second-order nodes placed on the CAD surfaces: the elements follow curved walls

@@ -2,7 +2,9 @@
 
 Cell data (values at element centroids, 1 J stored energy per mode): ``region`` (region id),
 and per mode K (two digits): ``mK_E`` (V/m), ``mK_H`` (A/m, in quadrature with E),
-``mK_we`` and ``mK_wm`` (time-averaged electric and magnetic energy density, J/m³).
+``mK_we`` and ``mK_wm`` (time-averaged electric and magnetic energy density, J/m³); a
+periodic cell's complex mode adds ``mK_E_quarter`` and ``mK_H_quarter``, the fields a quarter
+period later (the imaginary parts).
 The metal walls go into a second file with the loss per area of every mode.
 """
 
@@ -10,6 +12,8 @@ from __future__ import annotations
 
 import math
 from pathlib import Path
+
+import numpy as np
 
 from ..post.fields import centroid_basis, centroid_materials, mode_fields
 from ..solver import SolveResult
@@ -27,8 +31,11 @@ def write_vtu(result: SolveResult, path: Path) -> None:
         fields = mode_fields(space, mode.dofs, 2 * math.pi * mode.frequency_hz, materials,
                              basis)
         tag = f"m{mode.index:02d}"
-        data[f"{tag}_E"] = [fields.E]
-        data[f"{tag}_H"] = [fields.H]
+        data[f"{tag}_E"] = [fields.E.real]
+        data[f"{tag}_H"] = [fields.H.real]
+        if np.iscomplexobj(fields.E):   # a periodic cell's travelling wave: a quarter period on
+            data[f"{tag}_E_quarter"] = [fields.E.imag]
+            data[f"{tag}_H_quarter"] = [fields.H.imag]
         data[f"{tag}_we"] = [fields.w_e]
         data[f"{tag}_wm"] = [fields.w_m]
     meshio.write(str(path), meshio.Mesh(tm.points, [("tetra", tm.tets)], cell_data=data),

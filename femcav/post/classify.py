@@ -30,6 +30,7 @@ MAX_HARMONIC = 6
 
 
 def field_class(E: np.ndarray, H: np.ndarray, w: np.ndarray) -> str:
+    E, H = np.abs(E), np.abs(H)      # complex in a periodic cell
     ez = np.sum(w * E[:, 2] ** 2) / max(np.sum(w * np.sum(E**2, axis=1)), 1e-300)
     hz = np.sum(w * H[:, 2] ** 2) / max(np.sum(w * np.sum(H**2, axis=1)), 1e-300)
     return class_from_shares(float(ez), float(hz))

@@ -71,7 +71,9 @@ def result_overlaps(coarse, fine) -> Overlaps:
     """Overlaps of every mode of the result ``coarse`` with every mode of ``fine``, space by
     space (``mode_spaces()``: (key, space, positions of its modes)); 0 across spaces."""
     n_c, n_f = len(coarse.modes), len(fine.modes)
-    matrix, inner, gram = np.zeros((n_c, n_f)), np.zeros((n_c, n_f)), np.eye(n_c)
+    complex_fields = any(np.iscomplexobj(m.dofs) for m in (*coarse.modes, *fine.modes))
+    kind = complex if complex_fields else float
+    matrix, inner, gram = np.zeros((n_c, n_f)), np.zeros((n_c, n_f), kind), np.eye(n_c, dtype=kind)
     fine_spaces = {key: (space, positions) for key, space, positions in fine.mode_spaces()}
     for key, space, rows in coarse.mode_spaces():
         if key not in fine_spaces or not rows:

@@ -52,8 +52,10 @@ def mode_fields(space: EdgeSpace, dofs: np.ndarray, omega: float,
                 basis=None) -> CentroidFields:
     """Fields of one mode; ``dofs`` are over all edges and M-normalised (xᵀ M x = 1);
     ``basis`` is centroid_basis(space), built here when not given. A complex mode (losses
-    inside the solve) is turned to the phase where its field is most nearly real; E and H
-    are then that phase's real parts, the energy densities time averages of the whole."""
+    inside the solve, a periodic cell) is turned to the phase where its field is most nearly
+    real; E and H are then complex (their real parts are that phase's snapshot, their
+    imaginary parts the snapshot a quarter period later) and the energy densities are time
+    averages of the whole."""
     centroid = centroid_basis(space) if basis is None else basis
     if np.iscomplexobj(dofs):
         dofs = most_real_phase(dofs)
@@ -67,9 +69,10 @@ def mode_fields(space: EdgeSpace, dofs: np.ndarray, omega: float,
     else:
         H = value * np.sqrt(2.0 / mu_0)
         E = curl * np.sqrt(2.0 / mu_0) / (omega * epsilon_0 * eps[:, None])
+    # |E|², |H|²: complex fields (a periodic cell's travelling waves, a lossy mode)
     w_e = 0.25 * epsilon_0 * eps * np.sum(np.abs(E) ** 2, axis=1)
     w_m = 0.25 * mu_0 * mu * np.sum(np.abs(H) ** 2, axis=1)
-    return CentroidFields(E=E.real, H=H.real, w_e=w_e, w_m=w_m)
+    return CentroidFields(E=E, H=H, w_e=w_e, w_m=w_m)
 
 
 def most_real_phase(x: np.ndarray) -> np.ndarray:

@@ -64,13 +64,14 @@ def subspace_overlaps(overlaps: Overlaps, coarse_clusters: list[list[int]],
     out = np.abs(inner).copy()
     for group in fine_clusters:
         if len(group) > 1:  # fine modes are orthonormal: the projection is a sum of squares
-            norm = np.sqrt(np.sum(inner[:, group] ** 2, axis=1))
+            norm = np.sqrt(np.sum(np.abs(inner[:, group]) ** 2, axis=1))   # complex: periodic
             out[:, group] = np.maximum(out[:, group], norm[:, None])
     for group in coarse_clusters:
         if len(group) > 1:  # transferred coarse fields are only nearly orthonormal
             v = inner[group, :]
             gram = overlaps.coarse_gram[np.ix_(group, group)]
-            norm = np.sqrt(np.maximum(np.einsum("aj,aj->j", v, np.linalg.solve(gram, v)), 0))
+            norm = np.sqrt(np.maximum(np.einsum("aj,aj->j", v.conj(),
+                                                np.linalg.solve(gram, v)).real, 0))
             out[group, :] = np.maximum(out[group, :], norm[None, :])
     return np.minimum(out, 1.0)
 

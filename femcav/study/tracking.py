@@ -16,12 +16,13 @@ from itertools import pairwise
 from ..post.mode_matching import result_partners
 
 
-def track(results, count: int) -> list[list[int | None]]:
+def track(results, count: int, partners=result_partners) -> list[list[int | None]]:
     """tracks[k][i]: the 0-based index, in results[i].modes, of the mode that the k-th mode
-    of results[0] has become (None once the track has ended)."""
+    of results[0] has become (None once the track has ended). ``partners(previous,
+    current)``: each current mode's partner among the previous ones (-1: none)."""
     tracks = [[k] for k in range(min(count, len(results[0].modes)))]
     for previous, current in pairwise(results):
-        partner = result_partners(previous, current)
+        partner = partners(previous, current)
         successor = {int(p): j for j, p in enumerate(partner) if p >= 0}
         for t in tracks:
             t.append(None if t[-1] is None else successor.get(t[-1]))

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import base64
 import html
+import math
 from pathlib import Path
 
 from ..io.results import frequency_digits
@@ -124,6 +125,9 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
     if model.get("symmetry"):
         summary.append(("symmetry cuts", ", ".join(f"{a}: {'/'.join(k)}"
                                                   for a, k in model["symmetry"].items())))
+    for pair in model.get("periodic") or []:
+        summary.append((f"periodic pair {pair['pair'][0]} → {pair['pair'][1]}",
+                        f"phase advance {math.degrees(pair['phase_rad']):.6g}°"))
     summary.append(("unnamed boundaries", "PEC (the metal enclosure)"))
     summary_html = "<table>" + "".join(
         f'<tr><th>{e(k)}</th><td class="text">{e(v)}</td></tr>' for k, v in summary) + "</table>"
