@@ -61,8 +61,7 @@ def _parser() -> argparse.ArgumentParser:
         "point to point by field overlap, and write sweep.json, sweep.csv and mode_chart.png "
         "into the output folder. Points already in the folder are reused: an interrupted "
         "sweep resumes.")
-    sweep.add_argument("--jobs", metavar="N", type=int, default=1,
-                       help="points solved at once in separate processes (default 1)")
+    _jobs_option(sweep, "points")
     _cluster_option(sweep)
     tune = _study_parser(
         commands, "tune",
@@ -79,8 +78,7 @@ def _parser() -> argparse.ArgumentParser:
         "dispersion.json, dispersion.csv (frequency, phase and group velocities per band and "
         "phase) and dispersion.png into the output folder. Phases already in the folder are "
         "reused, on their mesh: an interrupted dispersion resumes.")
-    dispersion.add_argument("--jobs", metavar="N", type=int, default=1,
-                            help="phases solved at once in separate processes (default 1)")
+    _jobs_option(dispersion, "phases")
     _study_parser(
         commands, "extract",
         "find a sample's eps_r and loss tangent from measured f and Q, by the full model",
@@ -110,6 +108,11 @@ def _parser() -> argparse.ArgumentParser:
     mesh.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
     verification_command.add_parser(commands)
     return parser
+
+
+def _jobs_option(parser, what: str) -> None:
+    parser.add_argument("--jobs", metavar="N", type=int, default=1,
+                        help=f"{what} solved at once in separate processes (default 1)")
 
 
 def _cluster_option(parser) -> None:

@@ -33,8 +33,7 @@ from ..fem.assembly import assemble_mass
 from ..fem.constraints import Constraint
 from ..fem.periodic import FacePairing
 from ..fem.space import build_space
-from ..io import strict_json
-from ..io.atomic import check_output_folder, remove_stale_temporaries, staged_output
+from ..io.atomic import check_output_folder, remove_stale_temporaries
 from ..post.field_overlap import Overlaps
 from ..post.group_velocity import energy_velocity
 from ..post.mode_matching import clusters, match_modes
@@ -44,6 +43,7 @@ from ..solver import solve_model
 from .fingerprint import point_fingerprint
 from .folder_lock import folder_lock
 from .point_store import PointResult, load_point, save_point
+from .sweep import write_study_files
 from .tracking import track
 from .workers import stop_workers, submit_without_ctrl_c, usable_jobs, worker_pool
 
@@ -97,12 +97,9 @@ def run_dispersion(path: str | Path, *, out: str | Path | None = None, jobs: int
                           f"({point.seconds:.2f} s)")
         model = case_model(case, mesh, extra_walls=cut_walls(case))
         document = dispersion_document(case, model, spec, [done[i] for i in range(len(phases))])
-        with staged_output(folder, kind="dispersion") as files:
-            files.write_text("dispersion.json", strict_json.dumps(document, indent=1))
-            files.write_text("dispersion.csv", dispersion_csv(document))
-            from ..viz.dispersion_chart import write_dispersion_chart
-            files.write_with("dispersion.png", lambda p: write_dispersion_chart(document, p),
-                             suffix=".png")
+        from ..viz.dispersion_chart import write_dispersion_chart
+        write_study_files(folder, "dispersion", document, dispersion_csv(document),
+                          ("dispersion.png", write_dispersion_chart))
     progress.step(f"dispersion written to {folder}")
     return document, folder
 

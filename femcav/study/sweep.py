@@ -244,14 +244,21 @@ def run_sweep(path: str | Path, *, out: str | Path | None = None, jobs: int = 1,
         document = _tracked_document(data, path, spec, base, results, progress)
         document["failed_points"] = [{"index": i + 1, "values": list(points[i]),
                                       "error": failed[i]} for i in sorted(failed)]
-        with staged_output(folder, kind="sweep") as files:
-            files.write_text("sweep.json", strict_json.dumps(document, indent=1))
-            files.write_text("sweep.csv", sweep_csv(document))
-            from .chart import write_mode_chart
-            files.write_with("mode_chart.png", lambda p: write_mode_chart(document, p),
-                             suffix=".png")
+        from .chart import write_mode_chart
+        write_study_files(folder, "sweep", document, sweep_csv(document),
+                          ("mode_chart.png", write_mode_chart))
     progress.step(f"sweep written to {folder}")
     return document, folder
+
+
+def write_study_files(folder: Path, kind: str, document: dict, csv_text: str, chart) -> None:
+    """KIND.json, KIND.csv and the chart (name, writer(document, path)) in one staged
+    output: all of them, or none and the previous ones kept."""
+    name, writer = chart
+    with staged_output(folder, kind=kind) as files:
+        files.write_text(f"{kind}.json", strict_json.dumps(document, indent=1))
+        files.write_text(f"{kind}.csv", csv_text)
+        files.write_with(name, lambda p: writer(document, p), suffix=".png")
 
 
 def _reusable_points(folder: Path, fingerprints: list[str], progress: Progress) -> dict:
