@@ -176,10 +176,10 @@ def _periodic(spec, geometry: GeometrySpec, walls: dict, solve: SolveSpec
     """[periodic], or up to three [[periodic]] tables: the face pairs of a periodic cell."""
     if spec is None:
         return ()
-    if solve.azimuthal_orders is not None:
-        raise InputError("periodic cells of bodies of revolution are not supported yet; solve "
-                         "the 3D part (drop solve.azimuthal_orders)", field="periodic")
     tables = [spec] if isinstance(spec, dict) else spec
+    if solve.azimuthal_orders is not None and len(tables) > 1:
+        raise InputError("a body of revolution repeats along z only: one [periodic] pair "
+                         "(its two end lines)", field="periodic")
     surfaces = (part_names(geometry.builder, geometry.parameters).walls
                 if geometry.builder is not None else None)
     pairs = []

@@ -74,10 +74,12 @@ def test_mistakes_are_refused_at_their_key(tmp_path, table, field, words):
     assert caught.value.field == field
 
 
-def test_bodies_of_revolution_are_refused_for_now(tmp_path):
+def test_a_body_of_revolution_takes_one_pair_only(tmp_path):
+    # periodic along z only: its two end lines (tests/test_periodic_section.py solves it)
     text = PIPE.replace("order = 2", "order = 2\nazimuthal_orders = [0]")
-    with pytest.raises(InputError, match="bodies of revolution") as caught:
-        _case(tmp_path, text + '[periodic]\npair = ["bottom", "top"]\n')
+    with pytest.raises(InputError, match="repeats along z only") as caught:
+        _case(tmp_path, text + '[[periodic]]\npair = ["bottom", "top"]\n'
+                               '[[periodic]]\npair = ["side", "axis"]\n')
     assert caught.value.field == "periodic"
 
 

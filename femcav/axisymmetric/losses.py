@@ -47,11 +47,16 @@ def _parts(space: OrderSpace, e, u, r):
     |∇×F|² r = |∇u + m f_t|² / r + r (curl f_t)²."""
     f_t = np.asarray(e.value)
     meridional = np.asarray(u.grad) + space.m * f_t
-    field = r * np.sum(f_t**2, axis=0) + np.asarray(u.value) ** 2 / r
-    field_z = r * f_t[1] ** 2
-    curl = np.sum(meridional**2, axis=0) / r + r * np.asarray(e.curl) ** 2
-    curl_z = meridional[0] ** 2 / r
+    field = r * np.sum(_sq(f_t), axis=0) + _sq(np.asarray(u.value)) / r
+    field_z = r * _sq(f_t[1])
+    curl = np.sum(_sq(meridional), axis=0) / r + r * _sq(np.asarray(e.curl))
+    curl_z = _sq(meridional[0]) / r
     return field, field_z, curl, curl_z
+
+
+def _sq(x: np.ndarray) -> np.ndarray:
+    """|x|²: the fields of a periodic cell's modes are complex."""
+    return np.abs(x) ** 2 if np.iscomplexobj(x) else x**2
 
 
 def _energy_densities(space: OrderSpace, dofs, omega: float):
@@ -156,13 +161,13 @@ def _wall_powers(space: OrderSpace, dofs, omega: float) -> dict[str, float]:
             if space.form == "H":
                 # |H_t|² r: u² / r (azimuthal) + r (h_t · tangent)², tangent = normal turned
                 along = -np.asarray(e.value)[0] * normal[1] + np.asarray(e.value)[1] * normal[0]
-                total += float(np.sum((np.asarray(u.value) ** 2 / r + r * along**2) * dl))
+                total += float(np.sum((_sq(np.asarray(u.value)) / r + r * _sq(along)) * dl))
                 continue
             mu_r = np.array([mu_by_region[t] for t in section.tri_region[eb.tind]])
             meridional = np.asarray(u.grad) + space.m * np.asarray(e.value)
             # |curl E|_t² r: the azimuthal part and the meridional part along the wall
-            curl_t_sq = (r * np.asarray(e.curl) ** 2
-                         + np.einsum("ctq,ctq->tq", meridional, normal) ** 2 / r)
+            curl_t_sq = (r * _sq(np.asarray(e.curl))
+                         + _sq(np.einsum("ctq,ctq->tq", meridional, normal)) / r)
             total += float(np.sum(curl_t_sq / (omega * mu_0 * mu_r[:, None]) ** 2 * dl))
         wall = model.walls[name]
         out[name] = 0.5 * wall_surface_resistance(wall, omega) * total

@@ -11,7 +11,7 @@ import numpy as np
 from ..errors import InputError
 from ..geometry.meridional import AXIS, MeridionalMesh
 from ..materials import Material
-from ..model import check_wall
+from ..model import PERIODIC, PeriodicPair, check_wall
 from ..walls import Wall, WallKinds
 
 # eps_r(r cos φ, r sin φ, z) must not depend on φ by more than this, relatively
@@ -23,11 +23,18 @@ class AxisymmetricModel(WallKinds):
     section: MeridionalMesh
     materials: dict[str, Material]
     walls: dict[str, Wall] = field(default_factory=dict)
+    # a cell periodic along z: the section's boundary lines paired (axisymmetric.periodic)
+    periodic: tuple[PeriodicPair, ...] = ()
+
+    def wall_kind(self, wall_name: str) -> str:
+        if any(wall_name in (p.wall_a, p.wall_b) for p in self.periodic):
+            return PERIODIC
+        return super().wall_kind(wall_name)
 
 
 def make_axisymmetric_model(section: MeridionalMesh, materials: dict[str, Material],
-                            walls: dict[str, Wall], *, source: str | None = None
-                            ) -> AxisymmetricModel:
+                            walls: dict[str, Wall], *, source: str | None = None,
+                            periodic: tuple[PeriodicPair, ...] = ()) -> AxisymmetricModel:
     missing = sorted(set(materials) - set(section.region_names))
     if missing:
         raise InputError(f"the section has no region {missing[0]!r}; its regions are "
@@ -58,7 +65,15 @@ def make_axisymmetric_model(section: MeridionalMesh, materials: dict[str, Materi
             raise exc.located(source=source) from None
         if not material.is_uniform:
             _check_rotation_invariant(material, rz, name, source)
-    return AxisymmetricModel(section=section, materials=dict(materials), walls=dict(walls))
+    for pair in periodic:
+        for name in (pair.wall_a, pair.wall_b):
+            if name not in section.wall_names or name == AXIS:
+                raise InputError(f"the section has no boundary named {name!r}; its named "
+                                 f"boundaries are "
+                                 f"{', '.join(sorted(set(section.wall_names) - {AXIS}))}",
+                                 source=source, field="periodic.pair")
+    return AxisymmetricModel(section=section, materials=dict(materials), walls=dict(walls),
+                             periodic=tuple(periodic))
 
 
 def _check_rotation_invariant(material: Material, rz: np.ndarray, name: str, source) -> None:

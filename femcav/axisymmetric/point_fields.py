@@ -179,8 +179,8 @@ def magnetic_filling(space: OrderSpace, dofs: np.ndarray, axis) -> MagneticFilli
         h_r, h_p, h_z = H * factors[:, None, None]
         h = np.array([h_r * math.cos(phi) - h_p * math.sin(phi),
                       h_r * math.sin(phi) + h_p * math.cos(phi), h_z])
-        squared += np.sum(h**2, axis=0)
-        along += np.einsum("i,ijk->jk", np.asarray(axis), h) ** 2
+        squared += np.sum(np.abs(h) ** 2, axis=0)     # |·|²: a periodic cell's modes are
+        along += np.abs(np.einsum("i,ijk->jk", np.asarray(axis), h)) ** 2   # complex
     weight = r * eb.dx
     section = space.model.section
     return region_shares(np.sum(squared * weight, axis=1), np.sum(along * weight, axis=1),

@@ -17,6 +17,7 @@ from pathlib import Path
 import numpy as np
 from scipy.constants import epsilon_0, mu_0
 
+from ..post.fields import most_real_phase
 from .solve import AxisymmetricResult
 
 SEGMENTS = 36
@@ -27,7 +28,7 @@ def _centroid_fields(space, dofs):
     triangle centroids, without the azimuthal factors; also ε_r and μ_r there."""
     from skfem import CellBasis
 
-    full = space.constraint.expand(dofs)
+    full = space.constraint.expand(most_real_phase(dofs) if np.iscomplexobj(dofs) else dofs)
     X, W = np.array([[1 / 3], [1 / 3]]), np.array([1.0])
     eb = CellBasis(space.edge_basis.mesh, space.edge_basis.elem, quadrature=(X, W))
     nb = CellBasis(space.node_basis.mesh, space.node_basis.elem, quadrature=(X, W))
@@ -92,12 +93,15 @@ def revolved_grid(result: AxisymmetricResult, segments: int = SEGMENTS):
             parts = (("E", rotated, 1.0 / (omega * epsilon_0 * eps)), ("H", field, np.ones_like(mu)))
         cos_p, sin_p = np.cos(mid)[:, None], np.sin(mid)[:, None]
         tag = f"m{mode.index:02d}"
+        squared = {}
         for name, (a_r, a_p, a_z), factor in parts:
             vec = (np.stack([a_r * cos_p - a_p * sin_p, a_r * sin_p + a_p * cos_p, a_z],
-                            axis=-1) * (scale * factor)[None, :, None])
-            data[f"{tag}_{name}"] = vec.reshape(-1, 3)
-        e_sq = np.sum(data[f"{tag}_E"] ** 2, axis=1)
-        h_sq = np.sum(data[f"{tag}_H"] ** 2, axis=1)
+                            axis=-1) * (scale * factor)[None, :, None]).reshape(-1, 3)
+            data[f"{tag}_{name}"] = vec.real
+            squared[name] = np.sum(np.abs(vec) ** 2, axis=1)
+            if np.iscomplexobj(vec):   # a periodic cell's travelling wave: a quarter period on
+                data[f"{tag}_{name}_quarter"] = vec.imag
+        e_sq, h_sq = squared["E"], squared["H"]
         data[f"{tag}_we"] = 0.25 * epsilon_0 * np.tile(eps, segments) * e_sq
         data[f"{tag}_wm"] = 0.25 * mu_0 * np.tile(mu, segments) * h_sq
     return points, wedges, data

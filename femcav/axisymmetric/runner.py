@@ -40,27 +40,38 @@ def section_model_builder(case: Case):
         factor = size / base.size
         sizing = replace(base, size=size,
                          region_sizes={k: v * factor for k, v in base.region_sizes.items()})
-        section = mesh_section(layout, sizing, name=case.geometry.builder)
-        return make_axisymmetric_model(section, case_materials(case, section.region_names),
-                                       case.walls, source=str(case.path))
+        return case_section_model(case, mesh_section(layout, sizing,
+                                                     name=case.geometry.builder))
 
     return base.size, build_model
 
 
+def case_section(case: Case, progress: Progress = SILENT):
+    """The case's meridional section: read from its mesh file or meshed by its builder."""
+    if case.geometry.mesh_path is not None:
+        section = read_section(case.geometry.mesh_path, scale=case.geometry.mesh_unit_m)
+        how = f"read from {case.geometry.mesh_path}"
+    else:
+        layout, sizing = section_sizing(case)
+        section = mesh_section(layout, sizing, name=case.geometry.builder)
+        how = f"{layout.description}; element size {sizing.size * 1e3:.3g} mm"
+    kind = "curved " if section.triangles6 is not None else ""
+    progress.step(f"meridional section: {section.n_triangles} {kind}triangles, regions "
+                  f"{', '.join(section.region_names)} ({how})")
+    return section
+
+
+def case_section_model(case: Case, section, periodic=None):
+    """The axisymmetric model of ``section`` with the case's materials and walls (and its
+    periodic pairs, or ``periodic`` instead)."""
+    return make_axisymmetric_model(section, case_materials(case, section.region_names),
+                                   case.walls, source=str(case.path),
+                                   periodic=case.periodic if periodic is None else periodic)
+
+
 def solve_axisymmetric_case(case: Case, settings, progress: Progress) -> AxisymmetricResult:
     try:
-        if case.geometry.mesh_path is not None:
-            section = read_section(case.geometry.mesh_path, scale=case.geometry.mesh_unit_m)
-            how = f"read from {case.geometry.mesh_path}"
-        else:
-            layout, sizing = section_sizing(case)
-            section = mesh_section(layout, sizing, name=case.geometry.builder)
-            how = f"{layout.description}; element size {sizing.size * 1e3:.3g} mm"
-        kind = "curved " if section.triangles6 is not None else ""
-        progress.step(f"meridional section: {section.n_triangles} {kind}triangles, regions "
-                      f"{', '.join(section.region_names)} ({how})")
-        model = make_axisymmetric_model(section, case_materials(case, section.region_names),
-                                        case.walls, source=str(case.path))
+        model = case_section_model(case, case_section(case, progress))
         result = solve_axisymmetric(model, orders=settings.azimuthal_orders,
                                     modes=settings.modes, near_hz=settings.near_hz,
                                     order=settings.order, factorization=settings.factorization,
@@ -76,7 +87,7 @@ def label_cells(case: Case, result: AxisymmetricResult, progress: Progress
                 ) -> AxisymmetricResult:
     """The passband's phase advances, for a builder that makes a chain of cells."""
     chain = getattr(BUILDERS.get(case.geometry.builder), "cell_chain", None)
-    if chain is None:
+    if chain is None or case.periodic:     # a periodic cell's phase advance is given
         return result
     spans, electric_ends = chain({name: wall.kind for name, wall in case.walls.items()},
                                  **case.geometry.parameters)

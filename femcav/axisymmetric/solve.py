@@ -146,6 +146,9 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
             resolution=mode_resolution(frequency, order, *scales,
                                        cell_energy(space, vector, value)), **lossy_values))
     result_modes = with_loss_warnings(result_modes, model.walls)
+    if model.periodic:    # a periodic cell's modes: the phase advance per cell
+        result_modes = [replace(m, phase_advance_rad=model.periodic[0].phase_rad)
+                        for m in result_modes]
     lossy_modes = None
     if complex_check:
         t0 = time.perf_counter()

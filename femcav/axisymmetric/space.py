@@ -64,6 +64,7 @@ from ..materials import check_permittivity
 from ..model import FORMS
 from ..walls import PEC, PMC, essential_kinds
 from .model import AxisymmetricModel
+from .periodic import pair_lines, section_periodic_constraints
 
 ELEMENTS = {1: (ElementTriN1, ElementTriP1), 2: (ElementTriN2, ElementTriP2),
             3: (ElementTriN3, ElementTriP3)}
@@ -199,7 +200,10 @@ def build_order_space(model: AxisymmetricModel, m: int, order: int,
         facets_of(mesh, section.edges[section.edge_tag == tag])
         for name, tag in section.wall_names.items()
         if name != "axis" and model.wall_kind(name) == PMC])
-    pec = np.setdiff1d(boundary[~on_axis], pmc)
+    # a periodic cell's end lines are neither walls nor open: their DOFs are tied instead
+    lines = pair_lines(model, mesh, facets_of) if model.periodic else []
+    tied = np.concatenate([np.zeros(0, np.int64)] + [np.concatenate(l[:2]) for l in lines])
+    pec = np.setdiff1d(boundary[~on_axis], np.concatenate([pmc, tied]))
     walls = pec if PEC in essential_kinds(form) else np.unique(pmc)
     fixed_edge = set(edge_basis.get_dofs(walls).all().tolist())
     wall_nodes = set(node_basis.get_dofs(walls).all().tolist())
@@ -220,12 +224,16 @@ def build_order_space(model: AxisymmetricModel, m: int, order: int,
         # nothing grounds the potential (H form, no PMC wall): a constant p has no gradient,
         # so one node is dropped to keep the kernel basis independent
         potentials = potentials[1:]
+    potential_constraint = Constraint.keeping(node_basis.N, potentials)
+    if lines:
+        constraint, potential_constraint = section_periodic_constraints(
+            model, edge_basis, node_basis, lines, fixed_edge, fixed_node,
+            set(np.setdiff1d(np.arange(node_basis.N), potentials).tolist()))
 
     eps, mu = _coefficients(model, edge_basis)
     return OrderSpace(model=model, m=m, order=order, edge_basis=edge_basis,
                       node_basis=node_basis, constraint=constraint,
-                      potential_constraint=Constraint.keeping(node_basis.N, potentials),
-                      eps=eps, mu=mu, form=form)
+                      potential_constraint=potential_constraint, eps=eps, mu=mu, form=form)
 
 
 def facets_of(mesh: MeshTri, edges: np.ndarray) -> np.ndarray:

@@ -9,16 +9,17 @@ import numpy as np
 from ..errors import InputError
 
 
-def copy_face_meshes(gmsh, walls: dict[int, str], pairs, tol: float) -> None:
+def copy_face_meshes(gmsh, walls: dict[int, str], pairs, tol: float, dim: int = 2) -> None:
     """For each (first, second) pair of wall names, make gmsh mesh the surfaces named
     ``second`` as translated copies of those named ``first`` (``walls``: surface tag ->
-    name, before meshing)."""
+    name, before meshing); with ``dim`` = 1 the curves of a meridional section."""
     for first, second in pairs:
         sources = [t for t, name in walls.items() if name == first]
         targets = [t for t, name in walls.items() if name == second]
         if not sources or not targets:
             continue          # a face a symmetry cut removed: the model says so by name
-        boxes = {t: np.reshape(gmsh.model.getBoundingBox(2, t), (2, 3)) for t in sources + targets}
+        boxes = {t: np.reshape(gmsh.model.getBoundingBox(dim, t), (2, 3))
+                 for t in sources + targets}
         shift = (_union_centre(boxes, targets) - _union_centre(boxes, sources))
         for target in targets:
             moved = [s for s in sources
@@ -28,7 +29,7 @@ def copy_face_meshes(gmsh, walls: dict[int, str], pairs, tol: float) -> None:
                                  "the two cannot be a periodic pair", field="periodic.pair")
             affine = np.eye(4)
             affine[:3, 3] = shift
-            gmsh.model.mesh.setPeriodic(2, [target], [moved[0]], affine.ravel().tolist())
+            gmsh.model.mesh.setPeriodic(dim, [target], [moved[0]], affine.ravel().tolist())
 
 
 def _union_centre(boxes: dict, tags: list[int]) -> np.ndarray:

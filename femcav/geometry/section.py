@@ -14,6 +14,7 @@ import math
 
 import numpy as np
 
+from .periodic_faces import copy_face_meshes
 from ..errors import InputError
 from .gmsh_session import gmsh_model
 from .meridional import AXIS, MeridionalMesh, checked_section
@@ -68,6 +69,7 @@ def mesh_section(layout: Layout, sizing: Sizing, name: str = "section") -> Merid
         occ.synchronize()
 
         walls = _name_curves(gmsh, layout, tol)
+        copy_face_meshes(gmsh, walls, sizing.periodic_faces, tol, dim=1)   # periodic cell
         _set_sizes(gmsh, sizing, region_of)
         gmsh.model.mesh.generate(2)
         if sizing.curved:       # 6-node triangles with their midpoints on curved walls

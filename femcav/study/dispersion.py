@@ -26,6 +26,10 @@ from pathlib import Path
 
 import numpy as np
 
+from ..axisymmetric.model import AxisymmetricModel
+from ..axisymmetric.periodic import pair_lines
+from ..axisymmetric.runner import case_section, case_section_model
+from ..axisymmetric.solve import solve_axisymmetric
 from ..case_studies import DispersionSpec, parse_dispersion
 from ..case import build_mesh, case_model, in_case, load_case, read_case_data
 from ..errors import InputError, ResourceError
@@ -43,7 +47,7 @@ from ..solver import solve_model
 from .fingerprint import point_fingerprint
 from .folder_lock import folder_lock
 from .point_store import PointResult, load_point, save_point
-from .sweep import write_study_files
+from .sweep import full_vectors, write_study_files
 from .tracking import track
 from .workers import stop_workers, submit_without_ctrl_c, usable_jobs, worker_pool
 
@@ -83,7 +87,8 @@ def run_dispersion(path: str | Path, *, out: str | Path | None = None, jobs: int
         remove_stale_temporaries(folder / "points")   # left by a run that was stopped
         done = _reusable_phases(folder, phases, fingerprints)
         # one mesh for every phase: the stored phases' own, else a new one
-        mesh = next(iter(done.values())).mesh if done else build_mesh(case)
+        mesh = (next(iter(done.values())).mesh if done
+                else case_section(case, progress) if _on_section(case) else build_mesh(case))
         todo = [i for i in range(len(phases)) if i not in done]
         progress.step(f"dispersion over {len(phases)} phases: {len(done)} already solved in "
                       f"{folder}, {len(todo)} to solve")
@@ -95,7 +100,8 @@ def run_dispersion(path: str | Path, *, out: str | Path | None = None, jobs: int
             progress.step(f"phase {index + 1}/{len(phases)}: "
                           f"{math.degrees(phases[index]):.6g} deg: {lowest} GHz ... "
                           f"({point.seconds:.2f} s)")
-        model = case_model(case, mesh, extra_walls=cut_walls(case))
+        model = (case_section_model(case, mesh) if _on_section(case)
+                 else case_model(case, mesh, extra_walls=cut_walls(case)))
         document = dispersion_document(case, model, spec, [done[i] for i in range(len(phases))])
         from ..viz.dispersion_chart import write_dispersion_chart
         write_study_files(folder, "dispersion", document, dispersion_csv(document),
@@ -114,11 +120,18 @@ def cut_walls(case) -> dict:
     return classes[0]
 
 
+def _on_section(case) -> bool:
+    """A body of revolution periodic along z: solved on its meridional section."""
+    return case.solve.azimuthal_orders is not None
+
+
 def solve_phase(task) -> tuple[PointResult, int]:
     """One phase on the given mesh (in this process or a worker): the case is read and
     checked again, so a task carries only the case's path and the mesh."""
     path, mesh, pair_index, phase, fingerprint, index = task
     case = load_case(path)
+    if _on_section(case):
+        return _solve_section_phase(case, path, mesh, phase, fingerprint), index
     model = case_model(case, mesh, extra_walls=cut_walls(case))
     pairs = list(model.periodic)
     pairs[pair_index] = replace(pairs[pair_index], phase_rad=phase)
@@ -142,6 +155,27 @@ def solve_phase(task) -> tuple[PointResult, int]:
                        seconds=time.perf_counter() - t0, fingerprint=fingerprint,
                        peak_estimate_bytes=result.eigen_stats.peak_estimate_bytes
                        ), index
+
+
+def _solve_section_phase(case, path, section, phase: float, fingerprint) -> PointResult:
+    """One phase of a body of revolution's cell, every azimuthal order of the case; the
+    energy-flux group velocity is not computed on sections (the slope's is)."""
+    model = case_section_model(case, section,
+                               periodic=(replace(case.periodic[0], phase_rad=phase),))
+    solve = case.solve
+    t0 = time.perf_counter()
+    try:
+        result = solve_axisymmetric(model, orders=solve.azimuthal_orders, modes=solve.modes,
+                                    near_hz=solve.near_hz, order=solve.order,
+                                    factorization=solve.factorization, form=solve.form or "E")
+    except InputError as exc:
+        raise in_case(exc, str(path)) from None
+    rows = [{"frequency_hz": m.frequency_hz, "passed": m.checks.passed, "azimuthal_order": m.m,
+             "group_velocity_energy_m_per_s": None} for m in result.modes]
+    return PointResult(values=(phase,), rows=rows, mesh=section, dofs=full_vectors(result),
+                       form=result.form, order=result.order,
+                       seconds=time.perf_counter() - t0, fingerprint=fingerprint,
+                       peak_estimate_bytes=result.eigen_stats.peak_estimate_bytes)
 
 
 def _solve_phases(tasks: list, jobs: int, progress: Progress):
@@ -193,20 +227,28 @@ def _reusable_phases(folder: Path, phases, fingerprints: list[str]) -> dict[int,
 
 
 def _same_mesh(a, b) -> bool:
-    return (a.points.shape == b.points.shape and a.tets.shape == b.tets.shape
-            and np.array_equal(a.points, b.points) and np.array_equal(a.tets, b.tets))
+    cells_a, cells_b = (getattr(m, "tets", None) if hasattr(m, "tets") else m.triangles
+                        for m in (a, b))
+    return (type(a) is type(b) and a.points.shape == b.points.shape
+            and cells_a.shape == cells_b.shape and np.array_equal(a.points, b.points)
+            and np.array_equal(cells_a, cells_b))
 
 
 def dispersion_document(case, model, spec: DispersionSpec, points: list) -> dict:
     """Bands, velocities and passbands of the solved phases ``points`` (PointResults, one
     per phase, on the mesh of ``model``)."""
-    space = build_space(model, points[0].form, points[0].order)
     pair = model.periodic[spec.pair]
-    shift = FacePairing(space.mesh, space.facet_wall, pair).shift
+    if isinstance(model, AxisymmetricModel):
+        shift, dofs, elements, masses = _section_cell(model, points)
+    else:
+        space = build_space(model, points[0].form, points[0].order)
+        shift = FacePairing(space.mesh, space.facet_wall, pair).shift
+        dofs, elements, masses = space.n_dofs, int(space.mesh.nelements), {
+            None: _full_mass(space, assemble_mass)}
     length = float(np.linalg.norm(shift))
     phases = np.array(spec.phases_rad)
     solved = [_Solved(point) for point in points]
-    tracks = track(solved, len(solved[0].modes), partners=_same_mesh_partners(space))
+    tracks = track(solved, len(solved[0].modes), partners=_overlap_partners(masses))
     bands = []
     for k, t in enumerate(tracks):
         rows = [None if j is None else point.rows[j] for point, j in zip(points, t)]
@@ -223,6 +265,9 @@ def dispersion_document(case, model, spec: DispersionSpec, points: list) -> dict
                 None if row is None else row["group_velocity_energy_m_per_s"] for row in rows],
             "checks_passed": [None if row is None else row["passed"] for row in rows],
         })
+        orders = {row["azimuthal_order"] for row in rows if row and "azimuthal_order" in row}
+        if orders:        # a body of revolution's band keeps its azimuthal order
+            bands[-1]["azimuthal_order"] = orders.pop()
     return {
         "format": "femcav-dispersion", "format_version": 1,
         "title": case.title, "case": str(case.path),
@@ -230,8 +275,8 @@ def dispersion_document(case, model, spec: DispersionSpec, points: list) -> dict
         "translation_m": [float(v) for v in shift],
         "other_pairs": [{"pair": [p.wall_a, p.wall_b], "phase_rad": p.phase_rad}
                         for i, p in enumerate(model.periodic) if i != spec.pair],
-        "form": points[0].form, "order": points[0].order, "dofs": space.n_dofs,
-        "elements": int(space.mesh.nelements),
+        "form": points[0].form, "order": points[0].order, "dofs": dofs,
+        "elements": elements,
         "phases_rad": [float(p) for p in phases],
         "phases_deg": [math.degrees(p) for p in phases],
         "bands": bands,
@@ -244,31 +289,63 @@ def dispersion_document(case, model, spec: DispersionSpec, points: list) -> dict
 class _Mode:
     frequency_hz: float
     dofs: np.ndarray
+    key: int | None = None      # the azimuthal order on a section
 
 
 class _Solved:
     """A stored phase as tracking reads it: its modes' frequencies and full vectors."""
 
     def __init__(self, point: PointResult):
-        self.modes = [_Mode(row["frequency_hz"], point.dofs[:, j])
+        self.modes = [_Mode(row["frequency_hz"], point.dofs[:, j], row.get("azimuthal_order"))
                       for j, row in enumerate(point.rows)]
 
 
-def _same_mesh_partners(space):
-    """Partners of modes solved on one mesh: overlaps are the M-inner products of the full
-    DOF vectors (the modes are M-normalised), complex for a travelling wave."""
-    full = replace(space, constraint=Constraint.keeping(space.dofs.N, np.arange(space.dofs.N)))
-    mass = assemble_mass(full, full.mass_coef)
+def _full_mass(space, assemble):
+    """The mass matrix over every DOF of ``space`` (no constraint): the modes of all phases
+    are stored as full vectors on one mesh, so it compares them."""
+    n = space.constraint.n_full
+    full = replace(space, constraint=Constraint.keeping(n, np.arange(n)))
+    return assemble(full, full.mass_coef)
 
+
+def _section_cell(model, points) -> tuple:
+    """A section cell's translation (along z), DOFs (all orders), triangles and the full
+    mass matrix of each solved azimuthal order."""
+    from ..axisymmetric.space import assemble_mass as section_mass
+    from ..axisymmetric.space import build_order_space, facets_of, skfem_mesh
+
+    mesh = skfem_mesh(model)
+    dz = pair_lines(model, mesh, facets_of)[0][2]
+    orders = sorted({row["azimuthal_order"] for row in points[0].rows})
+    spaces = {m: build_order_space(model, m, points[0].order, mesh, points[0].form)
+              for m in orders}
+    return (np.array([0.0, 0.0, dz]), sum(s.n_dofs for s in spaces.values()),
+            model.section.n_triangles,
+            {m: _full_mass(space, section_mass) for m, space in spaces.items()})
+
+
+def _overlap_partners(masses: dict):
+    """Partners of modes solved on one mesh: overlaps are the M-inner products of the full
+    DOF vectors (the modes are M-normalised), complex for a travelling wave; modes of
+    different azimuthal orders (keys of ``masses``) overlap 0."""
     def partners(previous, current) -> np.ndarray:
-        X = np.column_stack([m.dofs for m in previous.modes])
-        Y = np.column_stack([m.dofs for m in current.modes])
-        gram = X.conj().T @ (mass @ X)
-        x_norm = np.sqrt(np.abs(np.diag(gram)))
-        y_norm = np.sqrt(np.abs(np.einsum("ij,ij->j", Y.conj(), mass @ Y)))
-        inner = (X.conj().T @ (mass @ Y)) / np.outer(x_norm, y_norm)
+        n_p, n_c = len(previous.modes), len(current.modes)
+        inner = np.zeros((n_p, n_c), dtype=complex)
+        gram = np.eye(n_p, dtype=complex)
+        for key, mass in masses.items():
+            rows = [i for i, m in enumerate(previous.modes) if m.key == key]
+            cols = [j for j, m in enumerate(current.modes) if m.key == key]
+            if not rows or not cols:
+                continue
+            X = np.column_stack([previous.modes[i].dofs for i in rows])
+            Y = np.column_stack([current.modes[j].dofs for j in cols])
+            block = X.conj().T @ (mass @ X)
+            x_norm = np.sqrt(np.abs(np.diag(block)))
+            y_norm = np.sqrt(np.abs(np.einsum("ij,ij->j", Y.conj(), mass @ Y)))
+            inner[np.ix_(rows, cols)] = (X.conj().T @ (mass @ Y)) / np.outer(x_norm, y_norm)
+            gram[np.ix_(rows, rows)] = block / np.outer(x_norm, x_norm)
         overlaps = Overlaps(matrix=np.minimum(np.abs(inner), 1.0), inner=inner,
-                            coarse_gram=gram / np.outer(x_norm, x_norm))
+                            coarse_gram=gram)
         return match_modes(overlaps, np.array([m.frequency_hz for m in previous.modes]),
                            np.array([m.frequency_hz for m in current.modes])).partner
     return partners

@@ -195,7 +195,7 @@ class _Tracked:
 def _section_spaces(case, point: PointResult) -> dict:
     """The order spaces of a body of revolution's stored section, for its solved orders."""
     model = make_axisymmetric_model(point.mesh, case_materials(case, point.mesh.region_names),
-                                    case.walls, source=str(case.path))
+                                    case.walls, source=str(case.path), periodic=case.periodic)
     mesh = skfem_mesh(model)
     return {m: build_order_space(model, m, point.order, mesh, point.form)
             for m in sorted({row["azimuthal_order"] for row in point.rows})}
