@@ -96,6 +96,7 @@ class Case:
     beam: BeamRequest | None = None    # [beam]: figures along a beam line (post.beam)
     # [tolerances] samples: a Monte-Carlo draw of those lengths (femcav.study.monte_carlo)
     tolerance_samples: object = None
+    coupling_modes: tuple[int, int] | None = None   # [coupling] modes (post.coupling)
 
 
 def in_case(exc: InputError, source: str | None) -> InputError:
@@ -161,12 +162,21 @@ def case_from_data(data: dict, path: Path) -> Case:
         filling_axis = _filling_axis(_table(data, "filling"))
         beam = _beam(data["beam"], geometry, solve, symmetry) if "beam" in data else None
         samples = parse_monte_carlo(_table(data, "tolerances"), tolerances)
+        coupling_modes = _coupling_modes(_table(data, "coupling"))
     except InputError as exc:
         raise in_case(exc, source) from None
     return Case(path=path, title=title, geometry=geometry, regions=regions, walls=walls,
                 solve=solve, mesh=mesh, symmetry=symmetry, tolerances=tolerances,
                 probes=probes, filling_axis=filling_axis, beam=beam,
-                tolerance_samples=samples)
+                tolerance_samples=samples, coupling_modes=coupling_modes)
+
+
+def _coupling_modes(spec: dict) -> tuple[int, int] | None:
+    modes = read(check_table(spec, schema.COUPLING, "coupling"), "modes", schema.COUPLING,
+                 "coupling")
+    if modes is not None and modes[0] == modes[1]:
+        raise InputError("name two different modes", field="coupling.modes")
+    return None if modes is None else (int(modes[0]), int(modes[1]))
 
 
 UNIFORM_STD = 1 / math.sqrt(3)   # standard deviation of U(-1, 1) (common practice)

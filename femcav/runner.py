@@ -21,6 +21,7 @@ from .case import (
 from .progress import SILENT, Progress
 from .errors import InputError
 from .geometry import symmetry_wall_name
+from .post.coupling import with_coupling
 from .post.error_estimate import estimate_over_meshes, mesh_dimension
 from .post.singularity import bar_rate
 from .solver import AccuracyReport, SolveResult, ToleranceSpread, merge_classes, solve_model
@@ -250,6 +251,7 @@ def _solve_modes(case: Case, settings, progress: Progress, pool=None):
     labelled = [(label, _with_labels(case, r)) for label, r in labelled]
     result = (labelled[0][1] if len(labelled) == 1 and not labelled[0][0]
               else merge_classes(labelled, settings.modes, settings.near_hz))
+    result = with_coupling(result, case.coupling_modes)
     if settings.accuracy is not None:
         result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
     if case.tolerances:

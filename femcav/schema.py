@@ -199,6 +199,7 @@ TOP = Table({
     "tune": Key(TABLE), "extract": Key(TABLE), "tolerances": Key(TABLE),
     "probes": Key(TABLE), "filling": Key(TABLE),
     "tune": Key(TABLE), "extract": Key(TABLE), "tolerances": Key(TABLE), "beam": Key(TABLE),
+    "coupling": Key(TABLE),
 })
 
 GEOMETRY_MESH = Table({
@@ -334,6 +335,11 @@ FILLING = Table({
     "axis": Key(either(STRING, list_of(NUMBER, 3)), default="z",
                 doc='"x", "y", "z" or three numbers: the axis of the axial magnetic filling'),
 })
+
+# [coupling] modes = [i, j]: the coupling coefficient of two modes of a full model
+# (femcav.post.coupling); a cut model's classes give theirs without it.
+COUPLING = Table({"modes": Key(list_of(WHOLE, 2), range=MODES,
+                               doc="two mode numbers of the full model")})
 
 # The line a beam crosses the part on (femcav.post.beam); both ends or neither.
 BEAM = Table({

@@ -132,6 +132,7 @@ class SolveResult(ModeVerdicts):
     accuracy: AccuracyReport | None = None     # with a [solve] accuracy target
     # the complex check's own solve (losses inside): its modes, with complex fields
     complex_check: "SolveResult | None" = None
+    coupling: tuple = ()    # post.coupling.CouplingCoefficient: symmetry classes, named pair
 
     @property
     def form(self) -> str:

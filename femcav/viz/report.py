@@ -14,6 +14,7 @@ from pathlib import Path
 
 from ..io.results import frequency_digits
 from ..io.second_tables import second_tables
+from .coupling_section import coupling_section
 from ..units import format_frequency
 from .figures_of_merit import beam_section, wall_description
 
@@ -168,7 +169,7 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
             f"<h1>{e(title)}</h1>\n<p class=\"caution\">{e(CAUTION)}</p>\n"
             f"<h2>Case</h2>\n{summary_html}\n<h2>Modes</h2>\n{table}\n"
             + _second_tables_html(modes) + "\n"
-            + beam_section(document) + "\n"
+            + beam_section(document) + "\n" + coupling_section(document) + "\n"
             + "\n".join(figures) + f"\n<h2>Checks</h2>\n{checks}\n</body>\n</html>\n")
     path.write_text(page, encoding="utf-8")
 
