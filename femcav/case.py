@@ -517,12 +517,14 @@ def _wall(name: str, spec: dict) -> Wall:
     if kind is None:
         kinds = ", ".join(map(repr, schema.WALL.keys["kind"].allowed()))
         raise InputError(f"missing: kind = one of {kinds}", field=where + ".kind")
+    if kind != "port" and "port_modes" in spec:
+        raise InputError('port_modes belongs to kind = "port"', field=f"{where}.port_modes")
     if kind != "metal":
         extra = next((k for k in _LOSS_KEYS if k in spec), None)
         if extra:
             raise InputError(f'{extra} belongs to kind = "metal"; a {kind.upper()} wall has no '
                              "loss", field=f"{where}.{extra}")
-        return Wall(kind=kind)
+        return Wall(kind=kind, port_modes=read(spec, "port_modes", schema.WALL, where))
     if "surface_resistance" in spec:
         other = next((k for k in _LOSS_KEYS[:3] + _LOSS_KEYS[4:] if k in spec), None)
         if other:

@@ -255,8 +255,10 @@ WALL = Table({
                        doc="of a superconducting metal"),
     "residual_resistance": Key(QUANTITY, unit="resistance", range=RESIDUAL_RESISTANCE,
                                doc="of a superconducting metal"),
+    "port_modes": Key(WHOLE, range=Range(1, 20), default=1,
+                      doc="of a port: its lowest waveguide modes that are terminated"),
 })
-WALLS = Table(each=Key(TABLE, doc='a wall: kind = "pec", "pmc" or "metal"'))
+WALLS = Table(each=Key(TABLE, doc='a wall: kind = "pec", "pmc", "metal" or "port"'))
 
 SYMMETRY = Table({axis: Key(STRING, choices=("pec", "pmc", "both"), fold_case=True)
                   for axis in "xyz"})

@@ -29,6 +29,7 @@ from .post.loss_validity import with_complex_warnings, with_loss_warnings
 from .post.losses import LossReport, has_losses, metal_faces, mode_losses
 from .post.resolution import Resolution, edge_space_energy, edge_space_scales, mode_resolution
 from .progress import SILENT, Progress
+from .walls import PORT
 
 
 @dataclass(frozen=True)
@@ -67,6 +68,7 @@ class Mode:
     m: int | None = None
     field_class: str | None = None
     phase_advance_rad: float | None = None   # a chain of cells' passband (passband.py)
+    loading: object | None = None   # ports.loading.PortLoading: Q_ext per port, loaded Q
 
     @property
     def multiplicity(self) -> int:
@@ -182,6 +184,8 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     and a complex field. ``complex_check`` is that second solve run beside the first one,
     each real mode paired with its complex partner."""
     check_request(modes, near_hz)
+    if any(wall.kind == PORT for wall in model.walls.values()):    # non-linear in k0
+        raise ValueError("a model with ports is solved by ports.loaded_solve.solve_with_ports")
     t0 = time.perf_counter()
     space = build_space(model, form, order, losses_inside=losses_inside)
     if space.pencil_kind == GENERAL:

@@ -1,0 +1,191 @@
+"""Waveguide ports (femcav.ports): the TE modes of a port face, and the loaded resonance of
+a short-circuited guide with a dielectric slab ending in a matched TE10 port, against
+transmission-line theory solved here in complex frequency."""
+
+import cmath
+import math
+from dataclasses import replace
+
+import numpy as np
+import pytest
+from scipy.constants import c
+from scipy.optimize import newton
+from scipy.special import jnp_zeros
+
+from femcav.errors import InputError
+from femcav.fem.space import build_space
+from femcav.geometry import build_part
+from femcav.materials import Material
+from femcav.model import make_model
+from femcav.ports.cross_section import port_modes, propagation_constant
+from femcav.ports.loaded_solve import solve_with_ports
+from femcav.walls import Wall
+
+A, B = 0.02286, 0.01016          # WR-90 broad and narrow walls (common practice)
+SHORT_TO_SLAB, SLAB, SLAB_TO_PORT, SLAB_EPS = 0.015, 0.002, 0.007, 10.0
+
+
+def test_te_cutoffs_of_a_rectangular_and_a_circular_face():
+    mesh = build_part("box", mesh_size=0.003, width=A, height=B, length=0.02)
+    space = build_space(make_model(mesh, {"inside": Material()}, {"z_max": Wall("port")}),
+                        "E", 2)
+    found = np.sqrt(port_modes(space, "z_max", 1).cutoff_k_squared[:3])
+    # TE_mn of a rectangular guide: k_c = √((mπ/a)² + (nπ/b)²) (Pozar, Microwave
+    # Engineering, 4th ed., §3.3): TE10, TE20, TE01 here
+    assert found == pytest.approx([math.pi / A, 2 * math.pi / A, math.pi / B], rel=1e-3)
+    mesh = build_part("pillbox", mesh_size=0.002, radius=0.01, length=0.01)
+    space = build_space(make_model(mesh, {"inside": Material()}, {"top": Wall("port")}),
+                        "E", 2)
+    found = np.sqrt(port_modes(space, "top", 1).cutoff_k_squared[:3]) * 0.01
+    # circular guide TE_nm: k_c a = p'_nm, the zeros of J_n' (Pozar, §3.4): the TE11 pair
+    # and TE21; the polygon of 2 mm chords moves them by a few 0.1 %
+    assert found == pytest.approx([jnp_zeros(1, 1)[0]] * 2 + [jnp_zeros(2, 1)[0]], rel=6e-3)
+
+
+def _voltage_at_short(k0):
+    """V(0) of the TE10 line when only an outgoing wave leaves the slab towards the
+    matched port: V = 1, I = V/Z_1 just beyond the slab, carried back through the slab and
+    the air section by the transfer (ABCD) matrices of line sections, [[cos βl, jZ sin βl],
+    [j sin βl / Z, cos βl]] with Z_TE = ωμ/β ∝ k0/β (Pozar, §2.4, §3.1, §4.4). A resonance
+    of the loaded resonator is a complex k0 with V(0) = 0 at the short."""
+    kc = math.pi / A
+
+    def section(eps, length):
+        beta = cmath.sqrt(k0**2 * eps - kc**2)
+        z = k0 / beta
+        return np.array([[cmath.cos(beta * length), 1j * z * cmath.sin(beta * length)],
+                         [1j * cmath.sin(beta * length) / z, cmath.cos(beta * length)]])
+    wave = np.array([1.0, cmath.sqrt(k0**2 - kc**2) / k0])
+    return (section(1.0, SHORT_TO_SLAB) @ section(SLAB_EPS, SLAB) @ wave)[0]
+
+
+def _exact_resonance(f_guess):
+    k = newton(_voltage_at_short, 2 * math.pi * f_guess / c * (1 + 0.01j), tol=1e-13,
+               maxiter=100)
+    return complex(c * k / (2 * math.pi))
+
+
+def _slab_resonator(size, order=2):
+    mesh = build_part("loaded_box", mesh_size=size, width=A, height=B,
+                      length=SHORT_TO_SLAB + SLAB + SLAB_TO_PORT,
+                      block_corner=(0, 0, SHORT_TO_SLAB), block_size=(A, B, SLAB))
+    model = make_model(mesh, {"air": Material(), "block": Material(eps_r=SLAB_EPS)},
+                       {"z_max": Wall("port")})
+    return solve_with_ports(model, modes=1, near_hz=12e9, order=order)
+
+
+def _check_against_line_theory(result, f_tolerance, q_tolerance):
+    exact = _exact_resonance(12e9)
+    q_exact = exact.real / (2 * exact.imag)
+    assert 10 < q_exact < 100                  # a strongly coupled resonance (33.9)
+    (mode,) = result.modes
+    assert mode.checks.passed
+    assert mode.frequency_hz == pytest.approx(exact.real, rel=f_tolerance)
+    assert mode.loading.q_external["z_max"] == pytest.approx(q_exact, rel=q_tolerance)
+    # lossless walls: the loaded Q is the external one
+    assert mode.loading.q_loaded == pytest.approx(mode.loading.q_external["z_max"])
+
+
+def test_slab_resonator_with_a_matched_port_coarse():
+    # 5 mm, order 2 (2.9k DOFs, ~4 s): measured f +5.9e-4 and Q_ext +0.8 %; Q_ext moves
+    # about 2 Q times the relative error of the complex frequency
+    _check_against_line_theory(_slab_resonator(0.005), 5e-3, 0.03)
+
+
+@pytest.mark.slow
+def test_slab_resonator_with_a_matched_port_fine():
+    # 5 mm, order 3 (9.3k DOFs, ~28 s): measured f +8.7e-6 and Q_ext −0.016 % (order 2 at
+    # 3 mm: +5.5e-5 and +1.4 %; order 3 at 4 mm: +4.4e-6 and −0.011 %)
+    _check_against_line_theory(_slab_resonator(0.005, order=3), 1e-4, 0.003)
+
+
+def test_propagation_constant_branch():
+    # β > 0 above cut-off, −jα below it (e^{−jβz} decays away from the port)
+    assert propagation_constant(5.0, 1.0) == pytest.approx(2.0)
+    assert propagation_constant(1.0, 5.0) == pytest.approx(-2.0j)
+
+
+def test_a_port_must_be_planar_and_outside():
+    mesh = build_part("pillbox", mesh_size=0.004, radius=0.01, length=0.01)
+    space = build_space(make_model(mesh, {"inside": Material()}, {"side": Wall("port")}))
+    with pytest.raises(InputError, match="planar") as info:
+        port_modes(space, "side", 1)
+    assert info.value.field == "walls.side"
+    # the slab's face towards the port, named as a wall: an inner face between regions
+    mesh = build_part("loaded_box", mesh_size=0.005, width=A, height=B, length=0.02,
+                      block_corner=(0, 0, 0.01), block_size=(A, B, 0.002))
+    on_face = np.abs(mesh.points[mesh.tets][..., 2] - 0.012) < 1e-9      # (n_tets, 4)
+    inner = np.unique(np.array([sorted(t[on]) for t, on in zip(mesh.tets, on_face)
+                                if on.sum() == 3]), axis=0)
+    named = replace(mesh, faces=np.vstack([mesh.faces, inner]),
+                    face_tag=np.concatenate([mesh.face_tag, np.full(len(inner), 99)]),
+                    wall_names={**mesh.wall_names, "window": 99})
+    with pytest.raises(InputError, match="not on its boundary") as info:
+        make_model(named, {"air": Material(), "block": Material(eps_r=4.0)},
+                   {"window": Wall("port")})
+    assert info.value.field == "walls.window"
+
+
+def test_a_shorted_mode_that_propagates_is_reported():
+    # An empty guide 30 mm long, shorted at z = 0, port at z = 30 mm: near 14 GHz TE20
+    # (cut-off 13.1 GHz) propagates but only TE10 is terminated.
+    mesh = build_part("box", mesh_size=0.006, width=A, height=B, length=0.03)
+    model = make_model(mesh, {"inside": Material()}, {"z_max": Wall("port")})
+    result = solve_with_ports(model, modes=1, near_hz=14e9)
+    (mode,) = result.modes
+    assert mode.frequency_hz > 2 * c / (2 * A)
+    assert any("port_modes >= 2" in w for w in mode.loss_warnings)
+
+
+CASE = """title = "Larkspur Microwave Works: a slab on a WR-90 port (made-up scenario)"
+[geometry]
+builder = "loaded_box"
+width = "22.86 mm"
+height = "10.16 mm"
+length = "24 mm"
+block_corner = ["0 mm", "0 mm", "15 mm"]
+block_size = ["22.86 mm", "10.16 mm", "2 mm"]
+[regions.block]
+eps_r = 10
+[walls.z_max]
+kind = "port"
+[walls.z_min]
+kind = "metal"
+metal = "copper"
+[mesh]
+size = "6 mm"
+[solve]
+order = 2
+modes = 1
+near = "12 GHz"
+"""
+
+
+def test_a_case_with_a_port_writes_its_q_factors_and_response(tmp_path):
+    import csv
+    import json
+
+    from femcav.case import load_case
+    from femcav.solve_command import run_case
+
+    path = tmp_path / "slab.toml"
+    path.write_text(CASE)
+    _, _, folder = run_case(path, out=tmp_path / "out")
+    (row,) = json.loads((folder / "modes.json").read_text())["modes"]
+    q_ext, q0 = row["q_external"]["z_max"], row["q_total"]
+    # 1/Q_L = 1/Q_0 + 1/Q_ext and β = Q_0/Q_ext (Pozar, Microwave Engineering, 4th ed., §6.7)
+    assert row["q_loaded"] == pytest.approx(1 / (1 / q0 + 1 / q_ext))
+    assert row["coupling_factor"]["z_max"] == pytest.approx(q0 / q_ext)
+    with open(folder / "response.csv") as f:
+        rows = list(csv.DictReader(f))
+    assert {(r["to_port"], r["from_port"]) for r in rows} == {("z_max", "z_max")}
+    # the reflection dip sits at the mode's frequency: |S11| = |β − 1|/(β + 1) there
+    dip = min(rows, key=lambda r: float(r["magnitude_db"]))
+    assert float(dip["frequency_hz"]) == pytest.approx(row["frequency_hz"], rel=1e-3)
+    beta = row["coupling_factor"]["z_max"]
+    assert float(dip["magnitude_db"]) == pytest.approx(
+        20 * math.log10(abs(beta - 1) / (beta + 1)), abs=0.01)
+    path.write_text(CASE.replace('kind = "metal"\n', 'kind = "metal"\nport_modes = 2\n'))
+    with pytest.raises(InputError, match="port_modes belongs") as info:
+        load_case(path)
+    assert info.value.field == "walls.z_min.port_modes"
