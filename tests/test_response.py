@@ -67,3 +67,17 @@ def test_rows_cover_every_port_pair_over_the_band():
     peak = max(r.magnitude_db for r in rows if r.to_port == "b" and r.from_port == "a")
     assert peak == pytest.approx(0.0, abs=1e-9)
     assert neighbour_bandwidths(F0, 1000.0, [F0, F0 * 1.01]) == pytest.approx(10.0)
+
+
+def test_the_report_shows_the_ports_table_and_draws_the_response(tmp_path):
+    from femcav.viz.port_response import has_response, port_section, write_response_plot
+
+    row = {"index": 1, "frequency_hz": F0, "q_total": 2000.0, "q_loaded": 500.0,
+           "q_external": {"in": 1000.0, "out": 2000.0},
+           "coupling_factor": {"in": 2.0, "out": 1.0}}
+    document = {"modes": [row, {"index": 2, "frequency_hz": 2 * F0}]}
+    assert has_response(document) and not has_response({"modes": [document["modes"][1]]})
+    html = port_section(document, "")
+    assert "Q_ext in" in html and "β out" in html and "1000" in html
+    write_response_plot(document, tmp_path / "response.png")
+    assert (tmp_path / "response.png").read_bytes()[:4] == b"\x89PNG"
