@@ -60,6 +60,12 @@ TOLERANCE = 1e-10
 MAX_STEPS = 30
 # eigenvalues asked of each linearised solve around λ_n (the nearest is taken)
 NEAR_COUNT = 4
+# two iterations that end this close (relative, in λ) have found one mode
+SAME_ROOT = 1e-7
+# a loaded mode this close to a terminated mode's cut-off (relative) is flagged: there the
+# admittance changes fastest and the branch point of β lies, where the iteration can settle
+# on the guide's cut-off rather than on a resonance
+NEAR_CUTOFF = 0.05
 # open-port modes beyond those asked for that start an iteration: a strongly coupled mode
 # lies far from its open-port start, and another start may reach it first
 EXTRA_STARTS = 3
@@ -115,31 +121,39 @@ def solve_with_ports(model, *, modes: int = 10, near_hz: float | None = None,
         "arnoldi", near_problem, EigenRequest(modes + EXTRA_STARTS, target=reference),
         backends.setting_for(near_problem, factorize)).values])
     starts = starts[np.abs(starts) >= STATIC_FRACTION * scale]
-    solved, steps_taken = [], []
+    solved, steps_taken, improper = [], [], 0
     for start in starts:
         if any(abs(start - v) < 1e-6 * abs(v) for v, *_ in solved):
             continue     # already reached from another start
         value, vector, linearised, steps = _converge(K, M, G, scale, termination,
                                                      complex(start), factorize, progress)
-        if any(abs(value - v) < 1e-8 * abs(value) for v, *_ in solved):
+        if any(abs(value - v) < SAME_ROOT * abs(value) for v, *_ in solved):
             continue
-        solved.append((value, vector, linearised))
         steps_taken.append(steps)
+        if value.imag < -SAME_ROOT * abs(value):
+            improper += 1      # grows in time: a root on the other sheet of some β
+            continue
+        solved.append((value, vector, linearised, steps))
     solved.sort(key=lambda s: s[0].real)
     keep = select_modes(np.sqrt(np.array([s[0] for s in solved])).real, modes,
                         None if target is None else math.sqrt(target))
     solved = [solved[i] for i in keep]
     timings["eigen_s"] = time.perf_counter() - t0
     progress.step(f"ports: {len(solved)} loaded modes by successive linearisation "
-                  f"({', '.join(map(str, steps_taken))} steps)")
+                  f"({', '.join(map(str, steps_taken))} steps)"
+                  + (f"; {improper} root(s) growing in time dropped (not resonances of a "
+                     "passive part)" if improper else ""))
     faces = metal_faces(tspace) if has_losses(tspace) else None
     sizes = edge_space_scales(tspace)
     result_modes = []
-    for i, (value, vector, (Kt, Mt, projector)) in enumerate(solved):
+    for i, (value, vector, (Kt, Mt, projector), steps) in enumerate(solved):
         check = check_modes(Kt, Mt, projector, np.array([value]), vector[:, None],
                             hermitian=False)[0]
-        result_modes.append(_mode(i, value, vector, check, tspace, termination, faces, sizes,
-                                  progress))
+        mode = _mode(i, value, vector, check, tspace, termination, faces, sizes, progress)
+        if steps >= MAX_STEPS:
+            mode = replace(mode, loss_warnings=mode.loss_warnings + (
+                f"the port iteration did not settle to {TOLERANCE:g} in {MAX_STEPS} steps",))
+        result_modes.append(mode)
     port_warnings = [m.loss_warnings for m in result_modes]
     result_modes = [replace(m, loss_warnings=m.loss_warnings + w) for m, w in
                     zip(with_loss_warnings(result_modes, model.walls), port_warnings)]
@@ -201,12 +215,19 @@ def _mode(i, value, vector, check, tspace, termination, faces, sizes, progress) 
     power, propagation = {}, {}
     for mode, port, beta, _ in _betas(termination, value):
         amplitude = complex((mode.weights.T @ vector)[0])
-        power[port.name] = power.get(port.name, 0.0) + beta.real / port.mu_r * abs(amplitude)**2
+        power[port.name] = (power.get(port.name, 0.0)
+                            + abs(beta.real) / port.mu_r * abs(amplitude) ** 2)
         propagation.setdefault(port.name, []).append(complex(beta))
     loading = port_loading(frequency, power, losses.q_total if losses else None, propagation)
     warnings = []
     for port in termination.ports:
         cutoff_hz = port.cutoff_hz()
+        for m in range(port.terminated):
+            if abs(f - cutoff_hz[m]) < NEAR_CUTOFF * cutoff_hz[m]:
+                warnings.append(f"port {port.name}: {f / 1e9:.6g} GHz lies within "
+                                f"{NEAR_CUTOFF:.0%} of its TE mode {m + 1}'s cut-off "
+                                f"({cutoff_hz[m] / 1e9:.6g} GHz): possibly the guide's cut-off, "
+                                "not a resonance")
         for m in range(port.terminated, len(cutoff_hz)):
             if cutoff_hz[m] < f:
                 warnings.append(f"port {port.name}: its TE mode {m + 1} (cut-off "

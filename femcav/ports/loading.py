@@ -41,6 +41,8 @@ def port_loading(frequency: complex, port_power: dict[str, float], q_unloaded: f
     """Split 1/Q_ext = 2 Im f / Re f among the ports by ``port_power`` (any common scale)."""
     inverse_total = 2 * frequency.imag / frequency.real
     total_power = sum(port_power.values())
+    if len(port_power) == 1:     # one port carries all the loss, whatever its amplitude
+        port_power, total_power = {p: 1.0 for p in port_power}, 1.0
     q_external = {}
     for port, power in port_power.items():
         share = inverse_total * power / total_power if total_power > 0 else 0.0
