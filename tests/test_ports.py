@@ -188,3 +188,15 @@ def test_a_case_with_a_port_writes_its_q_factors_and_response(tmp_path):
     with pytest.raises(InputError, match="port_modes belongs") as info:
         load_case(path)
     assert info.value.field == "walls.z_min.port_modes"
+
+
+def test_the_plain_solver_refuses_ports():
+    from femcav.solver import solve_model
+
+    mesh = build_part("box", mesh_size=0.008, width=A, height=B, length=0.02)
+    model = make_model(mesh, {"inside": Material()}, {"z_max": Wall("port")})
+    with pytest.raises(ValueError, match="solve_with_ports"):
+        solve_model(model, modes=1)
+    with pytest.raises(InputError) as info:
+        solve_with_ports(model, modes=1, form="H")
+    assert info.value.option == "form"
