@@ -128,12 +128,25 @@ def test_a_port_must_be_planar_and_outside():
 
 def test_a_shorted_mode_that_propagates_is_reported():
     # The slab resonator's next resonance (line theory: 19.78 GHz, Q_ext 16.9) lies above
-    # the cut-offs of TE20 (13.1 GHz), TE01 and TE11; only TE10 is terminated.
+    # the cut-offs of TE20 (13.1 GHz), TE01 (14.8 GHz) and TE11 (16.1 GHz). TE10 and TE20
+    # are terminated; TE01 and the others are shorted and reported. The slab holds weakly
+    # radiating modes next to this one, so four modes are asked for and the one nearest the
+    # exact complex frequency is checked.
     exact = _exact_resonance(19.8e9)
-    (mode,) = _slab_resonator(0.005, near_hz=exact.real).modes
+    mesh = build_part("loaded_box", mesh_size=0.005, width=A, height=B,
+                      length=SHORT_TO_SLAB + SLAB + SLAB_TO_PORT,
+                      block_corner=(0, 0, SHORT_TO_SLAB), block_size=(A, B, SLAB))
+    model = make_model(mesh, {"air": Material(), "block": Material(eps_r=SLAB_EPS)},
+                       {"z_max": Wall("port", port_modes=2)})
+    modes = solve_with_ports(model, modes=4, near_hz=exact.real, order=2).modes
+    mode = min(modes, key=lambda m: abs(m.complex_frequency_hz - exact))
+    # 5 mm is a third of the free-space wavelength here: measured f +3.6e-3, Q_ext +14 %
     assert mode.frequency_hz == pytest.approx(exact.real, rel=5e-3)
-    assert mode.frequency_hz > 2 * c / (2 * A)
-    assert any("port_modes >= 2" in w for w in mode.loss_warnings)
+    assert mode.loading.q_external["z_max"] == pytest.approx(exact.real / (2 * exact.imag),
+                                                            rel=0.2)
+    assert len(mode.loading.propagation_constant["z_max"]) == 2
+    assert any("port_modes >= 3" in w for w in mode.loss_warnings)
+    assert not any("port_modes >= 2" in w for w in mode.loss_warnings)
 
 
 CASE = """title = "Larkspur Microwave Works: a slab on a WR-90 port (made-up scenario)"
