@@ -162,7 +162,7 @@ def case_from_data(data: dict, path: Path) -> Case:
         filling_axis = _filling_axis(_table(data, "filling"))
         beam = _beam(data["beam"], geometry, solve, symmetry) if "beam" in data else None
         samples = parse_monte_carlo(_table(data, "tolerances"), tolerances)
-        coupling_modes = _coupling_modes(_table(data, "coupling"))
+        coupling_modes = _coupling_modes(_table(data, "coupling"), solve.modes)
     except InputError as exc:
         raise in_case(exc, source) from None
     return Case(path=path, title=title, geometry=geometry, regions=regions, walls=walls,
@@ -171,11 +171,14 @@ def case_from_data(data: dict, path: Path) -> Case:
                 tolerance_samples=samples, coupling_modes=coupling_modes)
 
 
-def _coupling_modes(spec: dict) -> tuple[int, int] | None:
+def _coupling_modes(spec: dict, solved: int) -> tuple[int, int] | None:
     modes = read(check_table(spec, schema.COUPLING, "coupling"), "modes", schema.COUPLING,
                  "coupling")
     if modes is not None and modes[0] == modes[1]:
         raise InputError("name two different modes", field="coupling.modes")
+    if modes is not None and max(modes) > solved:
+        raise InputError(f"mode {max(modes)} is beyond the {solved} modes [solve] asks for",
+                         field="coupling.modes")
     return None if modes is None else (int(modes[0]), int(modes[1]))
 
 

@@ -71,3 +71,36 @@ def test_named_modes_are_read_and_checked(tmp_path):
     with pytest.raises(InputError) as info:
         load_case(_case(tmp_path, "[coupling]\nmodes = [1]\n"))
     assert info.value.field == "coupling.modes"
+
+
+def test_a_case_reports_its_named_pair_in_modes_json_the_table_and_the_report(tmp_path):
+    import json
+
+    from femcav.io.results import to_table
+    from femcav.solve_command import run_case
+    from femcav.viz.coupling_section import coupling_section
+
+    path = _case(tmp_path, '[mesh]\nsize = "4 mm"\n[solve]\nmodes = 2\n'
+                           '[coupling]\nmodes = [1, 2]\n')
+    _, result, folder = run_case(path, out=tmp_path / "out")
+    document = json.loads((folder / "modes.json").read_text())
+    (pair,) = document["coupling"]
+    f1, f2 = (m["frequency_hz"] for m in document["modes"])
+    # k = (f_2² − f_1²)/(f_2² + f_1²) for the named pair [1, 2] (common practice)
+    assert pair["source"] == "named modes" and pair["modes"] == [1, 2]
+    assert pair["k"] == pytest.approx((f2**2 - f1**2) / (f2**2 + f1**2)) and pair["k"] > 0
+    assert "named modes" in to_table(result)
+    assert f"{pair['k']:.5g}" in coupling_section(document)
+    # a mode beyond those asked for is refused at the key before any solve, and one the
+    # solve did not return (a command-line --modes below it) after it
+    path = _case(tmp_path, '[mesh]\nsize = "4 mm"\n[solve]\nmodes = 2\n'
+                           '[coupling]\nmodes = [1, 3]\n')
+    with pytest.raises(InputError, match="beyond the 2 modes") as info:
+        load_case(path)
+    assert info.value.field == "coupling.modes"
+    path = _case(tmp_path, '[mesh]\nsize = "4 mm"\n[solve]\nmodes = 3\n'
+                           '[coupling]\nmodes = [1, 3]\n')
+    with pytest.raises(InputError, match="mode 3 was not solved") as info:
+        run_case(path, out=tmp_path / "out2", modes=2)
+    assert info.value.field == "coupling.modes"
+    assert not (tmp_path / "out2").exists()
