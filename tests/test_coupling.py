@@ -104,3 +104,30 @@ def test_a_case_reports_its_named_pair_in_modes_json_the_table_and_the_report(tm
         run_case(path, out=tmp_path / "out2", modes=2)
     assert info.value.field == "coupling.modes"
     assert not (tmp_path / "out2").exists()
+
+
+def test_a_small_iris_agrees_with_the_small_aperture_estimate_in_order_of_magnitude():
+    # Two 20 x 10 x 20 mm boxes (TE101, 10.6 GHz) and a 4 mm square hole in a 0.5 mm wall.
+    # Small-aperture (Bethe) estimate (Collin, Foundations for Microwave Engineering, 2nd
+    # ed., ch. 7; from memory): k = μ0 α_m H_t² / ∫ μ0 |H|² dV, with the magnetic
+    # polarisability of a circular hole α_m = 4 r0³/3 (Pozar, Microwave Engineering, 4th ed.,
+    # §4.8), the square taken as the circle of equal area. TE101 (Pozar §6.3): H_t = E0/Z_TE
+    # at the hole, ∫ μ0 |H|² dV = 2 W = ε0 abd E0²/4, Z_TE² = (μ0/ε0) k0²/β², so
+    # k = 16 r0³ β² / (3 k0² abd). The wall's thickness t attenuates the field through the
+    # hole, a guide below cut-off, by e^{−π t / w} (its lowest mode; from memory).
+    import math
+
+    from scipy.constants import c
+
+    a, b, d, w, t = 0.02, 0.01, 0.02, 0.004, 0.0005
+    half = build_part("iris_pair", mesh_size=0.0025, width=a, height=b, length=d,
+                      iris_width=w, iris_height=w, wall_thickness=t, symmetry=("z",))
+    classes = [(f"z:{kind.upper()}",
+                solve_model(_air(half, {symmetry_wall_name("z"): Wall(kind)}), modes=1,
+                            order=2))
+               for kind in ("pmc", "pec")]
+    (pair,) = from_symmetry_classes(merge_classes(classes, 2, None).modes)
+    k0, beta, r0 = 2 * math.pi * pair.f_second_hz / c, math.pi / d, w / math.sqrt(math.pi)
+    estimate = 16 * r0**3 * beta**2 / (3 * k0**2 * a * b * d) * math.exp(-math.pi * t / w)
+    # measured |k| / estimate = 0.83
+    assert 1 / 3 < abs(pair.k) / estimate < 3
