@@ -157,6 +157,10 @@ def case_from_data(data: dict, path: Path) -> Case:
             check_case_names(geometry.builder, geometry.parameters, regions, walls)
         if solve.azimuthal_orders is not None:
             _check_axisymmetric(solve, geometry, symmetry)
+            port = next((n for n, w in walls.items() if w.kind == "port"), None)
+            if port is not None:
+                raise InputError("ports are terminated in 3D solves only so far",
+                                 field=f"walls.{port}.kind")
         tolerances = _tolerances(_table(data, "tolerances"), geometry, symmetry, solve)
         probes = _probes(_table(data, "probes"))
         filling_axis = _filling_axis(_table(data, "filling"))

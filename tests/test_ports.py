@@ -197,6 +197,11 @@ def test_a_case_with_a_port_writes_its_q_factors_and_response(tmp_path):
     beta = row["coupling_factor"]["z_max"]
     assert float(dip["magnitude_db"]) == pytest.approx(
         20 * math.log10(abs(beta - 1) / (beta + 1)), abs=0.01)
+    path.write_text('[geometry]\nbuilder = "pillbox"\nradius = "10 mm"\nlength = "10 mm"\n'
+                    '[walls.top]\nkind = "port"\n[solve]\nazimuthal_orders = [0]\n')
+    with pytest.raises(InputError, match="3D solves only") as info:
+        load_case(path)
+    assert info.value.field == "walls.top.kind"
     path.write_text(CASE.replace('kind = "metal"\n', 'kind = "metal"\nport_modes = 2\n'))
     with pytest.raises(InputError, match="port_modes belongs") as info:
         load_case(path)
