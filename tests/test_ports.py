@@ -218,3 +218,53 @@ def test_the_plain_solver_refuses_ports():
     with pytest.raises(InputError) as info:
         solve_with_ports(model, modes=1, form="H")
     assert info.value.option == "form"
+
+
+@pytest.mark.slow
+def test_two_ports_share_the_loss_of_a_symmetric_resonator(tmp_path):
+    # (slow: 6 s of CPU, 12 s on the loaded 2-core machine)
+    # Two 2 mm slabs (ε_r 10) 16 mm apart in a 40 mm WR-90 section, a port at each end
+    # (an imported gmsh mesh). Line theory: the resonance where the waves leave through both
+    # ends, V + Z_1 I = 0 at the first slab's outer face for an outgoing wave beyond the
+    # second (transfer matrices as above, Pozar §4.4); by symmetry each port takes half
+    # the loss, Q_ext = 2 Q.
+    from conftest import box_with_blocks
+
+    from femcav.geometry import read_mesh
+    from femcav.io.port_table import resonance
+    from femcav.post.response import s_parameter
+
+    gap = 0.016
+    kc = math.pi / A
+
+    def section(k0, eps, length):
+        beta = cmath.sqrt(k0**2 * eps - kc**2)
+        z = k0 / beta
+        return np.array([[cmath.cos(beta * length), 1j * z * cmath.sin(beta * length)],
+                         [1j * cmath.sin(beta * length) / z, cmath.cos(beta * length)]])
+
+    def mismatch(k0):
+        z1 = k0 / cmath.sqrt(k0**2 - kc**2)
+        v, i = (section(k0, SLAB_EPS, SLAB) @ section(k0, 1.0, gap)
+                @ section(k0, SLAB_EPS, SLAB) @ np.array([1.0, 1.0 / z1]))
+        return v + z1 * i
+
+    exact = complex(c * newton(mismatch, 2 * math.pi * 11.5e9 / c * (1 + 0.02j), tol=1e-13,
+                               maxiter=100) / (2 * math.pi))
+    q_exact = exact.real / (2 * exact.imag)
+    path = box_with_blocks(tmp_path / "two.msh", (A, B, 0.040),
+                           {"slab_a": (0, 0, 0.010, A, B, SLAB),
+                            "slab_b": (0, 0, 0.010 + SLAB + gap, A, B, SLAB)}, 0.005)
+    model = make_model(read_mesh(path), {"air": Material(), "slab_a": Material(eps_r=SLAB_EPS),
+                                         "slab_b": Material(eps_r=SLAB_EPS)},
+                       {"z_min": Wall("port"), "z_max": Wall("port")})
+    (mode,) = solve_with_ports(model, modes=1, near_hz=exact.real, order=2).modes
+    q = mode.loading.q_external
+    # measured: f +1.9e-4, Q +1.1 %, the two ports' Q_ext 0.12 % apart
+    assert mode.frequency_hz == pytest.approx(exact.real, rel=5e-3)
+    assert 1 / (1 / q["z_min"] + 1 / q["z_max"]) == pytest.approx(q_exact, rel=0.03)
+    assert q["z_min"] == pytest.approx(q["z_max"], rel=0.02)
+    # lossless and symmetric: all power passes at resonance, |S21| = 2 Q_L/√(Q_1 Q_2) = 1
+    # (common practice)
+    through = s_parameter(resonance(mode), "z_max", "z_min", [mode.frequency_hz])[0]
+    assert abs(through) == pytest.approx(1.0, abs=0.02)
