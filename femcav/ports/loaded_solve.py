@@ -121,7 +121,8 @@ def solve_with_ports(model, *, modes: int = 10, near_hz: float | None = None,
         starts = starts[np.abs(starts) >= STATIC_FRACTION * scale]
     # and the modes of the pencil linearised at the target (or the highest open start),
     # where a strongly coupled mode lies near its loaded place
-    reference = complex(target if target is not None else starts.real.max())
+    reference = complex(target if target is not None
+                        else starts.real.max() if starts.size else scale)
     Kt, Mt = _linearised(K, M, termination, reference)
     near_problem = EigenProblem(Kt, Mt, G, lowest_scale=scale, hermitian=False)
     starts = np.concatenate([starts, backends.solve(
@@ -219,9 +220,9 @@ def _converge(K, M, G, scale, termination, value: complex, factorize, progress):
         if (change < TOLERANCE * abs(new)
                 or _residual(K, M, termination, new, pairs.vectors[:, j]) < TOLERANCE):
             return value, pairs.vectors[:, j], (Kt, Mt, setting.projector), step
-    progress.step(f"warning: the port iteration near {C0 * np.sqrt(value).real / (2 * math.pi) / 1e9:.6g} "
-                  f"GHz did not settle to {TOLERANCE:g} in {MAX_STEPS} steps (last change "
-                  f"{change / abs(value):.1e})")
+    f_ghz = C0 * np.sqrt(value).real / (2 * math.pi) / 1e9
+    progress.step(f"warning: the port iteration near {f_ghz:.6g} GHz did not settle to "
+                  f"{TOLERANCE:g} in {MAX_STEPS} steps (last change {change / abs(value):.1e})")
     return value, pairs.vectors[:, j], (Kt, Mt, setting.projector), MAX_STEPS
 
 
