@@ -97,6 +97,7 @@ class Case:
     # [tolerances] samples: a Monte-Carlo draw of those lengths (femcav.study.monte_carlo)
     tolerance_samples: object = None
     periodic: tuple[PeriodicPair, ...] = ()   # [periodic] / [[periodic]]: a periodic cell
+    coupling_modes: tuple[int, int] | None = None   # [coupling] modes (post.coupling)
 
 
 def in_case(exc: InputError, source: str | None) -> InputError:
@@ -157,18 +158,24 @@ def case_from_data(data: dict, path: Path) -> Case:
             check_case_names(geometry.builder, geometry.parameters, regions, walls)
         if solve.azimuthal_orders is not None:
             _check_axisymmetric(solve, geometry, symmetry)
+            port = next((n for n, w in walls.items() if w.kind == "port"), None)
+            if port is not None:
+                raise InputError("ports are terminated in 3D solves only so far",
+                                 field=f"walls.{port}.kind")
         tolerances = _tolerances(_table(data, "tolerances"), geometry, symmetry, solve)
         probes = _probes(_table(data, "probes"))
         filling_axis = _filling_axis(_table(data, "filling"))
         beam = _beam(data["beam"], geometry, solve, symmetry) if "beam" in data else None
         samples = parse_monte_carlo(_table(data, "tolerances"), tolerances)
         periodic = _periodic(data.get("periodic"), geometry, walls, solve)
+        coupling_modes = _coupling_modes(_table(data, "coupling"), solve.modes)
     except InputError as exc:
         raise in_case(exc, source) from None
     return Case(path=path, title=title, geometry=geometry, regions=regions, walls=walls,
                 solve=solve, mesh=mesh, symmetry=symmetry, tolerances=tolerances,
                 probes=probes, filling_axis=filling_axis, beam=beam,
-                tolerance_samples=samples, periodic=periodic)
+                tolerance_samples=samples, periodic=periodic,
+                coupling_modes=coupling_modes)
 
 
 def _periodic(spec, geometry: GeometrySpec, walls: dict, solve: SolveSpec
@@ -203,6 +210,17 @@ def _periodic(spec, geometry: GeometrySpec, walls: dict, solve: SolveSpec
                                  field=f"{where}.pair")
         pairs.append(PeriodicPair(first, second, read(table, "phase", schema.PERIODIC, where)))
     return tuple(pairs)
+
+
+def _coupling_modes(spec: dict, solved: int) -> tuple[int, int] | None:
+    modes = read(check_table(spec, schema.COUPLING, "coupling"), "modes", schema.COUPLING,
+                 "coupling")
+    if modes is not None and modes[0] == modes[1]:
+        raise InputError("name two different modes", field="coupling.modes")
+    if modes is not None and max(modes) > solved:
+        raise InputError(f"mode {max(modes)} is beyond the {solved} modes [solve] asks for",
+                         field="coupling.modes")
+    return None if modes is None else (int(modes[0]), int(modes[1]))
 
 
 UNIFORM_STD = 1 / math.sqrt(3)   # standard deviation of U(-1, 1) (common practice)
@@ -544,12 +562,14 @@ def _wall(name: str, spec: dict) -> Wall:
     if kind is None:
         kinds = ", ".join(map(repr, schema.WALL.keys["kind"].allowed()))
         raise InputError(f"missing: kind = one of {kinds}", field=where + ".kind")
+    if kind != "port" and "port_modes" in spec:
+        raise InputError('port_modes belongs to kind = "port"', field=f"{where}.port_modes")
     if kind != "metal":
         extra = next((k for k in _LOSS_KEYS if k in spec), None)
         if extra:
             raise InputError(f'{extra} belongs to kind = "metal"; a {kind.upper()} wall has no '
                              "loss", field=f"{where}.{extra}")
-        return Wall(kind=kind)
+        return Wall(kind=kind, port_modes=read(spec, "port_modes", schema.WALL, where))
     if "surface_resistance" in spec:
         other = next((k for k in _LOSS_KEYS[:3] + _LOSS_KEYS[4:] if k in spec), None)
         if other:

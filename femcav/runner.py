@@ -21,10 +21,20 @@ from .case import (
 from .progress import SILENT, Progress
 from .errors import InputError
 from .geometry import symmetry_wall_name
+from .post.coupling import with_coupling
 from .post.error_estimate import estimate_over_meshes, mesh_dimension
 from .post.singularity import bar_rate
 from .solver import AccuracyReport, SolveResult, ToleranceSpread, merge_classes, solve_model
-from .walls import METAL, Wall
+from .walls import METAL, PORT, Wall
+
+
+def solve_part(model, **options):
+    """solve_model, or the port iteration (femcav.ports) when the model has ports."""
+    if any(wall.kind == PORT for wall in model.walls.values()):
+        from .ports.loaded_solve import solve_with_ports
+        options.pop("complex_check", None), options.pop("method", None)
+        return solve_with_ports(model, **options)
+    return solve_model(model, **options)
 
 
 def symmetry_classes(symmetry: dict[str, tuple[str, ...]]) -> list[dict[str, Wall]]:
@@ -49,6 +59,8 @@ def choose_form(case: Case, form: str | None, progress: Progress) -> str:
     -0.36, -0.15, -0.07 % in the H form).
     """
     has_metal = any(w.kind == METAL for w in case.walls.values())
+    if any(w.kind == PORT for w in case.walls.values()):
+        has_metal = False     # ports are terminated in the E form (femcav.ports)
     if form is None:
         form = "H" if has_metal else "E"
         if has_metal:
@@ -127,7 +139,7 @@ def _mesh_sequence(case: Case, walls: dict[str, Wall], settings):
     else:
         base_size, build_model = _part_model_builder(case, walls)
         measure = "nominal"
-        solve, options = solve_model, dict(
+        solve, options = solve_part, dict(
             form=settings.form, order=settings.order, complex_check=settings.complex_check,
             losses_inside=settings.losses_inside,
             factorization=settings.factorization, method=settings.method)
@@ -241,8 +253,8 @@ def _solve_modes(case: Case, settings, progress: Progress, pool=None):
                                                                 pool)))
             else:
                 model = case_model(case, mesh, extra_walls=walls)
-                labelled.append((label, solve_model(model, **_solve_options(settings),
-                                                    progress=progress)))
+                labelled.append((label, solve_part(model, **_solve_options(settings),
+                                                   progress=progress)))
         except InputError as exc:
             raise in_case(exc, str(case.path)) from None
     if settings.sensitivities:
@@ -250,6 +262,7 @@ def _solve_modes(case: Case, settings, progress: Progress, pool=None):
     labelled = [(label, _with_labels(case, r)) for label, r in labelled]
     result = (labelled[0][1] if len(labelled) == 1 and not labelled[0][0]
               else merge_classes(labelled, settings.modes, settings.near_hz))
+    result = with_coupling(result, case.coupling_modes)
     if settings.accuracy is not None:
         result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
     if case.tolerances:

@@ -205,6 +205,7 @@ TOP = Table({
     "probes": Key(TABLE), "filling": Key(TABLE), "beam": Key(TABLE),
     "periodic": Key(either(TABLE, list_of(TABLE, at_most=MAX_PERIODIC_PAIRS))),
     "dispersion": Key(TABLE),
+    "coupling": Key(TABLE),
 })
 
 GEOMETRY_MESH = Table({
@@ -260,8 +261,10 @@ WALL = Table({
                        doc="of a superconducting metal"),
     "residual_resistance": Key(QUANTITY, unit="resistance", range=RESIDUAL_RESISTANCE,
                                doc="of a superconducting metal"),
+    "port_modes": Key(WHOLE, range=Range(1, 20), default=1,
+                      doc="of a port: its lowest waveguide modes that are terminated"),
 })
-WALLS = Table(each=Key(TABLE, doc='a wall: kind = "pec", "pmc" or "metal"'))
+WALLS = Table(each=Key(TABLE, doc='a wall: kind = "pec", "pmc", "metal" or "port"'))
 
 SYMMETRY = Table({axis: Key(STRING, choices=("pec", "pmc", "both"), fold_case=True)
                   for axis in "xyz"})
@@ -340,6 +343,11 @@ FILLING = Table({
     "axis": Key(either(STRING, list_of(NUMBER, 3)), default="z",
                 doc='"x", "y", "z" or three numbers: the axis of the axial magnetic filling'),
 })
+
+# [coupling] modes = [i, j]: the coupling coefficient of two modes of a full model
+# (femcav.post.coupling); a cut model's classes give theirs without it.
+COUPLING = Table({"modes": Key(list_of(WHOLE, 2), range=MODES,
+                               doc="two mode numbers of the full model")})
 
 # The line a beam crosses the part on (femcav.post.beam); both ends or neither.
 BEAM = Table({

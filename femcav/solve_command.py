@@ -69,6 +69,10 @@ def _write_tables(files, case: Case, result) -> None:
     if case.probes:
         from .io.probe_table import to_probes_csv
         files.write_text("probes.csv", to_probes_csv(result))
+    from .io.port_table import to_response_csv
+    response = to_response_csv(result)
+    if response is not None:    # ports: the single-pole response of each loaded mode
+        files.write_text("response.csv", response)
 
 
 def _plain(value):

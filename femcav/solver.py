@@ -25,6 +25,7 @@ from .post.loss_validity import with_complex_warnings, with_loss_warnings
 from .post.losses import LossReport, has_losses, metal_faces, mode_losses
 from .post.resolution import Resolution, edge_space_energy, edge_space_scales, mode_resolution
 from .progress import SILENT, Progress
+from .walls import PORT
 
 
 @dataclass(frozen=True)
@@ -63,6 +64,7 @@ class Mode:
     m: int | None = None
     field_class: str | None = None
     phase_advance_rad: float | None = None   # a chain of cells' passband (passband.py)
+    loading: object | None = None   # ports.loading.PortLoading: Q_ext per port, loaded Q
 
     @property
     def multiplicity(self) -> int:
@@ -129,6 +131,7 @@ class SolveResult(ModeVerdicts):
     accuracy: AccuracyReport | None = None     # with a [solve] accuracy target
     # the complex check's own solve (losses inside): its modes, with complex fields
     complex_check: "SolveResult | None" = None
+    coupling: tuple = ()    # post.coupling.CouplingCoefficient: symmetry classes, named pair
 
     @property
     def form(self) -> str:
@@ -178,6 +181,8 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     and a complex field. ``complex_check`` is that second solve run beside the first one,
     each real mode paired with its complex partner."""
     check_request(modes, near_hz)
+    if any(wall.kind == PORT for wall in model.walls.values()):    # non-linear in k0
+        raise ValueError("a model with ports is solved by ports.loaded_solve.solve_with_ports")
     t0 = time.perf_counter()
     space = build_space(model, form, order, losses_inside=losses_inside)
     if space.pencil_kind == GENERAL:

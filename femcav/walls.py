@@ -5,7 +5,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 PEC, PMC, METAL = "pec", "pmc", "metal"
-KINDS = (PEC, PMC, METAL)
+# a planar face where a waveguide leaves the part: its lowest modes are terminated by their
+# modal admittance, the others see a short (femcav.ports); natural in the E form
+PORT = "port"
+KINDS = (PEC, PMC, METAL, PORT)
 # A boundary face that no wall names is metal: the enclosure of a cavity (common practice).
 DEFAULT_KIND = PEC
 
@@ -24,6 +27,7 @@ class Wall:
     surface_resistance: float | None = None    # ohms, the same at every frequency
     temperature: float | None = None           # K, of a superconducting metal
     residual_resistance: float | None = None   # ohms, added to a superconductor's BCS part
+    port_modes: int = 1    # a port: how many of its lowest waveguide modes are terminated
 
 
 def essential_kinds(form: str) -> tuple[str, ...]:

@@ -26,7 +26,8 @@ LAYERS = {
     "fem": 3, "eigen": 3,
     "post": 4,
     # the case layer turns keys into typed data and models; everything above reads those
-    "case": 5, "case_parameters": 5, "case_studies": 5, "class_solve": 5, "solver": 5, "axisymmetric": 5, "error_bars": 5,
+    "case": 5, "case_parameters": 5, "case_studies": 5, "class_solve": 5, "solver": 5,
+    "axisymmetric": 5, "error_bars": 5, "ports": 5,
     "io": 6, "viz": 6,
     "runner": 7, "mesh_runner": 7, "merit": 7, "morph": 7,
     "study": 8,

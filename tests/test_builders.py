@@ -41,6 +41,9 @@ PARTS = [
      6e-6 - cylinder(0.002, 0.005), [0.002]),
     ("tuned_pillbox", dict(radius=0.01, length=0.015, post_radius=0.002, post_depth=0.005),
      cylinder(0.01, 0.015) - cylinder(0.002, 0.005), [0.01, 0.002]),
+    ("iris_pair", dict(width=0.02, height=0.01, length=0.02, iris_width=0.008,
+                       iris_height=0.006, wall_thickness=0.002),
+     2 * 0.02 * 0.01 * 0.02 + 0.008 * 0.006 * 0.002, []),
 ]
 
 

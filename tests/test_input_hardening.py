@@ -69,6 +69,7 @@ VARIANTS = {
         "residual_resistance": "10 nohm"}}}, []),
 }
 VARIANTS[("walls", "side", "residual_resistance")] = VARIANTS[("walls", "side", "temperature")]
+VARIANTS[("walls", "side", "port_modes")] = ({"walls": {"side": {"kind": "port"}}}, [])
 # [beam] and [symmetry] do not go together
 VARIANTS[("symmetry",)][1].append(("beam",))
 

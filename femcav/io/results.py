@@ -24,6 +24,13 @@ df/dε_r (df/dμ_r) in Hz per unit change. With [tolerances], each mode has ``to
 ``magnetic_filling_axis`` (the unit axis a) and ``magnetic_filling_factor_axis`` (region ->
 ∫_region |H·a|² / ∫|H|²), and with [probes.NAME] ``probes`` (io.probe_table). ``weyl`` holds the optical volume for the mode-count check and ``model`` the
 part (geometry, regions with their materials, walls, symmetry) when written by a case run.
+``coupling`` (top level, when a cut model solved both classes of a plane or [coupling] named
+two modes): a list of {``modes``, ``k``, ``f_first_hz``, ``f_second_hz``, ``source``}
+(post.coupling; f_first is the magnetic-wall class or the first named mode). A mode of a
+part with ports ([walls.NAME] kind = "port", femcav.ports) has ``q_external`` (port -> Q_ext),
+``q_loaded``, ``coupling_factor`` (port -> β = Q_0/Q_ext; null without wall or dielectric
+loss) and ``propagation_constant_per_m`` (port -> [real, imaginary] β of each terminated
+mode), besides ``complex_frequency_hz`` and ``q_eigenvalue`` (all ports together).
 """
 
 from __future__ import annotations
@@ -35,6 +42,8 @@ from dataclasses import asdict
 
 from . import merit_columns, second_tables, strict_json
 from ..post import checks, resolution
+from .coupling_table import coupling_lines
+from .port_table import port_lines
 from .probe_table import field_figure_rows
 from ..solver import SolveResult
 from ..units import format_frequency
@@ -86,6 +95,8 @@ def mode_rows(result: SolveResult) -> list[dict]:
             else:
                 row["q_dielectric_complex"] = m.q_dielectric_complex
         row["loss_warnings"] = list(m.loss_warnings)
+        if getattr(m, "loading", None) is not None:   # ports: q_external, q_loaded, ...
+            row.update(m.loading.as_dict())
         row.update(field_figure_rows(m))
         row.update(merit_columns.json_fields(m))
         rows.append(row)
@@ -146,6 +157,8 @@ def to_json(result: SolveResult, *, title: str, case: str | None,
     if result.accuracy is not None:
         document["accuracy"] = asdict(result.accuracy)
     document.update(merit_columns.json_top_level(result))
+    if getattr(result, "coupling", ()):
+        document["coupling"] = [c.as_dict() for c in result.coupling]
     return strict_json.dumps(document, indent=2)
 
 
@@ -247,7 +260,9 @@ def to_table(result: SolveResult) -> str:
                      + merit_columns.table_cells(result, m)
                      + f"{c.residual:9.1e}  {c.divergence:10.1e}  {c.orthogonality:13.1e}  "
                      f"{status}")
-    return ("\n".join(lines + monte_carlo_lines(result))
+    return ("\n".join(lines + monte_carlo_lines(result)
+                      + coupling_lines(getattr(result, "coupling", ()))
+                      + port_lines(result))
             + second_tables.as_text(mode_rows(result)))
 
 

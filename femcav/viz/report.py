@@ -15,6 +15,8 @@ from pathlib import Path
 
 from ..io.results import frequency_digits
 from ..io.second_tables import second_tables
+from .coupling_section import coupling_section
+from .port_response import port_section
 from ..units import format_frequency
 from .figures_of_merit import beam_section, wall_description
 
@@ -172,7 +174,10 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
             f"<h1>{e(title)}</h1>\n<p class=\"caution\">{e(CAUTION)}</p>\n"
             f"<h2>Case</h2>\n{summary_html}\n<h2>Modes</h2>\n{table}\n"
             + _second_tables_html(modes) + "\n"
-            + beam_section(document) + "\n"
+            + beam_section(document) + "\n" + coupling_section(document) + "\n"
+            + port_section(document, _image(pictures["response"], "response")
+                           if "response" in pictures and pictures["response"].is_file()
+                           else "") + "\n"
             + "\n".join(figures) + f"\n<h2>Checks</h2>\n{checks}\n</body>\n</html>\n")
     path.write_text(page, encoding="utf-8")
 

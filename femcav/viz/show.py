@@ -36,6 +36,11 @@ def show(folder: str | Path, *, mode: int | None = None, arrows: str = "E",
                              suffix=".png")
             written.append(folder / "spectrum.png")
             written += _write_probe_plots(files, folder, document)
+            from .port_response import has_response, write_response_plot
+            if has_response(document):
+                files.write_with("response.png", lambda p: write_response_plot(document, p),
+                                 suffix=".png")
+                written.append(folder / "response.png")
         for row in modes:
             if mode is not None and row["index"] != mode:
                 continue
