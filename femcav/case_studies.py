@@ -54,10 +54,17 @@ class TuneSpec:
     path: str
     kind: str
     bracket: tuple[float, float]
-    target_hz: float
+    target_hz: float | None     # the target frequency (quantity "frequency")
     mode: int                   # 1-based, at the reference point
     tolerance: float
     bracket_keys: tuple[str, str] = ("tune.bracket", "tune.bracket")   # where each end is
+    quantity: str = "frequency"     # or "q_external" (of ``port``) or "coupling" (k)
+    port: str | None = None
+    target_value: float | None = None   # the target Q_ext or k (other quantities)
+
+    @property
+    def target(self) -> float:
+        return self.target_hz if self.quantity == "frequency" else self.target_value
 
 
 def parse_tune(data: dict) -> TuneSpec:
@@ -74,11 +81,39 @@ def parse_tune(data: dict) -> TuneSpec:
                   for i, b in enumerate(spec["bracket"]))
     if ends[0][0] == ends[1][0]:
         raise InputError("the two ends of the bracket are equal", field="tune.bracket")
+    quantity = read(spec, "quantity", TUNE, "tune")
+    target_hz, target_value, port = _tune_target(spec, quantity, data)
     return TuneSpec(path=spec["parameter"], kind=kind, bracket=(ends[0][0], ends[1][0]),
-                    target_hz=read(spec, "target", TUNE, "tune"),
-                    mode=read(spec, "mode", TUNE, "tune"),
+                    target_hz=target_hz, mode=read(spec, "mode", TUNE, "tune"),
                     tolerance=read(spec, "tolerance", TUNE, "tune"),
-                    bracket_keys=(ends[0][1], ends[1][1]))
+                    bracket_keys=(ends[0][1], ends[1][1]), quantity=quantity, port=port,
+                    target_value=target_value)
+
+
+def _tune_target(spec: dict, quantity: str, data: dict):
+    """(target frequency, target Q_ext or k, port) of a [tune] table."""
+    if quantity == "frequency":
+        if "port" in spec:
+            raise InputError('port is for quantity = "q_external"', field="tune.port")
+        return schema.parse_value(spec["target"], schema.FREQ, "tune.target"), None, None
+    value = spec["target"]
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not np.isfinite(value):
+        raise InputError(f"the target {quantity.replace('_', ' ')} is a plain number, got "
+                         f"{value!r}", field="tune.target")
+    if quantity == "coupling":
+        if not 0 < abs(value) < 1:
+            raise InputError(f"a coupling coefficient lies between -1 and 1 (and is not 0), "
+                             f"got {value!r}", field="tune.target")
+        return None, float(value), None
+    if not value > 0:
+        raise InputError(f"a Q_ext is positive, got {value!r}", field="tune.target")
+    ports = [name for name, wall in data.get("walls", {}).items()
+             if isinstance(wall, dict) and str(wall.get("kind", "")).lower() == "port"]
+    port = spec.get("port", ports[0] if len(ports) == 1 else None)
+    if port not in ports:
+        raise InputError(f"name the port whose Q_ext is tuned; the case's ports are "
+                         f"{', '.join(map(repr, ports)) or '(none)'}", field="tune.port")
+    return None, float(value), port
 
 
 @dataclass(frozen=True)

@@ -300,7 +300,11 @@ SWEEP = Table({**SWEEP_AXIS.keys, "second": Key(TABLE)})
 TUNE = Table({
     "parameter": Key(STRING),
     "bracket": Key(list_of(STUDY_VALUE, 2)),
-    "target": FREQ,
+    # a frequency, or with quantity = "q_external" / "coupling" a number (Q_ext, k)
+    "target": Key(either(NUMBER, STRING), doc='"9.5 GHz"; 40 (a Q_ext); -0.05 (a k)'),
+    "quantity": Key(STRING, choices=("frequency", "q_external", "coupling"),
+                    default="frequency", doc="what the tuned parameter sets"),
+    "port": Key(STRING, doc="the port whose Q_ext is tuned (quantity = \"q_external\")"),
     "mode": Key(WHOLE, range=MODES, default=1),
     "tolerance": Key(NUMBER, range=TUNE_TOLERANCE, default=1e-6),
 })

@@ -127,9 +127,44 @@ class _Evaluations:
         f = result.modes[index].frequency_hz
         self._solved[value] = f
         self.progress.step(f"tune: {self.spec.path} = {format_value(_axis(self.spec), value)}"
-                           f": mode at {format_frequency(f, 9)} "
-                           f"({time.perf_counter() - t0:.1f} s)")
+                           f": mode at {format_frequency(f, 9)}"
+                           + ("" if self.spec.quantity == "frequency" else
+                              f", {_shown(self.spec, self.quantity(value))}")
+                           + f" ({time.perf_counter() - t0:.1f} s)")
         return f
+
+    def quantity(self, value: float) -> float:
+        """The tuned quantity at ``value``: the followed mode's frequency, its Q_ext at the
+        spec's port, or the coupling coefficient of the pair it belongs to."""
+        f = self.frequency(value)
+        if self.spec.quantity == "frequency":
+            return f
+        _, result, index = next(p for p in reversed(self.points) if p[0] == value)
+        return tuned_quantity(self.spec, result, index)
+
+
+def tuned_quantity(spec: TuneSpec, result, index: int) -> float:
+    """Q_ext (at ``spec.port``) or k of mode ``index`` (0-based) of ``result``."""
+    mode = result.modes[index]
+    if spec.quantity == "q_external":
+        if mode.loading is None or spec.port not in mode.loading.q_external:
+            raise InputError(f"the mode has no external Q at port {spec.port!r}",
+                             field="tune.port")
+        return mode.loading.q_external[spec.port]
+    pairs = [c for c in result.coupling if index + 1 in c.modes] or list(result.coupling)
+    if not pairs:
+        raise InputError('no coupling coefficient to tune: cut the pair with [symmetry] '
+                         'AXIS = "both", or name two modes in [coupling]',
+                         field="tune.quantity")
+    return pairs[0].k
+
+
+def _shown(spec: TuneSpec, value: float) -> str:
+    """A value of the tuned quantity, with its name or unit."""
+    if spec.quantity == "frequency":
+        return format_frequency(value, 9)
+    return (f"Q_ext {value:.6g} at {spec.port}" if spec.quantity == "q_external"
+            else f"k {value:.6g}")
 
 
 def _axis(spec: TuneSpec):
@@ -160,12 +195,12 @@ def _tune(data, path: Path, spec: TuneSpec, base, folder: Path, pool, progress: 
                       f"{format_value(_axis(spec), reference)}: "
                       f"{format_frequency(runs.points[0][1].modes[spec.mode - 1].frequency_hz, 9)}")
         lo, hi = spec.bracket
-        f_lo, f_hi = runs.frequency(lo), runs.frequency(hi)
-        if (f_lo - spec.target_hz) * (f_hi - spec.target_hz) > 0:
-            raise InputError(f"the mode is at {format_frequency(f_lo, 7)} and "
-                             f"{format_frequency(f_hi, 7)} at the two ends of the bracket: "
-                             f"{format_frequency(spec.target_hz, 7)} is not between them; "
-                             "widen or move the bracket", field="tune.bracket")
+        q_lo, q_hi = runs.quantity(lo), runs.quantity(hi)
+        if (q_lo - spec.target) * (q_hi - spec.target) > 0:
+            raise InputError(f"the mode is at {_shown(spec, q_lo)} and {_shown(spec, q_hi)} "
+                             f"at the two ends of the bracket: {_shown(spec, spec.target)} "
+                             "is not between them; widen or move the bracket",
+                             field="tune.bracket")
         before = len(runs.points)
         value = _root(runs, spec)
         iterations = len(runs.points) - before
@@ -176,11 +211,22 @@ def _tune(data, path: Path, spec: TuneSpec, base, folder: Path, pool, progress: 
                 "parameter": spec.path, "unit": _axis(spec).unit,
                 "target_hz": spec.target_hz, "mode": spec.mode, "value": value,
                 "bracket": list(spec.bracket), "iterations": iterations,
-                "evaluations": [{"value": v, "frequency_hz": r.modes[j].frequency_hz}
-                                for v, r, j in runs.points], **final}
+                "evaluations": [{"value": v, "frequency_hz": r.modes[j].frequency_hz,
+                                 **_evaluated(spec, r, j)} for v, r, j in runs.points],
+                **final}
+    if spec.quantity != "frequency":
+        document.update(quantity=spec.quantity, target=spec.target, port=spec.port,
+                        reached=runs.quantity(value))
     with staged_output(folder, kind="tune") as files:
         files.write_text("tune.json", strict_json.dumps(document, indent=1))
     return document, folder
+
+
+def _evaluated(spec: TuneSpec, result, index: int) -> dict:
+    """The tuned quantity at one evaluation, when it is not the frequency."""
+    if spec.quantity == "frequency":
+        return {}
+    return {spec.quantity: tuned_quantity(spec, result, index)}
 
 
 class _Close(Exception):
@@ -194,15 +240,17 @@ def _root(runs: _Evaluations, spec: TuneSpec) -> float:
     that moves the frequency by that tolerance (at the bracket's mean slope): each point is a
     new mesh, so below the mesh noise (1e-5 to 1e-4 at usual sizes) further steps only chase
     it."""
+    measure = runs.frequency if spec.quantity == "frequency" else runs.quantity
+
     def miss(v: float) -> float:
-        f = runs.frequency(v)
-        if abs(f - spec.target_hz) <= spec.tolerance * spec.target_hz:
+        q = measure(v)
+        if abs(q - spec.target) <= spec.tolerance * abs(spec.target):
             raise _Close(v)
-        return f - spec.target_hz
+        return q - spec.target
     lo, hi = spec.bracket
-    slope = abs(runs.frequency(hi) - runs.frequency(lo)) / (hi - lo)
+    slope = abs(measure(hi) - measure(lo)) / (hi - lo)
     floor = 1e-12 * max(abs(lo), abs(hi))
-    xtol = max(spec.tolerance * spec.target_hz / slope, floor) if slope > 0 else floor
+    xtol = max(spec.tolerance * abs(spec.target) / slope, floor) if slope > 0 else floor
     try:
         return brentq(miss, lo, hi, xtol=xtol, rtol=1e-15, maxiter=60)
     except _Close as close:
@@ -239,6 +287,15 @@ def summary_lines(document: dict) -> list[str]:
     shown = (f"{document['value'] * 1e3:.7g} mm" if unit == "m"
              else f"{document['value']:.7g} {unit}".rstrip())
     bar = document["error_estimate_hz"]
+    quantity = document.get("quantity", "frequency")
+    if quantity != "frequency":
+        what = "Q_ext" if quantity == "q_external" else "k"
+        where = f" at port {document['port']}" if document.get("port") else ""
+        return [f"{document['parameter']} = {shown} gives mode {document['mode']} {what} = "
+                f"{document['reached']:.6g}{where} (target {document['target']:.6g}; "
+                f"{document['iterations']} root-finder steps), at "
+                f"{format_frequency(document['frequency_hz'], 9)}"
+                + (f" ± {format_frequency(bar, 3)}" if bar is not None else "")]
     return [f"{document['parameter']} = {shown} puts mode {document['mode']} at "
             f"{format_frequency(document['frequency_hz'], 9)}"
             + (f" ± {format_frequency(bar, 3)}" if bar is not None else "")
