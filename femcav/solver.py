@@ -171,8 +171,12 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     timings = {}
     t0 = time.perf_counter()
     space = build_space(model, form, order)
-    K, M = assemble(space)
-    G = kernel_basis(space)
+    if method == "distributed":   # each MPI process assembles its share into PETSc matrices
+        from .fem.distributed_assembly import assemble_distributed
+        K, M, G = assemble_distributed(space)
+    else:
+        K, M = assemble(space)
+        G = kernel_basis(space)
     timings["assembly_s"] = time.perf_counter() - t0
     progress.step(f"assembled {form} form, order {order}: {space.n_dofs} DOFs, {space.mesh.nelements} "
                   f"tetrahedra, {G.shape[1]} gradient DOFs")
