@@ -36,7 +36,7 @@ if ! have_debian_stack; then
     if [ "$(id -u)" = 0 ] && command -v apt-get >/dev/null 2>&1; then
         say "installing $packages (Debian packages)"
         timeout 300 apt-get update -q >/dev/null 2>&1 || say "apt-get update failed"
-        DEBIAN_FRONTEND=noninteractive timeout 900 apt-get install -y -q $packages >/dev/null 2>&1 \
+        DEBIAN_FRONTEND=noninteractive timeout 900 apt-get install -y -q --no-install-recommends $packages >/dev/null 2>&1 \
             || { say "apt-get install $packages failed"; exit 1; }
     else
         say "missing: the Debian packages $packages (and an MPI launcher, mpiexec);"
