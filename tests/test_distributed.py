@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import json
 import os
+import re
 import shutil
 import subprocess
 from pathlib import Path
@@ -103,8 +104,12 @@ def _serial(case: Path, out: Path) -> dict:
 
 
 def _distributed(python: Path, case: Path, out: Path, processes: int) -> dict:
+    return _run(python, case, out, processes, "distributed")
+
+
+def _run(python: Path, case: Path, out: Path, processes: int, method: str) -> dict:
     command = [str(python), "-m", "femcav", "solve", str(case), "--out", str(out), "--quiet",
-               "--no-report", "--method", "distributed"]
+               "--no-report", "--method", method]
     if processes > 1:
         command = _launcher() + ["-n", str(processes)] + command
     env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1")
@@ -150,6 +155,24 @@ def test_two_processes_give_the_serial_modes_near_a_target(distributed_python, m
     _same_modes(distributed, serial)
     nearest = sorted(sorted(reference, key=lambda f: abs(f - target))[:6])
     np.testing.assert_allclose(_frequencies(distributed), nearest, rtol=3e-2)
+
+
+def test_two_processes_give_the_serial_modes_of_the_dr_fixture(distributed_python, tmp_path):
+    """The dielectric-resonator fixture of geometries/ (a made-up Larkspur part), coarse:
+    three regions, metal walls (Q by perturbation) and four symmetry classes, each a solve
+    all processes take part in. Both solves run in the distributed environment, whose gmsh
+    makes one mesh for both (the DOF counts are compared)."""
+    text = (ROOT / "geometries" / "dro_fixture.toml").read_text()
+    text = re.sub(r'(?m)^size = .*$', 'size = "3.5 mm"', text)
+    text = re.sub(r'(?m)^max_frequency = .*$', "", text)
+    text = re.sub(r'(?m)^modes = .*$', "modes = 2", text)
+    case = tmp_path / "dr.toml"
+    case.write_text(text)
+    serial = _run(distributed_python, case, tmp_path / "serial", 1, "direct")
+    distributed = _distributed(distributed_python, case, tmp_path / "two", 2)
+    _same_modes(distributed, serial)
+    np.testing.assert_allclose([m["q_total"] for m in distributed["modes"]],
+                               [m["q_total"] for m in serial["modes"]], rtol=AGREEMENT)
 
 
 def test_one_process_equals_the_serial_solve(distributed_python, meshed, tmp_path):

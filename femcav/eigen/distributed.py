@@ -62,6 +62,10 @@ class _ProjectedShiftSolve:
                                    f"{self.stack.size} processes) in "
                                    f"{self.factor_seconds:.2f} s")
 
+    def view(self, pc, viewer):      # -eps_view shows the factorisation that ran
+        if self._ksp is not None:
+            self._ksp.view(viewer)
+
     def apply(self, pc, x, y):
         self.applications += 1
         self._ksp.solve(x, y)
