@@ -103,21 +103,24 @@ def _serial(case: Path, out: Path) -> dict:
     return json.loads((out / "modes.json").read_text())
 
 
-def _distributed(python: Path, case: Path, out: Path, processes: int) -> dict:
-    return _run(python, case, out, processes, "distributed")
+def _distributed(python: Path, case: Path, out: Path, processes: int,
+                 petsc_options: str = "") -> dict:
+    return _run(python, case, out, processes, "distributed", petsc_options)
 
 
-def _run(python: Path, case: Path, out: Path, processes: int, method: str) -> dict:
-    command = [str(python), "-m", "femcav", "solve", str(case), "--out", str(out), "--quiet",
+def _run(python: Path, case: Path, out: Path, processes: int, method: str,
+         petsc_options: str = "") -> dict:
+    command = [str(python), "-m", "femcav", "solve", str(case), "--out", str(out),
                "--no-report", "--method", method]
     if processes > 1:
         command = _launcher() + ["-n", str(processes)] + command
-    env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1")
+    env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1",
+               PETSC_OPTIONS=petsc_options)
     env.pop("PYTHONPATH", None)      # the environment has femcav installed from its checkout
     run = subprocess.run(command, capture_output=True, text=True, timeout=TIMEOUT_S,
                          cwd=case.parent, env=env)
     assert run.returncode == 0, run.stderr[-2000:]
-    return json.loads((out / "modes.json").read_text())
+    return dict(json.loads((out / "modes.json").read_text()), progress=run.stderr)
 
 
 def _frequencies(result: dict) -> np.ndarray:
@@ -136,6 +139,8 @@ def test_two_processes_give_the_serial_lowest_modes(distributed_python, meshed, 
     case = _case(meshed, "lowest", "modes = 10")
     serial = _serial(case, tmp_path / "serial")
     distributed = _distributed(distributed_python, case, tmp_path / "two", 2)
+    assert re.search(r"MUMPS factorised K - σM \(\d+ DOFs, 2 processes\)",
+                     distributed["progress"])
     _same_modes(distributed, serial)
     # a 3 mm mesh of first order elements: within 3 % of the closed form (Pozar §6.3)
     reference = np.array(lowest_box_frequencies(A, B, D, 10))
@@ -143,6 +148,18 @@ def test_two_processes_give_the_serial_lowest_modes(distributed_python, meshed, 
     assert not (tmp_path / "two" / "fields").exists()   # one writer: the expected files only
     assert sorted(p.name for p in (tmp_path / "two").iterdir()) == sorted(
         p.name for p in (tmp_path / "serial").iterdir())
+
+
+def test_davidson_with_ams_gives_the_serial_lowest_modes(distributed_python, meshed, tmp_path):
+    """The preconditioned eigensolver (PETSc option -femcav_eigensolver davidson): no
+    factorisation of K - σM, hypre AMS on K + τM, the gradient kernel projected out."""
+    case = _case(meshed, "davidson", "modes = 6")
+    serial = _serial(case, tmp_path / "serial")
+    distributed = _distributed(distributed_python, case, tmp_path / "two", 2,
+                               "-femcav_eigensolver davidson")
+    assert "hypre AMS set up" in distributed["progress"]
+    assert "MUMPS factorised K - σM" not in distributed["progress"]
+    _same_modes(distributed, serial)
 
 
 def test_two_processes_give_the_serial_modes_near_a_target(distributed_python, meshed,

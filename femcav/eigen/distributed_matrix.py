@@ -84,6 +84,9 @@ class DistributedMatrix:
         self.stack, self.mat = stack, mat
         self.row_vectors = DistributedVectors(stack, rows)
         self.col_vectors = DistributedVectors(stack, cols)
+        # of a first-order kernel basis: the coordinates (3, owned columns) of the vertices
+        # its columns stand for, which the auxiliary-space preconditioner needs
+        self.column_points: np.ndarray | None = None
 
     @property
     def shape(self) -> tuple[int, int]:

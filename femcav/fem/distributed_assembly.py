@@ -52,6 +52,9 @@ def assemble_distributed(space) -> tuple[DistributedMatrix, DistributedMatrix,
     K = _sum_into_petsc(stack, edges, edge_index[:, mine], local_K, pattern)
     M = _sum_into_petsc(stack, edges, edge_index[:, mine], local_M, pattern)
     G = _gradient(stack, space, mine, edges, edge_owner, scalars)
+    if space.order == 1:   # the nodes of the auxiliary space: the owned columns' vertices
+        G.column_points = space.mesh.p[:, space.scalar_constraint.kept[
+            scalars.owned(stack.rank)]]
     return K, M, G
 
 
