@@ -206,7 +206,7 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
                          "can be spared; use a coarser mesh or symmetry planes",
                          field="solve") from None
     timings["eigen_s"] = time.perf_counter() - t0
-    pairs.stats["factorization"] = describe(factorization)
+    pairs.stats.setdefault("factorization", describe(factorization))   # a backend may say
     pairs.stats["method"] = choice.method
     pairs.stats["peak_estimate_bytes"] = choice.peak_bytes   # sizes a sweep's --jobs
 

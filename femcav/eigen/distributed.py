@@ -115,7 +115,8 @@ def solve(K, M, projector, request: EigenRequest, *, lowest_scale: float,
                              "restarts": eps.getIterationNumber(), "shift": sigma,
                              "requested": k, "processes": stack.size,
                              "gradient_factor_seconds": projector.factor_seconds,
-                             "eigensolver": "SLEPc Krylov-Schur, shift-invert, MUMPS"})
+                             "eigensolver": "SLEPc Krylov-Schur, shift-invert, MUMPS",
+                             "factorization": f"MUMPS over {stack.size} MPI processes"})
 
 
 def pencil_solver(K, M, eps_type, st_type, preconditioner):

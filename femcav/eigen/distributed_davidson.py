@@ -94,4 +94,6 @@ def solve(K, M, G, projector, request: EigenRequest, *, lowest_scale: float,
                              "iterations": eps.getIterationNumber(), "shift": -lowest_scale,
                              "requested": k, "processes": stack.size,
                              "gradient_factor_seconds": projector.factor_seconds,
-                             "eigensolver": "SLEPc generalized Davidson, hypre AMS"})
+                             "eigensolver": "SLEPc generalized Davidson, hypre AMS",
+                             "factorization": f"none of K - σM; MUMPS for GᵀMG over "
+                                              f"{stack.size} MPI processes"})
