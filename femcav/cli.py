@@ -125,6 +125,7 @@ def main(argv: list[str] | None = None) -> int:
         _parser().print_help()
         return EXIT_INPUT_ERROR
     try:
+        _only_solve_under_mpiexec(args.command)
         return {"mesh": _mesh, "sweep": _sweep, "tune": _tune, "extract": _extract,
                 "show": _show, "verify": verification_command.run}.get(args.command,
                                                                        _solve)(args)
@@ -217,6 +218,14 @@ def _solve(args) -> int:
     if not args.no_report:
         _report(folder, quiet=args.quiet)
     return _solve_status(result)
+
+
+def _only_solve_under_mpiexec(command: str) -> None:
+    from .eigen.petsc_stack import launched_processes
+
+    if command != "solve" and launched_processes() > 1:
+        raise InputError(f"femcav {command} runs as one process; only femcav solve with "
+                         "method \"distributed\" runs under mpiexec")
 
 
 def _writing_process(case, args) -> bool:

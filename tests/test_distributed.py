@@ -224,3 +224,12 @@ def test_missing_petsc_is_one_line_and_exit_2(meshed, tmp_path, capsys):
     assert len(lines) == 1
     assert "petsc4py" in lines[0] and "scripts/distributed_env.sh" in lines[0]
     assert not out.exists()
+
+
+def test_other_commands_refuse_to_run_under_mpiexec(meshed, tmp_path, monkeypatch, capsys):
+    # what Open MPI's mpiexec -n 2 sets in each process it starts (common practice)
+    monkeypatch.setenv("OMPI_COMM_WORLD_SIZE", "2")
+    out = tmp_path / "mesh"
+    assert main(["mesh", str(meshed / "box.toml"), "--out", str(out)]) == 2
+    assert "only femcav solve" in capsys.readouterr().err
+    assert not out.exists()
