@@ -233,3 +233,11 @@ def test_other_commands_refuse_to_run_under_mpiexec(meshed, tmp_path, monkeypatc
     assert main(["mesh", str(meshed / "box.toml"), "--out", str(out)]) == 2
     assert "only femcav solve" in capsys.readouterr().err
     assert not out.exists()
+
+
+def test_what_runs_serially_is_refused_before_loading_petsc(meshed, tmp_path, capsys):
+    case = _case(meshed, "complex", 'modes = 2\nmethod = "distributed"\ncomplex_check = true')
+    out = tmp_path / "out"
+    assert main(["solve", str(case), "--out", str(out)]) == 2
+    assert "complex check run serially" in capsys.readouterr().err
+    assert not out.exists()
