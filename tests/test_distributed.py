@@ -193,6 +193,18 @@ def test_two_processes_give_the_serial_modes_of_the_dr_fixture(distributed_pytho
                                [m["q_total"] for m in serial["modes"]], rtol=AGREEMENT)
 
 
+@pytest.mark.parametrize("solve", ["modes = 3\norder = 2", 'modes = 3\nform = "H"'],
+                         ids=["order 2", "H form"])
+def test_two_processes_give_the_serial_modes_at_order_2_and_in_the_h_form(
+        distributed_python, meshed, tmp_path, solve):
+    """Second order has DOFs on edges, faces and inside elements (each process sets the
+    rows of G it owns from its own elements); the H form keeps the boundary DOFs that the
+    E form drops."""
+    case = _case(meshed, "variant", solve)
+    _same_modes(_distributed(distributed_python, case, tmp_path / "two", 2),
+                _serial(case, tmp_path / "serial"))
+
+
 def test_one_process_equals_the_serial_solve(distributed_python, meshed, tmp_path):
     case = _case(meshed, "one", "modes = 4")
     _same_modes(_distributed(distributed_python, case, tmp_path / "one", 1),
