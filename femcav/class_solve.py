@@ -74,7 +74,8 @@ def solve_class(pencil: ClassPencil, *, count: int, target: float | None,
     progress.step(choice.describe())
     factorize = partial(get_factorizer(factorization),
                         memory_limit=int(selection.MEMORY_SHARE * choice.free_bytes))
-    progress.step(f"sparse direct solves: {describe(factorization)}")
+    if choice.method != "distributed":    # that backend brings its own (MUMPS over MPI)
+        progress.step(f"sparse direct solves: {describe(factorization)}")
     problem = EigenProblem(K, pencil.M, pencil.G, lowest_scale=pencil.lowest_scale,
                            hermitian=pencil.hermitian, auxiliary=pencil.auxiliary)
     try:
@@ -85,7 +86,8 @@ def solve_class(pencil: ClassPencil, *, count: int, target: float | None,
                          f"{format_bytes(error.needed)} but only {format_bytes(error.limit)} "
                          "can be spared; use a coarser mesh or symmetry planes",
                          field="solve") from None
-    stats = replace(pairs.stats, factorization=describe(factorization), method=choice.method,
+    stats = replace(pairs.stats, method=choice.method,
+                    factorization=pairs.stats.factorization or describe(factorization),
                     peak_estimate_bytes=choice.peak_bytes,   # sizes a sweep's --jobs
                     lowest_scale=pencil.lowest_scale)
     static = np.real(pairs.values) < STATIC_FRACTION * pencil.lowest_scale

@@ -47,9 +47,10 @@ def _parser() -> argparse.ArgumentParser:
     solve.add_argument("--factorization", choices=("auto", "superlu", "pardiso"),
                        help="sparse direct library for the shift-invert solves (overrides the "
                             "case; auto: PARDISO when installed, else SuperLU)")
-    solve.add_argument("--method", choices=("auto", "direct", "iterative"),
+    solve.add_argument("--method", choices=("auto", "direct", "iterative", "distributed"),
                        help="eigen backend (overrides the case; auto: by request and size, "
-                            "the choice and its reason are printed)")
+                            "the choice and its reason are printed; distributed: over MPI "
+                            "processes, run under mpiexec)")
     solve.add_argument("--no-report", action="store_true",
                        help="skip the pictures and report.html (femcav show makes them later)")
     solve.add_argument("-q", "--quiet", action="store_true", help="no progress lines on stderr")
@@ -137,6 +138,7 @@ def main(argv: list[str] | None = None) -> int:
         _parser().print_help()
         return EXIT_INPUT_ERROR
     try:
+        _only_solve_under_mpiexec(args.command)
         return {"mesh": _mesh, "sweep": _sweep, "tune": _tune, "extract": _extract,
                 "dispersion": _dispersion,
                 "show": _show, "verify": verification_command.run}.get(args.command,
@@ -210,10 +212,14 @@ def _solve(args) -> int:
     from .io.results import to_table
     from .solve_command import run_case
 
+    writer = _writing_process(case, args)
     case, result, folder = run_case(case, out=args.out, modes=args.modes, near_hz=near_hz,
                                     form=args.form, order=args.order,
                                     factorization=args.factorization, method=args.method,
-                                    cluster=args.cluster, progress=Progress(quiet=args.quiet))
+                                    cluster=args.cluster, write=writer,
+                                    progress=Progress(quiet=args.quiet or not writer))
+    if not writer:
+        return 0
     count = len(result.modes)
     what = (f"{count} modes nearest {format_frequency(result.near_hz)}" if result.near_hz
             else f"lowest {count} modes")
@@ -226,6 +232,39 @@ def _solve(args) -> int:
     if not args.no_report:
         _report(folder, quiet=args.quiet)
     return _solve_status(result)
+
+
+def _only_solve_under_mpiexec(command: str) -> None:
+    from .eigen.petsc_stack import launched_processes
+
+    if command != "solve" and launched_processes() > 1:
+        raise InputError(f"femcav {command} runs as one process; only femcav solve with "
+                         "method \"distributed\" runs under mpiexec")
+
+
+def _writing_process(case, args) -> bool:
+    """Whether this process writes the results: always, but for a distributed solve only
+    rank 0 (every process solves; PETSc and MPI are loaded here, so that a missing one is
+    said before any work). Several processes without method "distributed" would each
+    write the same files: refused."""
+    from .eigen.petsc_stack import launched_processes, load
+
+    method = args.method or case.solve.method
+    if method != "distributed":
+        if launched_processes() > 1:
+            raise InputError(f"{launched_processes()} processes were started (mpiexec) but "
+                             f"the method is {method!r}; use --method distributed",
+                             field="solve.method", source=args.case)
+        return True
+    if (case.solve.azimuthal_orders is not None or case.solve.complex_check
+            or case.solve.losses_inside):
+        raise InputError("method \"distributed\" solves lossless 3D models (Hermitian "
+                         "pencils); bodies of revolution, the complex check and losses inside "
+                         "the solve run serially", field="solve.method", source=args.case)
+    if args.cluster is not None:
+        raise InputError("--cluster and method \"distributed\" do not combine",
+                         field="--cluster", source=args.case)
+    return load().rank == 0
 
 
 def _solve_status(result) -> int:

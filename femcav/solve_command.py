@@ -23,7 +23,7 @@ from .study.monte_carlo import with_monte_carlo
 def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: int | None = None,
              near_hz: float | None = None, form: str | None = None, order: int | None = None,
              factorization: str | None = None, method: str | None = None,
-             cluster: str | None = None,
+             cluster: str | None = None, write: bool = True,
              progress: Progress = SILENT) -> tuple[Case, SolveResult, Path]:
     """Solve a case file and write table.txt, modes.csv, modes.json and fields.vtu (and
     wall_loss.vtu when the case has metal walls).
@@ -31,7 +31,8 @@ def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: i
     Command-line values (modes, near_hz, form, order, factorization, method) override the
     case file's [solve] table. ``path`` may also be a case already loaded (load_case).
     ``cluster``: where the samples of a Monte-Carlo tolerance draw are solved (a Dask
-    scheduler's address or local:N; femcav.study.cluster).
+    scheduler's address or local:N; femcav.study.cluster). ``write=False``: solve only (the
+    processes other than rank 0 of a distributed solve).
     """
     case = path if isinstance(path, Case) else load_case(path)
     overrides = dict(modes=modes, near_hz=near_hz, form=form, order=order,
@@ -46,6 +47,8 @@ def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: i
         result = solve_case(case, settings, progress, pool=pool)
         if case.tolerance_samples is not None:
             result = with_monte_carlo(case, result, settings, pool=pool, progress=progress)
+    if not write:
+        return case, result, folder
     with staged_output(folder, kind="solve", replaces=("solve", "pictures")) as files:
         _write_tables(files, case, result)
         if settings.azimuthal_orders is not None:

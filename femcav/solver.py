@@ -219,8 +219,12 @@ def solve_space(space: EdgeSpace, *, modes: int, near_hz: float | None,
     model, form, order = space.model, space.form, space.order
     timings = {}
     t0 = time.perf_counter() if started is None else started
-    K, M = assemble(space)
-    G = kernel_basis(space)
+    if method == "distributed":   # each MPI process assembles its share into PETSc matrices
+        from .fem.distributed_assembly import assemble_distributed
+        K, M, G = assemble_distributed(space)
+    else:
+        K, M = assemble(space)
+        G = kernel_basis(space)
     timings["assembly_s"] = time.perf_counter() - t0
     progress.step(f"assembled {form} form, order {order}: {space.n_dofs} DOFs, "
                   f"{space.mesh.nelements} tetrahedra, {G.shape[1]} gradient DOFs"

@@ -47,9 +47,12 @@ def names() -> tuple[str, ...]:
 
 
 def setting_for(problem: EigenProblem, factorize, progress=None) -> SolveSetting:
+    # matrices spread over processes (eigen.distributed_matrix) bring their own projector
+    own = getattr(problem.M, "gradient_projector", None)
     return SolveSetting(factorize=factorize, progress=progress,
-                        projector=GradientProjector(problem.M, problem.kernel, factorize,
-                                                    hermitian=problem.hermitian))
+                        projector=own(problem.kernel) if own else
+                        GradientProjector(problem.M, problem.kernel, factorize,
+                                          hermitian=problem.hermitian))
 
 
 def solve(name: str, problem: EigenProblem, request: EigenRequest,
@@ -63,3 +66,4 @@ def solve(name: str, problem: EigenProblem, request: EigenRequest,
 def _load() -> None:
     """Import the modules that register the built-in backends (once)."""
     from . import builtin  # noqa: F401
+    from . import distributed  # noqa: F401  (imports PETSc only when it runs)

@@ -40,7 +40,13 @@ class EigenStats:
     second_orthogonalization_passes: int | None = None
     residual_history: tuple[float, ...] | None = None
     tolerance: float | None = None
-    # added by the driver
+    # the distributed backends (SLEPc over MPI processes)
+    processes: int | None = None
+    eigensolver: str | None = None          # e.g. "SLEPc Krylov-Schur, shift-invert, MUMPS"
+    restarts: int | None = None
+    preconditioner_applications: int | None = None
+    gradient_factor_seconds: float | None = None
+    # added by the driver (a backend that brings its own solver library names it here)
     method: str | None = None
     factorization: str | None = None
     peak_estimate_bytes: float | None = None

@@ -4,6 +4,8 @@
 only choice for modes near a target, and the fastest while the factor is small. "iterative"
 is LOBPCG with the auxiliary-space multigrid preconditioner (femcav.eigen.lobpcg and
 femcav.eigen.hx): lowest modes only, memory and time close to linear in the DOFs.
+"distributed" is shift-invert with SLEPc and MUMPS over MPI processes (femcav.eigen.distributed);
+only when asked for, since it needs mpiexec and the PETSc environment.
 """
 
 from __future__ import annotations
@@ -15,7 +17,7 @@ from .interface import EigenRequest
 from ..memory_room import available_bytes, format_bytes, share_note
 from .memory import direct_peak_bytes, iterative_peak_bytes
 
-METHODS = ("auto", "direct", "iterative")
+METHODS = ("auto", "direct", "iterative", "distributed")
 # With "auto", the lowest modes of problems this large go to the iterative backend when the
 # factorisation is SuperLU; with PARDISO only when its factor would not fit. Measured (box,
 # order 1, 10 modes, one thread; benchmarks/scale.py): at 50k / 200k / 1M DOFs LOBPCG + HX
@@ -78,6 +80,10 @@ def choose(method: str, *, n: int, nnz: int, request: EigenRequest, order: int, 
         choice = Choice("iterative", "asked for", iterative, free)
     elif method == "direct":
         choice = Choice("direct", "asked for", direct, free)
+    elif method == "distributed":
+        # MUMPS spreads the factor over the processes (and says itself when it runs out);
+        # the estimate is the whole factor's, over all processes
+        return Choice("distributed", "asked for, shift-invert over MPI processes", direct, free)
     elif not iterative_possible:
         why = ("modes near a target need shift-invert" if request.target is not None
                else f"the iterative method does not support order {order}")

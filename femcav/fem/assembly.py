@@ -53,18 +53,21 @@ def assemble(space: EdgeSpace):
             sp.csr_matrix((combined.data.imag.copy(), *pattern), shape=combined.shape))
 
 
-def _element_matrices(space: EdgeSpace, coefficient, *, curl: bool) -> np.ndarray:
-    """(n_elements, n_basis, n_basis) element matrices of one of the two integrands."""
+def _element_matrices(space: EdgeSpace, coefficient, *, curl: bool,
+                      elements: np.ndarray | None = None) -> np.ndarray:
+    """(n_elements, n_basis, n_basis) element matrices of one of the two integrands, of
+    every element or of the ``elements`` given (a process's share)."""
     X, W = space.quadrature
     values, curls = space.element.reference_tables(X)          # (n_basis, 3, n_points)
     table = (curls if curl else values).transpose(2, 1, 0)      # (n_points, 3, n_basis)
     n_points, _, n_basis = table.shape
     reference = table.reshape(n_points * 3, n_basis)            # rows (point, component)
     mapping = space.mesh.mapping()
-    n_elements = space.mesh.nelements
-    local = np.empty((n_elements, n_basis, n_basis), dtype=np.result_type(coefficient, float))
-    for start in range(0, n_elements, BLOCK):
-        block = np.arange(start, min(start + BLOCK, n_elements))
+    chosen = np.arange(space.mesh.nelements) if elements is None else np.asarray(elements)
+    local = np.empty((chosen.size, n_basis, n_basis), dtype=np.result_type(coefficient, float))
+    for start in range(0, chosen.size, BLOCK):
+        rows = slice(start, min(start + BLOCK, chosen.size))
+        block = chosen[rows]
         J = np.moveaxis(mapping.DF(X, tind=block), (0, 1), (2, 3))   # (block, points, 3, 3)
         det = np.abs(np.linalg.det(J))[..., None, None]
         c = coefficient[block]
@@ -77,8 +80,15 @@ def _element_matrices(space: EdgeSpace, coefficient, *, curl: bool) -> np.ndarra
                       else np.einsum("eqij,eqjk,eqlk->eqil", inverse, c, inverse)) * det
         metric = metric * (W[:, None, None] if is_tensor(c) else (W * c)[..., None, None])
         weighted = np.einsum("eqab,qbn->eqan", metric, table)   # metric applied to the basis
-        local[block] = reference.T @ weighted.reshape(block.size, n_points * 3, n_basis)
+        local[rows] = reference.T @ weighted.reshape(block.size, n_points * 3, n_basis)
     return local
+
+
+def element_matrices(space: EdgeSpace, elements: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The stiffness and mass element matrices of ``elements`` only, with the space's own
+    coefficients: what one process of a distributed assembly sums."""
+    return (_element_matrices(space, space.stiffness_coef, curl=True, elements=elements),
+            _element_matrices(space, space.mass_coef, curl=False, elements=elements))
 
 
 def _reduced_csr(space: EdgeSpace, local: np.ndarray):

@@ -23,14 +23,23 @@ def discrete_gradient(space) -> sp.csr_matrix:
     """G (edge-space DOFs x scalar-space DOFs): the Nédélec DOFs of the gradient of every
     Lagrange basis function of the same order. ∇P_k lies inside NED_k, so G is exact, and the
     moments are Piola-invariant, so one reference matrix serves every element."""
+    rows, cols, vals = gradient_entries(space)
+    return shared_entries_csr(rows, cols, vals, (space.dofs.N, space.scalar_dofs.N))
+
+
+def gradient_entries(space, elements: np.ndarray | None = None):
+    """(edge DOF, scalar DOF, value) of G as every element (or every one of ``elements``)
+    gives them; elements sharing a DOF give the same entry again."""
     local = _reference_gradient(space.order)
     rows_local, cols_local = np.nonzero(local)
     edge_dofs = space.dofs.element_dofs           # (n_ned, n_elements)
     scalar_dofs = space.scalar_dofs.element_dofs  # (n_lag, n_elements)
+    if elements is not None:
+        edge_dofs, scalar_dofs = edge_dofs[:, elements], scalar_dofs[:, elements]
     rows = edge_dofs[rows_local].ravel()
     cols = scalar_dofs[cols_local].ravel()
     vals = np.repeat(local[rows_local, cols_local], edge_dofs.shape[1])
-    return shared_entries_csr(rows, cols, vals, (space.dofs.N, space.scalar_dofs.N))
+    return rows, cols, vals
 
 
 @lru_cache(maxsize=None)

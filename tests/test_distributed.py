@@ -1,0 +1,256 @@
+"""The distributed backend (PETSc/SLEPc over MPI) against the serial solver on the same mesh
+and against the closed-form frequencies of a rectangular box (Pozar, Microwave Engineering,
+4th ed., §6.3, section number from memory; femcav/analytic/box.py).
+
+The distributed runs need Debian's petsc4py/slepc4py/mpi4py, which are built for Debian's
+own Python: they run in the environment scripts/distributed_env.sh makes (its Python in
+FEMCAV_DISTRIBUTED_PYTHON, else .dist-env/bin/python of this checkout, which .ci/run makes),
+through `mpiexec -n 2 ... -m femcav solve`. Without it those tests skip, saying why. The
+serial reference is solved here, in-process, on the same mesh file.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import re
+import shutil
+import subprocess
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from femcav.analytic.box import lowest_box_frequencies
+from femcav.cli import main
+
+A, B, D = 0.02286, 0.01016, 0.030     # m: a WR-90-sized cross-section, 30 mm long
+ROOT = Path(__file__).resolve().parent.parent
+TIMEOUT_S = 120
+# Two solves of one mesh by two eigensolvers (ARPACK, SLEPc) converged to 1e-10: their
+# Rayleigh quotients agree to round-off far below this.
+AGREEMENT = 1e-8
+
+BOX = f"""
+title = "Larkspur Microwave Works test box (made up)"
+[geometry]
+builder = "box"
+width = "{A * 1e3} mm"
+height = "{B * 1e3} mm"
+length = "{D * 1e3} mm"
+[mesh]
+size = "3 mm"
+"""
+
+FROM_FILE = """
+title = "Larkspur Microwave Works test box, meshed once (made up)"
+[geometry]
+mesh = "mesh/mesh.msh"
+[regions.inside]
+eps_r = 1
+[solve]
+{solve}
+"""
+
+
+def _distributed_python() -> Path | None:
+    named = os.environ.get("FEMCAV_DISTRIBUTED_PYTHON")
+    path = Path(named) if named else ROOT / ".dist-env" / "bin" / "python"
+    return path if path.exists() else None
+
+
+def _launcher() -> list[str]:
+    """mpiexec with the flags Open MPI needs to start 2 processes as root on any machine."""
+    mpiexec = shutil.which("mpiexec")
+    if mpiexec is None:
+        pytest.skip("no mpiexec on PATH (scripts/distributed_env.sh installs Open MPI)")
+    version = subprocess.run([mpiexec, "--version"], capture_output=True, text=True).stdout
+    openmpi = "Open MPI" in version or "OpenRTE" in version
+    return [mpiexec] + (["--oversubscribe", "--allow-run-as-root"] if openmpi else [])
+
+
+@pytest.fixture(scope="module")
+def distributed_python() -> Path:
+    python = _distributed_python()
+    if python is None:
+        pytest.skip("no distributed environment: set FEMCAV_DISTRIBUTED_PYTHON or run "
+                    "scripts/distributed_env.sh .dist-env")
+    probe = subprocess.run([str(python), "-c", "import petsc4py, slepc4py, mpi4py, femcav"],
+                           capture_output=True, text=True, timeout=TIMEOUT_S)
+    if probe.returncode != 0:
+        pytest.skip(f"{python} cannot import petsc4py, slepc4py, mpi4py and femcav: "
+                    f"{probe.stderr.strip().splitlines()[-1:]}")
+    return python
+
+
+@pytest.fixture(scope="module")
+def meshed(tmp_path_factory) -> Path:
+    """A folder with one mesh of the box (mesh/mesh.msh), read by every solve below."""
+    folder = tmp_path_factory.mktemp("distributed")
+    (folder / "box.toml").write_text(BOX)
+    assert main(["mesh", str(folder / "box.toml"), "--out", str(folder / "mesh")]) == 0
+    return folder
+
+
+def _case(folder: Path, name: str, solve: str) -> Path:
+    path = folder / f"{name}.toml"
+    path.write_text(FROM_FILE.format(solve=solve))
+    return path
+
+
+def _serial(case: Path, out: Path) -> dict:
+    assert main(["solve", str(case), "--out", str(out), "--quiet", "--no-report"]) == 0
+    return json.loads((out / "modes.json").read_text())
+
+
+def _distributed(python: Path, case: Path, out: Path, processes: int,
+                 petsc_options: str = "") -> dict:
+    return _run(python, case, out, processes, "distributed", petsc_options)
+
+
+def _run(python: Path, case: Path, out: Path, processes: int, method: str,
+         petsc_options: str = "") -> dict:
+    command = [str(python), "-m", "femcav", "solve", str(case), "--out", str(out),
+               "--no-report", "--method", method]
+    if processes > 1:
+        command = _launcher() + ["-n", str(processes)] + command
+    env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1",
+               PETSC_OPTIONS=petsc_options)
+    env.pop("PYTHONPATH", None)      # the environment has femcav installed from its checkout
+    run = subprocess.run(command, capture_output=True, text=True, timeout=TIMEOUT_S,
+                         cwd=case.parent, env=env)
+    assert run.returncode == 0, run.stderr[-2000:]
+    return dict(json.loads((out / "modes.json").read_text()), progress=run.stderr)
+
+
+def _frequencies(result: dict) -> np.ndarray:
+    return np.array([m["frequency_hz"] for m in result["modes"]])
+
+
+def _same_modes(distributed: dict, serial: dict) -> None:
+    assert distributed["dofs"] == serial["dofs"]
+    assert len(distributed["modes"]) == len(serial["modes"])
+    np.testing.assert_allclose(_frequencies(distributed), _frequencies(serial),
+                               rtol=AGREEMENT, atol=0)
+    assert all(m["passed"] for m in distributed["modes"])
+
+
+def test_two_processes_give_the_serial_lowest_modes(distributed_python, meshed, tmp_path):
+    case = _case(meshed, "lowest", "modes = 10")
+    serial = _serial(case, tmp_path / "serial")
+    distributed = _distributed(distributed_python, case, tmp_path / "two", 2)
+    assert re.search(r"MUMPS factorised K - σM \(\d+ DOFs, 2 processes\)",
+                     distributed["progress"])
+    assert distributed["factorization"] == "MUMPS over 2 MPI processes"
+    _same_modes(distributed, serial)
+    # a 3 mm mesh of first order elements: within 3 % of the closed form (Pozar §6.3)
+    reference = np.array(lowest_box_frequencies(A, B, D, 10))
+    assert np.max(np.abs(_frequencies(distributed) / reference - 1)) < 3e-2
+    assert not (tmp_path / "two" / "fields").exists()   # one writer: the expected files only
+    assert sorted(p.name for p in (tmp_path / "two").iterdir()) == sorted(
+        p.name for p in (tmp_path / "serial").iterdir())
+
+
+def test_davidson_with_ams_gives_the_serial_lowest_modes(distributed_python, meshed, tmp_path):
+    """The preconditioned eigensolver (PETSc option -femcav_eigensolver davidson): no
+    factorisation of K - σM, hypre AMS on K + τM, the gradient kernel projected out."""
+    case = _case(meshed, "davidson", "modes = 3")
+    serial = _serial(case, tmp_path / "serial")
+    distributed = _distributed(distributed_python, case, tmp_path / "two", 2,
+                               "-femcav_eigensolver davidson")
+    assert "hypre AMS set up" in distributed["progress"]
+    assert "MUMPS factorised K - σM" not in distributed["progress"]
+    _same_modes(distributed, serial)
+
+
+def test_two_processes_give_the_serial_modes_near_a_target(distributed_python, meshed,
+                                                           tmp_path):
+    reference = lowest_box_frequencies(A, B, D, 10)
+    target = 0.5 * (reference[5] + reference[6])       # between two modes: nothing at σ
+    case = _case(meshed, "near", f'modes = 6\nnear = "{target / 1e9:.6f} GHz"')
+    serial = _serial(case, tmp_path / "serial")
+    distributed = _distributed(distributed_python, case, tmp_path / "two", 2)
+    _same_modes(distributed, serial)
+    nearest = sorted(sorted(reference, key=lambda f: abs(f - target))[:6])
+    np.testing.assert_allclose(_frequencies(distributed), nearest, rtol=3e-2)
+
+
+def test_two_processes_give_the_serial_modes_of_the_dr_fixture(distributed_python, tmp_path):
+    """The dielectric-resonator fixture of geometries/ (a made-up Larkspur part), coarse:
+    three regions, metal walls (Q by perturbation) and four symmetry classes, each a solve
+    all processes take part in. Both solves run in the distributed environment, whose gmsh
+    makes one mesh for both (the DOF counts are compared)."""
+    text = (ROOT / "geometries" / "dro_fixture.toml").read_text()
+    text = re.sub(r'(?m)^size = .*$', 'size = "3.5 mm"', text)
+    text = re.sub(r'(?m)^max_frequency = .*$', "", text)
+    text = re.sub(r'(?m)^modes = .*$', "modes = 2", text)
+    case = tmp_path / "dr.toml"
+    case.write_text(text)
+    serial = _run(distributed_python, case, tmp_path / "serial", 1, "direct")
+    distributed = _distributed(distributed_python, case, tmp_path / "two", 2)
+    _same_modes(distributed, serial)
+    np.testing.assert_allclose([m["q_total"] for m in distributed["modes"]],
+                               [m["q_total"] for m in serial["modes"]], rtol=AGREEMENT)
+
+
+@pytest.mark.parametrize("solve", ["modes = 3\norder = 2", 'modes = 3\nform = "H"'],
+                         ids=["order 2", "H form"])
+def test_two_processes_give_the_serial_modes_at_order_2_and_in_the_h_form(
+        distributed_python, meshed, tmp_path, solve):
+    """Second order has DOFs on edges, faces and inside elements (each process sets the
+    rows of G it owns from its own elements); the H form keeps the boundary DOFs that the
+    E form drops."""
+    case = _case(meshed, "variant", solve)
+    _same_modes(_distributed(distributed_python, case, tmp_path / "two", 2),
+                _serial(case, tmp_path / "serial"))
+
+
+def test_one_process_equals_the_serial_solve(distributed_python, meshed, tmp_path):
+    case = _case(meshed, "one", "modes = 4")
+    _same_modes(_distributed(distributed_python, case, tmp_path / "one", 1),
+                _serial(case, tmp_path / "serial"))
+
+
+def test_several_processes_without_the_distributed_method_are_refused(distributed_python,
+                                                                      meshed, tmp_path):
+    case = _case(meshed, "refused", "modes = 2")
+    out = tmp_path / "out"
+    run = subprocess.run(_launcher() + ["-n", "2", str(distributed_python), "-m", "femcav",
+                                        "solve", str(case), "--out", str(out), "--quiet"],
+                         capture_output=True, text=True, timeout=TIMEOUT_S, cwd=meshed)
+    assert run.returncode != 0
+    assert "use --method distributed" in run.stderr
+    assert not out.exists()
+
+
+def test_missing_petsc_is_one_line_and_exit_2(meshed, tmp_path, capsys):
+    try:
+        import petsc4py  # noqa: F401
+        pytest.skip("petsc4py is importable here; this checks a Python without it")
+    except ImportError:
+        pass
+    case = _case(meshed, "missing", 'modes = 2\nmethod = "distributed"')
+    out = tmp_path / "out"
+    assert main(["solve", str(case), "--out", str(out)]) == 2
+    lines = capsys.readouterr().err.strip().splitlines()
+    assert len(lines) == 1
+    assert "petsc4py" in lines[0] and "scripts/distributed_env.sh" in lines[0]
+    assert not out.exists()
+
+
+def test_other_commands_refuse_to_run_under_mpiexec(meshed, tmp_path, monkeypatch, capsys):
+    # what Open MPI's mpiexec -n 2 sets in each process it starts (common practice)
+    monkeypatch.setenv("OMPI_COMM_WORLD_SIZE", "2")
+    out = tmp_path / "mesh"
+    assert main(["mesh", str(meshed / "box.toml"), "--out", str(out)]) == 2
+    assert "only femcav solve" in capsys.readouterr().err
+    assert not out.exists()
+
+
+def test_what_runs_serially_is_refused_before_loading_petsc(meshed, tmp_path, capsys):
+    case = _case(meshed, "complex", 'modes = 2\nmethod = "distributed"\ncomplex_check = true')
+    out = tmp_path / "out"
+    assert main(["solve", str(case), "--out", str(out)]) == 2
+    assert "the complex check and losses inside the solve run serially" in \
+        capsys.readouterr().err
+    assert not out.exists()
