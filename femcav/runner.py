@@ -261,6 +261,8 @@ def _solve_modes(case: Case, settings, progress: Progress, pool=None):
             result = _with_sensitivities(result)
         if case.tolerances:         # re-meshed sections (axisymmetric.runner)
             result = _with_tolerances(case, result, settings, progress)
+        if case.temperature is not None:
+            result = _with_temperature(case, result, progress)
         if settings.accuracy is not None:
             result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
         return _with_field_figures(case, result)
@@ -297,7 +299,15 @@ def _solve_modes(case: Case, settings, progress: Progress, pool=None):
         result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
     if case.tolerances:
         result = _with_tolerances(case, result, settings, progress, pool)
+    if case.temperature is not None:
+        result = _with_temperature(case, result, progress, pool)
     return _with_field_figures(case, result)
+
+
+def _with_temperature(case: Case, result, progress: Progress, pool=None):
+    """Every mode's df/dT and τf from the case's tce and expansion (study.temperature)."""
+    from .study.temperature import with_temperature_drift
+    return with_temperature_drift(case, result, progress, pool)
 
 
 def _mirror(case: Case):
@@ -487,11 +497,8 @@ def model_summary(case: Case, result) -> dict:
                 if g.builder else {"mesh": str(g.mesh_path), "unit_m": g.mesh_unit_m})
     if settings_orders := case.solve.azimuthal_orders:
         geometry["section"] = f"meridional, azimuthal orders {list(settings_orders)}"
-    regions = {}
-    for name, material in case.regions.items():
-        regions[name] = {"eps_r": "expression" if callable(material.eps_r)
-                         else material.eps_r, "mu_r": material.mu_r,
-                         "tan_delta": material.tan_delta}
+    from .anisotropy import material_summary
+    regions = {name: material_summary(material) for name, material in case.regions.items()}
     walls = {name: {"kind": w.kind, "conductivity_s_per_m": w.conductivity,
                     "metal": w.metal, "roughness_m": w.roughness,
                     "surface_resistance_ohm": w.surface_resistance,

@@ -67,6 +67,7 @@ class Mode:
     m: int | None = None
     field_class: str | None = None
     phase_advance_rad: float | None = None   # a chain of cells' passband (passband.py)
+    temperature: object | None = None   # study.temperature.TemperatureDrift (df/dT, τf)
 
     @property
     def multiplicity(self) -> int:

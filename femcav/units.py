@@ -37,11 +37,13 @@ UNITS: dict[str, dict[str, float]] = {
     # surface resistances of metal walls, from normal metals (mohm) to superconductors (nohm)
     "resistance": {**_with_prefixes("ohm", "kmuµμn"), **_with_prefixes("Ω", "kmuµμn")},
     "temperature": _with_prefixes("K", "m"),
+    # per kelvin: temperature coefficients and thermal expansion
+    "temperature_coefficient": {"/K": 1.0, "ppm/K": 1e-6, "ppb/K": 1e-9},
 }
 
 LENGTH_UNITS = UNITS["length"]
 SI_NAME = {"length": "m", "frequency": "Hz", "conductivity": "S/m", "resistance": "ohm",
-           "temperature": "K"}
+           "temperature": "K", "temperature_coefficient": "/K"}
 
 _QUANTITY = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([^\s\d].*?)?\s*$")
 
@@ -79,7 +81,8 @@ def parse_quantity(value: object, kind: str, *, field: str | None = None) -> flo
 
 def _example(kind: str) -> str:
     return {"length": "12.5 mm", "frequency": "4.8 GHz", "conductivity": "58 MS/m",
-            "resistance": "10 nohm", "temperature": "2 K"}[kind]
+            "resistance": "10 nohm", "temperature": "2 K",
+            "temperature_coefficient": "110 ppm/K"}[kind]
 
 
 def format_si(value: float, unit: str, digits: int = 6) -> str:

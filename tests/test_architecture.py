@@ -21,7 +21,8 @@ PACKAGE = Path(__file__).resolve().parent.parent / "femcav"
 LAYERS = {
     "errors": 0, "units": 0, "progress": 0, "metals": 0, "analytic": 0, "schema": 0,
     "memory_room": 0, "exit_codes": 0, "superconductors": 0, "bare_numbers": 0,
-    "expressions": 1, "materials": 1, "walls": 1, "wall_resistance": 1,
+    "expressions": 1, "materials": 1, "walls": 1, "wall_resistance": 1, "anisotropy": 1,
+    "material_library": 1,
     "geometry": 2, "model": 2, "sizing": 3,
     "fem": 3, "eigen": 3,
     "post": 4,

@@ -54,6 +54,10 @@ def make_axisymmetric_model(section: MeridionalMesh, materials: dict[str, Materi
         try:
             material.check(points, field=f"regions.{name}")
             material.require_isotropic(name, "the body-of-revolution solver")
+            if material.mu_tan_delta:
+                raise InputError("a magnetic loss tangent is not available yet on the "
+                                 "body-of-revolution solver; solve the part in 3D",
+                                 field=f"regions.{name}.mu_tan_delta")
         except InputError as exc:
             raise exc.located(source=source) from None
         if not material.is_uniform:
