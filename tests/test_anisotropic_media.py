@@ -191,3 +191,20 @@ def test_the_library_gives_sapphire_and_user_values_override():
     assert _region(material="sapphire", eps_r=10.0).tan_delta == 0.0
     ferrite = _region(material="ferrite_example")
     assert ferrite.mu_tan_delta > 0 and ferrite.lossy
+
+
+def test_a_study_cannot_vary_a_tensor_as_one_number():
+    from femcav.study.parameters import check_parameter_exists, parse_axis
+
+    data = {"geometry": {"builder": "box", "width": A, "height": B, "length": D},
+            "regions": {"inside": {"eps_r": {"perpendicular": 9.3, "parallel": 11.3,
+                                             "axis": "z"}}}}
+    case = case_from_data(data, Path("case.toml"))
+    axis = parse_axis({"parameter": "regions.inside.eps_r", "from": 9, "to": 10,
+                       "points": 3}, "sweep")
+    with pytest.raises(InputError, match="tensor") as caught:
+        check_parameter_exists(axis, case)
+    assert caught.value.field == "sweep.parameter"
+    # its loss tangent is one number for both directions: that may be varied
+    check_parameter_exists(parse_axis({"parameter": "regions.inside.tan_delta",
+                                       "values": [1e-4, 2e-4]}, "sweep"), case)

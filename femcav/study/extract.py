@@ -36,7 +36,7 @@ from ..post.sensitivity import material_sensitivities
 from ..progress import SILENT, Progress
 from ..schema import EXTRACT, check_table, read
 from ..units import format_frequency
-from .parameters import with_value
+from .parameters import check_scalar_material, with_value
 from .sweep import TRACKING_SPARE, load_study, study_case
 from ..post.mode_matching import result_partners
 from .tune import TuneSpec, _Evaluations, _root
@@ -92,6 +92,7 @@ def run_extract(path: str | Path, *, out: str | Path | None = None,
                                  else path.parent / f"{path.stem}-extract")
     eps_path = f"regions.{spec.sample}.eps_r"
     try:
+        check_scalar_material(base, spec.sample, "eps_r", "extract.sample")
         # 1. the empty fixture, its mode found from the case as written
         lossless = with_value(data, f"regions.{spec.sample}.tan_delta", 0.0)
         runs = _Evaluations(lossless, path, TuneSpec(

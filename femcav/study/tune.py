@@ -30,7 +30,13 @@ from ..io.atomic import check_output_folder, staged_output
 from ..progress import SILENT, Progress
 from ..schema import TUNE, check_table, read
 from ..units import format_frequency
-from .parameters import format_value, parameter_kind, varied_value, with_value
+from .parameters import (
+    check_scalar_material,
+    format_value,
+    parameter_kind,
+    varied_value,
+    with_value,
+)
 from .sweep import TRACKING_SPARE, checked_for_tracking, load_study, study_case
 from ..post.mode_matching import result_partners
 
@@ -88,6 +94,7 @@ def _reference_value(data: dict, spec: TuneSpec, case) -> float:
         if material is None:
             raise InputError(f"region {region!r} has no table in the case",
                              field="tune.parameter")
+        check_scalar_material(case, region, prop, "tune.parameter")
         if prop == "eps_r" and callable(material.eps_r):
             raise InputError(f"{spec.path} is given as an expression; only a number can be "
                              "tuned", field="tune.parameter")
