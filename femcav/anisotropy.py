@@ -189,3 +189,21 @@ def material_summary(material) -> dict:
     if material.mu_tan_delta:
         out["mu_tan_delta"] = material.mu_tan_delta
     return out
+
+
+def check_mirror_symmetry(materials: dict, cut_axes) -> None:
+    """A symmetry cut normal to an axis needs every tensor unchanged by that mirror
+    (R ε Rᵀ = ε with R = I - 2 n nᵀ): a crystal whose axis is tilted against the cut plane
+    breaks the part's symmetry, and the cut model would solve another part."""
+    for name, material in materials.items():
+        for key, tensor in (("eps_r", material.eps_tensor), ("mu_r", material.mu_tensor)):
+            if tensor is None:
+                continue
+            for axis in cut_axes:
+                mirror = np.diag([-1.0 if c == axis else 1.0 for c in "xyz"])
+                if not np.allclose(mirror @ tensor @ mirror, tensor, rtol=0,
+                                   atol=1e-12 * float(np.max(np.abs(tensor)))):
+                    raise InputError(f"the tensor is not symmetric about the cut plane normal "
+                                     f"to {axis}, so the part is not either: drop "
+                                     f"[symmetry] {axis}, or align the axis with the cut",
+                                     field=f"regions.{name}.{key}")

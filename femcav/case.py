@@ -23,7 +23,7 @@ from .geometry import BUILDERS, build_part, builder_layout, read_mesh
 from .geometry.mesh import TaggedMesh
 from .geometry.names import check_case_names
 from .geometry.params import checked_length, parse_params
-from .anisotropy import parse_tensor, parse_uniaxial
+from .anisotropy import check_mirror_symmetry, parse_tensor, parse_uniaxial
 from .material_library import with_library_values
 from .materials import VACUUM, Material
 from .metals import CONDUCTIVITY_S_PER_M
@@ -155,6 +155,7 @@ def case_from_data(data: dict, path: Path) -> Case:
                              field="solve.error_estimate" if "error_estimate" in
                              _table(data, "solve") else "solve.accuracy")
         symmetry = _symmetry(_table(data, "symmetry"), geometry, walls)
+        check_mirror_symmetry(regions, symmetry)
         if geometry.builder is not None:    # names are checked before any meshing
             check_case_names(geometry.builder, geometry.parameters, regions, walls)
         if solve.azimuthal_orders is not None:

@@ -208,3 +208,17 @@ def test_a_study_cannot_vary_a_tensor_as_one_number():
     # its loss tangent is one number for both directions: that may be varied
     check_parameter_exists(parse_axis({"parameter": "regions.inside.tan_delta",
                                        "values": [1e-4, 2e-4]}, "sweep"), case)
+
+
+def test_a_symmetry_cut_needs_a_tensor_symmetric_about_it():
+    def case(axis):
+        data = {"geometry": {"builder": "box", "width": A, "height": B, "length": D},
+                "regions": {"inside": {"eps_r": {"perpendicular": 9.3, "parallel": 11.3,
+                                                 "axis": axis}}},
+                "symmetry": {"x": "both"}}
+        return case_from_data(data, Path("case.toml"))
+    assert case("z").symmetry == {"x": ("pec", "pmc")}     # along the cut plane: fine
+    assert case("x").symmetry                               # normal to it: fine too
+    with pytest.raises(InputError, match="not symmetric about the cut plane") as caught:
+        case([1, 0, 1])                                     # tilted across it
+    assert caught.value.field == "regions.inside.eps_r"
