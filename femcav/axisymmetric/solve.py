@@ -176,6 +176,9 @@ def _complex_check(spaces: dict[int, OrderSpace], matrices: dict, modes: list[Mo
     of the real solve), paired one-to-one with the real modes of that m by nearest frequency;
     Q_d = Re ω / (2 Im ω)."""
     out = {}
+    if any(space.eps_z is not None for space in spaces.values()):
+        raise InputError("the complex check is not available yet on a section with a uniaxial "
+                         "region; solve the part in 3D", field="solve.complex_check")
     for m, space in spaces.items():
         own = [mode for mode in modes if mode.m == m]
         if not own:
