@@ -110,7 +110,8 @@ def solve_at(task):
     from ..runner import solve_case
 
     data, path, spec, value = task
-    case = study_case(with_value(data, spec.path, value), path)
+    # a trial's frequency only: no temperature drift (its morphed solves)
+    case = replace(study_case(with_value(data, spec.path, value), path), temperature=None)
     checked_for_tracking(case)
     settings = replace(case.solve, modes=max(case.solve.modes, spec.mode) + TRACKING_SPARE)
     return solve_case(case, settings, SILENT)
