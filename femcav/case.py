@@ -184,8 +184,10 @@ def _temperature(region_tables: dict, wall_tables: dict):
     tce, expansion = {}, {}
     for name, table in region_tables.items():
         spec = with_library_values(table, f"regions.{name}")
+        if isinstance(spec.get("tce"), dict):
+            tce[name] = _directional_tce(spec, f"regions.{name}")
         for key, out in (("tce", tce), ("expansion", expansion)):
-            if key in spec:
+            if key in spec and name not in out:
                 out[name] = read(spec, key, schema.REGION, f"regions.{name}")
     housing = {name: read(table, "expansion", schema.WALL, f"walls.{name}")
                for name, table in wall_tables.items() if "expansion" in table}
@@ -197,6 +199,22 @@ def _temperature(region_tables: dict, wall_tables: dict):
         return None
     return TemperatureSpec(tce=tce, expansion=expansion,
                            housing_expansion=next(iter(housing.values()), 0.0))
+
+
+def _directional_tce(spec: dict, where: str) -> tuple[float, float]:
+    """tce = {perpendicular = .., parallel = ..} of a uniaxial region (a missing one is 0)."""
+    field = f"{where}.tce"
+    if not isinstance(spec.get("eps_r"), dict):
+        raise InputError("a tce per direction needs a uniaxial eps_r = {perpendicular = .., "
+                         "parallel = .., axis = [..]}", field=field)
+    for name in spec["tce"]:
+        if name not in ("perpendicular", "parallel"):
+            raise InputError("unknown key; a tce per direction takes perpendicular and "
+                             "parallel", field=f"{field}.{name}")
+    key = schema.Key(schema.QUANTITY, unit="temperature_coefficient",
+                     range=schema.TEMPERATURE_COEFFICIENT)
+    return tuple(schema.parse_value(spec["tce"].get(side, 0.0), key, f"{field}.{side}")
+                 for side in ("perpendicular", "parallel"))
 
 
 PROBE_NAME = re.compile(r"[A-Za-z0-9_-]{1,64}")

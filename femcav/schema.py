@@ -251,9 +251,10 @@ REGION = Table({
                      doc="a number, or {perpendicular, parallel} with a uniaxial eps_r"),
     "mu_tan_delta": Key(NUMBER, range=TAN_DELTA, default=0.0,
                         doc="magnetic loss tangent: mu_r (1 - j mu_tan_delta)"),
-    "tce": Key(QUANTITY, unit="temperature_coefficient", range=TEMPERATURE_COEFFICIENT,
+    "tce": Key(either(QUANTITY, TABLE), unit="temperature_coefficient",
+               range=TEMPERATURE_COEFFICIENT,
                doc="temperature coefficient of eps_r, (1/eps_r) d eps_r/dT, e.g. "
-                   "\"110 ppm/K\""),
+                   "\"110 ppm/K\", or {perpendicular, parallel} with a uniaxial eps_r"),
     "expansion": Key(QUANTITY, unit="temperature_coefficient", range=EXPANSION,
                      doc="linear thermal expansion of a dielectric part, e.g. \"7 ppm/K\""),
     "material": Key(STRING, choices="femcav.material_library:LIBRARY",

@@ -222,3 +222,19 @@ def test_a_symmetry_cut_needs_a_tensor_symmetric_about_it():
     with pytest.raises(InputError, match="not symmetric about the cut plane") as caught:
         case([1, 0, 1])                                     # tilted across it
     assert caught.value.field == "regions.inside.eps_r"
+
+
+def test_a_tce_per_direction_needs_a_uniaxial_region():
+    data = {"geometry": {"builder": "box", "width": A, "height": B, "length": D},
+            "regions": {"inside": {"eps_r": 9.8, "tce": {"perpendicular": "100 ppm/K"}}}}
+    with pytest.raises(InputError, match="uniaxial") as caught:
+        case_from_data(data, Path("case.toml"))
+    assert caught.value.field == "regions.inside.tce"
+    data["regions"]["inside"]["eps_r"] = {"perpendicular": 9.3, "parallel": 11.3, "axis": "z"}
+    data["regions"]["inside"]["tce"] = {"perpendicular": "100 ppm/K", "parallel": "1 %/K"}
+    with pytest.raises(InputError, match="unit") as caught:
+        case_from_data(data, Path("case.toml"))
+    assert caught.value.field == "regions.inside.tce.parallel"
+    data["regions"]["inside"]["tce"] = {"perpendicular": "100 ppm/K"}
+    spec = case_from_data(data, Path("case.toml")).temperature
+    assert spec.tce["inside"] == pytest.approx((1e-4, 0.0))

@@ -109,3 +109,53 @@ def test_a_crystal_axis_across_the_body_axis_is_refused_on_a_section(tmp_path):
     with pytest.raises(InputError, match="axis along z") as caught:
         _solve(tmp_path, axis='"x"')
     assert caught.value.field == "regions.inside.eps_r"
+
+
+DRIFT = """
+[regions.inside]
+eps_r = {{perpendicular = {perpendicular}, parallel = {parallel}, axis = "z"}}
+tce = {{perpendicular = "{tce_perpendicular} ppm/K", parallel = "{tce_parallel} ppm/K"}}
+[walls.side]
+kind = "pec"
+expansion = "{alpha} ppm/K"
+[mesh]
+size = {size}
+[solve]
+modes = 3
+azimuthal_orders = [0]
+"""
+
+
+def _drift_case(tmp_path, name, *, perpendicular, parallel, alpha, radius, length, size):
+    path = tmp_path / name
+    path.write_text(f'[geometry]\nbuilder = "pillbox"\nradius = {radius}\nlength = {length}\n'
+                    + DRIFT.format(perpendicular=perpendicular, parallel=parallel,
+                                   tce_perpendicular=120, tce_parallel=-40, alpha=alpha,
+                                   size=size))
+    case = load_case(path)
+    return solve_case(case, case.solve).modes
+
+
+def test_a_tce_per_direction_against_solves_at_two_temperatures(tmp_path):
+    # τε⊥ = +120 ppm/K, τε∥ = -40 ppm/K, α = 6 ppm/K (made-up values of opposite sign, so
+    # that a mode's drift depends on how its energy splits between the directions)
+    alpha, dt = 6e-6, 10.0
+    base = dict(perpendicular=PERPENDICULAR, parallel=PARALLEL, alpha=alpha * 1e6,
+                radius=RADIUS, length=LENGTH, size=0.002)
+    modes = _drift_case(tmp_path, "base.toml", **base)
+    moved = []
+    for sign in (1, -1):
+        grow = 1 + sign * dt * alpha
+        moved.append(_drift_case(
+            tmp_path, f"t{sign}.toml", perpendicular=PERPENDICULAR * (1 + sign * dt * 120e-6),
+            parallel=PARALLEL * (1 - sign * dt * 40e-6), alpha=0, radius=RADIUS * grow,
+            length=LENGTH * grow, size=0.002 * grow))
+    for k, mode in enumerate(modes):
+        reference = (moved[0][k].frequency_hz - moved[1][k].frequency_hz) / (2 * dt)
+        # measured within 1.5e-6 relative
+        assert mode.temperature.df_dt_hz_per_k == pytest.approx(reference, rel=1e-4)
+    # TM010 has E along z only, TE011 along φ only: τf = -τε∥/2 - α and -τε⊥/2 - α exactly
+    # (first order); TM011 between them
+    assert modes[0].temperature.tau_f_ppm_per_k == pytest.approx(40 / 2 - 6, rel=1e-6)
+    assert modes[2].temperature.tau_f_ppm_per_k == pytest.approx(-120 / 2 - 6, rel=1e-6)
+    assert -66 < modes[1].temperature.tau_f_ppm_per_k < 14

@@ -137,7 +137,7 @@ def mode_losses(space: OrderSpace, dofs, frequency_hz: float) -> LossReport:
     stored = 0.5 * total_e
     materials = space.model.materials
     terms = {name: filling[name] * materials[name].tan_delta for name in filling}
-    along = _axial_shares(space, dofs, omega, total_e)     # uniaxial regions: E_z's share
+    along = axial_shares(space, dofs, omega, total_e)     # uniaxial regions: E_z's share
     for name, parallel in along.items():
         u = materials[name].uniaxial
         terms[name] = ((filling[name] - parallel) * u.tan_delta_perpendicular
@@ -160,7 +160,7 @@ def mode_losses(space: OrderSpace, dofs, frequency_hz: float) -> LossReport:
                                                     for n, p in along.items()})
 
 
-def _axial_shares(space: OrderSpace, dofs, omega: float, total: float) -> dict[str, float]:
+def axial_shares(space: OrderSpace, dofs, omega: float, total: float) -> dict[str, float]:
     """Region uniaxial about z -> the share of the whole section's electric energy in its
     E_z (ε_zz |E_z|²: the energy along its axis, post.material_losses)."""
     section = space.model.section

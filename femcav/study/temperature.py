@@ -6,7 +6,9 @@ Three effects add (first order in the temperature change):
 - permittivity: region i's ε_r changes by ε_r τε,i dT (τε = (1/ε) dε/dT, the region's
   ``tce``); a uniform relative change of ε in a region moves the eigenvalue by the region's
   share of the electric energy (first-order perturbation, post.sensitivity), so
-  df/dT = -(f/2) Σ_i p_e,i τε,i, for scalar, expression and tensor ε alike;
+  df/dT = -(f/2) Σ_i p_e,i τε,i, for scalar, expression and tensor ε alike; a uniaxial
+  region may give one τε per direction, weighted by the energy along and across its axis
+  (p⊥ τε⊥ + p∥ τε∥, post.material_losses);
 - the housing: every length of the part grows by α_h dT (the walls' ``expansion``); a
   uniform scaling of every length by s scales every frequency by 1/s exactly (Maxwell's
   equations have no length of their own; common practice), so df/dT = -α_h f;
@@ -39,7 +41,8 @@ from .morph import STEP, morph, partner_frequencies, solve_morphed_meshes
 class TemperatureSpec:
     """The case's thermal data, per region and for the housing (1/K)."""
 
-    tce: dict[str, float] = field(default_factory=dict)
+    # region -> τε, or (τε⊥, τε∥) for a uniaxial region
+    tce: dict[str, float | tuple[float, float]] = field(default_factory=dict)
     expansion: dict[str, float] = field(default_factory=dict)
     housing_expansion: float = 0.0
 
@@ -96,8 +99,9 @@ def _grown(solid, factor: float):
 
 def temperature_drift(case, result, spec: TemperatureSpec, electric_shares,
                       progress=None, pool=None) -> list[TemperatureDrift]:
-    """Every mode's drift; ``electric_shares(k)`` gives mode k's share of the electric energy
-    per region (post.losses or its section counterpart)."""
+    """Every mode's drift; ``electric_shares(k)`` gives mode k's shares of the electric
+    energy per region and, for uniaxial regions, the shares along their axes (post.losses
+    and post.material_losses, or their section counterparts)."""
     layout = _layout(case) if case.geometry.builder else None
     growth = relative_growth(spec, layout)
     parts = [0.0] * len(result.modes)
@@ -106,15 +110,22 @@ def temperature_drift(case, result, spec: TemperatureSpec, electric_shares,
     drifts = []
     for k, mode in enumerate(result.modes):
         f = mode.frequency_hz
-        shares = electric_shares(k)
-        permittivity = -0.5 * f * sum(shares[name] * tce for name, tce in spec.tce.items()
-                                      if name in shares)
+        shares, along = electric_shares(k)
+        permittivity = -0.5 * f * sum(_weighted(tce, shares[name], along.get(name, 0.0))
+                                      for name, tce in spec.tce.items() if name in shares)
         housing = -spec.housing_expansion * f
         total = permittivity + housing + parts[k]
         drifts.append(TemperatureDrift(df_dt_hz_per_k=total, tau_f_ppm_per_k=1e6 * total / f,
                                        permittivity_hz_per_k=permittivity,
                                        housing_hz_per_k=housing, parts_hz_per_k=parts[k]))
     return drifts
+
+
+def _weighted(tce, share: float, along: float) -> float:
+    """p τε, or p⊥ τε⊥ + p∥ τε∥ for a tce per direction (p∥ = ``along``)."""
+    if isinstance(tce, tuple):
+        return (share - along) * tce[0] + along * tce[1]
+    return share * tce
 
 
 def _parts_derivative(case, result, layout: Layout, growth: dict[str, float], progress,
@@ -141,24 +152,35 @@ def _parts_derivative(case, result, layout: Layout, growth: dict[str, float], pr
 def with_temperature_drift(case, result, progress=None, pool=None):
     """``result`` (3D, or of a body of revolution on its section) with every mode's
     ``temperature`` (TemperatureDrift) from the case's thermal data."""
+    directional = any(isinstance(t, tuple) for t in case.temperature.tce.values())
     if getattr(result, "spaces", None) is not None:
+        from ..axisymmetric.losses import axial_shares
         from ..axisymmetric.losses import electric_energy_by_region as on_section
 
         def energy(space, dofs, omega):
             return on_section(space, dofs, omega)[0]
+
+        def along_axes(space, dofs, omega, total, _):
+            return axial_shares(space, dofs, omega, total)
         if relative_growth(case.temperature, _layout(case) if case.geometry.builder
                            else None):
             raise InputError("on a section, parts that expand unlike the housing are not "
                              "available yet; solve the part in 3D", field="regions")
     else:
         from ..post.losses import electric_energy_by_region as energy
+        from ..post.material_losses import material_loss_terms
+
+        def along_axes(space, dofs, omega, total, shares):
+            return material_loss_terms(space, dofs, omega, total, shares).filling_parallel
     space_of = {i: space for _, space, positions in result.mode_spaces() for i in positions}
 
     def shares(k):
-        mode = result.modes[k]
-        values = energy(space_of[k], mode.dofs, 2 * math.pi * mode.frequency_hz)
+        mode, omega = result.modes[k], 2 * math.pi * result.modes[k].frequency_hz
+        values = energy(space_of[k], mode.dofs, omega)
         total = sum(values.values())
-        return {name: v / total for name, v in values.items()}
+        out = {name: v / total for name, v in values.items()}
+        return out, (along_axes(space_of[k], mode.dofs, omega, total, out) if directional
+                     else {})
     drifts = temperature_drift(case, result, case.temperature, shares, progress, pool)
     return replace(result, modes=[replace(m, temperature=d)
                                   for m, d in zip(result.modes, drifts)])
