@@ -1,26 +1,19 @@
 """A body of revolution filled with a crystal whose axis is the body's axis (issue 27): the
 section solver with ε_rr = ε_φφ = ε⊥ and ε_zz = ε∥, against a closed form and the 3D solver.
 
-Reference: a PEC pillbox (radius a, length d) filled with ε = diag(ε⊥, ε⊥, ε∥). Fields
-TE to z have E_z = 0 and see ε⊥ only: k0² ε⊥ = (x'_mn / a)² + (pπ / d)², p >= 1. Fields TM
-to z (H_z = 0): for a plane wave with H along y and k = (k_t, 0, k_z), ∇×H = jωε0 ε E gives
-E_x = k_z H / (ωε0 ε⊥) and E_z = -k_t H / (ωε0 ε∥), and ∇×E = -jωμ0 H then gives
-k_t² / ε∥ + k_z² / ε⊥ = k0² (the extraordinary wave of a uniaxial medium; e.g. W. C. Chew,
-Waves and Fields in Inhomogeneous Media, 1990, ch. 1, from memory), with k_t = x_mn / a and
-k_z = pπ / d, p >= 0 (Pozar, Microwave Engineering, 4th ed., §6.4 for the isotropic
-pillbox). Bessel zeros from scipy.special. TM_0n0 has E along z only, TE_0np E along φ only,
-so their dielectric Q is 1/tan δ∥ and 1/tan δ⊥ exactly.
+Reference: a PEC pillbox filled with ε = diag(ε⊥, ε⊥, ε∥), TE to z at k0² ε⊥ = k_t² + k_z²
+and TM to z at k0² = k_t²/ε∥ + k_z²/ε⊥ (derived in femcav/analytic/uniaxial_cylinder.py from
+Maxwell's curl equations; W. C. Chew, Waves and Fields in Inhomogeneous Media, 1990, ch. 1,
+from memory; Bessel zeros from scipy.special). TM_0n0 has E along z only, TE_0np E along φ
+only, so their dielectric Q is 1/tan δ∥ and 1/tan δ⊥ exactly.
 """
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 import pytest
-from scipy.constants import c as C0
-from scipy.special import jn_zeros, jnp_zeros
 
+from femcav.analytic.uniaxial_cylinder import uniaxial_pillbox_modes
 from femcav.case import load_case
 from femcav.errors import InputError
 from femcav.runner import solve_case
@@ -51,16 +44,7 @@ order = {order}
 
 def closed_form(m: int, count: int) -> list[tuple[float, str]]:
     """(frequency in Hz, name) of the lowest ``count`` modes of order m."""
-    found = []
-    for n, (x, xp) in enumerate(zip(jn_zeros(m, 4), jnp_zeros(m, 4)), start=1):
-        for p in range(5):
-            kz = p * math.pi / LENGTH
-            tm = (x / RADIUS) ** 2 / PARALLEL + kz**2 / PERPENDICULAR
-            found.append((C0 * math.sqrt(tm) / (2 * math.pi), f"TM{m}{n}{p}"))
-            if p:
-                te = ((xp / RADIUS) ** 2 + kz**2) / PERPENDICULAR
-                found.append((C0 * math.sqrt(te) / (2 * math.pi), f"TE{m}{n}{p}"))
-    return sorted(found)[:count]
+    return uniaxial_pillbox_modes(RADIUS, LENGTH, m, count, PERPENDICULAR, PARALLEL)
 
 
 def _solve(tmp_path, *, axis="[0, 0, 1]", size=0.002, form="E", order=3, modes=4,
