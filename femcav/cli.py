@@ -270,6 +270,14 @@ def _tune(args) -> int:
     shown = (f"{document['value'] * 1e3:.7g} mm" if unit == "m"
              else f"{document['value']:.7g} {unit}".rstrip())
     bar = document["error_estimate_hz"]
+    if "target_tau_f_ppm_per_k" in document:      # compensation (study.temperature)
+        print(f"{document['parameter']} = {shown} puts mode {document['mode']}'s tau_f at "
+              f"{document['tau_f_ppm_per_k']:+.4g} ppm/K (target "
+              f"{document['target_tau_f_ppm_per_k']:+.4g} ppm/K; "
+              f"{format_frequency(document['frequency_hz'], 9)}; {document['iterations']} "
+              "root-finder steps)")
+        print(f"results: {folder}")
+        return 0
     print(f"{document['parameter']} = {shown} puts mode {document['mode']} at "
           f"{format_frequency(document['frequency_hz'], 9)}"
           + (f" ± {format_frequency(bar, 3)}" if bar is not None else "")

@@ -315,6 +315,12 @@ TUNE = Table({
     "target": FREQ,
     "mode": Key(WHOLE, range=MODES, default=1),
     "tolerance": Key(NUMBER, range=TUNE_TOLERANCE, default=1e-6),
+    # compensation: the value that puts the mode's τf (study.temperature) on this target
+    "target_tau_f": Key(QUANTITY, unit="temperature_coefficient",
+                        range=TEMPERATURE_COEFFICIENT, doc='e.g. "0 ppm/K"; instead of target'),
+    "tau_f_tolerance": Key(QUANTITY, unit="temperature_coefficient",
+                           range=Range(0.0, 1e-3, low_open=True), default=1e-7,
+                           doc="stop within this of target_tau_f (default 0.1 ppm/K)"),
 })
 
 EXTRACT = Table({

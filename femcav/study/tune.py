@@ -51,6 +51,10 @@ class TuneSpec:
     mode: int                   # 1-based, at the reference point
     tolerance: float
     bracket_keys: tuple[str, str] = ("tune.bracket", "tune.bracket")   # where each end is
+    # compensation ([tune] target_tau_f, 1/K): put the mode's τf there instead of its
+    # frequency on target_hz (study.temperature); stop within tau_f_tolerance
+    target_tau_f: float | None = None
+    tau_f_tolerance: float = 1e-7
 
 
 def parse_tune(data: dict) -> TuneSpec:
@@ -59,7 +63,9 @@ def parse_tune(data: dict) -> TuneSpec:
         raise InputError("the case has no [tune] table (parameter, bracket, target, mode)",
                          field="tune")
     check_table(spec, TUNE, "tune")
-    missing = [k for k in ("parameter", "bracket", "target") if k not in spec]
+    missing = [k for k in ("parameter", "bracket") if k not in spec]
+    if ("target" in spec) == ("target_tau_f" in spec):
+        missing.append("target (a frequency) or target_tau_f (compensation), one of them")
     if missing:
         raise InputError(f"missing {', '.join(missing)}", field="tune")
     kind = parameter_kind(spec["parameter"], "tune.parameter")
@@ -71,7 +77,9 @@ def parse_tune(data: dict) -> TuneSpec:
                     target_hz=read(spec, "target", TUNE, "tune"),
                     mode=read(spec, "mode", TUNE, "tune"),
                     tolerance=read(spec, "tolerance", TUNE, "tune"),
-                    bracket_keys=(ends[0][1], ends[1][1]))
+                    bracket_keys=(ends[0][1], ends[1][1]),
+                    target_tau_f=read(spec, "target_tau_f", TUNE, "tune"),
+                    tau_f_tolerance=read(spec, "tau_f_tolerance", TUNE, "tune"))
 
 
 def tune_trials(spec: TuneSpec):
@@ -110,8 +118,12 @@ def solve_at(task):
     from ..runner import solve_case
 
     data, path, spec, value = task
-    # a trial's frequency only: no temperature drift (its morphed solves)
-    case = replace(study_case(with_value(data, spec.path, value), path), temperature=None)
+    case = study_case(with_value(data, spec.path, value), path)
+    if spec.target_tau_f is None:   # a frequency only: no temperature drift (morphed solves)
+        case = replace(case, temperature=None)
+    elif case.temperature is None:
+        raise InputError("target_tau_f needs the case's thermal data: a tce or an expansion "
+                         "in a region, or the walls' expansion", field="tune.target_tau_f")
     checked_for_tracking(case)
     settings = replace(case.solve, modes=max(case.solve.modes, spec.mode) + TRACKING_SPARE)
     return solve_case(case, settings, SILENT)
@@ -200,6 +212,8 @@ def _tune(data, path: Path, spec: TuneSpec, base, folder: Path, pool, progress: 
                       f"{format_value(_axis(spec), reference)}: "
                       f"{format_frequency(runs.points[0][1].modes[spec.mode - 1].frequency_hz, 9)}")
         lo, hi = spec.bracket
+        if spec.target_tau_f is not None:
+            return _compensate(data, path, spec, runs, folder, progress)
         f_lo, f_hi = runs.frequency(lo), runs.frequency(hi)
         if (f_lo - spec.target_hz) * (f_hi - spec.target_hz) > 0:
             raise InputError(f"the mode is at {format_frequency(f_lo, 7)} and "
@@ -218,6 +232,51 @@ def _tune(data, path: Path, spec: TuneSpec, base, folder: Path, pool, progress: 
                 "bracket": list(spec.bracket), "iterations": iterations,
                 "evaluations": [{"value": v, "frequency_hz": r.modes[j].frequency_hz}
                                 for v, r, j in runs.points], **final}
+    with staged_output(folder, kind="tune") as files:
+        files.write_text("tune.json", strict_json.dumps(document, indent=1))
+    return document, folder
+
+
+def _compensate(data, path: Path, spec: TuneSpec, runs: _Evaluations, folder: Path,
+                progress: Progress):
+    """The value that puts the mode's τf on target_tau_f: Brent's method on τf(value) -
+    target, each value solved with its temperature drift (study.temperature), the mode
+    followed as for a frequency; stopped within tau_f_tolerance."""
+    def tau_f(value: float) -> float:
+        f = runs.frequency(value)
+        mode = next(r.modes[j] for v, r, j in reversed(runs.points) if v == value)
+        progress.step(f"tune: τf {mode.temperature.tau_f_ppm_per_k:+.4g} ppm/K at "
+                      f"{format_frequency(f, 9)}")
+        return mode.temperature.tau_f_ppm_per_k * 1e-6
+
+    def miss(value: float) -> float:
+        error = tau_f(value) - spec.target_tau_f
+        if abs(error) <= spec.tau_f_tolerance:
+            raise _Close(value)
+        return error
+    lo, hi = spec.bracket
+    ends = [tau_f(lo), tau_f(hi)]
+    if (ends[0] - spec.target_tau_f) * (ends[1] - spec.target_tau_f) > 0:
+        raise InputError(f"the mode's τf is {ends[0] * 1e6:+.4g} and {ends[1] * 1e6:+.4g} "
+                         f"ppm/K at the two ends of the bracket: "
+                         f"{spec.target_tau_f * 1e6:+.4g} ppm/K is not between them; widen "
+                         "or move the bracket", field="tune.bracket")
+    before = len(runs.points)
+    try:
+        value = brentq(miss, lo, hi, xtol=1e-12 * max(abs(lo), abs(hi)), rtol=1e-15,
+                       maxiter=60)
+    except _Close as close:
+        value = close.value
+    tau = tau_f(value)
+    document = {"format": "femcav-tune", "format_version": 1, "case": str(path),
+                "parameter": spec.path, "unit": _axis(spec).unit,
+                "target_tau_f_ppm_per_k": spec.target_tau_f * 1e6, "mode": spec.mode,
+                "value": value, "bracket": list(spec.bracket),
+                "iterations": len(runs.points) - before, "tau_f_ppm_per_k": tau * 1e6,
+                "frequency_hz": runs.frequency(value), "error_estimate_hz": None,
+                "evaluations": [{"value": v, "frequency_hz": r.modes[j].frequency_hz,
+                                 "tau_f_ppm_per_k": r.modes[j].temperature.tau_f_ppm_per_k}
+                                for v, r, j in runs.points]}
     with staged_output(folder, kind="tune") as files:
         files.write_text("tune.json", strict_json.dumps(document, indent=1))
     return document, folder
