@@ -85,3 +85,16 @@ def test_compensation_needs_thermal_data(tmp_path):
     with pytest.raises(InputError, match="thermal data") as caught:
         run_tune(path, out=tmp_path / "out")
     assert caught.value.field == "tune.target_tau_f"
+
+
+def test_target_and_target_tau_f_are_one_or_the_other():
+    from femcav.study.tune import parse_tune
+
+    table = {"parameter": "geometry.puck_radius", "bracket": ["1 mm", "6 mm"]}
+    with pytest.raises(InputError, match="not both") as caught:
+        parse_tune({"tune": {**table, "target": "5 GHz", "target_tau_f": "0 ppm/K"}})
+    assert caught.value.field == "tune.target_tau_f"
+    with pytest.raises(InputError, match="missing target"):
+        parse_tune({"tune": table})
+    spec = parse_tune({"tune": {**table, "target_tau_f": "-3 ppm/K"}})
+    assert spec.target_tau_f == pytest.approx(-3e-6) and spec.tau_f_tolerance == 1e-7

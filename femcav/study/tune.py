@@ -63,11 +63,14 @@ def parse_tune(data: dict) -> TuneSpec:
         raise InputError("the case has no [tune] table (parameter, bracket, target, mode)",
                          field="tune")
     check_table(spec, TUNE, "tune")
-    missing = [k for k in ("parameter", "bracket") if k not in spec]
-    if ("target" in spec) == ("target_tau_f" in spec):
-        missing.append("target (a frequency) or target_tau_f (compensation), one of them")
+    # target_tau_f (compensation) stands in for target
+    missing = [k for k in ("parameter", "bracket", "target") if k not in spec
+               and not (k == "target" and "target_tau_f" in spec)]
     if missing:
         raise InputError(f"missing {', '.join(missing)}", field="tune")
+    if "target" in spec and "target_tau_f" in spec:
+        raise InputError("give either target (a frequency) or target_tau_f (compensation), "
+                         "not both", field="tune.target_tau_f")
     kind = parameter_kind(spec["parameter"], "tune.parameter")
     ends = sorted((varied_value(spec["parameter"], b, f"tune.bracket[{i}]"), f"tune.bracket[{i}]")
                   for i, b in enumerate(spec["bracket"]))
