@@ -176,21 +176,25 @@ def _complex_check(spaces: dict[int, OrderSpace], matrices: dict, modes: list[Mo
     of the real solve), paired one-to-one with the real modes of that m by nearest frequency;
     Q_d = Re ω / (2 Im ω)."""
     out = {}
-    if any(space.eps_z is not None for space in spaces.values()):
-        raise InputError("the complex check is not available yet on a section with a uniaxial "
-                         "region; solve the part in 3D", field="solve.complex_check")
     for m, space in spaces.items():
         own = [mode for mode in modes if mode.m == m]
         if not own:
             continue
         K, M, G = matrices[m]
         tan_delta = _tan_delta_at_quadrature(space)
+        # a region uniaxial about z: its tan δ⊥ in ``tan_delta``, its tan δ∥ (the z
+        # direction, with space.eps_z) in ``axial``
+        axial = _axial_tan_delta(space, tan_delta)
         if space.form == "E":   # M becomes ∫ ε_r (1 - j tan δ) ...
-            K_c, M_c = K.astype(complex), M - 1j * assemble_mass(space, space.eps * tan_delta)
+            K_c = K.astype(complex)
+            M_c = M - 1j * assemble_mass(space, space.eps * tan_delta,
+                                         None if axial is None else space.eps_z * axial)
         else:                   # 1/(ε_r (1 - j t)) = (1/ε_r)(1 + j t)/(1 + t²)
             coef = space.stiffness_coef / (1 + tan_delta**2)
-            K_c = (assemble_stiffness(space, coef)
-                   + 1j * assemble_stiffness(space, coef * tan_delta))
+            coef_z = None if axial is None else 1 / (space.eps_z * (1 + axial**2))
+            K_c = (assemble_stiffness(space, coef, coef_z)
+                   + 1j * assemble_stiffness(space, coef * tan_delta,
+                                             None if axial is None else coef_z * axial))
             M_c = M.astype(complex)
         values = complex_eigenvalues(K_c, M_c, G, factorize, shift=-scale, count=len(own))
         out.update({mode.index: mode for mode in with_complex_frequencies(own, values)})
@@ -198,6 +202,26 @@ def _complex_check(spaces: dict[int, OrderSpace], matrices: dict, modes: list[Mo
 
 
 def _tan_delta_at_quadrature(space: OrderSpace) -> np.ndarray:
+    """tan δ at the quadrature points; tan δ⊥ in a region uniaxial about z."""
     section = space.model.section
-    return tan_delta_by_cell(space.model.materials, section.region_names, section.tri_region,
-                             space.eps)
+    out = tan_delta_by_cell(space.model.materials, section.region_names, section.tri_region,
+                            space.eps)
+    for name, rid in section.region_names.items():
+        uniaxial = space.model.materials[name].uniaxial
+        if uniaxial is not None:
+            out[section.tri_region == rid] = uniaxial.tan_delta_perpendicular
+    return out
+
+
+def _axial_tan_delta(space: OrderSpace, tan_delta: np.ndarray) -> np.ndarray | None:
+    """tan δ of the z direction (tan δ∥ in a region uniaxial about z, ``tan_delta``
+    elsewhere); None when no region is uniaxial."""
+    if space.eps_z is None:
+        return None
+    section = space.model.section
+    out = tan_delta.copy()
+    for name, rid in section.region_names.items():
+        uniaxial = space.model.materials[name].uniaxial
+        if uniaxial is not None:
+            out[section.tri_region == rid] = uniaxial.tan_delta_parallel
+    return out
