@@ -131,8 +131,9 @@ def run_extract(path: str | Path, *, out: str | Path | None = None,
         mode = result.modes[found[0]]
         losses = mode.losses
         q_wall = losses.q_wall * q_wall_scale
-        others = sum(losses.filling_factor[r] * case.regions[r].tan_delta
-                     for r in losses.filling_factor if r != spec.sample and r in case.regions)
+        # the other regions' loss (the sample's tan δ is 0 in these solves): dielectric,
+        # per direction in a uniaxial region, and magnetic (post.material_losses)
+        others = sum(1.0 / q for q in (losses.q_dielectric, losses.q_magnetic) if q)
         p_sample = losses.filling_factor[spec.sample]
         tan_delta = (1.0 / spec.loaded_q - 1.0 / q_wall - others) / p_sample
         perturbation = _perturbation_estimate(empty, empty_mode, spec)
