@@ -23,6 +23,8 @@ from .geometry import BUILDERS, build_part, builder_layout, read_mesh
 from .geometry.mesh import TaggedMesh
 from .geometry.names import check_case_names, part_names
 from .geometry.params import checked_length, parse_params
+from .anisotropy import check_mirror_symmetry, parse_tensor, parse_uniaxial
+from .material_library import with_library_values
 from .materials import VACUUM, Material
 from .metals import CONDUCTIVITY_S_PER_M
 from .model import Model, PeriodicPair, make_model
@@ -98,6 +100,8 @@ class Case:
     tolerance_samples: object = None
     periodic: tuple[PeriodicPair, ...] = ()   # [periodic] / [[periodic]]: a periodic cell
     coupling_modes: tuple[int, int] | None = None   # [coupling] modes (post.coupling)
+    # tce and expansion of regions and walls (femcav.temperature.TemperatureSpec)
+    temperature: object = None
 
 
 def in_case(exc: InputError, source: str | None) -> InputError:
@@ -154,6 +158,7 @@ def case_from_data(data: dict, path: Path) -> Case:
                              field="solve.error_estimate" if "error_estimate" in
                              _table(data, "solve") else "solve.accuracy")
         symmetry = _symmetry(_table(data, "symmetry"), geometry, walls)
+        check_mirror_symmetry(regions, symmetry)
         if geometry.builder is not None:    # names are checked before any meshing
             check_case_names(geometry.builder, geometry.parameters, regions, walls)
         if solve.azimuthal_orders is not None:
@@ -169,13 +174,14 @@ def case_from_data(data: dict, path: Path) -> Case:
         samples = parse_monte_carlo(_table(data, "tolerances"), tolerances)
         periodic = _periodic(data.get("periodic"), geometry, walls, solve)
         coupling_modes = _coupling_modes(_table(data, "coupling"), solve.modes)
+        temperature = _temperature(region_tables, _table(data, "walls"))
     except InputError as exc:
         raise in_case(exc, source) from None
     return Case(path=path, title=title, geometry=geometry, regions=regions, walls=walls,
                 solve=solve, mesh=mesh, symmetry=symmetry, tolerances=tolerances,
                 probes=probes, filling_axis=filling_axis, beam=beam,
                 tolerance_samples=samples, periodic=periodic,
-                coupling_modes=coupling_modes)
+                coupling_modes=coupling_modes, temperature=temperature)
 
 
 def _periodic(spec, geometry: GeometrySpec, walls: dict, solve: SolveSpec
@@ -254,6 +260,57 @@ def parse_monte_carlo(spec: dict, tolerances: dict[str, float]) -> MonteCarloSpe
     return MonteCarloSpec(samples=read(spec, "samples", schema.TOLERANCES, "tolerances"),
                           seed=read(spec, "seed", schema.TOLERANCES, "tolerances"),
                           tolerances=dict(tolerances), distributions=distributions)
+
+
+@dataclass(frozen=True)
+class TemperatureSpec:
+    """The case's thermal data, per region and for the housing (1/K)."""
+
+    # region -> τε, or (τε⊥, τε∥) for a uniaxial region
+    tce: dict[str, float | tuple[float, float]] = field(default_factory=dict)
+    expansion: dict[str, float] = field(default_factory=dict)
+    housing_expansion: float = 0.0
+
+
+
+def _temperature(region_tables: dict, wall_tables: dict):
+    """The regions' tce and expansion (named materials' included) and the housing's
+    expansion from the walls (every wall that gives one gives the same: one housing); None
+    when the case gives none of them (femcav.temperature)."""
+    tce, expansion = {}, {}
+    for name, table in region_tables.items():
+        spec = with_library_values(table, f"regions.{name}")
+        if isinstance(spec.get("tce"), dict):
+            tce[name] = _directional_tce(spec, f"regions.{name}")
+        for key, out in (("tce", tce), ("expansion", expansion)):
+            if key in spec and name not in out:
+                out[name] = read(spec, key, schema.REGION, f"regions.{name}")
+    housing = {name: read(table, "expansion", schema.WALL, f"walls.{name}")
+               for name, table in wall_tables.items() if "expansion" in table}
+    for name, value in housing.items():
+        if value != next(iter(housing.values())):
+            raise InputError("the walls belong to one housing: give them one expansion",
+                             field=f"walls.{name}.expansion")
+    if not (tce or expansion or housing):
+        return None
+    return TemperatureSpec(tce=tce, expansion=expansion,
+                           housing_expansion=next(iter(housing.values()), 0.0))
+
+
+def _directional_tce(spec: dict, where: str) -> tuple[float, float]:
+    """tce = {perpendicular = .., parallel = ..} of a uniaxial region (a missing one is 0)."""
+    field = f"{where}.tce"
+    if not isinstance(spec.get("eps_r"), dict):
+        raise InputError("a tce per direction needs a uniaxial eps_r = {perpendicular = .., "
+                         "parallel = .., axis = [..]}", field=field)
+    for name in spec["tce"]:
+        if name not in ("perpendicular", "parallel"):
+            raise InputError("unknown key; a tce per direction takes perpendicular and "
+                             "parallel", field=f"{field}.{name}")
+    key = schema.Key(schema.QUANTITY, unit="temperature_coefficient",
+                     range=schema.TEMPERATURE_COEFFICIENT)
+    return tuple(schema.parse_value(spec["tce"].get(side, 0.0), key, f"{field}.{side}")
+                 for side in ("perpendicular", "parallel"))
 
 
 PROBE_NAME = re.compile(r"[A-Za-z0-9_-]{1,64}")
@@ -500,7 +557,10 @@ def _symmetry(spec: dict, geometry: GeometrySpec, walls: dict) -> dict[str, tupl
 def _region(name: str, spec: dict) -> Material:
     where = f"regions.{name}"
     check_table(spec, schema.REGION, where)
+    spec = check_table(with_library_values(spec, where), schema.REGION, where)
     eps = spec.get("eps_r", schema.REGION.keys["eps_r"].default)
+    if isinstance(eps, (dict, list)) or isinstance(spec.get("tan_delta"), dict):
+        return _anisotropic_region(spec, where)
     tan_delta = read(spec, "tan_delta", schema.REGION, where)
     if isinstance(eps, str) and (complex_eps := _complex_literal(eps)) is not None:
         eps, tan_delta = _complex_permittivity(complex_eps, eps, spec, where)
@@ -511,31 +571,71 @@ def _region(name: str, spec: dict) -> Material:
             raise exc.located(field=where + ".eps_r") from None
     else:
         eps = read(spec, "eps_r", schema.REGION, where)
-    mu = read(spec, "mu_r", schema.REGION, where)  # mesh_size is read by _mesh
-    return Material(eps_r=eps, mu_r=mu, tan_delta=tan_delta)
+    mu, mu_tan_delta = _permeability(spec, where)  # mesh_size is read by _mesh
+    return Material(eps_r=eps, mu_r=mu, tan_delta=tan_delta, mu_tan_delta=mu_tan_delta)
 
 
-def _complex_permittivity(value: complex, text: str, spec: dict, where: str
+def _anisotropic_region(spec: dict, where: str) -> Material:
+    """A region whose eps_r is uniaxial ({perpendicular, parallel, axis}, with a tan_delta
+    that may be given per direction) or a full 3 x 3 tensor (femcav.anisotropy)."""
+    eps, tan_delta = spec.get("eps_r"), spec.get("tan_delta")
+    eps_key, tan_key = schema.REGION.keys["eps_r"], schema.REGION.keys["tan_delta"]
+    mu, mu_tan_delta = _permeability(spec, where)
+    if isinstance(eps, dict):
+        uniaxial = parse_uniaxial(eps, eps_key, tan_key, where + ".eps_r", tan_delta)
+        return Material(uniaxial=uniaxial, mu_r=mu, mu_tan_delta=mu_tan_delta)
+    if isinstance(tan_delta, dict):
+        raise InputError("a loss tangent per direction needs a uniaxial eps_r = "
+                         "{perpendicular = .., parallel = .., axis = [..]}",
+                         field=where + ".tan_delta")
+    return Material(eps_r=parse_tensor(eps, eps_key, where + ".eps_r"), mu_r=mu,
+                    tan_delta=read(spec, "tan_delta", schema.REGION, where),
+                    mu_tan_delta=mu_tan_delta)
+
+
+def _permeability(spec: dict, where: str):
+    """(mu_r, mu_tan_delta): mu_r a number, a complex number string (mu' - j mu''), a
+    uniaxial table or a 3 x 3 tensor."""
+    mu = spec.get("mu_r", schema.REGION.keys["mu_r"].default)
+    mu_tan_delta = read(spec, "mu_tan_delta", schema.REGION, where)
+    key, field = schema.REGION.keys["mu_r"], where + ".mu_r"
+    if isinstance(mu, dict):
+        return parse_uniaxial(mu, key, schema.REGION.keys["tan_delta"], field).tensor(), \
+            mu_tan_delta
+    if isinstance(mu, list):
+        return parse_tensor(mu, key, field), mu_tan_delta
+    if isinstance(mu, str):
+        value = _complex_literal(mu)
+        if value is None:
+            raise InputError(f"must be a number or a complex number such as \"2-0.1j\", got "
+                             f"{mu!r}", field=field)
+        return _complex_permittivity(value, mu, spec, where, key="mu_r",
+                                     loss_key="mu_tan_delta")
+    return read(spec, "mu_r", schema.REGION, where), mu_tan_delta
+
+
+def _complex_permittivity(value: complex, text: str, spec: dict, where: str, *,
+                          key: str = "eps_r", loss_key: str = "tan_delta"
                           ) -> tuple[float, float]:
     """(eps_r', tan δ) of a complex eps_r = eps_r' (1 - j tan δ) with e^{jωt}: a lossy
     material has a negative imaginary part. Every refusal names eps_r, the key that holds
-    both numbers."""
-    field = where + ".eps_r"
-    if "tan_delta" in spec:
-        raise InputError("give the loss either as a complex eps_r or as tan_delta, not both",
-                         field=where + ".tan_delta")
+    both numbers. The same for a complex mu_r (``key``) and its ``loss_key``."""
+    field = f"{where}.{key}"
+    if loss_key in spec:
+        raise InputError(f"give the loss either as a complex {key} or as {loss_key}, not both",
+                         field=f"{where}.{loss_key}")
     if not (math.isfinite(value.real) and math.isfinite(value.imag)):
-        raise InputError(f"a complex eps_r needs finite real and imaginary parts; got {text!r}",
+        raise InputError(f"a complex {key} needs finite real and imaginary parts; got {text!r}",
                          field=field)
     if not value.real > 0 or value.imag > 0:
-        raise InputError(f"a complex eps_r needs a positive real part and an imaginary part "
+        raise InputError(f"a complex {key} needs a positive real part and an imaginary part "
                          f"<= 0 (loss, with time dependence e^(jwt)); got {text!r}",
                          field=field)
-    schema.check_range(value.real, schema.REGION.keys["eps_r"], field,
+    schema.check_range(value.real, schema.REGION.keys[key], field,
                        shown=f"real part {value.real:g} of {text!r}")
     tan_delta = -value.imag / value.real
-    schema.check_range(tan_delta, schema.REGION.keys["tan_delta"], field,
-                       shown=f"tan_delta = {tan_delta:g} from {text!r}")
+    schema.check_range(tan_delta, schema.REGION.keys[loss_key], field,
+                       shown=f"{loss_key} = {tan_delta:g} from {text!r}")
     return value.real, tan_delta
 
 

@@ -106,6 +106,8 @@ def check_parameter_exists(axis: Axis, case) -> None:
     a table the case leaves out: the study writes it in)."""
     field = f"{axis.where}.parameter"
     match = _PATH.match(axis.path)
+    if match.group(4):
+        check_scalar_material(case, match.group(5), match.group(6), field)
     if not match.group(1):
         return
     builder = case.geometry.builder
@@ -121,6 +123,16 @@ def check_parameter_exists(axis: Axis, case) -> None:
     if (declared[name].kind == "point") != (index is not None):
         raise InputError("a point's coordinate is named NAME[0], NAME[1] or NAME[2]; a length "
                          "by its name", field=field)
+
+
+def check_scalar_material(case, region: str, key: str, field: str) -> None:
+    """A number replaces the region's value: refused where that value is a tensor (a
+    uniaxial crystal would silently become isotropic)."""
+    material = case.regions.get(region)
+    tensor = {"eps_r": "eps_tensor", "mu_r": "mu_tensor"}.get(key)
+    if material is not None and tensor and getattr(material, tensor) is not None:
+        raise InputError(f"regions.{region}.{key} is a tensor; a study varies one number and "
+                         "would make it isotropic", field=field)
 
 
 def with_value(data: dict, path: str, value: float) -> dict:

@@ -61,6 +61,10 @@ class TuneSpec:
     quantity: str = "frequency"     # or "q_external" (of ``port``) or "coupling" (k)
     port: str | None = None
     target_value: float | None = None   # the target Q_ext or k (other quantities)
+    # compensation ([tune] target_tau_f, 1/K): put the mode's τf there instead of its
+    # frequency on target_hz (femcav.temperature); stop within tau_f_tolerance
+    target_tau_f: float | None = None
+    tau_f_tolerance: float = 1e-7
 
     @property
     def target(self) -> float:
@@ -73,21 +77,32 @@ def parse_tune(data: dict) -> TuneSpec:
         raise InputError("the case has no [tune] table (parameter, bracket, target, mode)",
                          field="tune")
     check_table(spec, TUNE, "tune")
-    missing = [k for k in ("parameter", "bracket", "target") if k not in spec]
+    # target_tau_f (compensation) stands in for target
+    missing = [k for k in ("parameter", "bracket", "target") if k not in spec
+               and not (k == "target" and "target_tau_f" in spec)]
     if missing:
         raise InputError(f"missing {', '.join(missing)}", field="tune")
+    if "target" in spec and "target_tau_f" in spec:
+        raise InputError("give either target (a frequency) or target_tau_f (compensation), "
+                         "not both", field="tune.target_tau_f")
     kind = parameter_kind(spec["parameter"], "tune.parameter")
     ends = sorted((varied_value(spec["parameter"], b, f"tune.bracket[{i}]"), f"tune.bracket[{i}]")
                   for i, b in enumerate(spec["bracket"]))
     if ends[0][0] == ends[1][0]:
         raise InputError("the two ends of the bracket are equal", field="tune.bracket")
     quantity = read(spec, "quantity", TUNE, "tune")
-    target_hz, target_value, port = _tune_target(spec, quantity, data)
+    if "target_tau_f" in spec and quantity != "frequency":
+        raise InputError("target_tau_f tunes the mode's τf; it takes no quantity",
+                         field="tune.quantity")
+    target_hz, target_value, port = (_tune_target(spec, quantity, data) if "target" in spec
+                                     else (None, None, None))
     return TuneSpec(path=spec["parameter"], kind=kind, bracket=(ends[0][0], ends[1][0]),
                     target_hz=target_hz, mode=read(spec, "mode", TUNE, "tune"),
                     tolerance=read(spec, "tolerance", TUNE, "tune"),
                     bracket_keys=(ends[0][1], ends[1][1]), quantity=quantity, port=port,
-                    target_value=target_value)
+                    target_value=target_value,
+                    target_tau_f=read(spec, "target_tau_f", TUNE, "tune"),
+                    tau_f_tolerance=read(spec, "tau_f_tolerance", TUNE, "tune"))
 
 
 def _tune_target(spec: dict, quantity: str, data: dict):

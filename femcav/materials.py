@@ -15,6 +15,7 @@ from typing import Callable, Union
 
 import numpy as np
 
+from .anisotropy import Uniaxial
 from .errors import InputError
 from .schema import REGION, check_range
 
@@ -34,8 +35,18 @@ class Material:
     eps_r: Permittivity = 1.0
     mu_r: float = 1.0
     tan_delta: float = 0.0
+    # a uniaxial eps_r (femcav.anisotropy): eps_r is then its real tensor, and its two loss
+    # tangents replace tan_delta
+    uniaxial: Uniaxial | None = None
+    # magnetic loss tangent: mu_r (1 - j mu_tan_delta); a complex scalar mu_r becomes this
+    mu_tan_delta: float = 0.0
 
     def __post_init__(self):
+        if self.uniaxial is not None:
+            if self.tan_delta:
+                raise InputError("a uniaxial eps_r carries its own loss tangents",
+                                 field="tan_delta")
+            object.__setattr__(self, "eps_r", self.uniaxial.tensor())
         for name in ("eps_r", "mu_r"):
             value = getattr(self, name)
             if callable(value) or np.ndim(value) == 0:
@@ -56,8 +67,25 @@ class Material:
             object.__setattr__(self, "eps_r", eps.real)
             object.__setattr__(self, "tan_delta", -eps.imag / eps.real)
         if np.iscomplexobj(self.mu_r) and np.ndim(self.mu_r) == 0:
-            raise InputError("a complex scalar mu_r is not supported yet; give a 3 x 3 tensor "
-                             "(mu_r times the identity)", field="mu_r")
+            mu = complex(self.mu_r)
+            if mu.real <= 0 or self.mu_tan_delta:
+                raise InputError("a complex mu_r needs a positive real part, and no "
+                                 "mu_tan_delta beside it", field="mu_r")
+            object.__setattr__(self, "mu_r", mu.real)
+            object.__setattr__(self, "mu_tan_delta", -mu.imag / mu.real)
+
+    @property
+    def lossy(self) -> bool:
+        """Any loss tangent set: dielectric (one, or per direction) or magnetic."""
+        return bool(self.tan_delta > 0 or self.mu_tan_delta > 0
+                    or (self.uniaxial is not None and self.uniaxial.lossy))
+
+    def lossy_eps(self, eps):
+        """eps_r with its loss inside: eps (1 - j tan δ), or the uniaxial tensor with a loss
+        tangent per direction (``eps``: this material's eps_r at some points)."""
+        if self.uniaxial is not None:
+            return self.uniaxial.tensor(lossy=True)
+        return eps * (1 - 1j * self.tan_delta)
 
     @property
     def is_uniform(self) -> bool:
@@ -107,6 +135,7 @@ class Material:
         finite; ``points`` is (n, 3), where an eps_r expression is evaluated. A tensor's
         Hermitian part must be positive definite (a passive, stable medium)."""
         check_range(self.tan_delta, REGION.keys["tan_delta"], f"{field}.tan_delta")
+        check_range(self.mu_tan_delta, REGION.keys["mu_tan_delta"], f"{field}.mu_tan_delta")
         for name, tensor in (("eps_r", self.eps_tensor), ("mu_r", self.mu_tensor)):
             if tensor is not None:
                 check_tensor(tensor, field=f"{field}.{name}")

@@ -202,24 +202,32 @@ def dimension_derivatives(case, result, names, progress=None,
         for sign in (+1, -1):
             params = moved_parameters(g.parameters, name, sign * step)
             meshes.append(morph(mesh, old, builder_layout(g.builder, params)))
-    if pool is None:            # one at a time, as they are used: one solve in memory
-        solved = (_solve_morphed(case, m, options) for m in meshes)
-    else:
-        from .case import read_case_data
-        data = read_case_data(case.path)
-        solved = iter(pool.gather(solve_morphed, [(data, case.path, m, options)
-                                                  for m in meshes]))
+    solved = solve_morphed_meshes(case, meshes, options, pool)
     out = {}
     for name in names:
-        frequencies = []
-        for _ in (+1, -1):
-            moved = next(solved)
-            partner = result_partners(result, moved)
-            successor = {int(p): j for j, p in enumerate(partner) if p >= 0}
-            frequencies.append([moved.modes[successor[k]].frequency_hz if k in successor
-                                else np.nan for k in range(len(result.modes))])
+        frequencies = [partner_frequencies(result, next(solved)) for _ in (+1, -1)]
         out[name] = [(fp - fm) / (2 * step) for fp, fm in zip(*frequencies)]
         if progress:
             progress.step(f"tolerances: df/d{name} from two morphed meshes (step "
                           f"{step * 1e6:.3g} µm)")
     return out
+
+
+def solve_morphed_meshes(case, meshes: list, options: dict, pool=None):
+    """The solves of ``case`` on each of ``meshes``, in order (an iterator): here one at a
+    time as they are used (one solve in memory), or all at once on the cluster of
+    ``pool``."""
+    if pool is None:
+        return (_solve_morphed(case, m, options) for m in meshes)
+    from .case import read_case_data
+    data = read_case_data(case.path)
+    return iter(pool.gather(solve_morphed, [(data, case.path, m, options) for m in meshes]))
+
+
+def partner_frequencies(result, moved) -> list[float]:
+    """The frequency in ``moved`` of each mode of ``result`` (followed by its field; NaN for
+    a mode without a partner)."""
+    partner = result_partners(result, moved)
+    successor = {int(p): j for j, p in enumerate(partner) if p >= 0}
+    return [moved.modes[successor[k]].frequency_hz if k in successor else np.nan
+            for k in range(len(result.modes))]

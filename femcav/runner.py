@@ -230,6 +230,8 @@ def _solve_modes(case: Case, settings, progress: Progress, pool=None):
             result = _with_sensitivities(result)
         if case.tolerances:         # re-meshed sections (axisymmetric.runner)
             result = _with_tolerances(case, result, settings, progress)
+        if case.temperature is not None:
+            result = _with_temperature(case, result, progress)
         if settings.accuracy is not None:
             result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
         return _with_field_figures(case, result)
@@ -267,7 +269,15 @@ def _solve_modes(case: Case, settings, progress: Progress, pool=None):
         result = replace(result, accuracy=_accuracy_summary(result, settings.accuracy))
     if case.tolerances:
         result = _with_tolerances(case, result, settings, progress, pool)
+    if case.temperature is not None:
+        result = _with_temperature(case, result, progress, pool)
     return _with_field_figures(case, result)
+
+
+def _with_temperature(case: Case, result, progress: Progress, pool=None):
+    """Every mode's df/dT and τf from the case's tce and expansion (femcav.temperature)."""
+    from .temperature import with_temperature_drift
+    return with_temperature_drift(case, result, progress, pool)
 
 
 def _mirror(case: Case):

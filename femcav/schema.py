@@ -241,11 +241,32 @@ MESH = Table({
     "curved": Key(BOOL, default=False),
 })
 
+# A uniaxial value {perpendicular, parallel, axis} or a 3 x 3 tensor [[..], [..], [..]]
+# (femcav.anisotropy checks the inside)
+MATRIX = ValueType("a 3 x 3 tensor [[..], [..], [..]]", lambda v: isinstance(v, list))
+# ppm/K: a temperature coefficient of permittivity (1/ε dε/dT) or a linear thermal expansion
+# coefficient; ceramics and crystals sit within ±1000 ppm/K, polymers up to a few hundred
+TEMPERATURE_COEFFICIENT = Range(-1e-2, 1e-2)
+EXPANSION = Range(-1e-3, 1e-3)
 REGION = Table({
-    "eps_r": Key(either(NUMBER, STRING), range=EPS_R, default=1.0,
-                 doc="a number, a complex number string or an expression in x, y, z"),
-    "mu_r": Key(NUMBER, range=MU_R, default=1.0),
-    "tan_delta": Key(NUMBER, range=TAN_DELTA, default=0.0),
+    "eps_r": Key(either(NUMBER, STRING, TABLE, MATRIX), range=EPS_R, default=1.0,
+                 doc="a number, a complex number string, an expression in x, y, z, a "
+                     "uniaxial table {perpendicular, parallel, axis} or a 3 x 3 tensor"),
+    "mu_r": Key(either(NUMBER, STRING, TABLE, MATRIX), range=MU_R, default=1.0,
+                doc="a number, a complex number string, a uniaxial table or a 3 x 3 tensor"),
+    "tan_delta": Key(either(NUMBER, TABLE), range=TAN_DELTA, default=0.0,
+                     doc="a number, or {perpendicular, parallel} with a uniaxial eps_r"),
+    "mu_tan_delta": Key(NUMBER, range=TAN_DELTA, default=0.0,
+                        doc="magnetic loss tangent: mu_r (1 - j mu_tan_delta)"),
+    "tce": Key(either(QUANTITY, TABLE), unit="temperature_coefficient",
+               range=TEMPERATURE_COEFFICIENT,
+               doc="temperature coefficient of eps_r, (1/eps_r) d eps_r/dT, e.g. "
+                   "\"110 ppm/K\", or {perpendicular, parallel} with a uniaxial eps_r"),
+    "expansion": Key(QUANTITY, unit="temperature_coefficient", range=EXPANSION,
+                     doc="linear thermal expansion of a dielectric part, e.g. \"7 ppm/K\""),
+    "material": Key(STRING, choices="femcav.material_library:LIBRARY",
+                    doc="a named material (femcav.material_library); keys given beside it "
+                        "override its values"),
     "mesh_size": LENGTH,
 })
 REGIONS = Table(each=Key(TABLE, doc="a region: eps_r, mu_r, tan_delta, mesh_size"))
@@ -263,6 +284,8 @@ WALL = Table({
                                doc="of a superconducting metal"),
     "port_modes": Key(WHOLE, range=Range(1, 20), default=1,
                       doc="of a port: its lowest waveguide modes that are terminated"),
+    "expansion": Key(QUANTITY, unit="temperature_coefficient", range=EXPANSION,
+                     doc="linear thermal expansion of the housing the wall belongs to"),
 })
 WALLS = Table(each=Key(TABLE, doc='a wall: kind = "pec", "pmc", "metal" or "port"'))
 
@@ -307,6 +330,12 @@ TUNE = Table({
     "port": Key(STRING, doc="the port whose Q_ext is tuned (quantity = \"q_external\")"),
     "mode": Key(WHOLE, range=MODES, default=1),
     "tolerance": Key(NUMBER, range=TUNE_TOLERANCE, default=1e-6),
+    # compensation: the value that puts the mode's τf (femcav.temperature) on this target
+    "target_tau_f": Key(QUANTITY, unit="temperature_coefficient",
+                        range=TEMPERATURE_COEFFICIENT, doc='e.g. "0 ppm/K"; instead of target'),
+    "tau_f_tolerance": Key(QUANTITY, unit="temperature_coefficient",
+                           range=Range(0.0, 1e-3, low_open=True), default=1e-7,
+                           doc="stop within this of target_tau_f (default 0.1 ppm/K)"),
 })
 
 EXTRACT = Table({
@@ -379,8 +408,8 @@ DISPERSION = Table({
 })
 
 # The quantities a study may vary (femcav.case_parameters): the key each value goes to.
-VARIED = {"eps_r": Key(NUMBER, range=EPS_R), "mu_r": REGION.keys["mu_r"],
-          "tan_delta": REGION.keys["tan_delta"], "conductivity": WALL.keys["conductivity"],
+VARIED = {"eps_r": Key(NUMBER, range=EPS_R), "mu_r": Key(NUMBER, range=MU_R),
+          "tan_delta": Key(NUMBER, range=TAN_DELTA), "conductivity": WALL.keys["conductivity"],
           "length": Key(QUANTITY, unit="length")}
 
 

@@ -9,6 +9,7 @@ from __future__ import annotations
 from dataclasses import replace
 from pathlib import Path
 
+from .anisotropy import material_summary
 from .case import Case, load_case
 from .io.atomic import check_output_folder, staged_output
 from .io.results import to_csv, to_json, to_table
@@ -92,13 +93,6 @@ def _plain(value):
     return value
 
 
-def _json_number(value):
-    """A number or a tensor (tuple of rows) as JSON data: complex entries as "a+bj"."""
-    if isinstance(value, (tuple, list)):
-        return [_json_number(v) for v in value]
-    return str(value).strip("()") if isinstance(value, complex) else value
-
-
 def model_summary(case: Case, result) -> dict:
     """What the part is, for the report: geometry, regions with their materials, walls."""
     g = case.geometry
@@ -107,11 +101,7 @@ def model_summary(case: Case, result) -> dict:
                 if g.builder else {"mesh": str(g.mesh_path), "unit_m": g.mesh_unit_m})
     if settings_orders := case.solve.azimuthal_orders:
         geometry["section"] = f"meridional, azimuthal orders {list(settings_orders)}"
-    regions = {}
-    for name, material in case.regions.items():
-        regions[name] = {"eps_r": "expression" if callable(material.eps_r)
-                         else _json_number(material.eps_r), "mu_r": _json_number(material.mu_r),
-                         "tan_delta": material.tan_delta}
+    regions = {name: material_summary(material) for name, material in case.regions.items()}
     walls = {name: {"kind": w.kind, "conductivity_s_per_m": w.conductivity,
                     "metal": w.metal, "roughness_m": w.roughness,
                     "surface_resistance_ohm": w.surface_resistance,

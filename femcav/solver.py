@@ -65,6 +65,7 @@ class Mode:
     field_class: str | None = None
     phase_advance_rad: float | None = None   # a chain of cells' passband (passband.py)
     loading: object | None = None   # ports.loading.PortLoading: Q_ext per port, loaded Q
+    temperature: object | None = None   # femcav.temperature.TemperatureDrift (df/dT, τf)
 
     @property
     def multiplicity(self) -> int:

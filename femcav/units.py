@@ -39,11 +39,13 @@ UNITS: dict[str, dict[str, float]] = {
     "temperature": _with_prefixes("K", "m"),
     # the phase advance of a periodic cell
     "angle": {"rad": 1.0, "mrad": 1e-3, "deg": math.pi / 180, "°": math.pi / 180},
+    # per kelvin: temperature coefficients and thermal expansion
+    "temperature_coefficient": {"/K": 1.0, "ppm/K": 1e-6, "ppb/K": 1e-9},
 }
 
 LENGTH_UNITS = UNITS["length"]
 SI_NAME = {"length": "m", "frequency": "Hz", "conductivity": "S/m", "resistance": "ohm",
-           "temperature": "K", "angle": "rad"}
+           "temperature": "K", "angle": "rad", "temperature_coefficient": "/K"}
 
 _QUANTITY = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([^\s\d].*?)?\s*$")
 
@@ -81,7 +83,8 @@ def parse_quantity(value: object, kind: str, *, field: str | None = None) -> flo
 
 def _example(kind: str) -> str:
     return {"length": "12.5 mm", "frequency": "4.8 GHz", "conductivity": "58 MS/m",
-            "resistance": "10 nohm", "temperature": "2 K", "angle": "120 deg"}[kind]
+            "resistance": "10 nohm", "temperature": "2 K", "angle": "120 deg",
+            "temperature_coefficient": "110 ppm/K"}[kind]
 
 
 def format_si(value: float, unit: str, digits: int = 6) -> str:

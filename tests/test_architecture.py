@@ -21,7 +21,8 @@ PACKAGE = Path(__file__).resolve().parent.parent / "femcav"
 LAYERS = {
     "errors": 0, "units": 0, "progress": 0, "metals": 0, "analytic": 0, "schema": 0,
     "memory_room": 0, "exit_codes": 0, "superconductors": 0, "bare_numbers": 0,
-    "expressions": 1, "materials": 1, "walls": 1, "wall_resistance": 1,
+    "expressions": 1, "materials": 1, "walls": 1, "wall_resistance": 1, "anisotropy": 1,
+    "material_library": 1,
     "geometry": 2, "model": 2, "sizing": 3,
     "fem": 3, "eigen": 3,
     "post": 4,
@@ -29,7 +30,7 @@ LAYERS = {
     "case": 5, "case_parameters": 5, "case_studies": 5, "class_solve": 5, "solver": 5,
     "axisymmetric": 5, "error_bars": 5, "ports": 5,
     "io": 6, "viz": 6,
-    "runner": 7, "mesh_runner": 7, "merit": 7, "morph": 7,
+    "runner": 7, "mesh_runner": 7, "merit": 7, "morph": 7, "temperature": 7,
     "study": 8,
     "solve_command": 9, "cli": 9, "__main__": 9, "": 9,  # "" is femcav/__init__.py
     "verification": 9,    # femcav verify: runs case files like a user, beside cli

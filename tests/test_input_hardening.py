@@ -67,6 +67,8 @@ VARIANTS = {
     ("walls", "side", "temperature"): ({"walls": {"side": {
         "kind": "metal", "metal": "niobium", "temperature": "2 K",
         "residual_resistance": "10 nohm"}}}, []),
+    # compensation replaces the frequency target
+    ("tune", "target_tau_f"): ({"tune": {"target_tau_f": "0 ppm/K"}}, [("tune", "target")]),
 }
 VARIANTS[("walls", "side", "residual_resistance")] = VARIANTS[("walls", "side", "temperature")]
 VARIANTS[("walls", "side", "port_modes")] = ({"walls": {"side": {"kind": "port"}}}, [])

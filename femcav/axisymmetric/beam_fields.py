@@ -142,6 +142,8 @@ class _WallSampler:
         self.cells, self.local = _on_edges(space.edge_basis.mesh, self.facets)
         section, materials = space.model.section, space.model.materials
         region_of = {rid: name for name, rid in section.region_names.items()}
+        for name in section.region_names:
+            materials[name].require_isotropic(name, "the peak surface fields")
         self.materials = [materials[region_of[r]] for r in section.tri_region[self.cells]]
         self.scale = _scale(space)
 

@@ -68,12 +68,27 @@ def _energy_densities(space: OrderSpace, dofs, omega: float):
     u = space.node_basis.interpolate(u_dofs)
     r = space.edge_basis.mapping.F(space.edge_basis.X)[0]
     field, field_z, curl, curl_z = _parts(space, e, u, r)
+    if space.eps_z is not None:
+        return _uniaxial_densities(space, omega, field, field_z, curl, curl_z)
     if space.form == "E":
         to_h = 1.0 / (omega**2 * mu_0 * space.mu)
         return (epsilon_0 * space.eps * field, epsilon_0 * space.eps * field_z,
                 to_h * curl, to_h * curl_z)
     to_e = 1.0 / (omega**2 * epsilon_0 * space.eps)
     return to_e * curl, to_e * curl_z, mu_0 * space.mu * field, mu_0 * space.mu * field_z
+
+
+def _uniaxial_densities(space: OrderSpace, omega: float, field, field_z, curl, curl_z):
+    """_energy_densities where a region is uniaxial about z: ε_zz (space.eps_z) weighs the z
+    parts, ε_rr = ε_φφ (space.eps) the others; E = ε⁻¹ ∇×H component by component."""
+    eps, eps_z = space.eps, space.eps_z
+    if space.form == "E":
+        to_h = 1.0 / (omega**2 * mu_0 * space.mu)
+        return (epsilon_0 * (eps * (field - field_z) + eps_z * field_z),
+                epsilon_0 * eps_z * field_z, to_h * curl, to_h * curl_z)
+    to_e = 1.0 / (omega**2 * epsilon_0)
+    return (to_e * ((curl - curl_z) / eps + curl_z / eps_z), to_e * curl_z / eps_z,
+            mu_0 * space.mu * field, mu_0 * space.mu * field_z)
 
 
 def electric_energy_by_region(space: OrderSpace, dofs, omega: float = 1.0
@@ -91,6 +106,8 @@ def electric_energy_by_region(space: OrderSpace, dofs, omega: float = 1.0
 
 def material_sensitivities(space: OrderSpace, dofs, frequency_hz: float):
     """df/dε_r and df/dμ_r per region (post.sensitivity) for one mode of order m."""
+    for name, material in space.model.materials.items():
+        material.require_isotropic(name, "material sensitivities")
     electric, _, magnetic, _ = _energy_densities(space, dofs, 2 * math.pi * frequency_hz)
     section = space.model.section
     return sensitivities_from_densities(
@@ -113,7 +130,7 @@ def field_class(space: OrderSpace, dofs) -> str:
 
 def has_losses(space: OrderSpace) -> bool:
     model = space.model
-    return (any(m.tan_delta > 0 for m in model.materials.values())
+    return (any(m.lossy for m in model.materials.values())
             or any(w.kind == METAL for w in model.walls.values()))
 
 
@@ -125,6 +142,11 @@ def mode_losses(space: OrderSpace, dofs, frequency_hz: float) -> LossReport:
     stored = 0.5 * total_e
     materials = space.model.materials
     terms = {name: filling[name] * materials[name].tan_delta for name in filling}
+    along = axial_shares(space, dofs, omega, total_e)     # uniaxial regions: E_z's share
+    for name, parallel in along.items():
+        u = materials[name].uniaxial
+        terms[name] = ((filling[name] - parallel) * u.tan_delta_perpendicular
+                       + parallel * u.tan_delta_parallel)
     inverse_qd = sum(terms.values())
     q_d = 1.0 / inverse_qd if inverse_qd > 0 else None
     region_share = {n: t / inverse_qd for n, t in terms.items()} if inverse_qd > 0 else {}
@@ -138,7 +160,23 @@ def mode_losses(space: OrderSpace, dofs, frequency_hz: float) -> LossReport:
     inverse = sum(1.0 / q for q in (q_wall, q_d) if q)
     return LossReport(q_wall=q_wall, q_dielectric=q_d, q_total=1.0 / inverse if inverse else None,
                       wall_loss_share=wall_share, region_loss_share=region_share,
-                      filling_factor=filling)
+                      filling_factor=filling, filling_factor_parallel=along,
+                      filling_factor_perpendicular={n: filling[n] - p
+                                                    for n, p in along.items()})
+
+
+def axial_shares(space: OrderSpace, dofs, omega: float, total: float) -> dict[str, float]:
+    """Region uniaxial about z -> the share of the whole section's electric energy in its
+    E_z (ε_zz |E_z|²: the energy along its axis, post.material_losses)."""
+    section = space.model.section
+    uniaxial = [(name, rid) for name, rid in section.region_names.items()
+                if space.model.materials[name].uniaxial is not None]
+    if not uniaxial:
+        return {}
+    _, axial, _, _ = _energy_densities(space, dofs, omega)
+    per_cell = np.sum(axial * space.edge_basis.dx, axis=1)
+    return {name: float(per_cell[section.tri_region == rid].sum()) / total
+            for name, rid in uniaxial}
 
 
 def _wall_powers(space: OrderSpace, dofs, omega: float) -> dict[str, float]:

@@ -60,7 +60,13 @@ def make_axisymmetric_model(section: MeridionalMesh, materials: dict[str, Materi
         points = np.column_stack([rz[:, 0], np.zeros(len(rz)), rz[:, 1]])
         try:
             material.check(points, field=f"regions.{name}")
-            material.require_isotropic(name, "the body-of-revolution solver")
+            if axial_uniaxial(material) is None:
+                material.require_isotropic(name, "the body-of-revolution solver (besides a "
+                                           "uniaxial eps_r with its axis along z)")
+            if material.mu_tan_delta:
+                raise InputError("a magnetic loss tangent is not available yet on the "
+                                 "body-of-revolution solver; solve the part in 3D",
+                                 field=f"regions.{name}.mu_tan_delta")
         except InputError as exc:
             raise exc.located(source=source) from None
         if not material.is_uniform:
@@ -74,6 +80,15 @@ def make_axisymmetric_model(section: MeridionalMesh, materials: dict[str, Materi
                                  source=source, field="periodic.pair")
     return AxisymmetricModel(section=section, materials=dict(materials), walls=dict(walls),
                              periodic=tuple(periodic))
+
+
+def axial_uniaxial(material: Material):
+    """The material's anisotropy.Uniaxial when its eps_r is uniaxial about z (the only
+    anisotropy a body of revolution keeps) and mu_r is a number; else None."""
+    u = material.uniaxial
+    if u is None or material.mu_tensor is not None or abs(abs(u.axis[2]) - 1) > 1e-12:
+        return None
+    return u
 
 
 def _check_rotation_invariant(material: Material, rz: np.ndarray, name: str, source) -> None:

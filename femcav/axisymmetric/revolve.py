@@ -18,6 +18,7 @@ import numpy as np
 from scipy.constants import epsilon_0, mu_0
 
 from ..post.fields import most_real_phase
+from .model import axial_uniaxial
 from .solve import AxisymmetricResult
 
 SEGMENTS = 36
@@ -25,7 +26,8 @@ SEGMENTS = 36
 
 def _centroid_fields(space, dofs):
     """The carried field's (f_r, f_φ, f_z) and its curl's (r, φ, z) amplitudes at the
-    triangle centroids, without the azimuthal factors; also ε_r and μ_r there."""
+    triangle centroids, without the azimuthal factors; also ε_r and μ_r there, and ε_zz
+    (ε_r but where a region is uniaxial about z: then ε_r is its ε_rr = ε_φφ)."""
     from skfem import CellBasis
 
     full = space.constraint.expand(most_real_phase(dofs) if np.iscomplexobj(dofs) else dofs)
@@ -50,7 +52,13 @@ def _centroid_fields(space, dofs):
         z = eb.mapping.F(X)[1][cells, 0]
         eps[cells] = material.eps_at(r[cells], np.zeros(cells.sum()), z)
         mu[cells] = material.mu_r
-    return E, curl, eps, mu
+    eps_z = eps.copy()
+    for name, rid in section.region_names.items():
+        uniaxial = axial_uniaxial(space.model.materials[name])
+        if uniaxial is not None:
+            cells = section.tri_region == rid
+            eps[cells], eps_z[cells] = uniaxial.perpendicular, uniaxial.parallel
+    return E, curl, eps, mu, eps_z
 
 
 def _stored_energy(space) -> float:
@@ -76,7 +84,7 @@ def revolved_grid(result: AxisymmetricResult, segments: int = SEGMENTS):
     data = {"region": np.tile(section.tri_region, segments).astype("int32")}
     for mode in result.modes:
         space = result.spaces[mode.m]
-        F, curl, eps, mu = _centroid_fields(space, mode.dofs)
+        F, curl, eps, mu, eps_z = _centroid_fields(space, mode.dofs)
         omega = 2 * math.pi * mode.frequency_hz
         scale = 1.0 / math.sqrt(_stored_energy(space))
         m = mode.m
@@ -84,7 +92,9 @@ def revolved_grid(result: AxisymmetricResult, segments: int = SEGMENTS):
         s = np.sin(m * mid)[:, None] if m else np.ones((segments, 1))
         # F = (f_r c, f_φ s, f_z c); ∇×F = (curl_r s, curl_φ c, curl_z s)  (m = 0: c = s = 1)
         field = [F[0] * c, F[1] * s, F[2] * c]
-        rotated = [curl[0] * s, curl[1] * c, curl[2] * s]
+        # (E_z = (∇×H)_z / (ω ε0 ε_zz): the factor below divides by ε_rr)
+        rotated = [curl[0] * s, curl[1] * c,
+                   curl[2] * s * (1.0 if space.form == "E" else eps / eps_z)]
         # the other field from the curl: H = j∇×E/(ωμ0 μ_r), E = -j∇×H/(ωε0 ε_r), in
         # quadrature with the carried one
         if space.form == "E":
@@ -98,11 +108,12 @@ def revolved_grid(result: AxisymmetricResult, segments: int = SEGMENTS):
             vec = (np.stack([a_r * cos_p - a_p * sin_p, a_r * sin_p + a_p * cos_p, a_z],
                             axis=-1) * (scale * factor)[None, :, None]).reshape(-1, 3)
             data[f"{tag}_{name}"] = vec.real
-            squared[name] = np.sum(np.abs(vec) ** 2, axis=1)
+            squared[name] = np.abs(vec) ** 2
             if np.iscomplexobj(vec):   # a periodic cell's travelling wave: a quarter period on
                 data[f"{tag}_{name}_quarter"] = vec.imag
-        e_sq, h_sq = squared["E"], squared["H"]
-        data[f"{tag}_we"] = 0.25 * epsilon_0 * np.tile(eps, segments) * e_sq
+        e_sq, h_sq = squared["E"], np.sum(squared["H"], axis=1)
+        data[f"{tag}_we"] = 0.25 * epsilon_0 * (np.tile(eps, segments) * (e_sq[:, 0] + e_sq[:, 1])
+                                                + np.tile(eps_z, segments) * e_sq[:, 2])
         data[f"{tag}_wm"] = 0.25 * mu_0 * np.tile(mu, segments) * h_sq
     return points, wedges, data
 

@@ -211,17 +211,44 @@ def _complex_check(spaces: dict[int, OrderSpace], matrices: dict, modes: list[Mo
 
 
 def _lossy_pencil(space: OrderSpace, K, M):
-    """(K, M) of the real pencil with the loss tangents put in: ε_r (1 - j tan δ)."""
+    """(K, M) of the real pencil with the loss tangents put in: ε_r (1 - j tan δ); a region
+    uniaxial about z has its tan δ⊥ in ``tan_delta`` and its tan δ∥ (the z direction, with
+    space.eps_z) in ``axial``."""
     tan_delta = _tan_delta_at_quadrature(space)
+    axial = _axial_tan_delta(space, tan_delta)
     if space.form == "E":   # M becomes ∫ ε_r (1 - j tan δ) ...
-        return K.astype(complex), M - 1j * assemble_mass(space, space.eps * tan_delta)
+        return K.astype(complex), M - 1j * assemble_mass(
+            space, space.eps * tan_delta, None if axial is None else space.eps_z * axial)
     # 1/(ε_r (1 - j t)) = (1/ε_r)(1 + j t)/(1 + t²)
     coef = space.stiffness_coef / (1 + tan_delta**2)
-    return (assemble_stiffness(space, coef) + 1j * assemble_stiffness(space, coef * tan_delta),
+    coef_z = None if axial is None else 1 / (space.eps_z * (1 + axial**2))
+    return (assemble_stiffness(space, coef, coef_z)
+            + 1j * assemble_stiffness(space, coef * tan_delta,
+                                      None if axial is None else coef_z * axial),
             M.astype(complex))
 
 
 def _tan_delta_at_quadrature(space: OrderSpace) -> np.ndarray:
+    """tan δ at the quadrature points; tan δ⊥ in a region uniaxial about z."""
     section = space.model.section
-    return tan_delta_by_cell(space.model.materials, section.region_names, section.tri_region,
-                             space.eps)
+    out = tan_delta_by_cell(space.model.materials, section.region_names, section.tri_region,
+                            space.eps)
+    for name, rid in section.region_names.items():
+        uniaxial = space.model.materials[name].uniaxial
+        if uniaxial is not None:
+            out[section.tri_region == rid] = uniaxial.tan_delta_perpendicular
+    return out
+
+
+def _axial_tan_delta(space: OrderSpace, tan_delta: np.ndarray) -> np.ndarray | None:
+    """tan δ of the z direction (tan δ∥ in a region uniaxial about z, ``tan_delta``
+    elsewhere); None when no region is uniaxial."""
+    if space.eps_z is None:
+        return None
+    section = space.model.section
+    out = tan_delta.copy()
+    for name, rid in section.region_names.items():
+        uniaxial = space.model.materials[name].uniaxial
+        if uniaxial is not None:
+            out[section.tri_region == rid] = uniaxial.tan_delta_parallel
+    return out

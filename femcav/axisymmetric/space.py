@@ -63,7 +63,7 @@ from ..fem.point_location import Transfer, evaluation_matrix
 from ..materials import check_permittivity
 from ..model import FORMS
 from ..walls import PEC, PMC, essential_kinds
-from .model import AxisymmetricModel
+from .model import AxisymmetricModel, axial_uniaxial
 from .periodic import pair_lines, section_periodic_constraints
 
 ELEMENTS = {1: (ElementTriN1, ElementTriP1), 2: (ElementTriN2, ElementTriP2),
@@ -84,6 +84,8 @@ class OrderSpace:
     eps: np.ndarray             # ε_r at the quadrature points (n_triangles, n_points)
     mu: np.ndarray              # μ_r there
     form: str = "E"             # the field carried: E or H
+    # ε_zz where a region is uniaxial about z (then ``eps`` is ε_rr = ε_φφ); None: isotropic
+    eps_z: np.ndarray | None = None
 
     @property
     def stiffness_coef(self) -> np.ndarray:
@@ -94,6 +96,15 @@ class OrderSpace:
     def mass_coef(self) -> np.ndarray:
         """ε_r in the E form, μ_r in the H form."""
         return self.eps if self.form == "E" else self.mu
+
+    @property
+    def axial_coefficients(self) -> tuple[np.ndarray | None, np.ndarray | None]:
+        """(stiffness, mass) coefficients of the z direction where they differ from the
+        others (a region uniaxial about z): (None, ε_zz) in the E form, (1/ε_zz, None) in the
+        H form; (None, None) for isotropic regions."""
+        if self.eps_z is None:
+            return None, None
+        return (None, self.eps_z) if self.form == "E" else (1.0 / self.eps_z, None)
 
     @property
     def n_edge(self) -> int:
@@ -233,7 +244,8 @@ def build_order_space(model: AxisymmetricModel, m: int, order: int,
     eps, mu = _coefficients(model, edge_basis)
     return OrderSpace(model=model, m=m, order=order, edge_basis=edge_basis,
                       node_basis=node_basis, constraint=constraint,
-                      potential_constraint=potential_constraint, eps=eps, mu=mu, form=form)
+                      potential_constraint=potential_constraint, eps=eps, mu=mu, form=form,
+                      eps_z=axial_permittivity(model, eps))
 
 
 def facets_of(mesh: MeshTri, edges: np.ndarray) -> np.ndarray:
@@ -254,6 +266,20 @@ def facets_of(mesh: MeshTri, edges: np.ndarray) -> np.ndarray:
     return order[pos]
 
 
+def axial_permittivity(model: AxisymmetricModel, eps: np.ndarray) -> np.ndarray | None:
+    """ε_zz at the quadrature points when a region is uniaxial about z (``eps`` elsewhere);
+    None when every region is isotropic."""
+    section = model.section
+    axial = {name: axial_uniaxial(model.materials[name]) for name in section.region_names}
+    if not any(axial.values()):
+        return None
+    out = eps.copy()
+    for name, rid in section.region_names.items():
+        if axial[name] is not None:
+            out[section.tri_region == rid] = axial[name].parallel
+    return out
+
+
 def _coefficients(model: AxisymmetricModel, basis: Basis):
     section = model.section
     x = basis.mapping.F(basis.X)                   # (2, n_triangles, n_points)
@@ -263,6 +289,10 @@ def _coefficients(model: AxisymmetricModel, basis: Basis):
     for name, rid in section.region_names.items():
         cells = section.tri_region == rid
         material = model.materials[name]
+        if axial_uniaxial(material) is not None:   # ε_rr = ε_φφ here; ε_zz in eps_z
+            eps[cells] = axial_uniaxial(material).perpendicular
+            mu[cells] = material.mu_r
+            continue
         eps[cells] = material.eps_at(r[cells], np.zeros_like(r[cells]), z[cells])
         check_permittivity(eps[cells], (r[cells], np.zeros_like(r[cells]), z[cells]),
                            field=f"regions.{name}.eps_r")
@@ -291,6 +321,35 @@ def _edge_mass(e, f, w):
     return w.b * w.x[0] * dot(e, f)
 
 
+# A uniaxial ε about z (axis_weights below): the r and z parts of the fields get their own
+# coefficients. The meridional curl (∇×F)_{r,z} = (-(∂_z u + m f_z), ∂_r u + m f_r) / r swaps
+# the components of ∇u + m f_t, so in the stiffness the r part of that vector takes the z
+# coefficient; ``w.az`` is the stiffness coefficient of the z direction, ``w.bz`` the mass's.
+def _axial_dot(x, y, across, along):
+    return along * x[0] * y[0] + across * x[1] * y[1]
+
+
+@BilinearForm
+def _edge_edge_axial(e, f, w):
+    r = w.x[0]
+    return w.m**2 * _axial_dot(e, f, w.a, w.az) / r + w.a * r * e.curl * f.curl
+
+
+@BilinearForm
+def _node_edge_axial(u, f, w):
+    return w.m * _axial_dot(u.grad, f, w.a, w.az) / w.x[0]
+
+
+@BilinearForm
+def _node_node_axial(u, v, w):
+    return _axial_dot(u.grad, v.grad, w.a, w.az) / w.x[0]
+
+
+@BilinearForm
+def _edge_mass_axial(e, f, w):
+    return w.x[0] * (w.b * e[0] * f[0] + w.bz * e[1] * f[1])
+
+
 @BilinearForm
 def _node_mass(u, v, w):
     return w.b * u * v / w.x[0]
@@ -298,26 +357,34 @@ def _node_mass(u, v, w):
 
 def assemble_order(space: OrderSpace):
     """(K, M) over the kept DOFs."""
-    return (assemble_stiffness(space, space.stiffness_coef),
-            assemble_mass(space, space.mass_coef))
+    axial_stiffness, axial_mass = space.axial_coefficients
+    return (assemble_stiffness(space, space.stiffness_coef, axial_stiffness),
+            assemble_mass(space, space.mass_coef, axial_mass))
 
 
-def assemble_stiffness(space: OrderSpace, a: np.ndarray):
+def assemble_stiffness(space: OrderSpace, a: np.ndarray, az: np.ndarray | None = None):
     """K over the kept DOFs with the coefficient ``a`` at the quadrature points (1/μ_r in the
-    E form, 1/ε_r in the H form, or a lossy variant of it)."""
+    E form, 1/ε_r in the H form, or a lossy variant of it); ``az``: that of the z direction
+    where it differs (1/ε_zz of a uniaxial region in the H form)."""
     eb, nb = space.edge_basis, space.node_basis
     coefficient = {"m": float(space.m), "a": a}
-    K_ee = _edge_edge.assemble(eb, **coefficient)
-    K_ue = _node_edge.assemble(nb, eb, **coefficient)        # rows edge, columns node
-    K_uu = _node_node.assemble(nb, **coefficient)
+    forms = (_edge_edge, _node_edge, _node_node)
+    if az is not None:
+        coefficient["az"] = az
+        forms = (_edge_edge_axial, _node_edge_axial, _node_node_axial)
+    K_ee = forms[0].assemble(eb, **coefficient)
+    K_ue = forms[1].assemble(nb, eb, **coefficient)        # rows edge, columns node
+    K_uu = forms[2].assemble(nb, **coefficient)
     return space.constraint.reduce(sp.bmat([[K_ee, K_ue], [K_ue.T, K_uu]], format="csr"))
 
 
-def assemble_mass(space: OrderSpace, b: np.ndarray):
+def assemble_mass(space: OrderSpace, b: np.ndarray, bz: np.ndarray | None = None):
     """M over the kept DOFs with the coefficient ``b`` at the quadrature points (ε_r in the E
-    form, μ_r in the H form, or the lossy part of a complex permittivity)."""
-    M = sp.block_diag([_edge_mass.assemble(space.edge_basis, b=b),
-                       _node_mass.assemble(space.node_basis, b=b)], format="csr")
+    form, μ_r in the H form, or the lossy part of a complex permittivity); ``bz``: that of
+    the z direction where it differs (ε_zz of a uniaxial region in the E form)."""
+    edge = (_edge_mass.assemble(space.edge_basis, b=b) if bz is None
+            else _edge_mass_axial.assemble(space.edge_basis, b=b, bz=bz))
+    M = sp.block_diag([edge, _node_mass.assemble(space.node_basis, b=b)], format="csr")
     return space.constraint.reduce(M)
 
 

@@ -221,12 +221,13 @@ def _coefficients(model: Model, x: np.ndarray, *, losses_inside: bool = False
                   ) -> tuple[np.ndarray, np.ndarray]:
     """eps_r and mu_r at the quadrature points x (3, n_elements, n_points): shape
     (n_elements, n_points), or (n_elements, n_points, 3, 3) when a region is anisotropic;
-    complex with ``losses_inside`` (eps_r (1 - j tan δ)) or complex tensors."""
+    complex with ``losses_inside`` (eps_r (1 - j tan δ), a uniaxial eps_r with a tan δ per
+    direction, mu_r (1 - j mu_tan_delta)) or complex tensors."""
     tm = model.mesh
     materials = [(model.materials[name], tm.tet_region == rid)
                  for name, rid in tm.region_names.items()]
     tensor = any(not m.is_isotropic for m, _ in materials)
-    lossy = losses_inside and any(m.tan_delta for m, _ in materials)
+    lossy = losses_inside and any(m.lossy for m, _ in materials)
     complex_values = lossy or any(np.iscomplexobj(t) for m, _ in materials
                                   for t in (m.eps_tensor, m.mu_tensor) if t is not None)
     shape = x.shape[1:] + ((3, 3) if tensor else ())
@@ -240,10 +241,12 @@ def _coefficients(model: Model, x: np.ndarray, *, losses_inside: bool = False
             value = material.eps_at(*where)
             check_permittivity(value, where, field=f"regions.{name}.eps_r")
             eps[rows] = as_tensor(value) if tensor else value
-        if losses_inside and material.tan_delta:
-            eps[rows] *= 1 - 1j * material.tan_delta
+        if losses_inside and material.lossy:
+            eps[rows] = material.lossy_eps(eps[rows])
         if material.mu_tensor is not None:
             mu[rows] = material.mu_tensor
         else:
             mu[rows] = np.eye(3) * material.mu_r if tensor else material.mu_r
+        if losses_inside and material.mu_tan_delta:
+            mu[rows] *= 1 - 1j * material.mu_tan_delta
     return eps, mu

@@ -9,7 +9,11 @@ each mode has ``index``, ``frequency_hz``, ``k0_squared_per_m2``, ``residual``,
 (post.resolution), ``loss_warnings`` (post.loss_validity), ``error_estimate_hz`` (null unless a mesh sequence was
 solved; then also ``extrapolated_hz``), ``q_wall``, ``q_dielectric``, ``q_total`` (null without such
 loss), ``wall_loss_share``, ``region_loss_share`` (name -> fraction of that loss),
-``filling_factor`` (region -> share of the electric energy), with ``complex_frequency_hz``
+``filling_factor`` (region -> share of the electric energy); for a uniaxial region
+``filling_factor_parallel`` and ``filling_factor_perpendicular`` (region -> share of the
+whole part's electric energy stored along and across its axis), and with a magnetic loss
+tangent ``q_magnetic`` and ``magnetic_energy_filling_factor`` (region -> share of the
+magnetic energy ∫ μ0 H̄·μ_r H); with ``complex_frequency_hz``
 ([real, imaginary] in Hz) and ``q_dielectric_complex`` after a complex check (null for a mode
 no complex eigenvalue was paired with), or ``complex_frequency_hz`` and ``q_eigenvalue`` (the
 Q of every loss inside the solve) when the losses were inside the solve, and ``symmetry`` (the class label, e.g. "x:PMC y:PEC")
@@ -20,7 +24,9 @@ top level has ``axisymmetric`` (the orders solved and the DOFs of each). With [s
 sensitivities, each mode has ``sensitivity_hz``: ``eps_r`` and ``mu_r``, each a region ->
 df/dε_r (df/dμ_r) in Hz per unit change. With [tolerances], each mode has ``tolerance``:
 ``df_dp_hz_per_m``, ``tolerance_m`` and ``delta_f_hz`` per length, ``worst_case_hz`` and
-``rss_hz``. Each mode has ``magnetic_filling_factor`` (region -> share of ∫|H|²),
+``rss_hz``. With a tce or an expansion given (femcav.temperature), each mode has
+``temperature_drift``: ``df_dt_hz_per_k``, ``tau_f_ppm_per_k`` and the parts
+``permittivity_hz_per_k``, ``housing_hz_per_k``, ``parts_hz_per_k``. Each mode has ``magnetic_filling_factor`` (region -> share of ∫|H|²),
 ``magnetic_filling_axis`` (the unit axis a) and ``magnetic_filling_factor_axis`` (region ->
 ∫_region |H·a|² / ∫|H|²), and with [probes.NAME] ``probes`` (io.probe_table). ``weyl`` holds the optical volume for the mode-count check and ``model`` the
 part (geometry, regions with their materials, walls, symmetry) when written by a case run.
@@ -76,6 +82,13 @@ def mode_rows(result: SolveResult) -> list[dict]:
             "region_loss_share": loss.region_loss_share if loss else {},
             "filling_factor": loss.filling_factor if loss else {},
         })
+        if loss and loss.q_magnetic is not None:
+            row["q_magnetic"] = loss.q_magnetic
+        for key, shares in (("filling_factor_parallel", "filling_factor_parallel"),
+                            ("filling_factor_perpendicular", "filling_factor_perpendicular"),
+                            ("magnetic_energy_filling_factor", "magnetic_energy_filling")):
+            if loss and getattr(loss, shares):
+                row[key] = getattr(loss, shares)
         row["error_estimate_hz"] = m.error_estimate_hz
         if m.extrapolated_hz is not None:
             row["extrapolated_hz"] = m.extrapolated_hz
@@ -83,6 +96,8 @@ def mode_rows(result: SolveResult) -> list[dict]:
             row["sensitivity_hz"] = m.sensitivity.as_dict()
         if m.tolerance is not None:
             row["tolerance"] = m.tolerance.as_dict()
+        if m.temperature is not None:
+            row["temperature_drift"] = asdict(m.temperature)
         if m.label is not None:
             row["label"] = m.label
         if m.phase_advance_rad is not None:
@@ -181,6 +196,8 @@ def weyl_summary(result) -> dict:
     mesh = space.model.mesh
     eps, mu = centroid_materials(space)
     cuts = sum(1 for name in mesh.wall_names if name.startswith("symmetry_"))
+    if eps.ndim == 3:       # anisotropic: the mean of each tensor's eigenvalues
+        eps, mu = (np.real(np.trace(t, axis1=1, axis2=2)) / 3 for t in (eps, mu))
     volume = float(np.sum(np.abs(mesh.tet_volumes()) * (eps * mu) ** 1.5)) * 2**cuts
     classes = max(1, len(result.classes))
     return {"optical_volume_m3": volume, "listed_share": classes / 2**cuts, "note": ""}
@@ -191,7 +208,8 @@ def to_csv(result: SolveResult) -> str:
     columns = CSV_COLUMNS + (("symmetry",) if _has_symmetry(result) else ()) + (
         ("azimuthal_order", "field_class") if _is_axisymmetric(result) else ()) + (
         ("q_dielectric_complex",) if any(m.q_dielectric_complex for m in result.modes) else ()
-    ) + (("label",) if _has_labels(result) else ()) + merit_columns.csv_columns(result)
+    ) + (("q_magnetic",) if any(m.losses and m.losses.q_magnetic for m in result.modes)
+         else ()) + (("label",) if _has_labels(result) else ()) + merit_columns.csv_columns(result)
     writer = csv.DictWriter(out, fieldnames=columns, extrasaction="ignore", lineterminator="\n")
     writer.writeheader()
     for row in mode_rows(result):
@@ -226,6 +244,7 @@ def to_table(result: SolveResult) -> str:
     sym = _has_symmetry(result)
     lossy = any(m.losses for m in result.modes)
     inside = any(m.q_eigenvalue is not None for m in result.modes)
+    magnetic = any(m.losses and m.losses.q_magnetic for m in result.modes)
     bars = any(m.error_estimate_hz is not None for m in result.modes)
     axisymmetric = _is_axisymmetric(result)
     label_width = max([len(m.label or "") for m in result.modes]
@@ -234,7 +253,8 @@ def to_table(result: SolveResult) -> str:
              + (f"{'label':<{label_width}}  " if label_width else "")
              + (f"{'symmetry':<{width}}  " if sym else "")
              + (f"{'m':>2}  {'class':<8}  " if axisymmetric else "")
-             + (f"{'Q wall':>9}  {'Q diel.':>9}  {'Q total':>9}  " if lossy else "")
+             + (f"{'Q wall':>9}  {'Q diel.':>9}  " + (f"{'Q magn.':>9}  " if magnetic else "")
+                + f"{'Q total':>9}  " if lossy else "")
              + (f"{'Q (f)':>9}  " if inside else "")
              + merit_columns.table_heading(result)
              + f"{'residual':>9}  {'divergence':>10}  {'orthogonality':>13}  check"]
@@ -255,7 +275,7 @@ def to_table(result: SolveResult) -> str:
                         if label_width else "")
                      + (f"{m.symmetry:<{width}}  " if sym else "")
                      + (f"{m.m:>2}  {m.field_class:<8}  " if axisymmetric else "")
-                     + (_q_columns(m) if lossy else "")
+                     + (_q_columns(m, magnetic) if lossy else "")
                      + (f"{_q_text(m.q_eigenvalue):>9}  " if inside else "")
                      + merit_columns.table_cells(result, m)
                      + f"{c.residual:9.1e}  {c.divergence:10.1e}  {c.orthogonality:13.1e}  "
@@ -285,9 +305,11 @@ def monte_carlo_lines(result) -> list[str]:
     return lines
 
 
-def _q_columns(mode) -> str:
+def _q_columns(mode, magnetic: bool = False) -> str:
     loss = mode.losses
     values = (loss.q_wall, loss.q_dielectric, loss.q_total) if loss else (None, None, None)
+    if magnetic:
+        values = values[:2] + (loss.q_magnetic if loss else None,) + values[2:]
     return "".join(f"{_q_text(q):>9}  " for q in values)
 
 

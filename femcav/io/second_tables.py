@@ -24,7 +24,8 @@ class SecondTable:
 def second_tables(rows: list[dict]) -> list[SecondTable]:
     """Every table the modes have data for (none for a plain solve of a one-region part)."""
     return [t for t in (_tolerance_table(rows), _sensitivity_table(rows),
-                        _filling_table(rows)) if t is not None]
+                        _filling_table(rows), _directional_table(rows),
+                        _temperature_table(rows)) if t is not None]
 
 
 def as_text(rows: list[dict]) -> str:
@@ -84,6 +85,36 @@ def _filling_table(rows: list[dict]) -> SecondTable | None:
                  for r in rows)
     return SecondTable("filling factors (share of the electric and of the magnetic energy "
                        "in each region)", headings, body)
+
+
+def _directional_table(rows: list[dict]) -> SecondTable | None:
+    """The electric energy of uniaxial regions along and across their axes."""
+    regions = sorted({k for r in rows for k in (r.get("filling_factor_parallel") or {})})
+    if not regions:
+        return None
+    headings = ("mode", *(f"{side} {n}" for n in regions for side in ("along", "across")))
+    body = tuple((str(r["index"]), *(_share((r.get(f"filling_factor_{side}") or {}).get(n))
+                                     for n in regions for side in ("parallel",
+                                                                   "perpendicular")))
+                 for r in rows)
+    return SecondTable("directional filling factors (share of the electric energy stored "
+                       "along and across each uniaxial region's axis)", headings, body)
+
+
+def _temperature_table(rows: list[dict]) -> SecondTable | None:
+    given = [r for r in rows if r.get("temperature_drift")]
+    if not given:
+        return None
+    headings = ("mode", "df/dT", "tau_f", "from eps_r", "housing", "parts")
+    body = []
+    for r in given:
+        t = r["temperature_drift"]
+        body.append((str(r["index"]), _hz(t["df_dt_hz_per_k"], signed=True) + "/K",
+                     f"{t['tau_f_ppm_per_k']:+.4g} ppm/K",
+                     *(_hz(t[k], signed=True) + "/K" for k in (
+                         "permittivity_hz_per_k", "housing_hz_per_k", "parts_hz_per_k"))))
+    return SecondTable("temperature drift (first order: the regions' tce, the housing's "
+                       "expansion, the parts growing against it)", headings, tuple(body))
 
 
 def _hz(value, signed: bool = False) -> str:

@@ -14,6 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.constants import epsilon_0, mu_0
 
+from ..fem.coefficients import as_tensor
 from ..fem.space import EdgeSpace
 
 
@@ -26,16 +27,24 @@ class CentroidFields:
 
 
 def centroid_materials(space: EdgeSpace) -> tuple[np.ndarray, np.ndarray]:
-    """eps_r and mu_r at the element centroids."""
+    """eps_r and mu_r at the element centroids: (n,) each, or (n, 3, 3) tensors both when a
+    region is anisotropic."""
     tm = space.model.mesh
     c = tm.points[tm.tets].mean(axis=1)
-    eps, mu = np.empty(tm.n_tets), np.empty(tm.n_tets)
+    materials = space.model.materials
+    tensors = [t for name in tm.region_names
+               for t in (materials[name].eps_tensor, materials[name].mu_tensor) if t is not None]
+    shape = (tm.n_tets, 3, 3) if tensors else (tm.n_tets,)
+    dtype = complex if any(np.iscomplexobj(t) for t in tensors) else float
+    eps, mu = np.empty(shape, dtype=dtype), np.empty(shape, dtype=dtype)
     for name, region_id in tm.region_names.items():
         rows = tm.tet_region == region_id
-        material = space.model.materials[name]
-        material.require_isotropic(name)
-        eps[rows] = material.eps_at(c[rows, 0], c[rows, 1], c[rows, 2])
-        mu[rows] = material.mu_r
+        material = materials[name]
+        scalar_eps = material.eps_at(c[rows, 0], c[rows, 1], c[rows, 2])
+        eps[rows] = (scalar_eps if not tensors else material.eps_tensor
+                     if material.eps_tensor is not None else as_tensor(scalar_eps))
+        mu[rows] = (material.mu_r if not tensors else material.mu_tensor
+                    if material.mu_tensor is not None else material.mu_r * np.eye(3))
     return eps, mu
 
 
@@ -63,6 +72,8 @@ def mode_fields(space: EdgeSpace, dofs: np.ndarray, omega: float,
     value = np.asarray(field)[:, :, 0].T
     curl = field.curl[:, :, 0].T
     eps, mu = materials if materials is not None else centroid_materials(space)
+    if eps.ndim == 3:
+        return _tensor_fields(space, value, curl, omega, eps, mu)
     if space.form == "E":
         E = value * np.sqrt(2.0 / epsilon_0)
         H = curl * np.sqrt(2.0 / epsilon_0) / (omega * mu_0 * mu[:, None])
@@ -79,3 +90,20 @@ def most_real_phase(x: np.ndarray) -> np.ndarray:
     """x e^{-jθ} with θ = arg(Σ x²) / 2: Σ (x e^{-jθ})² is then real and positive, which is
     the phase where the real part carries the most of the vector."""
     return x * np.exp(-0.5j * np.angle(np.sum(x * x)))
+
+
+def _tensor_fields(space, value, curl, omega, eps, mu) -> CentroidFields:
+    """As mode_fields with tensors per element: H = μ_r⁻¹ curl E / (ω μ0), E = ε_r⁻¹ curl H /
+    (ω ε0), energy densities Re(Ē·ε E) and Re(H̄·μ H). A Hermitian (gyrotropic) tensor makes
+    the field complex; the real part is written (the field at t = 0)."""
+    def solve(tensor, vectors):
+        return np.einsum("nij,nj->ni", np.linalg.inv(tensor), vectors)
+    if space.form == "E":
+        E = value * np.sqrt(2.0 / epsilon_0)
+        H = solve(mu, curl) * np.sqrt(2.0 / epsilon_0) / (omega * mu_0)
+    else:
+        H = value * np.sqrt(2.0 / mu_0)
+        E = solve(eps, curl) * np.sqrt(2.0 / mu_0) / (omega * epsilon_0)
+    w_e = 0.25 * epsilon_0 * np.real(np.einsum("ni,nij,nj->n", np.conj(E), eps, E))
+    w_m = 0.25 * mu_0 * np.real(np.einsum("ni,nij,nj->n", np.conj(H), mu, H))
+    return CentroidFields(E=np.real(E), H=np.real(H), w_e=w_e, w_m=w_m)

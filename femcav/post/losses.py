@@ -21,6 +21,7 @@ from ..fem.coefficients import inverse, quadratic
 from ..fem.quadrature_fields import fields_at_quadrature
 from ..fem.space import EdgeSpace
 from ..wall_resistance import wall_surface_resistance
+from .material_losses import MaterialLossTerms, material_loss_terms, needs_material_terms
 from ..walls import METAL
 
 
@@ -35,6 +36,12 @@ class LossReport:
     # time-averaged loss per area on each metal-wall face (W/m² for 1 J stored), in the order
     # of MetalFaces.facets
     wall_loss_density: np.ndarray | None = None
+    # magnetic loss (post.material_losses): Q_m, and the directional electric filling of
+    # uniaxial regions and the magnetic-energy filling of magnetically lossy ones
+    q_magnetic: float | None = None
+    filling_factor_parallel: dict[str, float] = field(default_factory=dict)
+    filling_factor_perpendicular: dict[str, float] = field(default_factory=dict)
+    magnetic_energy_filling: dict[str, float] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -93,6 +100,11 @@ def mode_losses(space: EdgeSpace, dofs: np.ndarray, frequency_hz: float,
 
     materials = space.model.materials
     loss_terms = {name: filling[name] * materials[name].tan_delta for name in filling}
+    media = (material_loss_terms(space, dofs, omega, total_e, filling)
+             if needs_material_terms(materials) else MaterialLossTerms())
+    loss_terms.update(media.dielectric_terms)     # uniaxial regions: a term per direction
+    inverse_qm = sum(media.magnetic_terms.values())
+    q_m = 1.0 / inverse_qm if inverse_qm > 0 else None
     inverse_qd = sum(loss_terms.values())
     q_d = 1.0 / inverse_qd if inverse_qd > 0 else None
     region_share = ({n: t / inverse_qd for n, t in loss_terms.items()} if inverse_qd > 0 else {})
@@ -116,13 +128,16 @@ def mode_losses(space: EdgeSpace, dofs: np.ndarray, frequency_hz: float,
                       for w in dict.fromkeys(faces.wall)}
         area = np.sum(faces.basis.dx, axis=1)
         density = power / area / stored
-    inverse = sum(1.0 / q for q in (q_wall, q_d) if q)
+    inverse = sum(1.0 / q for q in (q_wall, q_d, q_m) if q)
     return LossReport(q_wall=q_wall, q_dielectric=q_d, q_total=1.0 / inverse if inverse else None,
                       wall_loss_share=wall_share, region_loss_share=region_share,
-                      filling_factor=filling, wall_loss_density=density)
+                      filling_factor=filling, wall_loss_density=density, q_magnetic=q_m,
+                      filling_factor_parallel=media.filling_parallel,
+                      filling_factor_perpendicular=media.filling_perpendicular,
+                      magnetic_energy_filling=media.magnetic_filling)
 
 
 def has_losses(space: EdgeSpace) -> bool:
     model = space.model
-    return (any(m.tan_delta > 0 for m in model.materials.values())
+    return (any(m.lossy for m in model.materials.values())
             or any(w.kind == METAL for w in model.walls.values()))

@@ -35,7 +35,7 @@ from ..post.sensitivity import material_sensitivities
 from ..progress import SILENT, Progress
 from ..case_studies import ExtractSpec, parse_extract
 from ..units import format_frequency
-from ..case_parameters import with_value
+from ..case_parameters import check_scalar_material, with_value
 from .sweep import TRACKING_SPARE, load_study, study_case
 from ..post.mode_matching import result_partners
 from .tune import TuneSpec, _Evaluations, _root
@@ -50,6 +50,7 @@ def run_extract(path: str | Path, *, out: str | Path | None = None,
                                  else path.parent / f"{path.stem}-extract")
     eps_path = f"regions.{spec.sample}.eps_r"
     try:
+        check_scalar_material(base, spec.sample, "eps_r", "extract.sample")
         # 1. the empty fixture, its mode found from the case as written
         lossless = with_value(data, f"regions.{spec.sample}.tan_delta", 0.0)
         runs = _Evaluations(lossless, path, TuneSpec(
@@ -88,8 +89,9 @@ def run_extract(path: str | Path, *, out: str | Path | None = None,
         mode = result.modes[found[0]]
         losses = mode.losses
         q_wall = losses.q_wall * q_wall_scale
-        others = sum(losses.filling_factor[r] * case.regions[r].tan_delta
-                     for r in losses.filling_factor if r != spec.sample and r in case.regions)
+        # the other regions' loss (the sample's tan δ is 0 in these solves): dielectric,
+        # per direction in a uniaxial region, and magnetic (post.material_losses)
+        others = sum(1.0 / q for q in (losses.q_dielectric, losses.q_magnetic) if q)
         p_sample = losses.filling_factor[spec.sample]
         tan_delta = (1.0 / spec.loaded_q - 1.0 / q_wall - others) / p_sample
         perturbation = _perturbation_estimate(empty, empty_mode, spec)

@@ -76,7 +76,8 @@ def solve_sample(task) -> list[tuple[tuple, float]]:
     if point_fingerprint(data, path, _options(settings)) != fingerprint:
         raise RuntimeError("this worker computes another fingerprint for the sample (another "
                            "femcav results version, or another mesh file at the case's path)")
-    result = solve_case(study_case(data, path), settings, SILENT)
+    # the sample's frequencies only: no temperature drift (its morphed solves)
+    result = solve_case(replace(study_case(data, path), temperature=None), settings, SILENT)
     return [(key, mode.frequency_hz) for key, mode in zip(mode_keys(result), result.modes)]
 
 

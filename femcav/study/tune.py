@@ -30,7 +30,7 @@ from ..io.atomic import check_output_folder, staged_output
 from ..progress import SILENT, Progress
 from ..case_studies import TuneSpec, parse_tune
 from ..units import format_frequency
-from ..case_parameters import format_value, with_value
+from ..case_parameters import check_scalar_material, format_value, with_value
 from .sweep import TRACKING_SPARE, checked_for_tracking, load_study, study_case
 from ..post.mode_matching import result_partners
 
@@ -56,6 +56,7 @@ def _reference_value(data: dict, spec: TuneSpec, case) -> float:
         if material is None:
             raise InputError(f"region {region!r} has no table in the case",
                              field="tune.parameter")
+        check_scalar_material(case, region, prop, "tune.parameter")
         if prop == "eps_r" and callable(material.eps_r):
             raise InputError(f"{spec.path} is given as an expression; only a number can be "
                              "tuned", field="tune.parameter")
@@ -72,6 +73,11 @@ def solve_at(task):
 
     data, path, spec, value = task
     case = study_case(with_value(data, spec.path, value), path)
+    if spec.target_tau_f is None:   # a frequency only: no temperature drift (morphed solves)
+        case = replace(case, temperature=None)
+    elif case.temperature is None:
+        raise InputError("target_tau_f needs the case's thermal data: a tce or an expansion "
+                         "in a region, or the walls' expansion", field="tune.target_tau_f")
     checked_for_tracking(case)
     settings = replace(case.solve, modes=max(case.solve.modes, spec.mode) + TRACKING_SPARE)
     return solve_case(case, settings, SILENT)
@@ -195,6 +201,8 @@ def _tune(data, path: Path, spec: TuneSpec, base, folder: Path, pool, progress: 
                       f"{format_value(_axis(spec), reference)}: "
                       f"{format_frequency(runs.points[0][1].modes[spec.mode - 1].frequency_hz, 9)}")
         lo, hi = spec.bracket
+        if spec.target_tau_f is not None:
+            return _compensate(data, path, spec, runs, folder, progress)
         q_lo, q_hi = runs.quantity(lo), runs.quantity(hi)
         if (q_lo - spec.target) * (q_hi - spec.target) > 0:
             raise InputError(f"the mode is at {_shown(spec, q_lo)} and {_shown(spec, q_hi)} "
@@ -227,6 +235,51 @@ def _evaluated(spec: TuneSpec, result, index: int) -> dict:
     if spec.quantity == "frequency":
         return {}
     return {spec.quantity: tuned_quantity(spec, result, index)}
+
+
+def _compensate(data, path: Path, spec: TuneSpec, runs: _Evaluations, folder: Path,
+                progress: Progress):
+    """The value that puts the mode's τf on target_tau_f: Brent's method on τf(value) -
+    target, each value solved with its temperature drift (femcav.temperature), the mode
+    followed as for a frequency; stopped within tau_f_tolerance."""
+    def tau_f(value: float) -> float:
+        f = runs.frequency(value)
+        mode = next(r.modes[j] for v, r, j in reversed(runs.points) if v == value)
+        progress.step(f"tune: τf {mode.temperature.tau_f_ppm_per_k:+.4g} ppm/K at "
+                      f"{format_frequency(f, 9)}")
+        return mode.temperature.tau_f_ppm_per_k * 1e-6
+
+    def miss(value: float) -> float:
+        error = tau_f(value) - spec.target_tau_f
+        if abs(error) <= spec.tau_f_tolerance:
+            raise _Close(value)
+        return error
+    lo, hi = spec.bracket
+    ends = [tau_f(lo), tau_f(hi)]
+    if (ends[0] - spec.target_tau_f) * (ends[1] - spec.target_tau_f) > 0:
+        raise InputError(f"the mode's τf is {ends[0] * 1e6:+.4g} and {ends[1] * 1e6:+.4g} "
+                         f"ppm/K at the two ends of the bracket: "
+                         f"{spec.target_tau_f * 1e6:+.4g} ppm/K is not between them; widen "
+                         "or move the bracket", field="tune.bracket")
+    before = len(runs.points)
+    try:
+        value = brentq(miss, lo, hi, xtol=1e-12 * max(abs(lo), abs(hi)), rtol=1e-15,
+                       maxiter=60)
+    except _Close as close:
+        value = close.value
+    tau = tau_f(value)
+    document = {"format": "femcav-tune", "format_version": 1, "case": str(path),
+                "parameter": spec.path, "unit": _axis(spec).unit,
+                "target_tau_f_ppm_per_k": spec.target_tau_f * 1e6, "mode": spec.mode,
+                "value": value, "bracket": list(spec.bracket),
+                "iterations": len(runs.points) - before, "tau_f_ppm_per_k": tau * 1e6,
+                "frequency_hz": runs.frequency(value), "error_estimate_hz": None,
+                "evaluations": [{"value": v, "frequency_hz": r.modes[j].frequency_hz,
+                                 "tau_f_ppm_per_k": r.modes[j].temperature.tau_f_ppm_per_k}
+                                for v, r, j in runs.points]}
+    with staged_output(folder, kind="tune") as files:
+        files.write_text("tune.json", strict_json.dumps(document, indent=1))
+    return document, folder
 
 
 class _Close(Exception):
@@ -287,6 +340,12 @@ def summary_lines(document: dict) -> list[str]:
     shown = (f"{document['value'] * 1e3:.7g} mm" if unit == "m"
              else f"{document['value']:.7g} {unit}".rstrip())
     bar = document["error_estimate_hz"]
+    if "target_tau_f_ppm_per_k" in document:      # compensation (femcav.temperature)
+        return [f"{document['parameter']} = {shown} puts mode {document['mode']}'s tau_f at "
+                f"{document['tau_f_ppm_per_k']:+.4g} ppm/K (target "
+                f"{document['target_tau_f_ppm_per_k']:+.4g} ppm/K; "
+                f"{format_frequency(document['frequency_hz'], 9)}; {document['iterations']} "
+                "root-finder steps)"]
     quantity = document.get("quantity", "frequency")
     if quantity != "frequency":
         what = "Q_ext" if quantity == "q_external" else "k"
