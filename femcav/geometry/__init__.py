@@ -4,14 +4,15 @@ from __future__ import annotations
 
 from ..errors import InputError
 from . import (box, coax, composite, dr_fixture, elliptical_cells, loaded_box, pillbox,
-               tuned_box, tuned_pillbox)
+               puck, sphere, tuned_box, tuned_pillbox)
 from .importer import read_mesh
 from .mesh import TaggedMesh
 from .parts import DEFAULT_SIZE_FRACTION, Layout, Sizing, mesh_layout, symmetry_wall_name
 
 BUILDERS = {"box": box, "pillbox": pillbox, "loaded_box": loaded_box, "coax": coax,
             "dr_fixture": dr_fixture, "tuned_box": tuned_box, "tuned_pillbox": tuned_pillbox,
-            "composite": composite, "elliptical_cells": elliptical_cells}
+            "composite": composite, "elliptical_cells": elliptical_cells,
+            "sphere": sphere, "puck": puck}
 
 def builder_layout(name: str, params: dict) -> Layout:
     return BUILDERS[name].layout(**params)
