@@ -141,6 +141,7 @@ def case_from_data(data: dict, path: Path) -> Case:
         geometry = _geometry(_table(data, "geometry", required=True), path.parent)
         region_tables = check_table(_table(data, "regions"), schema.REGIONS, "regions")
         regions = {name: _region(name, spec) for name, spec in region_tables.items()}
+        regions = _absorbing_regions(regions, region_tables, geometry, data.get("solve", {}))
         walls = {name: _wall(name, spec) for name, spec in
                  check_table(_table(data, "walls"), schema.WALLS, "walls").items()}
         solve = _solve(_table(data, "solve"))
@@ -425,6 +426,40 @@ def _region(name: str, spec: dict) -> Material:
         eps = read(spec, "eps_r", schema.REGION, where)
     mu = read(spec, "mu_r", schema.REGION, where)  # mesh_size is read by _mesh
     return Material(eps_r=eps, mu_r=mu, tan_delta=tan_delta)
+
+
+def _absorbing_regions(regions: dict[str, Material], tables: dict, geometry: GeometrySpec,
+                       solve_table: dict) -> dict[str, Material]:
+    """[regions.NAME] pml and pml_strength: those regions become perfectly matched layers
+    (fem.absorber). An open builder's shell (its ABSORBING regions) is one by default, with
+    or without a table of its own. Refused for bodies of revolution (not available yet)."""
+    from .fem.absorber import DEFAULT_STRENGTH, AbsorbingMaterial
+
+    shells = (getattr(BUILDERS[geometry.builder], "ABSORBING", {})
+              if geometry.builder is not None else {})
+    out = dict(regions)
+    for name in dict.fromkeys([*tables, *shells]):
+        table, where = tables.get(name, {}), f"regions.{name}"
+        shape = read(table, "pml", schema.REGION, where) or shells.get(name)
+        if shape is None:
+            if "pml_strength" in table:
+                raise InputError('pml_strength belongs to an absorbing region: add pml = '
+                                 '"spherical", "cylindrical" or "cartesian"',
+                                 field=f"{where}.pml_strength")
+            continue
+        if "azimuthal_orders" in solve_table:
+            raise InputError("absorbing regions (pml) are available for 3D solves only so "
+                             "far; drop azimuthal_orders to solve the open part in 3D",
+                             field=f"{where}.pml" if "pml" in table else "solve.azimuthal_orders")
+        medium = out.get(name, VACUUM)
+        strength = read(table, "pml_strength", schema.REGION, where) or DEFAULT_STRENGTH
+        try:
+            out[name] = AbsorbingMaterial(eps_r=medium.eps_r, mu_r=medium.mu_r,
+                                          tan_delta=medium.tan_delta, pml=shape,
+                                          pml_strength=strength)
+        except InputError as exc:
+            raise InputError(exc.message, field=f"{where}.{exc.field}") from None
+    return out
 
 
 def _complex_permittivity(value: complex, text: str, spec: dict, where: str

@@ -184,6 +184,8 @@ STUDY_POINTS = Range(2, MAX_STUDY_VALUES)
 TUNE_TOLERANCE = Range(1e-12, 0.1, high_open=True)
 EXTRACT_TOLERANCE = Range(1e-15, 1e-2, high_open=True)
 QUALITY_FACTOR = Range(1.0, 1e12)
+# the imaginary stretch at a layer's outer wall, in layer thicknesses (fem.absorber)
+PML_STRENGTH = Range(0.0, 100.0, low_open=True)
 # An expression (eps_r in x, y, z) is refused beyond these, before it is compiled.
 EXPRESSION_MAX_CHARS = 2000
 EXPRESSION_MAX_DEPTH = 100
@@ -240,8 +242,12 @@ REGION = Table({
     "mu_r": Key(NUMBER, range=MU_R, default=1.0),
     "tan_delta": Key(NUMBER, range=TAN_DELTA, default=0.0),
     "mesh_size": LENGTH,
+    # an absorbing region (perfectly matched layer; femcav.fem.absorber)
+    "pml": Key(STRING, choices="femcav.fem.absorber:SHAPES", fold_case=True),
+    "pml_strength": Key(NUMBER, range=PML_STRENGTH),
 })
-REGIONS = Table(each=Key(TABLE, doc="a region: eps_r, mu_r, tan_delta, mesh_size"))
+REGIONS = Table(each=Key(TABLE, doc="a region: eps_r, mu_r, tan_delta, mesh_size, pml, "
+                                    "pml_strength"))
 
 WALL = Table({
     "kind": Key(STRING, choices="femcav.walls:KINDS", fold_case=True),

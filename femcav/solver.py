@@ -24,7 +24,10 @@ from .fem.auxiliary import auxiliary_space
 from .fem.gradient import kernel_basis
 from .fem.space import EdgeSpace, build_space
 from .model import Model
+from .fem.absorber import has_absorber
+from .fem.open_target import open_problem_target
 from .post.checks import ModeChecks, check_modes
+from .post.radiation import LAYER_SHARE_LIMIT, split_layer_modes
 from .post.loss_validity import with_complex_warnings, with_loss_warnings
 from .post.losses import LossReport, has_losses, metal_faces, mode_losses
 from .post.resolution import Resolution, edge_space_energy, edge_space_scales, mode_resolution
@@ -67,6 +70,9 @@ class Mode:
     m: int | None = None
     field_class: str | None = None
     phase_advance_rad: float | None = None   # a chain of cells' passband (passband.py)
+    # open problems (absorbing regions; post.radiation)
+    q_radiation: float | None = None
+    absorber_energy_share: float | None = None
 
     @property
     def multiplicity(self) -> int:
@@ -132,6 +138,8 @@ class SolveResult(ModeVerdicts):
     accuracy: AccuracyReport | None = None     # with a [solve] accuracy target
     # the complex check's own solve (losses inside): its modes, with complex fields
     complex_check: "SolveResult | None" = None
+    # an open problem's modes that live in its absorbing layer (post.radiation)
+    layer_modes: list[Mode] = field(default_factory=list)
 
     @property
     def form(self) -> str:
@@ -182,6 +190,8 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     each real mode paired with its complex partner."""
     check_request(modes, near_hz)
     t0 = time.perf_counter()
+    if has_absorber(model):
+        near_hz = open_problem_target(model, near_hz, progress)
     space = build_space(model, form, order, losses_inside=losses_inside)
     if space.pencil_kind == GENERAL:
         raise InputError("the material tensors make the problem neither Hermitian (lossless, "
@@ -203,7 +213,19 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
         result.timings["complex_check_s"] = time.perf_counter() - t0
         progress.step(f"complex check done in {result.timings['complex_check_s']:.2f} s")
         result = replace(result, modes=paired, complex_check=lossy)
+    if has_absorber(model):
+        result = _without_layer_modes(result, losses_inside, progress)
     return result
+
+
+def _without_layer_modes(result: SolveResult, losses_inside: bool,
+                         progress: Progress) -> SolveResult:
+    kept, layer = split_layer_modes(result.space, result.modes, losses_inside=losses_inside)
+    if layer:
+        progress.warn(f"{len(layer)} of {len(result.modes)} modes live in the absorbing layer "
+                      f"(more than {LAYER_SHARE_LIMIT:.0%} of their energy there): left out of "
+                      "the table, kept in modes.json under layer_modes")
+    return replace(result, modes=kept, layer_modes=layer)
 
 
 def solve_space(space: EdgeSpace, *, modes: int, near_hz: float | None,
@@ -346,6 +368,8 @@ def merge_classes(labelled: list[tuple[str, SolveResult]], count: int,
     union are the lowest (or nearest) of the full model.
     """
     tagged = [replace(m, symmetry=label) for label, r in labelled for m in r.modes]
+    if near_hz is None:     # an open problem's classes looked near its default target
+        near_hz = labelled[0][1].near_hz
     tagged.sort(key=lambda m: m.frequency_hz)
     keep = select_modes(np.array([m.frequency_hz for m in tagged]), count, near_hz)
     modes = [replace(tagged[j], index=i + 1) for i, j in enumerate(keep)]
@@ -357,5 +381,6 @@ def merge_classes(labelled: list[tuple[str, SolveResult]], count: int,
         static_fields_dropped=sum(r.static_fields_dropped for r in results), timings=timings,
         eigen_stats={label: r.eigen_stats for label, r in labelled},
         request=results[0].request, near_hz=near_hz,
+        layer_modes=[m for r in results for m in r.layer_modes],
         classes=[{"symmetry": label, "dofs": r.dofs,
                   "modes": sum(m.symmetry == label for m in modes)} for label, r in labelled])

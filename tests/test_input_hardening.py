@@ -69,6 +69,9 @@ VARIANTS = {
         "residual_resistance": "10 nohm"}}}, []),
 }
 VARIANTS[("walls", "side", "residual_resistance")] = VARIANTS[("walls", "side", "temperature")]
+# pml_strength belongs to an absorbing region
+VARIANTS[("regions", "inside", "pml_strength")] = ({"regions": {"inside": {"pml": "spherical"}}},
+                                                   [])
 # [beam] and [symmetry] do not go together
 VARIANTS[("symmetry",)][1].append(("beam",))
 

@@ -46,11 +46,13 @@ from ..errors import InputError
 from ..materials import Material
 
 SHAPES = ("spherical", "cylindrical", "cartesian")
-# σ: the imaginary stretch reaches σ times the thickness at the outer wall. A quarter-
-# wavelength layer then damps the wave that crosses it and comes back by exp(-π σ), about
-# 1e-4 for σ = 3, while the field still varies slowly enough for a few order-2 elements
-# across the layer (the sphere tests measure this).
-DEFAULT_STRENGTH = 3.0
+# σ: the imaginary stretch reaches σ times the thickness at the outer wall. A layer a
+# twelfth of a wavelength thick (k d = 0.52) then damps the wave that crosses it and comes
+# back by exp(-2 σ k d) = 2e-3, and thicker ones far more, while the field still varies
+# slowly enough for two or three order-2 elements across the layer. Measured on the
+# dielectric sphere (eps_r 80, TE, 1/8 model, layer 20 mm at 1.66 GHz): Q_rad error -3.6 %
+# with σ = 3, -0.09 % with σ = 6.
+DEFAULT_STRENGTH = 6.0
 # the inner surface's nodes may stray this far (relative to its size) from the fitted shape
 FIT_TOLERANCE = 2e-2
 
@@ -245,6 +247,7 @@ def stretch_jacobian(layer: Layer, x: np.ndarray) -> np.ndarray:
 
 def _stretch(beyond: np.ndarray, depth: float, sigma: float) -> tuple[np.ndarray, np.ndarray]:
     """s = 1 - 3jσ(ξ/d)² and the imaginary offset q̃ - q = -jσ d (ξ/d)³ at depth ξ."""
+    beyond = np.asarray(beyond, dtype=float)
     xi = np.clip(beyond, 0.0, None) / depth if depth > 0 else np.zeros_like(beyond)
     return 1 - 3j * sigma * xi**2, -1j * sigma * depth * xi**3
 

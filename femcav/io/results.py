@@ -14,6 +14,9 @@ loss), ``wall_loss_share``, ``region_loss_share`` (name -> fraction of that loss
 no complex eigenvalue was paired with), or ``complex_frequency_hz`` and ``q_eigenvalue`` (the
 Q of every loss inside the solve) when the losses were inside the solve, and ``symmetry`` (the class label, e.g. "x:PMC y:PEC")
 when the model was cut by symmetry planes; then the top level has ``symmetry_classes``.
+A mode of an open problem (absorbing regions, post.radiation) also has ``q_radiation`` and
+``absorber_energy_share``, and the top level has ``layer_modes`` (the modes that live in the
+absorbing layer, with the same fields) when the solve found any.
 A mode of the axisymmetric solver also has ``azimuthal_order``, ``field_class`` (TE-like,
 TM-like, TEM-like, hybrid) and ``multiplicity`` (2 for m >= 1: the cos mφ and sin mφ pair); then the
 top level has ``axisymmetric`` (the orders solved and the DOFs of each). With [solve]
@@ -31,7 +34,7 @@ from __future__ import annotations
 import csv
 import io
 import math
-from dataclasses import asdict
+from dataclasses import asdict, replace
 
 from . import merit_columns, second_tables, strict_json
 from ..post import checks, resolution
@@ -85,6 +88,9 @@ def mode_rows(result: SolveResult) -> list[dict]:
                 row["q_eigenvalue"] = m.q_eigenvalue
             else:
                 row["q_dielectric_complex"] = m.q_dielectric_complex
+        if m.absorber_energy_share is not None:   # an open problem (post.radiation)
+            row["q_radiation"] = m.q_radiation
+            row["absorber_energy_share"] = m.absorber_energy_share
         row["loss_warnings"] = list(m.loss_warnings)
         row.update(field_figure_rows(m))
         row.update(merit_columns.json_fields(m))
@@ -145,6 +151,8 @@ def to_json(result: SolveResult, *, title: str, case: str | None,
                                     "element": "triangles of the meridional section"}
     if result.accuracy is not None:
         document["accuracy"] = asdict(result.accuracy)
+    if getattr(result, "layer_modes", None):
+        document["layer_modes"] = mode_rows(replace(result, modes=result.layer_modes))
     document.update(merit_columns.json_top_level(result))
     return strict_json.dumps(document, indent=2)
 
@@ -220,6 +228,7 @@ def to_table(result: SolveResult) -> str:
     width = max([len(m.symmetry or "") for m in result.modes] + [len("symmetry")])
     sym = _has_symmetry(result)
     lossy = any(m.losses for m in result.modes)
+    radiating = any(m.q_radiation is not None for m in result.modes)
     bars = any(m.error_estimate_hz is not None for m in result.modes)
     axisymmetric = _is_axisymmetric(result)
     label_width = max([len(m.label or "") for m in result.modes]
@@ -229,6 +238,7 @@ def to_table(result: SolveResult) -> str:
              + (f"{'symmetry':<{width}}  " if sym else "")
              + (f"{'m':>2}  {'class':<8}  " if axisymmetric else "")
              + (f"{'Q wall':>9}  {'Q diel.':>9}  {'Q total':>9}  " if lossy else "")
+             + (f"{'Q rad':>9}  " if radiating else "")
              + merit_columns.table_heading(result)
              + f"{'residual':>9}  {'divergence':>10}  {'orthogonality':>13}  check"]
     for m in result.modes:
@@ -249,6 +259,7 @@ def to_table(result: SolveResult) -> str:
                      + (f"{m.symmetry:<{width}}  " if sym else "")
                      + (f"{m.m:>2}  {m.field_class:<8}  " if axisymmetric else "")
                      + (_q_columns(m) if lossy else "")
+                     + (f"{_q(m.q_radiation):>9}  " if radiating else "")
                      + merit_columns.table_cells(result, m)
                      + f"{c.residual:9.1e}  {c.divergence:10.1e}  {c.orthogonality:13.1e}  "
                      f"{status}")
@@ -278,7 +289,11 @@ def monte_carlo_lines(result) -> list[str]:
 def _q_columns(mode) -> str:
     loss = mode.losses
     values = (loss.q_wall, loss.q_dielectric, loss.q_total) if loss else (None, None, None)
-    return "".join(f"{'-' if q is None else format(q, '.5g'):>9}  " for q in values)
+    return "".join(f"{_q(q):>9}  " for q in values)
+
+
+def _q(q: float | None) -> str:
+    return "-" if q is None else format(q, ".5g")
 
 
 def _bar(mode) -> str:

@@ -3,6 +3,9 @@
 Cell data (values at element centroids, 1 J stored energy per mode): ``region`` (region id),
 and per mode K (two digits): ``mK_E`` (V/m), ``mK_H`` (A/m, in quadrature with E),
 ``mK_we`` and ``mK_wm`` (time-averaged electric and magnetic energy density, J/m³).
+A complex mode (losses inside the solve, an open problem) is shown at the instant its
+strongest cell value is real; ``absorber`` (1 in absorbing regions) marks an open problem's
+layer.
 The metal walls go into a second file with the loss per area of every mode.
 """
 
@@ -11,6 +14,9 @@ from __future__ import annotations
 import math
 from pathlib import Path
 
+import numpy as np
+
+from ..fem.absorber import absorbing_regions
 from ..post.fields import centroid_basis, centroid_materials, mode_fields
 from ..solver import SolveResult
 
@@ -27,12 +33,27 @@ def write_vtu(result: SolveResult, path: Path) -> None:
         fields = mode_fields(space, mode.dofs, 2 * math.pi * mode.frequency_hz, materials,
                              basis)
         tag = f"m{mode.index:02d}"
-        data[f"{tag}_E"] = [fields.E]
-        data[f"{tag}_H"] = [fields.H]
+        turn = _phase_turn(fields.E)
+        data[f"{tag}_E"] = [np.real(turn * fields.E)]
+        data[f"{tag}_H"] = [np.real(turn * fields.H)]
         data[f"{tag}_we"] = [fields.w_e]
         data[f"{tag}_wm"] = [fields.w_m]
+    absorbing = [tm.region_names[name] for name in absorbing_regions(space.model)]
+    if absorbing:
+        data["absorber"] = [np.isin(tm.tet_region, absorbing).astype("int32")]
     meshio.write(str(path), meshio.Mesh(tm.points, [("tetra", tm.tets)], cell_data=data),
                  file_format="vtu")
+
+
+def _phase_turn(field):
+    """The unit factor that makes a complex mode's strongest cell value real (the field of
+    a lossy or open problem's mode at the instant of its largest value there); 1 for a real
+    field."""
+    if not np.iscomplexobj(field):
+        return 1.0
+    strongest = field.reshape(field.shape[0], -1)[np.argmax(np.sum(np.abs(field) ** 2, axis=1))]
+    peak = strongest[np.argmax(np.abs(strongest))]
+    return np.conj(peak) / abs(peak) if abs(peak) > 0 else 1.0
 
 
 def write_wall_loss_vtu(result: SolveResult, path: Path) -> None:

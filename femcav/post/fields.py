@@ -63,6 +63,6 @@ def mode_fields(space: EdgeSpace, dofs: np.ndarray, omega: float,
     else:
         H = value * np.sqrt(2.0 / mu_0)
         E = curl * np.sqrt(2.0 / mu_0) / (omega * epsilon_0 * eps[:, None])
-    w_e = 0.25 * epsilon_0 * eps * np.einsum("ij,ij->i", E, E)
-    w_m = 0.25 * mu_0 * mu * np.einsum("ij,ij->i", H, H)
+    w_e = 0.25 * epsilon_0 * eps * np.sum(np.abs(E) ** 2, axis=1)   # |E|²: complex modes too
+    w_m = 0.25 * mu_0 * mu * np.sum(np.abs(H) ** 2, axis=1)
     return CentroidFields(E=E, H=H, w_e=w_e, w_m=w_m)

@@ -1,0 +1,218 @@
+"""Open resonators: absorbing regions (perfectly matched layers, fem.absorber), the radiation
+Q and the layer's own modes (post.radiation), the sphere and puck builders, the case keys.
+
+Reference: the dielectric sphere in free space. Its modes are the complex roots of the
+characteristic equations of the spherical-wave expansion (Stratton, Electromagnetic Theory,
+1941, §9.22-9.25; Gastine, Courtois and Dormann, IEEE T-MTT 15(12), 1967). With time
+dependence e^{jωt} the field outside is an outgoing spherical Hankel function h_n^(2)(k0 r)
+(≈ e^{-jk0 r}/(k0 r)), inside a regular j_n(k1 r), k1 = sqrt(eps_r) k0, mu_r = 1. Write
+ψ(z) = [z f(z)]' / f(z) for the Riccati ratio of f = j_n or h_n^(2). For a TE mode
+(E = f(r) X_nm, tangential) E_t ∝ f and H_t ∝ (1/μ)(1/r) d(r f)/dr must be continuous at
+r = a, so
+
+    TE:  ψ_j(k1 a) = ψ_h(k0 a),
+
+and for a TM mode (H = g(r) X_nm) H_t ∝ g and E_t ∝ (1/ε)(1/r) d(r g)/dr give
+
+    TM:  ψ_j(k1 a) / eps_r = ψ_h(k0 a).
+
+n = 1 is the magnetic-dipole (TE) and electric-dipole (TM) mode. The roots x = k0 a are
+complex with Im x > 0 (a decaying mode for e^{jωt}); f = c x / (2π a) and Q = Re f / (2 Im f)
+(Pozar, Microwave Engineering, 4th ed., §6.1, Q from the complex frequency). They are found
+here with scipy.special's complex spherical Bessel functions and scipy.optimize.root on the
+real and imaginary parts, started from the closed-sphere guess k1 a = π (TE) or 4.49 (TM,
+the first zero of [z j_1(z)]'), and checked by their residual.
+
+The 1/8 models keep one dipole: a magnetic dipole along z has E = E_φ, tangential to z = 0
+(PMC there) and normal to x = 0 and y = 0 (PEC); the electric dipole the other way round.
+"""
+
+import math
+
+import numpy as np
+import pytest
+from scipy.constants import c as C0
+from scipy.optimize import root
+from scipy.special import spherical_jn, spherical_yn
+
+from femcav.case import case_from_data
+from femcav.eigen.factorization import get_factorizer
+from femcav.errors import InputError
+from femcav.fem.absorber import (AbsorbingMaterial, Layer, find_layers, stretch_jacobian,
+                                 stretched)
+from femcav.fem.assembly import assemble
+from femcav.fem.gradient import kernel_basis
+from femcav.fem.space import build_space
+from femcav.geometry import build_part
+from femcav.geometry.parts import Sizing
+from femcav.materials import VACUUM, Material
+from femcav.model import make_model
+from femcav.post.radiation import LAYER_SHARE_LIMIT
+from femcav.solver import complex_eigenvalues, solve_model
+from femcav.walls import Wall
+
+RADIUS = 0.01
+DIPOLE_WALLS = {"TE": ("pec", "pec", "pmc"), "TM": ("pmc", "pmc", "pec")}
+
+
+def _riccati_ratio(z, outgoing: bool):
+    f, df = spherical_jn(1, z), spherical_jn(1, z, derivative=True)
+    if outgoing:   # h^(2) = j - i y
+        f, df = f - 1j * spherical_yn(1, z), df - 1j * spherical_yn(1, z, derivative=True)
+    return (f + z * df) / f
+
+
+def exact_sphere_mode(eps_r: float, kind: str) -> complex:
+    """The complex frequency (Hz) of the n = 1 TE or TM mode of a sphere of RADIUS."""
+    def mismatch(x0):
+        inner = _riccati_ratio(math.sqrt(eps_r) * x0, False)
+        return (inner / eps_r if kind == "TM" else inner) - _riccati_ratio(x0, True)
+
+    guess = (math.pi if kind == "TE" else 4.49) / math.sqrt(eps_r)
+    found = root(lambda v: [mismatch(v[0] + 1j * v[1]).real, mismatch(v[0] + 1j * v[1]).imag],
+                 [guess, 0.01 * guess], tol=1e-13)
+    x0 = found.x[0] + 1j * found.x[1]
+    assert abs(mismatch(x0)) < 1e-9 and x0.imag > 0
+    return C0 * x0 / (2 * math.pi * RADIUS)
+
+
+def sphere_model(eps_r: float, kind: str, inside: float, outside: float, *,
+                 absorber: Material | None = None, **open_sizes):
+    mesh = build_part("sphere", radius=RADIUS, symmetry=("x", "y", "z"),
+                      sizing=Sizing(size=outside, region_sizes={"sphere": inside}, curved=True),
+                      **open_sizes)
+    walls = {f"symmetry_{axis}": Wall(kind=k) for axis, k in zip("xyz", DIPOLE_WALLS[kind])}
+    layer = absorber if absorber is not None else AbsorbingMaterial(pml="spherical")
+    return make_model(mesh, {"sphere": Material(eps_r=eps_r), "air": VACUUM,
+                             "absorber": layer}, walls)
+
+
+def nearest(result, f_exact):
+    return min(result.modes, key=lambda m: abs(m.complex_frequency_hz - f_exact))
+
+
+# eps_r, kind, element size in the sphere and outside (m). Order 2 on curved tetrahedra with
+# the builder's default clearance and layer (20 mm each) and the default strength; measured
+# (df, dQ): 36 TE (+6e-4, +0.4 %), 36 TM (+2.7e-4, -1.1 %), 80 TE (+2.9e-4, -0.1 %).
+SPHERES = [(36.0, "TE", 0.003, 0.008), (36.0, "TM", 0.003, 0.006), (80.0, "TE", 0.002, 0.006)]
+
+
+@pytest.mark.parametrize("eps_r, kind, inside, outside", SPHERES)
+def test_dielectric_sphere_against_the_exact_complex_resonance(eps_r, kind, inside, outside):
+    exact = exact_sphere_mode(eps_r, kind)
+    q_exact = exact.real / (2 * exact.imag)
+    result = solve_model(sphere_model(eps_r, kind, inside, outside), modes=3,
+                         near_hz=exact.real, order=2)
+    assert result.eigen_stats["method"] == "arnoldi"
+    mode = nearest(result, exact)
+    assert abs(mode.frequency_hz / exact.real - 1) < 2e-3          # issue 19 asks 1e-2
+    assert abs(mode.q_radiation / q_exact - 1) < 0.03              # issue 19 asks 5 %
+    assert mode.q_radiation == mode.q_eigenvalue                   # the layer is the only loss
+    assert mode.absorber_energy_share < 0.05 and mode.checks.passed
+
+
+def test_layer_modes_leave_the_table_and_the_default_target_is_printed(capsys):
+    from femcav.progress import Progress
+
+    exact = exact_sphere_mode(36.0, "TE")
+    result = solve_model(sphere_model(36.0, "TE", 0.003, 0.008), modes=4, order=2,
+                         progress=Progress())
+    err = capsys.readouterr().err
+    assert "open problem without [solve] near: looking near" in err
+    assert "spherical layer" in err and "inner radius 30 mm" in err   # 10 + 20 mm clearance
+    # c / (n D): half a wavelength across the 20 mm sphere at eps_r 36, within 3 % of the
+    # exact mode (k1 a = 3.07 against π)
+    assert abs(result.near_hz / exact.real - 1) < 0.03
+    assert result.layer_modes, "the default target has layer modes nearby (measured: 3)"
+    assert f"{len(result.layer_modes)} of {len(result.modes) + len(result.layer_modes)}" in err
+    assert all(m.absorber_energy_share > LAYER_SHARE_LIMIT for m in result.layer_modes)
+    assert all(m.absorber_energy_share <= LAYER_SHARE_LIMIT for m in result.modes)
+    assert [m.index for m in result.modes] == list(range(1, len(result.modes) + 1))
+    assert abs(nearest(result, exact).frequency_hz / exact.real - 1) < 2e-3
+
+
+def test_a_closed_part_through_the_complex_solver_has_real_frequencies():
+    # the sphere in a PEC ball (the shell plain air): a closed, lossless cavity, whose
+    # pencil handed to the complex-symmetric solver must give the Hermitian solver's modes
+    # with vanishing imaginary parts (Q beyond 1e8)
+    model = sphere_model(36.0, "TE", 0.003, 0.008, absorber=VACUUM)
+    real = solve_model(model, modes=3, near_hz=2.4e9, order=2)
+    assert all(m.complex_frequency_hz is None for m in real.modes)
+    space = build_space(model, "E", 2)
+    K, M = (A.astype(complex) for A in assemble(space))    # as a lossy or open pencil is
+    values = complex_eigenvalues(K, M, kernel_basis(space), get_factorizer("auto"),
+                                 shift=(2 * math.pi * 2.4e9 / C0) ** 2, count=3)
+    f = C0 * np.sqrt(values.astype(complex)) / (2 * math.pi)
+    for mode in real.modes:
+        partner = f[np.argmin(np.abs(f.real - mode.frequency_hz))]
+        assert partner.real == pytest.approx(mode.frequency_hz, rel=1e-9)
+        assert abs(partner.imag) < 1e-8 * partner.real / 2       # Q = Re f / (2 |Im f|) > 1e8
+
+
+def test_stretch_tensors_match_their_closed_forms():
+    # spherical: Λ = det(J) J⁻¹J⁻ᵀ = (r̃²/(r² s)) r̂r̂ᵀ + s (I - r̂r̂ᵀ) for J = s r̂r̂ᵀ +
+    # (r̃/r)(I - r̂r̂ᵀ) (derived in fem.absorber; Teixeira and Chew 1997)
+    layer = Layer("shell", "spherical", 2.0, np.zeros(3), np.zeros(3), np.array([1.0, 0, 0]),
+                  np.zeros(3), np.array([0.5, 0, 0]))
+    point = np.array([0.6, 0.8, 0.9])            # r = 1.375: 0.375 into the layer
+    r, xi = np.linalg.norm(point), (np.linalg.norm(point) - 1.0) / 0.5
+    s, r_tilde = 1 - 3j * 2.0 * xi**2, r - 1j * 2.0 * 0.5 * xi**3
+    unit = point / r
+    radial = np.outer(unit, unit)
+    expected = r_tilde**2 / (r**2 * s) * radial + s * (np.eye(3) - radial)
+    at = lambda layer, p: stretch_jacobian(layer, np.reshape(p, (3, 1)))[0]   # one point
+    found = stretched(np.array(1.0), at(layer, point))
+    assert np.allclose(found, expected, rtol=1e-12)
+    assert np.allclose(found, found.T)                          # complex symmetric
+    # inside the inner surface the stretch is the identity
+    assert np.allclose(at(layer, [0.3, 0.2, 0.1]), np.eye(3))
+    # cartesian, one axis stretched: diag(1/s, s, s) (any PML text, common practice)
+    box = Layer("slab", "cartesian", 2.0, np.zeros(3), -np.ones(3), np.ones(3), np.zeros(3),
+                np.array([0.5, 0, 0]))
+    s = 1 - 3j * 2.0 * 0.5**2
+    assert np.allclose(stretched(np.array(1.0), at(box, [1.25, 0, 0])),
+                       np.diag([1 / s, s, s]))
+
+
+def test_the_layer_is_found_from_the_mesh():
+    mesh = build_part("puck", radius=0.004, height=0.003, hole_radius=0.001,
+                      sizing=Sizing(size=0.004))
+    model = make_model(mesh, {"puck": Material(eps_r=30.0), "air": VACUUM,
+                              "absorber": AbsorbingMaterial(pml="spherical")}, {})
+    (layer,) = find_layers(model)
+    # the puck's defaults: clearance and thickness its largest dimension (8 mm) beyond the
+    # ball of radius hypot(4, 1.5) mm around it; the mesh is faceted, hence the tolerance
+    inner = math.hypot(0.004, 0.0015) + 0.008
+    assert layer.inner_high[0] == pytest.approx(inner, rel=0.02)
+    assert layer.depth_high[0] == pytest.approx(0.008, rel=0.05)
+    assert np.linalg.norm(layer.centre) < 1e-3 * inner
+
+
+def _case(tmp_path, regions: dict, solve: dict | None = None) -> dict:
+    data = {"title": "Larkspur Microwave Works: open puck (made-up scenario)",
+            "geometry": {"builder": "puck", "radius": "4 mm", "height": "3 mm"},
+            "regions": {"puck": {"eps_r": 30}, **regions}}
+    if solve:
+        data["solve"] = solve
+    return data
+
+
+def test_case_keys_make_absorbing_regions(tmp_path):
+    path = tmp_path / "open.toml"
+    case = case_from_data(_case(tmp_path, {}), path)
+    shell = case.regions["absorber"]           # the open builder's shell, by default
+    assert isinstance(shell, AbsorbingMaterial) and shell.pml == "spherical"
+    case = case_from_data(_case(tmp_path, {"absorber": {"pml": "Cartesian",
+                                                        "pml_strength": 4}}), path)
+    assert (case.regions["absorber"].pml, case.regions["absorber"].pml_strength) == \
+        ("cartesian", 4)
+    for regions, solve, where in [
+            ({"absorber": {"pml": "conical"}}, None, "regions.absorber.pml"),
+            ({"air": {"pml_strength": 2}}, None, "regions.air.pml_strength"),
+            ({"absorber": {"pml_strength": -1}}, None, "regions.absorber.pml_strength"),
+            ({"absorber": {"pml": "spherical", "eps_r": "1 + x"}}, None,
+             "regions.absorber.eps_r"),
+            ({}, {"azimuthal_orders": [0]}, "solve.azimuthal_orders")]:
+        with pytest.raises(InputError) as error:
+            case_from_data(_case(tmp_path, regions, solve), path)
+        assert error.value.field == where, (regions, str(error.value))
