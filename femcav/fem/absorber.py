@@ -111,7 +111,9 @@ class Layer:
 
     def describe(self, medium: Material, frequency_hz: float | None = None) -> str:
         mm = lambda v: f"{1e3 * v:.4g} mm"
-        centre = ", ".join(f"{1e3 * v:.4g}" for v in self.centre)
+        scale = float(np.max(np.abs([*self.inner_high, *self.depth_high])))
+        centre = ", ".join(f"{1e3 * v:.4g}" if abs(v) > 1e-9 * scale else "0"
+                           for v in self.centre)
         if self.shape == "spherical":
             where = (f"centre ({centre}) mm, inner radius {mm(self.inner_high[0])}, "
                      f"thickness {mm(self.depth_high[0])}")
