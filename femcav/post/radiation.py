@@ -10,6 +10,9 @@ part is taken off with its perturbation estimate from the mode's own (complex) f
 1/Q_rad = 1/Q - 1/Q_d (infinite when that difference is not positive: the radiation is below
 what the split resolves).
 
+Q total. A mode that also has wall or dielectric Q (perturbation estimates, post.losses)
+gets radiation in its total: 1/Q_total = 1/Q_wall + 1/Q_d + 1/Q_rad.
+
 Layer modes. A discretised layer has modes of its own: fields that live in the layer (or in
 the air it closes) and depend on its strength and thickness, not on the part. A mode whose
 share of stored energy inside the absorbing regions exceeds LAYER_SHARE_LIMIT is one of them:
@@ -65,13 +68,21 @@ def radiation_q(mode, losses_inside: bool) -> float | None:
     return 1.0 / rest if rest > 0 else math.inf
 
 
+def _with_radiation(losses, q_rad: float | None):
+    """The loss report with radiation in its total: 1/Q = 1/Q_wall + 1/Q_d + 1/Q_rad."""
+    if losses is None or losses.q_total is None or not q_rad:
+        return losses
+    return replace(losses, q_total=1.0 / (1.0 / losses.q_total + 1.0 / q_rad))
+
+
 def split_layer_modes(space, modes: list, *, losses_inside: bool) -> tuple[list, list]:
     """(the part's modes, the layer's modes), each given ``absorber_energy_share`` and
     ``q_radiation``; the part's modes renumbered from 1."""
     kept, layer = [], []
     for mode in modes:
         share = absorber_energy_share(space, space.full_vectors(mode.dofs))
-        mode = replace(mode, absorber_energy_share=share,
-                       q_radiation=radiation_q(mode, losses_inside))
+        q_rad = radiation_q(mode, losses_inside)
+        mode = replace(mode, absorber_energy_share=share, q_radiation=q_rad,
+                       losses=_with_radiation(mode.losses, q_rad))
         (layer if share > LAYER_SHARE_LIMIT else kept).append(mode)
     return ([replace(m, index=i + 1) for i, m in enumerate(kept)], layer)
