@@ -201,6 +201,7 @@ TOP = Table({
     "tune": Key(TABLE), "extract": Key(TABLE), "tolerances": Key(TABLE),
     "probes": Key(TABLE), "filling": Key(TABLE),
     "tune": Key(TABLE), "extract": Key(TABLE), "tolerances": Key(TABLE), "beam": Key(TABLE),
+    "open": Key(TABLE),
 })
 
 GEOMETRY_MESH = Table({
@@ -245,6 +246,13 @@ REGION = Table({
     # an absorbing region (perfectly matched layer; femcav.fem.absorber)
     "pml": Key(STRING, choices="femcav.fem.absorber:SHAPES", fold_case=True),
     "pml_strength": Key(NUMBER, range=PML_STRENGTH),
+})
+# [open]: the air and absorbing shell around an open builder's part (geometry.open_space)
+OPEN = Table({
+    "shape": Key(STRING, choices=("sphere", "cylinder", "box"), fold_case=True,
+                 default="sphere"),
+    "clearance": LENGTH,
+    "thickness": LENGTH,
 })
 REGIONS = Table(each=Key(TABLE, doc="a region: eps_r, mu_r, tan_delta, mesh_size, pml, "
                                     "pml_strength"))

@@ -226,29 +226,11 @@ def puck_te01_estimate() -> float:
 
 def puck_model(shape: str, inside=0.002, outside=0.005):
     """The puck, 1/8 model with the TE01δ walls (a magnetic dipole along z), wrapped in air
-    10 mm beyond its faces and a 10 mm layer of ``shape``."""
-    from femcav.geometry.parts import Layout, mesh_layout
-    from femcav.geometry.solids import Box, Cylinder
-
-    a, h, gap, depth = PUCK["radius"], PUCK["height"], 0.01, 0.01
-    sizing = Sizing(size=outside, region_sizes={"puck": inside}, curved=True)
-    cut = {"x": 0.0, "y": 0.0, "z": 0.0}
-    puck = ("puck", Cylinder((0, 0, -h / 2), (0, 0, h), a))
-    r, z = a + gap, h / 2 + gap
-    if shape == "spherical":
-        mesh = build_part("puck", clearance=gap, absorber_thickness=depth, sizing=sizing,
-                          symmetry=tuple(cut), **PUCK)
-    elif shape == "cylindrical":
-        mesh = mesh_layout(Layout(
-            space=[Cylinder((0, 0, -z - depth), (0, 0, 2 * (z + depth)), r + depth)],
-            background="absorber", fills=[("air", Cylinder((0, 0, -z), (0, 0, 2 * z), r)),
-                                          puck]), sizing, cut)
-    else:
-        outer = np.array([r, r, z]) + depth
-        mesh = mesh_layout(Layout(space=[Box(tuple(-outer), tuple(2 * outer))],
-                                  background="absorber",
-                                  fills=[("air", Box((-r, -r, -z), (2 * r, 2 * r, 2 * z))),
-                                         puck]), sizing, cut)
+    10 mm beyond its faces and a 10 mm layer of ``shape`` (the builder's shell)."""
+    shell = {"spherical": "sphere", "cylindrical": "cylinder", "cartesian": "box"}[shape]
+    mesh = build_part("puck", clearance=0.01, absorber_thickness=0.01, shell=shell,
+                      sizing=Sizing(size=outside, region_sizes={"puck": inside}, curved=True),
+                      symmetry=("x", "y", "z"), **PUCK)
     walls = {f"symmetry_{axis}": Wall(kind=k) for axis, k in zip("xyz", DIPOLE_WALLS["TE"])}
     return make_model(mesh, {"puck": Material(eps_r=PUCK_EPS), "air": VACUUM,
                              "absorber": AbsorbingMaterial(pml=shape)}, walls)
@@ -329,10 +311,21 @@ def test_case_keys_make_absorbing_regions(tmp_path):
     case = case_from_data(_case(tmp_path, {}), path)
     shell = case.regions["absorber"]           # the open builder's shell, by default
     assert isinstance(shell, AbsorbingMaterial) and shell.pml == "spherical"
-    case = case_from_data(_case(tmp_path, {"absorber": {"pml": "Cartesian",
-                                                        "pml_strength": 4}}), path)
+    # without [solve] near: c / (n D) for the 8 mm puck at eps_r 30, a quarter and a sixth
+    # of that free-space wavelength
+    wavelength = math.sqrt(30.0) * 0.008
+    assert case.geometry.parameters["clearance"] == pytest.approx(wavelength / 4)
+    assert case.geometry.parameters["absorber_thickness"] == pytest.approx(wavelength / 6)
+    assert case.mesh.region_sizes["absorber"] == pytest.approx(wavelength / 18)   # 3 across
+    data = _case(tmp_path, {"absorber": {"pml_strength": 4}}, {"near": "6 GHz"})
+    data["open"] = {"shape": "Cylinder", "clearance": "12 mm"}
+    case = case_from_data(data, path)
     assert (case.regions["absorber"].pml, case.regions["absorber"].pml_strength) == \
-        ("cartesian", 4)
+        ("cylindrical", 4)
+    assert case.geometry.parameters["clearance"] == pytest.approx(0.012)
+    assert case.geometry.parameters["absorber_thickness"] == pytest.approx(C0 / 6e9 / 6)
+    case = case_from_data(_case(tmp_path, {"absorber": {"pml": "Cartesian"}}), path)
+    assert case.regions["absorber"].pml == "cartesian"
     for regions, solve, where in [
             ({"absorber": {"pml": "conical"}}, None, "regions.absorber.pml"),
             ({"air": {"pml_strength": 2}}, None, "regions.air.pml_strength"),
@@ -343,3 +336,11 @@ def test_case_keys_make_absorbing_regions(tmp_path):
         with pytest.raises(InputError) as error:
             case_from_data(_case(tmp_path, regions, solve), path)
         assert error.value.field == where, (regions, str(error.value))
+    closed = {"geometry": {"builder": "pillbox", "radius": "10 mm", "length": "10 mm"},
+              "open": {"clearance": "5 mm"}}
+    with pytest.raises(InputError, match="open builder") as error:
+        case_from_data(closed, path)
+    assert error.value.field == "open"
+    with pytest.raises(InputError) as error:
+        case_from_data({**_case(tmp_path, {}), "open": {"shape": "cone"}}, path)
+    assert error.value.field == "open.shape"
