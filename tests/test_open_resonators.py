@@ -344,3 +344,15 @@ def test_case_keys_make_absorbing_regions(tmp_path):
     with pytest.raises(InputError) as error:
         case_from_data({**_case(tmp_path, {}), "open": {"shape": "cone"}}, path)
     assert error.value.field == "open.shape"
+
+
+def test_a_body_of_revolution_refuses_absorbing_regions():
+    from femcav.axisymmetric.model import make_axisymmetric_model
+    from femcav.geometry import builder_layout
+    from femcav.geometry.section import mesh_section
+
+    section = mesh_section(builder_layout("pillbox", {"radius": 0.01, "length": 0.01}),
+                           Sizing(size=0.004))
+    with pytest.raises(InputError, match="3D solves only") as error:
+        make_axisymmetric_model(section, {"inside": AbsorbingMaterial(pml="cylindrical")}, {})
+    assert error.value.field == "regions.inside.pml"
