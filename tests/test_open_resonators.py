@@ -332,7 +332,8 @@ def test_case_keys_make_absorbing_regions(tmp_path):
             ({"absorber": {"pml_strength": -1}}, None, "regions.absorber.pml_strength"),
             ({"absorber": {"pml": "spherical", "eps_r": "1 + x"}}, None,
              "regions.absorber.eps_r"),
-            ({}, {"azimuthal_orders": [0]}, "solve.azimuthal_orders")]:
+            ({}, {"azimuthal_orders": [0]}, "solve.azimuthal_orders"),
+            ({}, {"error_estimate": True}, "solve.error_estimate")]:
         with pytest.raises(InputError) as error:
             case_from_data(_case(tmp_path, regions, solve), path)
         assert error.value.field == where, (regions, str(error.value))
