@@ -459,7 +459,7 @@ def _absorbing_regions(regions: dict[str, Material], tables: dict, geometry: Geo
         bars = next((k for k in ("error_estimate", "accuracy") if solve_table.get(k)), None)
         if bars:
             # measured on the sphere: the mesh sequence re-meshes the layer too, and the bar
-            # came out 70 times the error (the modes' fields are complex, which the matching
+            # came out over 100 times the error (the modes' fields are complex, which the matching
             # of modes between meshes does not weigh yet)
             raise InputError("error bars are not available for open problems (absorbing "
                              "regions) yet; compare solves on two meshes yourself",

@@ -357,3 +357,26 @@ def test_a_body_of_revolution_refuses_absorbing_regions():
     with pytest.raises(InputError, match="3D solves only") as error:
         make_axisymmetric_model(section, {"inside": AbsorbingMaterial(pml="cylindrical")}, {})
     assert error.value.field == "regions.inside.pml"
+
+
+def test_open_results_in_the_table_json_and_csv():
+    import json
+
+    from femcav.io.results import to_csv, to_json, to_table
+
+    exact = exact_sphere_mode(36.0, "TE")
+    result = solve_model(sphere_model(36.0, "TE", 0.004, 0.01), modes=4, order=2,
+                         near_hz=exact.real * 1.02)
+    assert result.layer_modes                      # measured: 3 of 4 near this target
+    heading = to_table(result).splitlines()[0]
+    assert "Q rad" in heading
+    document = json.loads(to_json(result, title="open", case=None))
+    (mode,) = document["modes"]
+    f = complex(*mode["complex_frequency_hz"])
+    assert mode["q_radiation"] == pytest.approx(f.real / (2 * f.imag))
+    assert 0 < mode["absorber_energy_share"] < LAYER_SHARE_LIMIT
+    assert len(document["layer_modes"]) == len(result.layer_modes)
+    assert all(m["absorber_energy_share"] > LAYER_SHARE_LIMIT for m in document["layer_modes"])
+    header, row = to_csv(result).splitlines()[:2]
+    values = dict(zip(header.split(","), row.split(",")))
+    assert float(values["q_radiation"]) == pytest.approx(mode["q_radiation"])

@@ -194,7 +194,10 @@ def to_csv(result: SolveResult) -> str:
     columns = CSV_COLUMNS + (("symmetry",) if _has_symmetry(result) else ()) + (
         ("azimuthal_order", "field_class") if _is_axisymmetric(result) else ()) + (
         ("q_dielectric_complex",) if any(m.q_dielectric_complex for m in result.modes) else ()
-    ) + (("label",) if _has_labels(result) else ()) + merit_columns.csv_columns(result)
+    ) + (("label",) if _has_labels(result) else ()) + (
+        ("q_radiation", "absorber_energy_share")
+        if any(m.absorber_energy_share is not None for m in result.modes) else ()
+    ) + merit_columns.csv_columns(result)
     writer = csv.DictWriter(out, fieldnames=columns, extrasaction="ignore", lineterminator="\n")
     writer.writeheader()
     for row in mode_rows(result):
