@@ -359,8 +359,12 @@ def test_a_body_of_revolution_refuses_absorbing_regions():
     assert error.value.field == "regions.inside.pml"
 
 
-def test_open_results_in_the_table_json_and_csv():
+def test_open_results_in_the_table_json_csv_and_fields(tmp_path):
     import json
+
+    import meshio
+
+    from femcav.io.vtk import write_vtu
 
     from femcav.io.results import to_csv, to_json, to_table
 
@@ -380,3 +384,11 @@ def test_open_results_in_the_table_json_and_csv():
     header, row = to_csv(result).splitlines()[:2]
     values = dict(zip(header.split(","), row.split(",")))
     assert float(values["q_radiation"]) == pytest.approx(mode["q_radiation"])
+    # fields.vtu: the complex mode at the instant its strongest cell value is real, the
+    # energy densities from |E|² (positive), the layer marked
+    write_vtu(result, tmp_path / "fields.vtu")
+    cells = meshio.read(tmp_path / "fields.vtu").cell_data
+    layer = result.space.model.mesh.tet_region == result.space.model.mesh.region_names[
+        "absorber"]
+    assert np.array_equal(cells["absorber"][0], layer.astype(int))
+    assert not np.iscomplexobj(cells["m01_E"][0]) and np.all(cells["m01_we"][0] >= 0)
