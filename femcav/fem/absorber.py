@@ -179,11 +179,14 @@ def _interface_nodes(tm, inside: np.ndarray) -> np.ndarray:
     """Nodes of the faces shared by a tetrahedron of the region and one outside it (curved
     meshes: the corners; enough for the fit)."""
     local = np.array([[0, 1, 2], [0, 1, 3], [0, 2, 3], [1, 2, 3]])
-    faces = lambda tets: np.sort(tets[:, local].reshape(-1, 3), axis=1)
-    own = faces(tm.tets[inside])
-    other = {tuple(f) for f in faces(tm.tets[~inside]).tolist()}
-    shared = np.array([f for f in own.tolist() if tuple(f) in other], dtype=np.int64)
-    return np.unique(shared) if shared.size else np.zeros(0, dtype=np.int64)
+    faces = np.sort(tm.tets[:, local].reshape(-1, 3), axis=1)
+    _, which = np.unique(faces, axis=0, return_inverse=True)
+    which = which.reshape(-1)
+    owner_inside = np.repeat(inside, 4)
+    n_unique = int(which.max()) + 1
+    shared = ((np.bincount(which[owner_inside], minlength=n_unique) == 1)
+              & (np.bincount(which[~owner_inside], minlength=n_unique) == 1))
+    return np.unique(faces[shared[which] & owner_inside])
 
 
 def _fit_sphere(p: np.ndarray, region: str) -> tuple[np.ndarray, float]:
