@@ -78,6 +78,7 @@ class SolveSpec:
     # of the 3D part (femcav.axisymmetric); None for a 3D solve
     azimuthal_orders: tuple[int, ...] | None = None
     sensitivities: bool = False        # df/dε_r and df/dμ_r of every region, per mode
+    layer_check: bool = False          # open problems: a second solve, stronger layers
 
 
 @dataclass(frozen=True)
@@ -632,7 +633,8 @@ def _solve(spec: dict) -> SolveSpec:
                      error_estimate=v["error_estimate"] or accuracy is not None,
                      accuracy=accuracy, max_dofs=v["max_dofs"],
                      factorization=v["factorization"], method=v["method"],
-                     azimuthal_orders=orders, sensitivities=v["sensitivities"])
+                     azimuthal_orders=orders, sensitivities=v["sensitivities"],
+                     layer_check=v["layer_check"])
 
 
 def _azimuthal_orders(value) -> tuple[int, ...]:

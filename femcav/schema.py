@@ -289,6 +289,8 @@ SOLVE = Table({
     "method": Key(STRING, choices="femcav.eigen.selection:METHODS", default="auto"),
     "azimuthal_orders": Key(either(WHOLE, list_of(WHOLE)), range=AZIMUTHAL_ORDER),
     "sensitivities": Key(BOOL, default=False),
+    # open problems: solve again with stronger absorbing layers (post.radiation)
+    "layer_check": Key(BOOL, default=False),
 })
 
 STUDY_VALUE = either(NUMBER, STRING)

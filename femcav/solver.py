@@ -24,10 +24,11 @@ from .fem.auxiliary import auxiliary_space
 from .fem.gradient import kernel_basis
 from .fem.space import EdgeSpace, build_space
 from .model import Model
-from .fem.absorber import has_absorber
+from .fem.absorber import has_absorber, with_stronger_layers
 from .fem.open_target import open_problem_target
 from .post.checks import ModeChecks, check_modes
-from .post.radiation import LAYER_SHARE_LIMIT, split_layer_modes
+from .post.radiation import (LAYER_SHARE_LIMIT, MOVE_LIMIT, STRENGTH_CHANGE, moved_modes,
+                             split_layer_modes)
 from .post.loss_validity import with_complex_warnings, with_loss_warnings
 from .post.losses import LossReport, has_losses, metal_faces, mode_losses
 from .post.resolution import Resolution, edge_space_energy, edge_space_scales, mode_resolution
@@ -179,7 +180,7 @@ def frequency_to_k0_squared(f_hz: float) -> float:
 def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, form: str = "E",
                 order: int = 1, factorization: str = "auto", method: str = "auto",
                 complex_check: bool = False, losses_inside: bool = False,
-                progress: Progress = SILENT) -> SolveResult:
+                layer_check: bool = False, progress: Progress = SILENT) -> SolveResult:
     """The ``modes`` lowest modes of ``model`` (or those nearest ``near_hz``).
 
     A lossless model with real or Hermitian materials is a Hermitian pencil: real
@@ -214,17 +215,29 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
         progress.step(f"complex check done in {result.timings['complex_check_s']:.2f} s")
         result = replace(result, modes=paired, complex_check=lossy)
     if has_absorber(model):
-        result = _without_layer_modes(result, losses_inside, progress)
+        moved = set()
+        if layer_check:
+            stronger = solve_space(build_space(with_stronger_layers(model, STRENGTH_CHANGE),
+                                               form, order, losses_inside=losses_inside),
+                                   modes=modes, near_hz=near_hz, factorization=factorization,
+                                   method=method, post=False)
+            moved = moved_modes(result.modes, stronger.modes)
+            progress.step(f"layer check: {len(moved)} of {len(result.modes)} modes move when "
+                          f"the layers are {STRENGTH_CHANGE:g} times stronger")
+        result = _without_layer_modes(result, losses_inside, progress, moved)
     return result
 
 
-def _without_layer_modes(result: SolveResult, losses_inside: bool,
-                         progress: Progress) -> SolveResult:
-    kept, layer = split_layer_modes(result.space, result.modes, losses_inside=losses_inside)
+def _without_layer_modes(result: SolveResult, losses_inside: bool, progress: Progress,
+                         moved: set[int]) -> SolveResult:
+    kept, layer = split_layer_modes(result.space, result.modes, losses_inside=losses_inside,
+                                    moved=moved)
     if layer:
         progress.warn(f"{len(layer)} of {len(result.modes)} modes live in the absorbing layer "
-                      f"(more than {LAYER_SHARE_LIMIT:.0%} of their energy there): left out of "
-                      "the table, kept in modes.json under layer_modes")
+                      f"(more than {LAYER_SHARE_LIMIT:.0%} of their energy there"
+                      + (f", or moving by more than {MOVE_LIMIT:.0%} with its strength"
+                         if moved else "") + "): left out of the table, kept in modes.json "
+                      "under layer_modes")
     return replace(result, modes=kept, layer_modes=layer)
 
 

@@ -131,6 +131,20 @@ def test_layer_modes_leave_the_table_and_the_default_target_is_printed(capsys):
     assert abs(nearest(result, exact).frequency_hz / exact.real - 1) < 2e-3
 
 
+def test_layer_check_finds_the_modes_that_move_with_the_layer(capsys):
+    # a physical mode does not depend on the layer; the layer's own modes do (measured,
+    # strength 6 -> 9: the sphere's mode moved 5e-5, the layer's modes 30 to 60 %)
+    from femcav.progress import Progress
+
+    exact = exact_sphere_mode(36.0, "TE")
+    result = solve_model(sphere_model(36.0, "TE", 0.004, 0.01), modes=4, order=2,
+                         near_hz=exact.real * 1.02, layer_check=True, progress=Progress())
+    err = capsys.readouterr().err
+    assert f"layer check: {len(result.layer_modes)} of 4 modes move" in err
+    (mode,) = result.modes
+    assert abs(mode.frequency_hz / exact.real - 1) < 2e-3
+
+
 def test_dielectric_loss_beside_radiation():
     # 1/Q_total = 1/Q_rad + 1/Q_d (independent losses add; Pozar, Microwave Engineering,
     # 4th ed., §6.1, common practice). Inside the solve, the dielectric part is taken off the

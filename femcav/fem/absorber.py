@@ -37,7 +37,7 @@ region's farthest nodes. A symmetry cut through the centre leaves the fit well p
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy.constants import c as C0
@@ -88,6 +88,13 @@ def absorbing_regions(model) -> dict[str, AbsorbingMaterial]:
 
 def has_absorber(model) -> bool:
     return bool(absorbing_regions(model))
+
+
+def with_stronger_layers(model, factor: float):
+    """``model`` with every absorbing region's strength times ``factor``."""
+    return replace(model, materials={
+        name: replace(m, pml_strength=m.pml_strength * factor)
+        if isinstance(m, AbsorbingMaterial) else m for name, m in model.materials.items()})
 
 
 @dataclass(frozen=True)
