@@ -280,6 +280,25 @@ def stretched(c: np.ndarray, J: np.ndarray) -> np.ndarray:
     return det * inverse @ c @ np.swapaxes(inverse, -1, -2)
 
 
+def medium_coefficients(space) -> tuple[np.ndarray, np.ndarray]:
+    """The space's (stiffness, mass) coefficients with every absorbing region's stretched
+    tensors replaced by its real medium: the weights of a mode's energy as its field holds
+    it (energies by region, filling factors, the absorber's share); the space's own when
+    there is no absorbing region."""
+    regions = absorbing_regions(space.model)
+    if not regions:
+        return space.stiffness_coef, space.mass_coef
+    stiffness, mass = (np.real(c).copy() for c in (space.stiffness_coef, space.mass_coef))
+    tm = space.model.mesh
+    for name, medium in regions.items():
+        rows = tm.tet_region == tm.region_names[name]
+        eps, mu = float(medium.eps_r), float(medium.mu_r)
+        own, other = (eps, mu) if space.form == "E" else (mu, eps)
+        mass[rows] = own * np.eye(3)
+        stiffness[rows] = np.eye(3) / other
+    return stiffness, mass
+
+
 def with_absorbing_layers(model, x: np.ndarray, eps: np.ndarray, mu: np.ndarray
                           ) -> tuple[np.ndarray, np.ndarray]:
     """eps_r and mu_r at the quadrature points x (3, n_elements, n_points) with every

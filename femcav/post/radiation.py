@@ -35,8 +35,8 @@ from dataclasses import replace
 
 import numpy as np
 
-from ..fem.absorber import absorbing_regions
-from ..fem.coefficients import is_tensor, quadratic
+from ..fem.absorber import absorbing_regions, medium_coefficients
+from ..fem.coefficients import quadratic
 from ..fem.quadrature_fields import fields_at_quadrature
 
 LAYER_SHARE_LIMIT = 0.5
@@ -51,14 +51,10 @@ def absorber_energy_share(space, dofs: np.ndarray) -> float:
     """The share of the mode's stored energy (of the form's field) inside the absorbing
     regions; ``dofs`` over every DOF of the mesh."""
     fields = fields_at_quadrature(space, dofs)
-    weight = np.real(space.mass_coef).copy()
+    _, weight = medium_coefficients(space)
     tm = space.model.mesh
-    inside = np.zeros(tm.n_tets, dtype=bool)
-    for name, medium in absorbing_regions(space.model).items():
-        rows = tm.tet_region == tm.region_names[name]
-        inside |= rows
-        value = medium.eps_r if space.form == "E" else medium.mu_r
-        weight[rows] = value * np.eye(3) if is_tensor(weight) else value
+    inside = np.isin(tm.tet_region, [tm.region_names[name]
+                                     for name in absorbing_regions(space.model)])
     per_element = np.sum(quadratic(weight, fields.value) * fields.dx, axis=1)
     total = float(per_element.sum())
     return float(per_element[inside].sum()) / total if total > 0 else 0.0
