@@ -322,6 +322,34 @@ def test_sphere_q_converges_as_the_layer_thickens_and_the_mesh_refines():
     assert by_mesh[2][1] < 3e-3
 
 
+@pytest.mark.parametrize("shell", ["sphere", "cylinder", "box"])
+def test_open_builder_volumes(shell):
+    # the region volumes of the puck's wrapping against their solids' volumes: a curved
+    # surface of radius R meshed with chords h loses at most about h²/R² of the volume it
+    # bounds (sagitta h²/8R over the surface, 3h²/8R² for a ball; common practice)
+    a, h, gap, depth, size = 0.004, 0.003, 0.006, 0.004, 0.0015
+    mesh = build_part("puck", radius=a, height=h, clearance=gap, absorber_thickness=depth,
+                      shell=shell, mesh_size=size)
+    volume = {name: mesh.tet_volumes()[mesh.tet_region == rid].sum()
+              for name, rid in mesh.region_names.items()}
+    puck = math.pi * a**2 * h
+    if shell == "sphere":
+        ball = math.hypot(a, h / 2)
+        inner, outer = (4 / 3 * math.pi * (ball + d) ** 3 for d in (gap, gap + depth))
+        radius = ball + gap
+    elif shell == "cylinder":
+        inner, outer = (math.pi * (a + d) ** 2 * (h + 2 * d) for d in (gap, gap + depth))
+        radius = a + gap
+    else:
+        inner, outer = ((2 * (a + d)) ** 2 * (h + 2 * d) for d in (gap, gap + depth))
+        radius = math.inf
+    bound = size**2 / a**2
+    assert volume["puck"] == pytest.approx(puck, rel=bound)
+    assert volume["air"] == pytest.approx(inner - puck, rel=bound + size**2 / radius**2)
+    assert volume["absorber"] == pytest.approx(outer - inner, rel=2 * size**2 / radius**2
+                                               + 1e-9)
+
+
 def test_the_layer_is_found_from_the_mesh():
     mesh = build_part("puck", radius=0.004, height=0.003, hole_radius=0.001,
                       sizing=Sizing(size=0.004))
