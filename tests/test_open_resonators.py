@@ -20,8 +20,8 @@ n = 1 is the magnetic-dipole (TE) and electric-dipole (TM) mode. The roots x = k
 complex with Im x > 0 (a decaying mode for e^{jωt}); f = c x / (2π a) and Q = Re f / (2 Im f)
 (Pozar, Microwave Engineering, 4th ed., §6.1, Q from the complex frequency). They are found
 here with scipy.special's complex spherical Bessel functions and scipy.optimize.root on the
-real and imaginary parts, started from the high-eps_r limits (GUESSES below), and checked by
-their residual.
+real and imaginary parts (femcav.analytic.dielectric_sphere, where the starting values are
+derived), and checked here by their residual.
 
 The 1/8 models keep one dipole: a magnetic dipole along z has E = E_φ, tangential to z = 0
 (PMC there) and normal to x = 0 and y = 0 (PEC); the electric dipole the other way round.
@@ -32,9 +32,9 @@ import math
 import numpy as np
 import pytest
 from scipy.constants import c as C0
-from scipy.optimize import root
 from scipy.special import spherical_jn, spherical_yn
 
+from femcav.analytic.dielectric_sphere import dielectric_sphere_resonance
 from femcav.case import case_from_data
 from femcav.eigen.factorization import get_factorizer
 from femcav.errors import InputError
@@ -55,34 +55,26 @@ RADIUS = 0.01
 DIPOLE_WALLS = {"TE": ("pec", "pec", "pmc"), "TM": ("pmc", "pmc", "pec")}
 
 
-def _riccati_ratio(n, z, outgoing: bool):
-    f, df = spherical_jn(n, z), spherical_jn(n, z, derivative=True)
-    if outgoing:   # h^(2) = j - i y
-        f, df = f - 1j * spherical_yn(n, z), df - 1j * spherical_yn(n, z, derivative=True)
-    return (f + z * df) / f
-
-
-# Starting values of k1 a: the high-eps_r limits of the two equations. There x0 = k0 a is
-# small and ψ_h(x0) -> -n (h_n ~ z^-(n+1)), while ψ_j(x1) = x1 j_(n-1)(x1) / j_n(x1) - n
-# (the recurrence [z j_n]' = z j_(n-1) - n j_n). So TE_n starts near a zero of j_(n-1) (π for
-# n = 1, 4.493 for n = 2) and TM_n, where ψ_j ≈ -n eps_r is large, near a zero of j_n (4.493
-# for n = 1). Zeros from Abramowitz and Stegun, Table 10.6 (from memory); the root finder
-# then moves them.
-GUESSES = {("TE", 1): math.pi, ("TE", 2): 4.493, ("TM", 1): 4.493}
-
-
 def exact_sphere_mode(eps_r: float, kind: str, n: int = 1) -> complex:
-    """The complex frequency (Hz) of the TE or TM mode of order n of a sphere of RADIUS."""
-    def mismatch(x0):
-        inner = _riccati_ratio(n, math.sqrt(eps_r) * x0, False)
-        return (inner / eps_r if kind == "TM" else inner) - _riccati_ratio(n, x0, True)
+    """The complex frequency (Hz) of the TE or TM mode of order n of a sphere of RADIUS
+    (femcav.analytic.dielectric_sphere: the equations above, solved with scipy)."""
+    return dielectric_sphere_resonance(RADIUS, eps_r, kind, n)
 
-    guess = GUESSES[kind, n] / math.sqrt(eps_r)
-    found = root(lambda v: [mismatch(v[0] + 1j * v[1]).real, mismatch(v[0] + 1j * v[1]).imag],
-                 [guess, 0.01 * guess], tol=1e-13)
-    x0 = found.x[0] + 1j * found.x[1]
-    assert abs(mismatch(x0)) < 1e-9 and x0.imag > 0
-    return C0 * x0 / (2 * math.pi * RADIUS)
+
+def test_the_exact_roots_solve_their_equations():
+    # the characteristic equations written out here again, independently of the module
+    for eps_r, kind, n in ((36.0, "TE", 1), (36.0, "TM", 1), (80.0, "TE", 1), (36.0, "TE", 2)):
+        x0 = 2 * math.pi * RADIUS * exact_sphere_mode(eps_r, kind, n) / C0
+        x1 = math.sqrt(eps_r) * x0
+        j = lambda z, d=False: spherical_jn(n, z, derivative=d)
+        h = lambda z, d=False: (spherical_jn(n, z, derivative=d)
+                                - 1j * spherical_yn(n, z, derivative=d))
+        inside = (j(x1) + x1 * j(x1, True)) / j(x1) / (eps_r if kind == "TM" else 1.0)
+        outside = (h(x0) + x0 * h(x0, True)) / h(x0)
+        assert abs(inside - outside) < 1e-8 and x0.imag > 0
+        # the high-eps_r limits: TE_n near a zero of j_(n-1), TM_1 near one of j_1
+        assert abs(x1.real - {("TE", 1): math.pi, ("TE", 2): 4.493, ("TM", 1): 4.493}[
+            kind, n]) < 0.2
 
 
 def sphere_model(eps_r: float, kind: str, inside: float, outside: float, *,
