@@ -24,7 +24,7 @@ from .fem.auxiliary import auxiliary_space
 from .fem.gradient import kernel_basis
 from .fem.space import EdgeSpace, build_space
 from .model import Model
-from .fem.absorber import has_absorber, with_stronger_layers
+from .fem.absorber import has_absorber, with_stronger_layers   # open problems (issue 19)
 from .fem.open_target import open_problem_target
 from .post.checks import ModeChecks, check_modes
 from .post.radiation import (LAYER_SHARE_LIMIT, MOVE_LIMIT, STRENGTH_CHANGE, moved_modes,
@@ -188,7 +188,10 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     in the operator) or complex-symmetric material tensors the pencil is complex symmetric:
     every mode gets a complex frequency, its Q (``q_eigenvalue``) from the imaginary part,
     and a complex field. ``complex_check`` is that second solve run beside the first one,
-    each real mode paired with its complex partner."""
+    each real mode paired with its complex partner. With absorbing regions (an open
+    problem, fem.absorber) the solve looks near ``near_hz`` or a default target, and the
+    modes that live in the layer go to ``layer_modes`` (post.radiation; ``layer_check``
+    solves again with stronger layers to find them)."""
     check_request(modes, near_hz)
     t0 = time.perf_counter()
     if has_absorber(model):
@@ -215,21 +218,27 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
         progress.step(f"complex check done in {result.timings['complex_check_s']:.2f} s")
         result = replace(result, modes=paired, complex_check=lossy)
     if has_absorber(model):
-        moved = set()
-        if layer_check:
-            stronger = solve_space(build_space(with_stronger_layers(model, STRENGTH_CHANGE),
-                                               form, order, losses_inside=losses_inside),
-                                   modes=modes, near_hz=near_hz, factorization=factorization,
-                                   method=method, post=False)
-            moved = moved_modes(result.modes, stronger.modes)
-            progress.step(f"layer check: {len(moved)} of {len(result.modes)} modes move when "
-                          f"the layers are {STRENGTH_CHANGE:g} times stronger")
-        result = _without_layer_modes(result, losses_inside, progress, moved)
+        result = _without_layer_modes(result, losses_inside, layer_check, progress,
+                                      factorization=factorization, method=method)
     return result
 
 
-def _without_layer_modes(result: SolveResult, losses_inside: bool, progress: Progress,
-                         moved: set[int]) -> SolveResult:
+def _without_layer_modes(result: SolveResult, losses_inside: bool, layer_check: bool,
+                         progress: Progress, **solve_options) -> SolveResult:
+    """An open problem's result with its modes split (post.radiation): the part's stay,
+    the layer's go to ``layer_modes``; with ``layer_check`` after a second solve with
+    stronger layers."""
+    moved = set()
+    if layer_check:
+        space = result.space
+        stronger = solve_space(build_space(with_stronger_layers(space.model, STRENGTH_CHANGE),
+                                           space.form, space.order,
+                                           losses_inside=losses_inside),
+                               modes=result.request.count, near_hz=result.near_hz,
+                               post=False, **solve_options)
+        moved = moved_modes(result.modes, stronger.modes)
+        progress.step(f"layer check: {len(moved)} of {len(result.modes)} modes move when the "
+                      f"layers are {STRENGTH_CHANGE:g} times stronger")
     kept, layer = split_layer_modes(result.space, result.modes, losses_inside=losses_inside,
                                     moved=moved)
     if layer:
