@@ -438,7 +438,6 @@ def _absorbing_regions(regions: dict[str, Material], tables: dict, geometry: Geo
     (fem.absorber). An open builder's shell is one by default, with or without a table of
     its own. Refused for bodies of revolution and with error bars (not available yet)."""
     from .fem.absorber import DEFAULT_STRENGTH, AbsorbingMaterial
-
     from .geometry.open_space import shell_layers
 
     shells = (shell_layers(geometry.parameters) if geometry.builder is not None
@@ -460,8 +459,8 @@ def _absorbing_regions(regions: dict[str, Material], tables: dict, geometry: Geo
         bars = next((k for k in ("error_estimate", "accuracy") if solve_table.get(k)), None)
         if bars:
             # measured on the sphere: the mesh sequence re-meshes the layer too, and the bar
-            # came out over 100 times the error (the modes' fields are complex, which the matching
-            # of modes between meshes does not weigh yet)
+            # came out over 100 times the error (the modes' fields are complex, which the
+            # matching of modes between meshes does not weigh yet)
             raise InputError("error bars are not available for open problems (absorbing "
                              "regions) yet; compare solves on two meshes yourself",
                              field=f"solve.{bars}")

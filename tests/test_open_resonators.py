@@ -1,9 +1,10 @@
 """Open resonators: absorbing regions (perfectly matched layers, fem.absorber), the radiation
 Q and the layer's own modes (post.radiation), the sphere and puck builders, the case keys.
 
-Reference: the dielectric sphere in free space (the isolated puck below has its own). Its modes are the complex roots of the
-characteristic equations of the spherical-wave expansion (Stratton, Electromagnetic Theory,
-1941, §9.22-9.25; Gastine, Courtois and Dormann, IEEE T-MTT 15(12), 1967). With time
+Reference: the dielectric sphere in free space (the isolated puck below has its own). Its
+modes are the complex roots of the characteristic equations of the spherical-wave expansion
+(Stratton, Electromagnetic Theory, 1941, §9.22-9.25; Gastine, Courtois and Dormann, IEEE
+T-MTT 15(12), 1967). With time
 dependence e^{jωt} the field outside is an outgoing spherical Hankel function h_n^(2)(k0 r)
 (≈ e^{-jk0 r}/(k0 r)), inside a regular j_n(k1 r), k1 = sqrt(eps_r) k0, mu_r = 1. Write
 ψ(z) = [z f(z)]' / f(z) for the Riccati ratio of f = j_n or h_n^(2). For a TE mode
