@@ -90,7 +90,10 @@ def solve_class(pencil: ClassPencil, *, count: int, target: float | None,
                     factorization=pairs.stats.factorization or describe(factorization),
                     peak_estimate_bytes=choice.peak_bytes,   # sizes a sweep's --jobs
                     lowest_scale=pencil.lowest_scale)
-    static = np.real(pairs.values) < STATIC_FRACTION * pencil.lowest_scale
+    # a static field's k0² is (near) zero; a complex one (an open problem's layer mode) may
+    # have a negative real part and is no static field, so it is judged by its modulus
+    size = np.abs(pairs.values) if np.iscomplexobj(pairs.values) else pairs.values
+    static = size < STATIC_FRACTION * pencil.lowest_scale
     return ClassPairs(values=pairs.values[~static], vectors=pairs.vectors[:, ~static],
                       stats=stats, static_dropped=int(static.sum()), pencil=pencil,
                       projector=setting.projector)

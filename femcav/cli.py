@@ -274,7 +274,8 @@ def _solve_status(result) -> int:
     from .units import format_frequency
 
     asked = result.request.count if result.request is not None else len(result.modes)
-    if len(result.modes) < asked:
+    # an open problem's layer modes were counted on stderr already (post.radiation)
+    if len(result.modes) + len(getattr(result, "layer_modes", ())) < asked:
         print(f"femcav: warning: {asked} modes asked for, {len(result.modes)} returned: the "
               "mesh's discrete problem holds no more (refine the mesh for more)",
               file=sys.stderr)

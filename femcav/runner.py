@@ -81,7 +81,8 @@ def _solve_options(settings) -> dict:
     return dict(modes=settings.modes, near_hz=settings.near_hz, form=settings.form,
                 order=settings.order, complex_check=settings.complex_check,
                 losses_inside=settings.losses_inside,
-                factorization=settings.factorization, method=settings.method)
+                factorization=settings.factorization, method=settings.method,
+                layer_check=settings.layer_check)
 
 
 def solve_with_error_bars(case: Case, walls: dict[str, Wall], settings,

@@ -184,6 +184,8 @@ STUDY_POINTS = Range(2, MAX_STUDY_VALUES)
 TUNE_TOLERANCE = Range(1e-12, 0.1, high_open=True)
 EXTRACT_TOLERANCE = Range(1e-15, 1e-2, high_open=True)
 QUALITY_FACTOR = Range(1.0, 1e12)
+# the imaginary stretch at a layer's outer wall, in layer thicknesses (fem.absorber)
+PML_STRENGTH = Range(0.0, 100.0, low_open=True)
 # An expression (eps_r in x, y, z) is refused beyond these, before it is compiled.
 EXPRESSION_MAX_CHARS = 2000
 EXPRESSION_MAX_DEPTH = 100
@@ -206,6 +208,7 @@ TOP = Table({
     "periodic": Key(either(TABLE, list_of(TABLE, at_most=MAX_PERIODIC_PAIRS))),
     "dispersion": Key(TABLE),
     "coupling": Key(TABLE),
+    "open": Key(TABLE),
 })
 
 GEOMETRY_MESH = Table({
@@ -268,8 +271,19 @@ REGION = Table({
                     doc="a named material (femcav.material_library); keys given beside it "
                         "override its values"),
     "mesh_size": LENGTH,
+    # an absorbing region (perfectly matched layer; femcav.fem.absorber)
+    "pml": Key(STRING, choices="femcav.fem.absorber:SHAPES", fold_case=True),
+    "pml_strength": Key(NUMBER, range=PML_STRENGTH),
 })
-REGIONS = Table(each=Key(TABLE, doc="a region: eps_r, mu_r, tan_delta, mesh_size"))
+# [open]: the air and absorbing shell around an open builder's part (geometry.open_space)
+OPEN = Table({
+    "shape": Key(STRING, choices=("sphere", "cylinder", "box"), fold_case=True,
+                 default="sphere"),
+    "clearance": LENGTH,
+    "thickness": LENGTH,
+})
+REGIONS = Table(each=Key(TABLE, doc="a region: eps_r, mu_r, tan_delta, mesh_size, pml, "
+                                    "pml_strength"))
 
 WALL = Table({
     "kind": Key(STRING, choices="femcav.walls:KINDS", fold_case=True),
@@ -309,6 +323,8 @@ SOLVE = Table({
     "method": Key(STRING, choices="femcav.eigen.selection:METHODS", default="auto"),
     "azimuthal_orders": Key(either(WHOLE, list_of(WHOLE)), range=AZIMUTHAL_ORDER),
     "sensitivities": Key(BOOL, default=False),
+    # open problems: solve again with stronger absorbing layers (post.radiation)
+    "layer_check": Key(BOOL, default=False),
 })
 
 STUDY_VALUE = either(NUMBER, STRING)

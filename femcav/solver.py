@@ -20,7 +20,11 @@ from .fem.auxiliary import auxiliary_space
 from .fem.gradient import kernel_basis
 from .fem.space import EdgeSpace, build_space
 from .model import Model
+from .fem.absorber import has_absorber, with_stronger_layers   # open problems (issue 19)
+from .fem.open_target import open_problem_target
 from .post.checks import ModeChecks
+from .post.radiation import (LAYER_SHARE_LIMIT, MOVE_LIMIT, STRENGTH_CHANGE, moved_modes,
+                             split_layer_modes)
 from .post.loss_validity import with_complex_warnings, with_loss_warnings
 from .post.losses import LossReport, has_losses, metal_faces, mode_losses
 from .post.resolution import Resolution, edge_space_energy, edge_space_scales, mode_resolution
@@ -66,6 +70,9 @@ class Mode:
     phase_advance_rad: float | None = None   # a chain of cells' passband (passband.py)
     loading: object | None = None   # ports.loading.PortLoading: Q_ext per port, loaded Q
     temperature: object | None = None   # femcav.temperature.TemperatureDrift (df/dT, τf)
+    # open problems (absorbing regions; post.radiation)
+    q_radiation: float | None = None
+    absorber_energy_share: float | None = None
 
     @property
     def multiplicity(self) -> int:
@@ -133,6 +140,8 @@ class SolveResult(ModeVerdicts):
     # the complex check's own solve (losses inside): its modes, with complex fields
     complex_check: "SolveResult | None" = None
     coupling: tuple = ()    # post.coupling.CouplingCoefficient: symmetry classes, named pair
+    # an open problem's modes that live in its absorbing layer (post.radiation)
+    layer_modes: list[Mode] = field(default_factory=list)
 
     @property
     def form(self) -> str:
@@ -172,7 +181,7 @@ def frequency_to_k0_squared(f_hz: float) -> float:
 def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, form: str = "E",
                 order: int = 1, factorization: str = "auto", method: str = "auto",
                 complex_check: bool = False, losses_inside: bool = False,
-                progress: Progress = SILENT) -> SolveResult:
+                layer_check: bool = False, progress: Progress = SILENT) -> SolveResult:
     """The ``modes`` lowest modes of ``model`` (or those nearest ``near_hz``).
 
     A lossless model with real or Hermitian materials is a Hermitian pencil: real
@@ -180,11 +189,16 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     in the operator) or complex-symmetric material tensors the pencil is complex symmetric:
     every mode gets a complex frequency, its Q (``q_eigenvalue``) from the imaginary part,
     and a complex field. ``complex_check`` is that second solve run beside the first one,
-    each real mode paired with its complex partner."""
+    each real mode paired with its complex partner. With absorbing regions (an open
+    problem, fem.absorber) the solve looks near ``near_hz`` or a default target, and the
+    modes that live in the layer go to ``layer_modes`` (post.radiation; ``layer_check``
+    solves again with stronger layers to find them)."""
     check_request(modes, near_hz)
     if any(wall.kind == PORT for wall in model.walls.values()):    # non-linear in k0
         raise ValueError("a model with ports is solved by ports.loaded_solve.solve_with_ports")
     t0 = time.perf_counter()
+    if has_absorber(model):
+        near_hz = open_problem_target(model, near_hz, progress)
     space = build_space(model, form, order, losses_inside=losses_inside)
     if space.pencil_kind == GENERAL:
         raise InputError("the material tensors make the problem neither Hermitian (lossless, "
@@ -207,7 +221,37 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
         result.timings["complex_check_s"] = time.perf_counter() - t0
         progress.step(f"complex check done in {result.timings['complex_check_s']:.2f} s")
         result = replace(result, modes=paired, complex_check=lossy)
+    if has_absorber(model):
+        result = _without_layer_modes(result, losses_inside, layer_check, progress,
+                                      factorization=factorization, method=method)
     return result
+
+
+def _without_layer_modes(result: SolveResult, losses_inside: bool, layer_check: bool,
+                         progress: Progress, **solve_options) -> SolveResult:
+    """An open problem's result with its modes split (post.radiation): the part's stay,
+    the layer's go to ``layer_modes``; with ``layer_check`` after a second solve with
+    stronger layers."""
+    moved = set()
+    if layer_check:
+        space = result.space
+        stronger = solve_space(build_space(with_stronger_layers(space.model, STRENGTH_CHANGE),
+                                           space.form, space.order,
+                                           losses_inside=losses_inside),
+                               modes=result.request.count, near_hz=result.near_hz,
+                               post=False, **solve_options)
+        moved = moved_modes(result.modes, stronger.modes)
+        progress.step(f"layer check: {len(moved)} of {len(result.modes)} modes move when the "
+                      f"layers are {STRENGTH_CHANGE:g} times stronger")
+    kept, layer = split_layer_modes(result.space, result.modes, losses_inside=losses_inside,
+                                    moved=moved)
+    if layer:
+        progress.warn(f"{len(layer)} of {len(result.modes)} modes live in the absorbing layer "
+                      f"(more than {LAYER_SHARE_LIMIT:.0%} of their energy there"
+                      + (f", or moving by more than {MOVE_LIMIT:.0%} with its strength"
+                         if moved else "") + "): left out of the table, kept in modes.json "
+                      "under layer_modes")
+    return replace(result, modes=kept, layer_modes=layer)
 
 
 def solve_space(space: EdgeSpace, *, modes: int, near_hz: float | None,
@@ -338,6 +382,8 @@ def merge_classes(labelled: list[tuple[str, SolveResult]], count: int,
     union are the lowest (or nearest) of the full model.
     """
     tagged = [replace(m, symmetry=label) for label, r in labelled for m in r.modes]
+    if near_hz is None:     # an open problem's classes looked near its default target
+        near_hz = labelled[0][1].near_hz
     tagged.sort(key=lambda m: m.frequency_hz)
     keep = select_modes(np.array([m.frequency_hz for m in tagged]), count, near_hz)
     modes = [replace(tagged[j], index=i + 1) for i, j in enumerate(keep)]
@@ -350,5 +396,6 @@ def merge_classes(labelled: list[tuple[str, SolveResult]], count: int,
         eigen_stats=results[0].eigen_stats,
         eigen_stats_by_class={label: r.eigen_stats for label, r in labelled},
         request=results[0].request, near_hz=near_hz,
+        layer_modes=[m for r in results for m in r.layer_modes],
         classes=[{"symmetry": label, "dofs": r.dofs,
                   "modes": sum(m.symmetry == label for m in modes)} for label, r in labelled])

@@ -14,7 +14,7 @@ Three effects add (first order in the temperature change):
   equations have no length of their own; common practice), so df/dT = -α_h f;
 - the dielectric parts: a part whose ``expansion`` α_i differs from the housing's grows by
   (α_i - α_h) dT relative to it, from its base (a cylinder's first end face, a box's lowest
-  corner: where it rests); the mesh is morphed onto the grown part (study.morph) and solved
+  corner: where it rests); the mesh is morphed onto the grown part (femcav.morph) and solved
   at ± dT, a central difference.
 
 For a part filled with one medium (its dielectric expands with the housing) this gives
@@ -122,7 +122,7 @@ def _weighted(tce, share: float, along: float) -> float:
 def _parts_derivative(case, result, layout: Layout, growth: dict[str, float], progress,
                       pool) -> list[float]:
     """d f/dT of the parts growing against the housing, by central differences on the mesh
-    morphed to ± dT (dT such that the fastest part grows by study.morph.STEP)."""
+    morphed to ± dT (dT such that the fastest part grows by femcav.morph.STEP)."""
     if case.symmetry:
         raise InputError("parts that expand unlike the housing need the whole part: drop "
                          "[symmetry]", field="symmetry")

@@ -72,6 +72,9 @@ VARIANTS = {
 }
 VARIANTS[("walls", "side", "residual_resistance")] = VARIANTS[("walls", "side", "temperature")]
 VARIANTS[("walls", "side", "port_modes")] = ({"walls": {"side": {"kind": "port"}}}, [])
+# pml_strength belongs to an absorbing region
+VARIANTS[("regions", "inside", "pml_strength")] = ({"regions": {"inside": {"pml": "spherical"}}},
+                                                   [])
 # [beam] and [symmetry] do not go together
 VARIANTS[("symmetry",)][1].append(("beam",))
 

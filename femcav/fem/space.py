@@ -15,6 +15,7 @@ from ..errors import InputError
 from ..materials import check_permittivity
 from ..model import FORMS, Model
 from ..walls import essential_kinds
+from .absorber import with_absorbing_layers
 from .coefficients import HERMITIAN, as_tensor, inverse, isotropic_part, pencil_kind
 from .constraints import Constraint
 from .lagrange import ElementTetLagrange
@@ -149,8 +150,9 @@ def build_space(model: Model, form: str = "E", order: int = 1, *,
         constraint, scalar_constraint = periodic_constraints(
             model, mesh, facet_wall, dofs, scalar_dofs, fixed, fixed_scalar, order)
 
-    eps, mu = _coefficients(model, mesh.mapping().F(quadrature[0]),
-                            losses_inside=losses_inside)
+    x = mesh.mapping().F(quadrature[0])
+    eps, mu = with_absorbing_layers(model, x, *_coefficients(model, x,
+                                                             losses_inside=losses_inside))
     stiffness_coef, mass_coef = (inverse(mu), eps) if form == "E" else (inverse(eps), mu)
     return EdgeSpace(model=model, form=form, order=order, mesh=mesh, element=element,
                      scalar_element=scalar_element, quadrature=quadrature, dofs=dofs,

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from ..errors import InputError
 from . import (box, coax, composite, dr_fixture, elliptical_cells, iris_pair, loaded_box,
-               pillbox, tuned_box, tuned_pillbox)
+               pillbox, puck, sphere, tuned_box, tuned_pillbox)
 from .importer import read_mesh
 from .mesh import TaggedMesh
 from .parts import DEFAULT_SIZE_FRACTION, Layout, Sizing, mesh_layout, symmetry_wall_name
@@ -12,7 +12,7 @@ from .parts import DEFAULT_SIZE_FRACTION, Layout, Sizing, mesh_layout, symmetry_
 BUILDERS = {"box": box, "pillbox": pillbox, "loaded_box": loaded_box, "coax": coax,
             "dr_fixture": dr_fixture, "tuned_box": tuned_box, "tuned_pillbox": tuned_pillbox,
             "composite": composite, "elliptical_cells": elliptical_cells,
-            "iris_pair": iris_pair}
+            "iris_pair": iris_pair, "sphere": sphere, "puck": puck}
 
 def builder_layout(name: str, params: dict) -> Layout:
     return BUILDERS[name].layout(**params)

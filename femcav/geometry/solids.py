@@ -73,4 +73,26 @@ class Cylinder:
         return ends.min(axis=0) - self.radius, ends.max(axis=0) + self.radius
 
 
-Solid = Box | Cylinder
+@dataclass(frozen=True)
+class Sphere:
+    centre: tuple[float, float, float]
+    radius: float
+
+    def add_to(self, occ) -> int:
+        return occ.addSphere(*self.centre, self.radius)
+
+    def volume(self) -> float:
+        return 4 / 3 * math.pi * self.radius**3
+
+    def contains(self, p: np.ndarray) -> np.ndarray:
+        return np.linalg.norm(p - np.asarray(self.centre), axis=1) <= self.radius
+
+    def on_surface(self, p: np.ndarray, tol: float) -> np.ndarray:
+        return np.abs(np.linalg.norm(p - np.asarray(self.centre), axis=1) - self.radius) <= tol
+
+    def bounds(self) -> tuple[np.ndarray, np.ndarray]:
+        c = np.asarray(self.centre, float)
+        return c - self.radius, c + self.radius
+
+
+Solid = Box | Cylinder | Sphere

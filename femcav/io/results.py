@@ -18,6 +18,9 @@ magnetic energy ∫ μ0 H̄·μ_r H); with ``complex_frequency_hz``
 no complex eigenvalue was paired with), or ``complex_frequency_hz`` and ``q_eigenvalue`` (the
 Q of every loss inside the solve) when the losses were inside the solve, and ``symmetry`` (the class label, e.g. "x:PMC y:PEC")
 when the model was cut by symmetry planes; then the top level has ``symmetry_classes``.
+A mode of an open problem (absorbing regions, post.radiation) also has ``q_radiation`` and
+``absorber_energy_share``, and the top level has ``layer_modes`` (the modes that live in the
+absorbing layer, with the same fields) when the solve found any.
 A mode of the axisymmetric solver also has ``azimuthal_order``, ``field_class`` (TE-like,
 TM-like, TEM-like, hybrid) and ``multiplicity`` (2 for m >= 1: the cos mφ and sin mφ pair); then the
 top level has ``axisymmetric`` (the orders solved and the DOFs of each). With [solve]
@@ -44,7 +47,7 @@ from __future__ import annotations
 import csv
 import io
 import math
-from dataclasses import asdict
+from dataclasses import asdict, replace
 
 from . import merit_columns, second_tables, strict_json
 from ..post import checks, resolution
@@ -109,6 +112,9 @@ def mode_rows(result: SolveResult) -> list[dict]:
                 row["q_eigenvalue"] = m.q_eigenvalue
             else:
                 row["q_dielectric_complex"] = m.q_dielectric_complex
+        if m.absorber_energy_share is not None:   # an open problem (post.radiation)
+            row["q_radiation"] = m.q_radiation
+            row["absorber_energy_share"] = m.absorber_energy_share
         row["loss_warnings"] = list(m.loss_warnings)
         if getattr(m, "loading", None) is not None:   # ports: q_external, q_loaded, ...
             row.update(m.loading.as_dict())
@@ -171,6 +177,8 @@ def to_json(result: SolveResult, *, title: str, case: str | None,
                                     "element": "triangles of the meridional section"}
     if result.accuracy is not None:
         document["accuracy"] = asdict(result.accuracy)
+    if getattr(result, "layer_modes", None):
+        document["layer_modes"] = mode_rows(replace(result, modes=result.layer_modes))
     document.update(merit_columns.json_top_level(result))
     if getattr(result, "coupling", ()):
         document["coupling"] = [c.as_dict() for c in result.coupling]
@@ -209,7 +217,10 @@ def to_csv(result: SolveResult) -> str:
         ("azimuthal_order", "field_class") if _is_axisymmetric(result) else ()) + (
         ("q_dielectric_complex",) if any(m.q_dielectric_complex for m in result.modes) else ()
     ) + (("q_magnetic",) if any(m.losses and m.losses.q_magnetic for m in result.modes)
-         else ()) + (("label",) if _has_labels(result) else ()) + merit_columns.csv_columns(result)
+         else ()) + (("label",) if _has_labels(result) else ()) + (
+        ("q_radiation", "absorber_energy_share")
+        if any(m.absorber_energy_share is not None for m in result.modes) else ()
+    ) + merit_columns.csv_columns(result)
     writer = csv.DictWriter(out, fieldnames=columns, extrasaction="ignore", lineterminator="\n")
     writer.writeheader()
     for row in mode_rows(result):
@@ -245,6 +256,7 @@ def to_table(result: SolveResult) -> str:
     lossy = any(m.losses for m in result.modes)
     inside = any(m.q_eigenvalue is not None for m in result.modes)
     magnetic = any(m.losses and m.losses.q_magnetic for m in result.modes)
+    radiating = any(m.q_radiation is not None for m in result.modes)
     bars = any(m.error_estimate_hz is not None for m in result.modes)
     axisymmetric = _is_axisymmetric(result)
     label_width = max([len(m.label or "") for m in result.modes]
@@ -256,6 +268,7 @@ def to_table(result: SolveResult) -> str:
              + (f"{'Q wall':>9}  {'Q diel.':>9}  " + (f"{'Q magn.':>9}  " if magnetic else "")
                 + f"{'Q total':>9}  " if lossy else "")
              + (f"{'Q (f)':>9}  " if inside else "")
+             + (f"{'Q rad':>9}  " if radiating else "")
              + merit_columns.table_heading(result)
              + f"{'residual':>9}  {'divergence':>10}  {'orthogonality':>13}  check"]
     for m in result.modes:
@@ -277,6 +290,7 @@ def to_table(result: SolveResult) -> str:
                      + (f"{m.m:>2}  {m.field_class:<8}  " if axisymmetric else "")
                      + (_q_columns(m, magnetic) if lossy else "")
                      + (f"{_q_text(m.q_eigenvalue):>9}  " if inside else "")
+                     + (f"{_q_text(m.q_radiation):>9}  " if radiating else "")
                      + merit_columns.table_cells(result, m)
                      + f"{c.residual:9.1e}  {c.divergence:10.1e}  {c.orthogonality:13.1e}  "
                      f"{status}")

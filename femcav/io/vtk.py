@@ -3,8 +3,10 @@
 Cell data (values at element centroids, 1 J stored energy per mode): ``region`` (region id),
 and per mode K (two digits): ``mK_E`` (V/m), ``mK_H`` (A/m, in quadrature with E),
 ``mK_we`` and ``mK_wm`` (time-averaged electric and magnetic energy density, J/m³); a
-periodic cell's complex mode adds ``mK_E_quarter`` and ``mK_H_quarter``, the fields a quarter
-period later (the imaginary parts).
+complex mode (losses inside the solve, an open problem, a periodic cell's travelling wave) is
+shown at the phase where its field is most nearly real, with ``mK_E_quarter`` and
+``mK_H_quarter`` the fields a quarter period later (the imaginary parts); ``absorber`` (1 in
+absorbing regions) marks an open problem's layer.
 The metal walls go into a second file with the loss per area of every mode.
 """
 
@@ -15,6 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ..fem.absorber import absorbing_regions
 from ..post.fields import centroid_basis, centroid_materials, mode_fields
 from ..solver import SolveResult
 
@@ -38,6 +41,9 @@ def write_vtu(result: SolveResult, path: Path) -> None:
             data[f"{tag}_H_quarter"] = [fields.H.imag]
         data[f"{tag}_we"] = [fields.w_e]
         data[f"{tag}_wm"] = [fields.w_m]
+    absorbing = [tm.region_names[name] for name in absorbing_regions(space.model)]
+    if absorbing:
+        data["absorber"] = [np.isin(tm.tet_region, absorbing).astype("int32")]
     meshio.write(str(path), meshio.Mesh(tm.points, [("tetra", tm.tets)], cell_data=data),
                  file_format="vtu")
 

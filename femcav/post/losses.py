@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.constants import epsilon_0, mu_0
 
+from ..fem.absorber import medium_coefficients
 from ..fem.coefficients import inverse, quadratic
 from ..fem.quadrature_fields import fields_at_quadrature
 from ..fem.space import EdgeSpace
@@ -80,10 +81,11 @@ def _times_inverse_mu(inverse_mu: np.ndarray, curl: np.ndarray) -> np.ndarray:
 def electric_energy_by_region(space: EdgeSpace, dofs: np.ndarray, omega: float) -> dict:
     """∫ ε0 ε_r |E|² dV per region (4 W_e,i), for the mode's DOFs as stored."""
     fields = fields_at_quadrature(space, dofs)
+    stiffness, mass = medium_coefficients(space)    # absorbing layers: their real medium
     if space.form == "E":
-        integrand = quadratic(space.mass_coef, fields.value) * epsilon_0
+        integrand = quadratic(mass, fields.value) * epsilon_0
     else:  # E = ε_r⁻¹ curl H / (jω ε0): ε0 Ē·ε_r E = curl H̄·ε_r⁻¹ curl H / (ω² ε0)
-        integrand = quadratic(space.stiffness_coef, fields.curl) / (omega**2 * epsilon_0)
+        integrand = quadratic(stiffness, fields.curl) / (omega**2 * epsilon_0)
     per_element = np.sum(integrand * fields.dx, axis=1)
     tm = space.model.mesh
     return {name: float(per_element[tm.tet_region == rid].sum())

@@ -121,8 +121,10 @@ def edge_space_scales(space) -> tuple[np.ndarray, np.ndarray]:
     mean over its quadrature points; in either form mass / stiffness coefficient is ε_r μ_r)."""
     mesh = space.mesh
     h = mean_edge_length(mesh.p.T, mesh.t.T)
-    index = np.sqrt(np.mean(isotropic_part(space.mass_coef)
-                            / isotropic_part(space.stiffness_coef), axis=1))
+    # |.|: inside an absorbing layer (fem.absorber) the stretched tensors' real parts may
+    # have either sign; their size is what sets the local wavelength there
+    index = np.sqrt(np.abs(np.mean(isotropic_part(space.mass_coef)
+                                   / isotropic_part(space.stiffness_coef), axis=1)))
     return h, index
 
 

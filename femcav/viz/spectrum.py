@@ -1,5 +1,5 @@
 """The spectrum of a result folder: every mode on a frequency axis, coloured by its class,
-at its Q where the case has losses; and the count of modes below f against the Weyl
+at its Q where the case has losses (or radiates: an open problem); and the count of modes below f against the Weyl
 estimate, a check that no mode is missing or spurious.
 
 Weyl's law for the electromagnetic modes of a cavity (both polarisations): the number of
@@ -59,6 +59,12 @@ def weyl_not_meaningful(document: dict, counted: int) -> str:
     return ""
 
 
+def _unloaded_q(row: dict) -> float | None:
+    """Q total (with radiation in it, post.radiation), or for an open part without other
+    loss its radiation Q."""
+    return row.get("q_total") or row.get("q_radiation")
+
+
 def write_spectrum(document: dict, path: Path) -> None:
     import matplotlib
     matplotlib.use("Agg")
@@ -67,13 +73,13 @@ def write_spectrum(document: dict, path: Path) -> None:
     modes = document["modes"]
     f = np.array([m["frequency_hz"] for m in modes]) / 1e9
     classes = list(dict.fromkeys(mode_class(m) for m in modes))
-    has_q = any(m.get("q_total") for m in modes)
+    has_q = any(_unloaded_q(m) for m in modes)
     fig, (top, bottom) = plt.subplots(2, 1, figsize=SIZE_INCHES, sharex=True,
                                       gridspec_kw={"height_ratios": (1, 1.2)})
     for k, name in enumerate(classes):
         rows = [m for m in modes if mode_class(m) == name]
         x = [m["frequency_hz"] / 1e9 for m in rows]
-        y = [m.get("q_total") or 1.0 for m in rows] if has_q else [1.0] * len(rows)
+        y = [_unloaded_q(m) or 1.0 for m in rows] if has_q else [1.0] * len(rows)
         top.scatter(x, y, color=PALETTE[k % len(PALETTE)], marker=MARKERS[k % len(MARKERS)],
                     s=36, label=name, zorder=3, clip_on=False)
         top.vlines(x, 0 if not has_q else min(y) / 3, y, color=PALETTE[k % len(PALETTE)],
@@ -81,7 +87,7 @@ def write_spectrum(document: dict, path: Path) -> None:
     if has_q:
         top.set_yscale("log")
         top.set_ylabel("Q (unloaded)")
-        qs = [m.get("q_total") or 1.0 for m in modes]
+        qs = [_unloaded_q(m) or 1.0 for m in modes]
         # a factor 3 of room above and below, so that no marker is cut by the frame
         top.set_ylim(min(qs) / 3, max(qs) * 3)
     else:
