@@ -131,3 +131,33 @@ def test_dispersion_of_a_section_cell(tmp_path):
         assert lowest["frequency_hz"] == pytest.approx([band(zero, p) for p in phases],
                                                        rel=1e-4)
         assert all(lowest["checks_passed"])
+
+
+def test_figures_per_cell_of_a_travelling_wave(tmp_path):
+    """[beam] in a dispersion: R/Q per unit length of the round guide's TM01 travelling wave
+    against its closed form, derived here from E_z = E0 J0(kc r) e^{-jβz} (Pozar §3.4):
+    the stored energy per cell W = (ε0/2) E0² π R² J1(p01)² (k0²/kc²) L (electric and
+    magnetic energies equal in a propagating mode), the voltage on the axis for a particle
+    at c, V = E0 |∫_0^L e^{-jβz} e^{jk0 z} dz| = E0 |2 sin(ΔL/2)/Δ|, Δ = k0 - β, and
+    R/Q = V²/(ωW) (the linac convention, README)."""
+    from scipy.constants import epsilon_0
+    from scipy.special import j1
+
+    case = tmp_path / "cell.toml"
+    case.write_text(cell_case('[periodic]\npair = ["bottom", "top"]\n[dispersion]\n'
+                              'values = ["60 deg", "90 deg", "120 deg"]\n[beam]\nvelocity = 1\n',
+                              modes=1, orders="[0]").replace("order = 2", "order = 3"))
+    out = tmp_path / "out"
+    assert main(["dispersion", str(case), "--out", str(out), "-q"]) == 0
+    document = json.loads((out / "dispersion.json").read_text())
+    band_ = document["bands"][0]
+    p01 = jn_zeros(0, 1)[0]
+    kc = p01 / R
+    for f, phase, found in zip(band_["frequency_hz"], document["phases_rad"],
+                               band_["r_over_q_ohm_per_m"]):
+        omega = 2 * math.pi * f
+        k0, beta = omega / C0, phase / L
+        voltage = abs(2 * math.sin((k0 - beta) * L / 2) / (k0 - beta))
+        energy = epsilon_0 / 2 * math.pi * R**2 * j1(p01) ** 2 * (k0 / kc) ** 2 * L
+        # measured 2e-6 at order 3 on the 1.5 mm section
+        assert found == pytest.approx(voltage**2 / (omega * energy) / L, rel=1e-4)

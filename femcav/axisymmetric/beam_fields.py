@@ -173,7 +173,9 @@ class _WallSampler:
             to_e = 1.0 / (self.omega * epsilon_0 * eps)
             e_normal = np.abs(np.sum(meridional * tangent, axis=0)) * to_e
             parts = (u / r, np.sum(e * tangent, axis=0))
-        h_t = np.hypot(*parts) if space.m == 0 else np.maximum(*map(np.abs, parts))
+        # |·|: a periodic cell's travelling wave is complex
+        h_t = (np.hypot(*map(np.abs, parts)) if space.m == 0
+               else np.maximum(*map(np.abs, parts)))
         return e_normal * self.scale, h_t * self.scale, x
 
 

@@ -41,6 +41,7 @@ from ..io.atomic import check_output_folder, remove_stale_temporaries
 from ..post.field_overlap import Overlaps
 from ..post.group_velocity import energy_velocity
 from ..post.mode_matching import clusters, match_modes
+from ..merit import with_figures_of_merit
 from ..progress import SILENT, Progress
 from ..runner import choose_form, symmetry_classes
 from ..solver import solve_model
@@ -142,12 +143,14 @@ def solve_phase(task) -> tuple[PointResult, int]:
                              near_hz=solve.near_hz, form=choose_form(case, solve.form, SILENT),
                              order=solve.order, factorization=solve.factorization,
                              method=solve.method)
+        result = _with_beam(case, result)
     except InputError as exc:
         raise in_case(exc, str(path)) from None
     shift = FacePairing(result.space.mesh, result.space.facet_wall, pairs[pair_index]).shift
     rows = [{"frequency_hz": m.frequency_hz, "passed": m.checks.passed,
              "group_velocity_energy_m_per_s": energy_velocity(
-                 result.space, m.dofs, 2 * math.pi * m.frequency_hz, shift)}
+                 result.space, m.dofs, 2 * math.pi * m.frequency_hz, shift),
+             "r_over_q_ohm": m.beam.r_over_q_ohm if m.beam else None}
             for m in result.modes]
     return PointResult(values=(phase,), rows=rows, mesh=mesh,
                        dofs=np.column_stack([m.dofs for m in result.modes]),
@@ -168,14 +171,27 @@ def _solve_section_phase(case, path, section, phase: float, fingerprint) -> Poin
         result = solve_axisymmetric(model, orders=solve.azimuthal_orders, modes=solve.modes,
                                     near_hz=solve.near_hz, order=solve.order,
                                     factorization=solve.factorization, form=solve.form or "E")
+        result = _with_beam(case, result)
     except InputError as exc:
         raise in_case(exc, str(path)) from None
     rows = [{"frequency_hz": m.frequency_hz, "passed": m.checks.passed, "azimuthal_order": m.m,
-             "group_velocity_energy_m_per_s": None} for m in result.modes]
+             "group_velocity_energy_m_per_s": None,
+             "r_over_q_ohm": m.beam.r_over_q_ohm if m.beam else None} for m in result.modes]
     return PointResult(values=(phase,), rows=rows, mesh=section, dofs=full_vectors(result),
                        form=result.form, order=result.order,
                        seconds=time.perf_counter() - t0, fingerprint=fingerprint,
                        peak_estimate_bytes=result.eigen_stats.peak_estimate_bytes)
+
+
+def _with_beam(case, result):
+    """With [beam], each mode's figures along the beam line over one cell (merit): its R/Q
+    per cell, the travelling wave's synchronous voltage with the particle's velocity."""
+    if case.beam is None:
+        return result
+    if case.symmetry:
+        raise InputError("the figures per cell need the whole cell's stored energy: drop "
+                         "[symmetry] for a dispersion with [beam]", field="beam")
+    return with_figures_of_merit(result, case.beam)
 
 
 def _solve_phases(tasks: list, jobs: int, progress: Progress):
@@ -265,6 +281,11 @@ def dispersion_document(case, model, spec: DispersionSpec, points: list) -> dict
                 None if row is None else row["group_velocity_energy_m_per_s"] for row in rows],
             "checks_passed": [None if row is None else row["passed"] for row in rows],
         })
+        if any(row and row.get("r_over_q_ohm") is not None for row in rows):
+            # [beam]: R/Q per unit length, the cell's R/Q over its length (linac convention)
+            bands[-1]["r_over_q_ohm_per_m"] = [
+                None if not row or row.get("r_over_q_ohm") is None
+                else row["r_over_q_ohm"] / length for row in rows]
         orders = {row["azimuthal_order"] for row in rows if row and "azimuthal_order" in row}
         if orders:        # a body of revolution's band keeps its azimuthal order
             bands[-1]["azimuthal_order"] = orders.pop()
