@@ -32,7 +32,8 @@ def solve_part(model, **options):
     """solve_model, or the port iteration (femcav.ports) when the model has ports."""
     if any(wall.kind == PORT for wall in model.walls.values()):
         from .ports.loaded_solve import solve_with_ports
-        options.pop("complex_check", None), options.pop("method", None)
+        for unused in ("complex_check", "method", "layer_check"):   # not with ports (yet)
+            options.pop(unused, None)
         return solve_with_ports(model, **options)
     return solve_model(model, **options)
 
