@@ -200,15 +200,20 @@ def solve_model(model: Model, *, modes: int = 10, near_hz: float | None = None, 
     if has_absorber(model):
         near_hz = open_problem_target(model, near_hz, progress)
     space = build_space(model, form, order, losses_inside=losses_inside)
-    if space.pencil_kind == GENERAL:
-        raise InputError("the material tensors make the problem neither Hermitian (lossless, "
-                         "gyrotropic) nor symmetric (lossy, reciprocal); check the tensors' "
-                         "transposes", field="regions")
+    lossy_space = (build_space(model, form, order, losses_inside=True)
+                   if complex_check and space.hermitian else None)
+    if GENERAL in (space.pencil_kind, getattr(lossy_space, "pencil_kind", None)):
+        raise InputError("the problem is neither Hermitian (lossless, gyrotropic) nor complex "
+                         "symmetric (lossy or absorbing, reciprocal): losses inside the solve or "
+                         "an absorbing layer in a periodic cell at a phase other than 0 or 180 "
+                         "deg, or material tensors that are neither; for a periodic cell use "
+                         "the perturbation Q (drop losses_inside and complex_check)",
+                         field="regions")
     result = solve_space(space, modes=modes, near_hz=near_hz, factorization=factorization,
                          method=method, progress=progress, started=t0)
-    if complex_check and space.hermitian:
+    if lossy_space is not None:
         t0 = time.perf_counter()
-        lossy = solve_space(build_space(model, form, order, losses_inside=True),
+        lossy = solve_space(lossy_space,
                             modes=len(result.modes) + max(4, len(result.modes) // 2),
                             near_hz=None, shift=(result.eigen_stats.shift
                                                  if result.eigen_stats.shift is not None

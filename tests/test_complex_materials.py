@@ -241,3 +241,37 @@ def test_overlaps_of_complex_modes_ignore_a_global_phase(box_mesh):
     assert np.allclose(found.matrix, expected.matrix, atol=1e-12)
     assert np.allclose(np.abs(found.inner), np.abs(expected.inner), atol=1e-12)
     assert np.allclose(np.diag(found.matrix), 1.0)
+
+
+def test_losses_inside_a_periodic_cell_at_a_general_phase_is_refused(tmp_path, capsys):
+    """Pᴴ K P with a complex-symmetric K and a phase-linked P is neither Hermitian nor
+    complex symmetric (transpose it: Pᵀ K P̄), so neither solver family applies: refused with
+    the way out, before a wrong answer; at 180 deg (a real P) it solves."""
+    from femcav.cli import main
+
+    text = """
+title = "Larkspur test: lossy guide cell"
+[geometry]
+builder = "box"
+width = "22.86 mm"
+height = "10.16 mm"
+length = "12 mm"
+[regions.inside]
+eps_r = 2.0
+tan_delta = 1e-3
+[mesh]
+size = "5 mm"
+[periodic]
+pair = ["z_min", "z_max"]
+phase = "PHASE"
+[solve]
+modes = 2
+order = 2
+losses_inside = true
+"""
+    case = tmp_path / "cell.toml"
+    case.write_text(text.replace("PHASE", "120 deg"))
+    assert main(["solve", str(case), "--out", str(tmp_path / "a"), "-q", "--no-report"]) == 2
+    assert "neither Hermitian" in capsys.readouterr().err
+    case.write_text(text.replace("PHASE", "180 deg"))
+    assert main(["solve", str(case), "--out", str(tmp_path / "b"), "-q", "--no-report"]) == 0

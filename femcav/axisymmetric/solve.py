@@ -109,6 +109,11 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
         space = build_order_space(model, m, order, mesh, form)
         K, M = assemble_order(space)
         G = kernel_basis(space)
+        if (losses_inside or complex_check) and space.constraint.dtype.kind == "c":
+            raise InputError("losses inside the solve (and the complex check) of a periodic "
+                             "cell at a phase other than 0 or 180 deg give a pencil that is "
+                             "neither Hermitian nor complex symmetric: not available; use the "
+                             "perturbation Q", option="losses_inside")
         if losses_inside:
             K, M = _lossy_pencil(space, K, M)
         timings["assembly_s"] += time.perf_counter() - t0

@@ -16,7 +16,8 @@ from ..materials import check_permittivity
 from ..model import FORMS, Model
 from ..walls import essential_kinds
 from .absorber import with_absorbing_layers
-from .coefficients import HERMITIAN, as_tensor, inverse, isotropic_part, pencil_kind
+from .coefficients import (GENERAL, HERMITIAN, SYMMETRIC, as_tensor, inverse, isotropic_part,
+                           pencil_kind)
 from .constraints import Constraint
 from .lagrange import ElementTetLagrange
 from .nedelec import ElementTetNedelec
@@ -56,8 +57,13 @@ class EdgeSpace:
     @cached_property
     def pencil_kind(self) -> str:
         """fem.coefficients.HERMITIAN (real symmetric included), SYMMETRIC (complex
-        symmetric: lossy or absorbing) or GENERAL."""
-        return pencil_kind(self.stiffness_coef, self.mass_coef)
+        symmetric: lossy or absorbing) or GENERAL. A complex-symmetric form reduced by a
+        phase-linked constraint (Pᴴ K P, a periodic cell at a phase other than 0 or π) is
+        neither."""
+        kind = pencil_kind(self.stiffness_coef, self.mass_coef)
+        if kind == SYMMETRIC and self.constraint.dtype.kind == "c":
+            return GENERAL
+        return kind
 
     @property
     def hermitian(self) -> bool:
