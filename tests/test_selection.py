@@ -110,3 +110,16 @@ def test_both_methods_through_the_solver_agree():
     assert runs["iterative"].eigen_stats.method == "iterative" and runs["iterative"].passed
     reference = lowest_box_frequencies(0.02286, 0.01016, 0.030, 6)
     assert max(abs(x / y - 1) for x, y in zip(b, reference)) < 1.5e-2
+
+
+def test_a_complex_symmetric_pencil_goes_to_arnoldi_and_refuses_the_hermitian_only_methods():
+    # the Lanczos, LOBPCG and distributed backends assume a Hermitian pencil (common
+    # practice: they rely on real Rayleigh quotients); a lossy or open problem is not one
+    choose = selection.choose
+    common = dict(n=10_000, nnz=200_000, request=EigenRequest(4), order=1, library="superlu",
+                  free_bytes=8e9, hermitian=False)
+    assert choose("auto", **common).method == "arnoldi"
+    assert choose("direct", **common).method == "arnoldi"
+    for method in ("iterative", "distributed"):
+        with pytest.raises(InputError, match="Hermitian"):
+            choose(method, **common)

@@ -61,6 +61,10 @@ def choose(method: str, *, n: int, nnz: int, request: EigenRequest, order: int, 
     threshold = ITERATIVE_FROM_DOFS[library]
 
     if not hermitian:
+        if method == "distributed":
+            raise InputError("the distributed method solves lossless (Hermitian) problems; "
+                             "with losses inside the solve or an absorbing layer use "
+                             "method = \"direct\" (or \"auto\")", option="method")
         if method == "iterative":
             raise InputError("the iterative method needs a lossless (Hermitian) problem; with "
                              "losses inside the solve use method = \"direct\" (or \"auto\")",
