@@ -83,3 +83,22 @@ def test_a_q_external_target_names_the_only_port_by_itself():
                      "quantity": "q_external", "target": 40}}
     spec = parse_tune(data)
     assert (spec.port, spec.target, spec.target_hz) == ("z_max", 40.0, None)
+
+
+def test_a_sweep_tracks_the_coupling_coefficient(tmp_path):
+    """sweep.json's tracks carry coupling_k for the modes of the [coupling] pair; it grows
+    with the iris (see above) and is k = (f_2² − f_1²)/(f_2² + f_1²) of the two tracked
+    frequencies at every point."""
+    case = tmp_path / "pair.toml"
+    case.write_text(PAIR.split("[tune]")[0]
+                    + '[sweep]\nparameter = "geometry.iris_width"\n'
+                      'values = ["6 mm", "9 mm", "12 mm"]\n')
+    out = tmp_path / "out"
+    assert main(["sweep", str(case), "--out", str(out), "-q"]) == 0
+    tracks = json.loads((out / "sweep.json").read_text())["tracks"]
+    first, second = tracks[0], tracks[1]
+    assert first["coupling_k"] == second["coupling_k"]       # one pair, both its modes
+    k = first["coupling_k"]
+    assert k[0] < k[1] < k[2]
+    for f1, f2, value in zip(first["frequency_hz"], second["frequency_hz"], k):
+        assert value == pytest.approx((f2**2 - f1**2) / (f2**2 + f1**2), rel=1e-9)

@@ -134,7 +134,11 @@ def solve_point(data: dict, path: Path, axes, values, fingerprint: str,
     t0 = time.perf_counter()
     settings = replace(case.solve, modes=case.solve.modes + spare)
     result = solve_case(case, settings, progress)
-    return PointResult(values=tuple(values), rows=mode_rows(result), mesh=result.mesh,
+    rows = mode_rows(result)
+    for coupling in result.coupling:        # k of a named pair, kept with both of its modes
+        for index in coupling.modes:
+            rows[index - 1]["coupling_k"] = coupling.k
+    return PointResult(values=tuple(values), rows=rows, mesh=result.mesh,
                        dofs=full_vectors(result),
                        form=result.form, order=result.order,
                        seconds=time.perf_counter() - t0, fingerprint=fingerprint,
@@ -355,6 +359,11 @@ def _solve_on_cluster(data, path, spec: SweepSpec, fingerprints, todo, folder, c
     return failed
 
 
+# per-mode quantities a track follows when the modes have them: ports' loaded Q, an open
+# problem's radiation Q, the coupling coefficient of a named pair ([coupling] modes)
+TRACKED_IF_PRESENT = ("q_loaded", "q_radiation", "coupling_k")
+
+
 def _tracked_document(data, path, spec: SweepSpec, base, results, progress) -> dict:
     first = spec.axes[0]
     n_first = len(first.values)
@@ -369,15 +378,25 @@ def _tracked_document(data, path, spec: SweepSpec, base, results, progress) -> d
         tracks = [_spread(t, solved, len(row)) for t in track(rebuilt, count)] if solved else []
         progress.step(f"tracked {len(tracks)} modes over {len(row)} points in "
                       f"{time.perf_counter() - t0:.1f} s")
+        present = {key for point in row if point is not None for m in point.rows
+                   for key in TRACKED_IF_PRESENT if m.get(key) is not None}
+        ports = sorted({name for point in row if point is not None for m in point.rows
+                        for name in (m.get("q_external") or {})})
         for k, t in enumerate(tracks):
-            entry = {"track": k + 1, "frequency_hz": [], "q_total": [], "q_wall": []}
+            entry = {"track": k + 1, "frequency_hz": [], "q_total": [], "q_wall": [],
+                     **{key: [] for key in TRACKED_IF_PRESENT if key in present}}
+            if ports:
+                entry["q_external"] = {name: [] for name in ports}
             if len(spec.axes) == 2:
                 entry["second_value"] = spec.axes[1].values[r]
             for point, j in zip(row, t):
                 mode = None if j is None else point.rows[j]
-                for key, name in (("frequency_hz", "frequency_hz"), ("q_total", "q_total"),
-                                  ("q_wall", "q_wall")):
-                    entry[key].append(None if mode is None else mode.get(name))
+                for key in entry:
+                    if isinstance(entry[key], list):
+                        entry[key].append(None if mode is None else mode.get(key))
+                for name in ports:
+                    entry["q_external"][name].append(
+                        None if mode is None else (mode.get("q_external") or {}).get(name))
             tracks_out.append(entry)
     return {"format": FORMAT_NAME, "format_version": 1, "case": str(path),
             "parameters": [{"parameter": a.path, "unit": a.unit, "values": list(a.values)}
