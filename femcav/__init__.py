@@ -1,4 +1,5 @@
-"""femcav: resonant modes of closed microwave cavities by the finite element method.
+"""femcav: resonant modes of microwave cavities, open and periodic structures, by the finite
+element method.
 
 The public names are imported on first use (PEP 562), so that `femcav --help`, a case-file
 error or `import femcav.units` does not pay for scikit-fem, gmsh and the solver stack.

@@ -27,7 +27,8 @@ class _OneLineParser(argparse.ArgumentParser):
 def _parser() -> argparse.ArgumentParser:
     parser = _OneLineParser(
         prog="femcav",
-        description="Resonant modes of closed microwave cavities by finite elements.",
+        description="Resonant modes of microwave cavities, open and periodic structures, by "
+                    "finite elements.",
         epilog=exit_codes.epilog())
     parser.add_argument("--version", action="version", version=f"femcav {__version__}")
     commands = parser.add_subparsers(dest="command", metavar="COMMAND", title="commands")
@@ -66,7 +67,7 @@ def _parser() -> argparse.ArgumentParser:
     _cluster_option(sweep)
     tune = _study_parser(
         commands, "tune",
-        "find the parameter value that puts a mode on a target frequency",
+        "find the parameter value that puts a mode on a target frequency (or Q_ext, k, τf)",
         "Solve CASE at the values Brent's method asks for inside the bracket of its [tune] "
         "table until the chosen mode (followed by field overlap) sits on the target; solve "
         "the result again with error bars; write tune.json.")
