@@ -35,6 +35,9 @@ _PUBLIC = {
     "run_sweep": ".study.sweep",
     "run_tune": ".study.tune",
     "run_extract": ".study.extract",
+    "run_dispersion": ".study.dispersion",
+    # periodic cells: a face pair and its phase (make_model(..., periodic=(PeriodicPair, ...)))
+    "PeriodicPair": ".model",
 }
 
 __all__ = [*_PUBLIC, "__version__"]
