@@ -107,12 +107,32 @@ def test_diagonal_anisotropic_filling_against_the_separable_solution(box_mesh):
     assert error(finer) < error(result) / 1.5
 
 
-def test_isotropic_tensor_equals_the_scalar_material(box_mesh):
-    scalar = _solve(box_mesh, Material(eps_r=3.0, mu_r=1.5), modes=4, order=1, form="H")
-    tensor = _solve(box_mesh, Material(eps_r=3.0 * np.eye(3), mu_r=1.5 * np.eye(3)), modes=4,
-                    order=1, form="H")
-    assert np.allclose([m.frequency_hz for m in tensor.modes],
-                       [m.frequency_hz for m in scalar.modes], rtol=1e-10)
+@pytest.mark.parametrize("form", ["E", "H"])
+def test_isotropic_tensor_equals_the_scalar_material(box_mesh, form):
+    """ε_r I and μ_r I as tensors must give what the scalars give, in every quantity the
+    solve derives from the coefficients: frequencies, wall Q (μ_r⁻¹ curl E on the walls),
+    dielectric Q and filling factors (energies Re(Ē·ε E)), magnetic filling, resolution."""
+    from femcav.post.filling import magnetic_filling
+    from femcav.walls import Wall
+
+    copper = {"x_min": Wall("metal", conductivity=5.8e7), "z_max": Wall("metal",
+                                                                      conductivity=5.8e7)}
+
+    def solve(material):
+        return solve_model(make_model(box_mesh, {"inside": material}, copper), modes=4,
+                           order=1, form=form)
+
+    scalar = solve(Material(eps_r=3.0, mu_r=1.5, tan_delta=1e-3))
+    tensor = solve(Material(eps_r=3.0 * np.eye(3), mu_r=1.5 * np.eye(3), tan_delta=1e-3))
+    for a, b in zip(scalar.modes, tensor.modes):
+        assert b.frequency_hz == pytest.approx(a.frequency_hz, rel=1e-10)
+        assert b.losses.q_wall == pytest.approx(a.losses.q_wall, rel=1e-9)
+        assert b.losses.q_dielectric == pytest.approx(a.losses.q_dielectric, rel=1e-9)
+        assert b.resolution.points_per_wavelength == pytest.approx(
+            a.resolution.points_per_wavelength, rel=1e-9)
+        fa, fb = (magnetic_filling(r.space, m.dofs) for r, m in ((scalar, a), (tensor, b)))
+        assert fb.total["inside"] == pytest.approx(fa.total["inside"], rel=1e-9)
+        assert fb.along_axis["inside"] == pytest.approx(fa.along_axis["inside"], abs=1e-9)
 
 
 def test_a_hermitian_tensor_keeps_the_hermitian_solver_and_a_real_spectrum(box_mesh):
