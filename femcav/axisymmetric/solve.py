@@ -66,6 +66,7 @@ class AxisymmetricResult(ModeVerdicts):
     accuracy: AccuracyReport | None = None     # with a [solve] accuracy target
     static_fields_dropped = 0
     classes = ()
+    coupling = ()    # coupling coefficients are found in 3D (post.coupling)
 
     @property
     def dofs(self) -> int:
