@@ -104,6 +104,8 @@ class Case:
     coupling_modes: tuple[int, int] | None = None   # [coupling] modes (post.coupling)
     # tce and expansion of regions and walls (femcav.temperature.TemperatureSpec)
     temperature: object = None
+    # [temperature]: the temperatures to follow every mode over (femcav.temperature)
+    temperature_range: "TemperatureRange | None" = None
 
 
 def in_case(exc: InputError, source: str | None) -> InputError:
@@ -180,13 +182,16 @@ def case_from_data(data: dict, path: Path) -> Case:
         periodic = _periodic(data.get("periodic"), geometry, walls, solve)
         coupling_modes = _coupling_modes(_table(data, "coupling"), solve.modes)
         temperature = _temperature(region_tables, _table(data, "walls"))
+        temperature_range = _temperature_range(_table(data, "temperature"), temperature,
+                                               solve)
     except InputError as exc:
         raise in_case(exc, source) from None
     return Case(path=path, title=title, geometry=geometry, regions=regions, walls=walls,
                 solve=solve, mesh=mesh, symmetry=symmetry, tolerances=tolerances,
                 probes=probes, filling_axis=filling_axis, beam=beam,
                 tolerance_samples=samples, periodic=periodic,
-                coupling_modes=coupling_modes, temperature=temperature)
+                coupling_modes=coupling_modes, temperature=temperature,
+                temperature_range=temperature_range)
 
 
 def _periodic(spec, geometry: GeometrySpec, walls: dict, solve: SolveSpec
@@ -276,6 +281,38 @@ class TemperatureSpec:
     expansion: dict[str, float] = field(default_factory=dict)
     housing_expansion: float = 0.0
 
+
+
+@dataclass(frozen=True)
+class TemperatureRange:
+    """[temperature]: the temperatures (K) to solve at, and the one where the case holds."""
+
+    temperatures_k: tuple[float, ...]
+    reference_k: float
+
+
+def _temperature_range(spec: dict, thermal, solve) -> "TemperatureRange | None":
+    if not spec:
+        return None
+    check_table(spec, schema.TEMPERATURE_RANGE, "temperature")
+    for key in ("from", "to"):
+        if key not in spec:
+            raise InputError(f"needs {key} (and to, from, points)", field=f"temperature.{key}")
+    if thermal is None:
+        raise InputError("a temperature range needs the materials' drift: give a region a "
+                         "tce or an expansion, or the walls an expansion",
+                         field="temperature")
+    if solve.azimuthal_orders is not None:
+        raise InputError("the temperature range is solved in 3D only so far; drop "
+                         "azimuthal_orders (the df/dT of every mode is given on sections)",
+                         field="temperature")
+    v = {k: read(spec, k, schema.TEMPERATURE_RANGE, "temperature")
+         for k in schema.TEMPERATURE_RANGE.keys}
+    if v["from"] == v["to"]:
+        raise InputError("from and to are the same temperature", field="temperature.to")
+    points = np.linspace(v["from"], v["to"], v["points"])
+    return TemperatureRange(temperatures_k=tuple(float(t) for t in points),
+                            reference_k=v["reference"])
 
 
 def _temperature(region_tables: dict, wall_tables: dict):

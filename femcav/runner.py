@@ -277,9 +277,12 @@ def _solve_modes(case: Case, settings, progress: Progress, pool=None):
 
 
 def _with_temperature(case: Case, result, progress: Progress, pool=None):
-    """Every mode's df/dT and τf from the case's tce and expansion (femcav.temperature)."""
-    from .temperature import with_temperature_drift
-    return with_temperature_drift(case, result, progress, pool)
+    """Every mode's df/dT and τf from the case's tce and expansion, and with [temperature]
+    its frequency over the range (femcav.temperature)."""
+    from .temperature import with_temperature_drift, with_temperature_range
+    result = with_temperature_drift(case, result, progress, pool)
+    return (with_temperature_range(case, result, progress) if case.temperature_range
+            else result)
 
 
 def _mirror(case: Case):

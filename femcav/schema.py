@@ -204,7 +204,7 @@ TOP = Table({
     "title": Key(STRING), "geometry": Key(TABLE), "mesh": Key(TABLE), "regions": Key(TABLE),
     "walls": Key(TABLE), "symmetry": Key(TABLE), "solve": Key(TABLE), "sweep": Key(TABLE),
     "tune": Key(TABLE), "extract": Key(TABLE), "tolerances": Key(TABLE),
-    "probes": Key(TABLE), "filling": Key(TABLE), "beam": Key(TABLE),
+    "probes": Key(TABLE), "filling": Key(TABLE), "beam": Key(TABLE), "temperature": Key(TABLE),
     "periodic": Key(either(TABLE, list_of(TABLE, at_most=MAX_PERIODIC_PAIRS))),
     "dispersion": Key(TABLE),
     "coupling": Key(TABLE),
@@ -421,6 +421,16 @@ DISPERSION = Table({
     "values": Key(list_of(QUANTITY, at_most=MAX_STUDY_VALUES), unit="angle", range=PHASE),
     "pair": Key(WHOLE, range=Range(1, MAX_PERIODIC_PAIRS), default=1,
                 doc="which [[periodic]] pair's phase varies (the others keep theirs)"),
+})
+
+# [temperature]: every mode followed from one temperature to another (femcav.temperature)
+THERMAL = Range(0.0, 2000.0, low_open=True)
+TEMPERATURE_RANGE = Table({
+    "from": Key(QUANTITY, unit="temperature", range=THERMAL),
+    "to": Key(QUANTITY, unit="temperature", range=THERMAL),
+    "points": Key(WHOLE, range=STUDY_POINTS, default=11),
+    "reference": Key(QUANTITY, unit="temperature", range=THERMAL, default=293.15,
+                     doc="where the case's eps_r and lengths hold (default 293.15 K)"),
 })
 
 # The quantities a study may vary (femcav.case_parameters): the key each value goes to.

@@ -77,6 +77,18 @@ def _write_tables(files, case: Case, result) -> None:
     response = to_response_csv(result)
     if response is not None:    # ports: the single-pole response of each loaded mode
         files.write_text("response.csv", response)
+    if case.temperature_range is not None:
+        files.write_text("temperature.csv", temperature_csv(result))
+
+
+def temperature_csv(result) -> str:
+    """mode, temperature_k, frequency_hz: every mode over the [temperature] range."""
+    lines = ["mode,temperature_k,frequency_hz"]
+    for mode in result.modes:
+        drift = mode.temperature
+        lines += [f"{mode.index},{t!r},{'' if f != f else repr(f)}"
+                  for t, f in zip(drift.temperatures_k, drift.frequency_over_range_hz)]
+    return "\n".join(lines) + "\n"
 
 
 def _plain(value):

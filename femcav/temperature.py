@@ -31,11 +31,13 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from .case import TemperatureSpec
+from .case import TemperatureSpec, case_model
 from .errors import InputError
 from .geometry.parts import Layout
 from .geometry.solids import Box, Cylinder
 from .morph import STEP, morph, partner_frequencies, solve_morphed_meshes
+from .post.mode_matching import result_partners
+from .solver import solve_model
 
 
 @dataclass(frozen=True)
@@ -47,6 +49,10 @@ class TemperatureDrift:
     permittivity_hz_per_k: float      # from the regions' tce
     housing_hz_per_k: float           # -α_h f
     parts_hz_per_k: float             # the dielectric parts growing against the housing
+    # with [temperature]: the mode followed over a range of temperatures (K, Hz; NaN where
+    # it could not be followed), solved at each one (with_temperature_range)
+    temperatures_k: tuple[float, ...] | None = None
+    frequency_over_range_hz: tuple[float, ...] | None = None
 
 
 def relative_growth(spec: TemperatureSpec, layout: Layout | None) -> dict[str, float]:
@@ -180,3 +186,80 @@ def with_temperature_drift(case, result, progress=None, pool=None):
 def _layout(case) -> Layout:
     from .geometry import builder_layout
     return builder_layout(case.geometry.builder, case.geometry.parameters)
+
+
+def with_temperature_range(case, result, progress=None):
+    """``result`` (3D) whose modes' ``temperature`` also holds the frequency at every
+    temperature of the case's [temperature] range: each one a full solve, without
+    re-meshing, of the part at T - T_ref: every region's ε_r times (1 + τε ΔT) (per direction
+    for a uniaxial tce), the whole mesh scaled by (1 + α_h ΔT) (the housing), a part that
+    grows unlike the housing morphed onto its grown shape; each mode followed by its field
+    from the reference solve outwards, temperature by temperature."""
+    spec, span = case.temperature, case.temperature_range
+    if case.symmetry:
+        raise InputError("the temperature range solves the whole part: drop [symmetry]",
+                         field="temperature")
+    layout = _layout(case) if case.geometry.builder else None
+    growth = relative_growth(spec, layout)
+    mesh = result.space.model.mesh
+    count = len(result.modes)
+    temperatures = sorted(span.temperatures_k)
+    reference = span.reference_k
+    found: dict[float, list[float]] = {}
+    for chain in ([t for t in temperatures if t >= reference],
+                  [t for t in reversed(temperatures) if t < reference]):
+        previous, index = result, list(range(count))    # reference mode k -> its index there
+        for t in chain:
+            solved = _solve_at(case, result, mesh, layout, growth, t - reference)
+            partner = result_partners(previous, solved)
+            successor = {int(p): j for j, p in enumerate(partner) if p >= 0}
+            index = [None if i is None else successor.get(i) for i in index]
+            found[t] = [np.nan if i is None else solved.modes[i].frequency_hz for i in index]
+            previous = solved
+            if progress:
+                progress.step(f"temperature {t:.6g} K: "
+                              + ", ".join(f"{f / 1e9:.7g}" for f in found[t][:4]) + " GHz")
+    modes = []
+    for k, mode in enumerate(result.modes):
+        drift = mode.temperature
+        modes.append(replace(mode, temperature=replace(
+            drift, temperatures_k=tuple(temperatures),
+            frequency_over_range_hz=tuple(float(found[t][k]) for t in temperatures))))
+    return replace(result, modes=modes)
+
+
+def _solve_at(case, result, mesh, layout, growth: dict[str, float], dt: float):
+    """The case at ΔT = ``dt`` from its reference temperature, on the morphed and scaled
+    mesh of the reference solve."""
+    spec = case.temperature
+    if growth:
+        mesh = morph(mesh, layout, grown_layout(layout, growth, dt))
+    mesh = replace(mesh, points=mesh.points * (1 + spec.housing_expansion * dt))
+    regions = {name: _material_at(material, spec.tce.get(name), dt)
+               for name, material in case.regions.items()}
+    model = case_model(replace(case, regions=regions), mesh)
+    return solve_model(model, modes=len(result.modes) + 3, near_hz=result.near_hz,
+                       form=result.form, order=result.order)
+
+
+def _material_at(material, tce, dt: float):
+    """``material`` with ε_r (1 + τε ΔT): a scalar, an expression or a tensor scaled as a
+    whole, a uniaxial one per direction for a (τε⊥, τε∥) pair."""
+    if not tce:
+        return material
+    if isinstance(tce, tuple):
+        u = material.uniaxial
+        return replace(material, eps_r=1.0, uniaxial=replace(
+            u, perpendicular=u.perpendicular * (1 + tce[0] * dt),
+            parallel=u.parallel * (1 + tce[1] * dt)))
+    factor = 1 + tce * dt
+    if material.uniaxial is not None:
+        u = material.uniaxial
+        return replace(material, eps_r=1.0, uniaxial=replace(
+            u, perpendicular=u.perpendicular * factor, parallel=u.parallel * factor))
+    eps = material.eps_r
+    if callable(eps):
+        return replace(material, eps_r=lambda x, y, z: eps(x, y, z) * factor)
+    return replace(material, eps_r=np.asarray(eps) * factor if material.eps_tensor is not None
+                   else eps * factor)
+

@@ -166,3 +166,62 @@ def test_bad_thermal_data_are_refused(tmp_path):
                          tmp_path / "box.toml")
     with pytest.raises(InputError, match="cavity's space"):
         solve_case(box, box.solve)
+
+
+def test_a_temperature_range_of_a_filled_box_follows_the_exact_scaling(tmp_path):
+    """[temperature] from 200 K to 400 K: each temperature solved in full on the reference
+    mesh scaled by (1 + α ΔT), with ε_r (1 + τε ΔT). A box filled with one medium scales
+    exactly: f(T) = f(T_ref) / ((1 + α ΔT) sqrt(1 + τε ΔT)) (Maxwell's equations have no
+    length of their own, and f ∝ 1/sqrt(ε); common practice), and the same mesh scaled gives
+    the same discretisation error, so the discrete solves follow it to round-off."""
+    import csv
+    import json
+    import math
+
+    from femcav.cli import main
+
+    case = tmp_path / "box.toml"
+    case.write_text("""
+title = "Larkspur test: filled box from 200 K to 400 K"
+[geometry]
+builder = "box"
+width = "22.86 mm"
+height = "10.16 mm"
+length = "30 mm"
+[mesh]
+size = "5 mm"
+[regions.inside]
+eps_r = 2.5
+tce = "-50 ppm/K"
+[walls.x_min]
+kind = "pec"
+expansion = "17 ppm/K"
+[temperature]
+from = "200 K"
+to = "400 K"
+points = 5
+[solve]
+modes = 2
+order = 2
+""")
+    out = tmp_path / "out"
+    assert main(["solve", str(case), "--out", str(out), "-q", "--no-report"]) == 0
+    rows = json.loads((out / "modes.json").read_text())["modes"]
+    alpha, tce, reference = 17e-6, -50e-6, 293.15
+    for row in rows:
+        drift = row["temperature_drift"]
+        for t, f in zip(drift["temperatures_k"], drift["frequency_over_range_hz"]):
+            dt = t - reference
+            exact = row["frequency_hz"] / ((1 + alpha * dt) * math.sqrt(1 + tce * dt))
+            assert f == pytest.approx(exact, rel=1e-9)
+    with open(out / "temperature.csv", newline="") as handle:
+        table = list(csv.DictReader(handle))
+    assert len(table) == 2 * 5 and {r["mode"] for r in table} == {"1", "2"}
+
+
+def test_a_temperature_range_needs_the_drift_data(tmp_path):
+    case = tmp_path / "box.toml"
+    case.write_text('[geometry]\nbuilder = "box"\nwidth = "20 mm"\nheight = "10 mm"\n'
+                    'length = "30 mm"\n[temperature]\nfrom = "200 K"\nto = "400 K"\n')
+    with pytest.raises(InputError, match="needs the materials' drift"):
+        load_case(case)
