@@ -8,14 +8,13 @@ scipy.special.jn_zeros.
 
 import json
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest
 from scipy.constants import c as C0
 from scipy.special import jn_zeros
 
-from femcav.case import case_from_data, case_model, load_case
+from femcav.case import case_model, load_case
 from femcav.errors import InputError
 from femcav.solver import solve_model
 
