@@ -22,7 +22,6 @@ from __future__ import annotations
 import json
 import math
 
-import numpy as np
 import pytest
 from scipy.constants import c, epsilon_0, mu_0
 from scipy.integrate import quad

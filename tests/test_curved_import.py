@@ -5,7 +5,6 @@ test writes itself."""
 import json
 import math
 
-import pytest
 from scipy.constants import c
 from scipy.special import jn_zeros
 

@@ -32,7 +32,7 @@ from femcav.post.filling import magnetic_filling
 from femcav import run_case
 from femcav.solver import solve_model
 
-from test_losses import BOX_WALLS, COPPER, metal, te10l_q_wall
+from test_losses import BOX_WALLS, COPPER, te10l_q_wall
 
 A, B, D = 0.02286, 0.01016, 0.030
 

@@ -1138,7 +1138,6 @@ def test_lobpcg_on_a_matrix_pencil_against_scipy_eigh():
     from femcav.eigen.interface import EigenRequest
 
     n = 240
-    rng = np.random.default_rng(11)
     laplacian = sp.diags([-np.ones(n - 1), 2 * np.ones(n), -np.ones(n - 1)], [-1, 0, 1])
     B = sp.random(n, n, density=0.02, random_state=3) * 0.05
     M = (sp.identity(n) + B @ B.T).tocsc()
