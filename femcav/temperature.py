@@ -247,16 +247,13 @@ def _material_at(material, tce, dt: float):
     whole, a uniaxial one per direction for a (τε⊥, τε∥) pair."""
     if not tce:
         return material
-    if isinstance(tce, tuple):
-        u = material.uniaxial
-        return replace(material, eps_r=1.0, uniaxial=replace(
-            u, perpendicular=u.perpendicular * (1 + tce[0] * dt),
-            parallel=u.parallel * (1 + tce[1] * dt)))
-    factor = 1 + tce * dt
+    across, along = tce if isinstance(tce, tuple) else (tce, tce)
     if material.uniaxial is not None:
         u = material.uniaxial
         return replace(material, eps_r=1.0, uniaxial=replace(
-            u, perpendicular=u.perpendicular * factor, parallel=u.parallel * factor))
+            u, perpendicular=u.perpendicular * (1 + across * dt),
+            parallel=u.parallel * (1 + along * dt)))
+    factor = 1 + tce * dt
     eps = material.eps_r
     if callable(eps):
         return replace(material, eps_r=lambda x, y, z: eps(x, y, z) * factor)
