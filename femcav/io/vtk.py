@@ -52,7 +52,6 @@ def write_wall_loss_vtu(result: SolveResult, path: Path) -> None:
     """The metal-wall triangles with cell data ``wall`` (an index into the sorted wall names)
     and, per mode K, ``mK_loss``: time-averaged loss per area, W/m², for 1 J stored."""
     import meshio
-    import numpy as np
 
     from ..post.losses import metal_faces
 
