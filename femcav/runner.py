@@ -5,6 +5,7 @@ labels, sensitivities, tolerances and field figures; nothing is written here
 from __future__ import annotations
 
 import itertools
+import time
 import math
 from functools import partial
 from dataclasses import replace
@@ -273,7 +274,7 @@ def _solve_modes(case: Case, settings, progress: Progress, pool=None):
         result = _with_tolerances(case, result, settings, progress, pool)
     if case.temperature is not None:
         result = _with_temperature(case, result, progress, pool)
-    return _with_field_figures(case, result)
+    return _with_far_fields(case, _with_field_figures(case, result), progress)
 
 
 def _with_temperature(case: Case, result, progress: Progress, pool=None):
@@ -340,6 +341,22 @@ def _with_field_figures(case: Case, result):
                                            mirror=mirror, label=m.symmetry,
                                            cuts=len(mirror.planes)),
         lambda m: magnetic_filling(space, m.dofs, axis))
+
+
+def _with_far_fields(case: Case, result, progress: Progress):
+    """An open problem's modes with their far fields (post.far_field); others unchanged."""
+    from .fem.absorber import has_absorber
+    from .post.far_field import far_field
+
+    if not has_absorber(result.space.model) or not result.modes:
+        return result
+    t0 = time.perf_counter()
+    mirror = _mirror(case)
+    modes = [replace(m, far_field=far_field(result.space, m, mirror=mirror))
+             for m in result.modes]
+    progress.step(f"far fields of {len(modes)} modes from the absorbing layer's inner "
+                  f"surface in {time.perf_counter() - t0:.2f} s")
+    return replace(result, modes=modes)
 
 
 def check_probes_on_section(case: Case, section) -> None:

@@ -12,7 +12,7 @@ from pathlib import Path
 from .anisotropy import material_summary
 from .case import Case, load_case
 from .io.atomic import check_output_folder, staged_output
-from .io.results import to_csv, to_json, to_table
+from .io.results import to_csv, to_far_field_csv, to_json, to_table
 from .io.vtk import write_vtu, write_wall_loss_vtu
 from .progress import SILENT, Progress
 from .runner import default_output_folder, solve_case
@@ -79,6 +79,9 @@ def _write_tables(files, case: Case, result) -> None:
         files.write_text("response.csv", response)
     if case.temperature_range is not None:
         files.write_text("temperature.csv", temperature_csv(result))
+    pattern = to_far_field_csv(result)
+    if pattern is not None:     # open problems: every mode's radiation pattern
+        files.write_text("far_field.csv", pattern)
 
 
 def temperature_csv(result) -> str:

@@ -73,6 +73,7 @@ class Mode:
     # open problems (absorbing regions; post.radiation)
     q_radiation: float | None = None
     absorber_energy_share: float | None = None
+    far_field: object | None = None   # post.far_field.FarField (3D open problems)
 
     @property
     def multiplicity(self) -> int:

@@ -20,7 +20,9 @@ Q of every loss inside the solve) when the losses were inside the solve, and ``s
 when the model was cut by symmetry planes; then the top level has ``symmetry_classes``.
 A mode of an open problem (absorbing regions, post.radiation) also has ``q_radiation`` and
 ``absorber_energy_share``, and the top level has ``layer_modes`` (the modes that live in the
-absorbing layer, with the same fields) when the solve found any.
+absorbing layer, with the same fields) when the solve found any; in 3D each of its modes
+has ``far_field`` (post.far_field: ``directivity_dbi``, ``peak_direction_deg`` [θ, φ],
+``radiated_power_w_per_j``, ``power_balance``, ``q_from_flux``) and ``directivity_dbi``.
 A mode of the axisymmetric solver also has ``azimuthal_order``, ``field_class`` (TE-like,
 TM-like, TEM-like, hybrid) and ``multiplicity`` (2 for m >= 1: the cos mφ and sin mφ pair); then the
 top level has ``axisymmetric`` (the orders solved and the DOFs of each). With [solve]
@@ -115,6 +117,9 @@ def mode_rows(result: SolveResult) -> list[dict]:
         if m.absorber_energy_share is not None:   # an open problem (post.radiation)
             row["q_radiation"] = m.q_radiation
             row["absorber_energy_share"] = m.absorber_energy_share
+        if getattr(m, "far_field", None) is not None:   # post.far_field
+            row["far_field"] = m.far_field.document()
+            row["directivity_dbi"] = row["far_field"]["directivity_dbi"]
         row["loss_warnings"] = list(m.loss_warnings)
         if getattr(m, "loading", None) is not None:   # ports: q_external, q_loaded, ...
             row.update(m.loading.as_dict())
@@ -131,6 +136,27 @@ def _resolution_fields(mode) -> dict:
     ppw = res.points_per_wavelength
     return {"points_per_wavelength": ppw if math.isfinite(ppw) else None,
             "resolved": res.resolved}
+
+
+def _has_far_fields(result) -> bool:
+    return any(getattr(m, "far_field", None) is not None for m in result.modes)
+
+
+def _directivity_text(mode) -> str:
+    return "-" if mode.far_field is None else f"{mode.far_field.peak_directivity_dbi:.2f}"
+
+
+def to_far_field_csv(result) -> str | None:
+    """mode, theta_deg, phi_deg, e_theta_v, e_phi_v, directivity_dbi for every direction of
+    every mode's pattern (r e^{jkr} |E| in V at 1 J stored); None without far fields."""
+    if not _has_far_fields(result):
+        return None
+    lines = ["mode,theta_deg,phi_deg,e_theta_v,e_phi_v,directivity_dbi"]
+    for m in result.modes:
+        if m.far_field is not None:
+            lines += [f"{m.index},{t:g},{p:g},{a:.6g},{b:.6g},{d:.4f}"
+                      for t, p, a, b, d in m.far_field.rows()]
+    return "\n".join(lines) + "\n"
 
 
 def _has_symmetry(result: SolveResult) -> bool:
@@ -220,7 +246,7 @@ def to_csv(result: SolveResult) -> str:
          else ()) + (("label",) if _has_labels(result) else ()) + (
         ("q_radiation", "absorber_energy_share")
         if any(m.absorber_energy_share is not None for m in result.modes) else ()
-    ) + merit_columns.csv_columns(result)
+    ) + (("directivity_dbi",) if _has_far_fields(result) else ()) + merit_columns.csv_columns(result)
     writer = csv.DictWriter(out, fieldnames=columns, extrasaction="ignore", lineterminator="\n")
     writer.writeheader()
     for row in mode_rows(result):
@@ -257,6 +283,7 @@ def to_table(result: SolveResult) -> str:
     inside = any(m.q_eigenvalue is not None for m in result.modes)
     magnetic = any(m.losses and m.losses.q_magnetic for m in result.modes)
     radiating = any(m.q_radiation is not None for m in result.modes)
+    patterns = _has_far_fields(result)
     bars = any(m.error_estimate_hz is not None for m in result.modes)
     axisymmetric = _is_axisymmetric(result)
     label_width = max([len(m.label or "") for m in result.modes]
@@ -269,6 +296,7 @@ def to_table(result: SolveResult) -> str:
                 + f"{'Q total':>9}  " if lossy else "")
              + (f"{'Q (f)':>9}  " if inside else "")
              + (f"{'Q rad':>9}  " if radiating else "")
+             + (f"{'D (dBi)':>7}  " if patterns else "")
              + merit_columns.table_heading(result)
              + f"{'residual':>9}  {'divergence':>10}  {'orthogonality':>13}  check"]
     for m in result.modes:
@@ -291,6 +319,7 @@ def to_table(result: SolveResult) -> str:
                      + (_q_columns(m, magnetic) if lossy else "")
                      + (f"{_q_text(m.q_eigenvalue):>9}  " if inside else "")
                      + (f"{_q_text(m.q_radiation):>9}  " if radiating else "")
+                     + (f"{_directivity_text(m):>7}  " if patterns else "")
                      + merit_columns.table_cells(result, m)
                      + f"{c.residual:9.1e}  {c.divergence:10.1e}  {c.orthogonality:13.1e}  "
                      f"{status}")

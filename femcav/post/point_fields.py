@@ -94,8 +94,8 @@ def fields_at_points(space: EdgeSpace, dofs: np.ndarray, omega: float, points: n
     basis = space.basis
     where = locate(space.mesh, np.ascontiguousarray(folded.T))
     reference = reference_coordinates(basis.mapping, np.ascontiguousarray(folded.T), where)
-    value = np.zeros((3, folded.shape[0]))
-    curl = np.zeros((3, folded.shape[0]))
+    value = np.zeros((3, folded.shape[0]), dtype=np.result_type(dofs, float))
+    curl = np.zeros_like(value)
     for i in range(basis.Nbfun):
         local = basis.elem.gbasis(basis.mapping, reference, i, tind=where.cells)[0]
         weight = dofs[basis.element_dofs[i, where.cells]]

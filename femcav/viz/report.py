@@ -148,12 +148,16 @@ def write_report(document: dict, pictures: dict[str, Path], path: Path) -> None:
                        + (f" ({m['label']})" if m.get("label") else ""))
             mode_figures.append(f"<figure>{_image(picture, caption)}<figcaption>{e(caption)}"
                                 "</figcaption></figure>")
-        heat = pictures.get(f"wall_loss_{m['index']:02d}")
-        if heat is not None and heat.is_file():
-            caption = (f"Mode {m['index']}: loss per area on the metal walls (W/m² at 1 J "
-                       "stored, from wall_loss.vtu)")
-            mode_figures.append(f"<figure>{_image(heat, caption)}<figcaption>{e(caption)}"
-                                "</figcaption></figure>")
+        extras = ((f"wall_loss_{m['index']:02d}", "loss per area on the metal walls (W/m² at "
+                   "1 J stored, from wall_loss.vtu)"),
+                  (f"far_field_{m['index']:02d}", "radiation pattern, directivity in dBi on "
+                   "two cuts through its peak (from far_field.csv)"))
+        for stem, what in extras:
+            extra = pictures.get(stem)
+            if extra is not None and extra.is_file():
+                caption = f"Mode {m['index']}: {what}"
+                mode_figures.append(f"<figure>{_image(extra, caption)}<figcaption>"
+                                    f"{e(caption)}</figcaption></figure>")
     if mode_figures:
         figures.append("<h2>Fields</h2>" + "".join(mode_figures))
     probe_figures = [f"<figure>{_image(p, name)}<figcaption>{e(name.replace('_', ' ', 1))}: "

@@ -26,6 +26,8 @@ def show(folder: str | Path, *, mode: int | None = None, arrows: str = "E",
     wanted = [row["index"] for row in modes if mode is None or row["index"] == mode]
     grid = read_fields(folder, wanted, arrows, field)
     walls = read_wall_losses(folder)
+    from .far_field_picture import draw_far_field_picture, read_far_fields
+    patterns = read_far_fields(folder) or {}
     written = []
     # redrawing every mode replaces all the pictures; one mode adds to them
     with staged_output(folder, kind="pictures",
@@ -55,6 +57,11 @@ def show(folder: str | Path, *, mode: int | None = None, arrows: str = "E",
                 name = f"wall_loss_{row['index']:02d}.png"
                 files.write_with(name, lambda p, r=row, t=title: draw_wall_loss_picture(
                     walls, r["index"], t, p), suffix=".png")
+                written.append(folder / name)
+            if row["index"] in patterns:
+                name = f"far_field_{row['index']:02d}.png"
+                files.write_with(name, lambda p, r=row, t=title: draw_far_field_picture(
+                    patterns[r["index"]], t, p), suffix=".png")
                 written.append(folder / name)
     if mode is None:
         from .report import write_report
