@@ -182,8 +182,7 @@ def case_from_data(data: dict, path: Path) -> Case:
         periodic = _periodic(data.get("periodic"), geometry, walls, solve)
         coupling_modes = _coupling_modes(_table(data, "coupling"), solve.modes)
         temperature = _temperature(region_tables, _table(data, "walls"))
-        temperature_range = _temperature_range(_table(data, "temperature"), temperature,
-                                               solve)
+        temperature_range = _temperature_range(_table(data, "temperature"), temperature)
     except InputError as exc:
         raise in_case(exc, source) from None
     return Case(path=path, title=title, geometry=geometry, regions=regions, walls=walls,
@@ -291,7 +290,7 @@ class TemperatureRange:
     reference_k: float
 
 
-def _temperature_range(spec: dict, thermal, solve) -> "TemperatureRange | None":
+def _temperature_range(spec: dict, thermal) -> "TemperatureRange | None":
     if not spec:
         return None
     check_table(spec, schema.TEMPERATURE_RANGE, "temperature")
@@ -301,10 +300,6 @@ def _temperature_range(spec: dict, thermal, solve) -> "TemperatureRange | None":
     if thermal is None:
         raise InputError("a temperature range needs the materials' drift: give a region a "
                          "tce or an expansion, or the walls an expansion",
-                         field="temperature")
-    if solve.azimuthal_orders is not None:
-        raise InputError("the temperature range is solved in 3D only so far; drop "
-                         "azimuthal_orders (the df/dT of every mode is given on sections)",
                          field="temperature")
     v = {k: read(spec, k, schema.TEMPERATURE_RANGE, "temperature")
          for k in schema.TEMPERATURE_RANGE.keys}

@@ -189,19 +189,21 @@ def _layout(case) -> Layout:
 
 
 def with_temperature_range(case, result, progress=None):
-    """``result`` (3D) whose modes' ``temperature`` also holds the frequency at every
-    temperature of the case's [temperature] range: each one a full solve, without
-    re-meshing, of the part at T - T_ref: every region's ε_r times (1 + τε ΔT) (per direction
-    for a uniaxial tce), the whole mesh scaled by (1 + α_h ΔT) (the housing), a part that
-    grows unlike the housing morphed onto its grown shape; each mode followed by its field
-    from the reference solve outwards, temperature by temperature."""
+    """``result`` (3D, or of a body of revolution on its section) whose modes'
+    ``temperature`` also holds the frequency at every temperature of the case's
+    [temperature] range: each one a full solve, without re-meshing, of the part at
+    T - T_ref: every region's ε_r times (1 + τε ΔT) (per direction for a uniaxial tce), the
+    whole mesh (or section) scaled by (1 + α_h ΔT) (the housing), a part that grows unlike
+    the housing morphed onto its grown shape (3D); each mode followed by its field from the
+    reference solve outwards, temperature by temperature."""
     spec, span = case.temperature, case.temperature_range
     if case.symmetry:
         raise InputError("the temperature range solves the whole part: drop [symmetry]",
                          field="temperature")
     layout = _layout(case) if case.geometry.builder else None
     growth = relative_growth(spec, layout)
-    mesh = result.space.model.mesh
+    on_section = getattr(result, "spaces", None) is not None
+    mesh = result.mesh if on_section else result.space.model.mesh
     count = len(result.modes)
     temperatures = sorted(span.temperatures_k)
     reference = span.reference_k
@@ -210,7 +212,8 @@ def with_temperature_range(case, result, progress=None):
                   [t for t in reversed(temperatures) if t < reference]):
         previous, index = result, list(range(count))    # reference mode k -> its index there
         for t in chain:
-            solved = _solve_at(case, result, mesh, layout, growth, t - reference)
+            solved = (_solve_section_at(case, result, mesh, t - reference) if on_section
+                      else _solve_at(case, result, mesh, layout, growth, t - reference))
             partner = result_partners(previous, solved)
             successor = {int(p): j for j, p in enumerate(partner) if p >= 0}
             index = [None if i is None else successor.get(i) for i in index]
@@ -235,11 +238,28 @@ def _solve_at(case, result, mesh, layout, growth: dict[str, float], dt: float):
     if growth:
         mesh = morph(mesh, layout, grown_layout(layout, growth, dt))
     mesh = replace(mesh, points=mesh.points * (1 + spec.housing_expansion * dt))
-    regions = {name: _material_at(material, spec.tce.get(name), dt)
-               for name, material in case.regions.items()}
-    model = case_model(replace(case, regions=regions), mesh)
+    model = case_model(replace(case, regions=_regions_at(case, dt)), mesh)
     return solve_model(model, modes=len(result.modes) + 3, near_hz=result.near_hz,
                        form=result.form, order=result.order)
+
+
+def _solve_section_at(case, result, section, dt: float):
+    """The body of revolution at ΔT = ``dt``, on the reference section scaled by the
+    housing's growth (its parts grow with the housing: with_temperature_drift refuses
+    others on a section), every azimuthal order of the reference solve."""
+    from .axisymmetric.runner import case_section_model
+    from .axisymmetric.solve import solve_axisymmetric
+
+    spec = case.temperature
+    section = replace(section, points=section.points * (1 + spec.housing_expansion * dt))
+    model = case_section_model(replace(case, regions=_regions_at(case, dt)), section)
+    return solve_axisymmetric(model, orders=tuple(result.spaces), modes=len(result.modes) + 3,
+                              near_hz=result.near_hz, order=result.order, form=result.form)
+
+
+def _regions_at(case, dt: float) -> dict:
+    return {name: _material_at(material, case.temperature.tce.get(name), dt)
+            for name, material in case.regions.items()}
 
 
 def _material_at(material, tce, dt: float):
