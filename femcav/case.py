@@ -660,7 +660,7 @@ def _absorbing_regions(regions: dict[str, Material], tables: dict, geometry: Geo
                        solve_table: dict) -> dict[str, Material]:
     """[regions.NAME] pml and pml_strength: those regions become perfectly matched layers
     (fem.absorber). An open builder's shell is one by default, with or without a table of
-    its own. Refused for bodies of revolution and with error bars (not available yet)."""
+    its own. Refused with error bars (not available yet)."""
     from .fem.absorber import DEFAULT_STRENGTH, AbsorbingMaterial
     from .geometry.open_space import shell_layers
 
@@ -676,10 +676,6 @@ def _absorbing_regions(regions: dict[str, Material], tables: dict, geometry: Geo
                                  '"spherical", "cylindrical" or "cartesian"',
                                  field=f"{where}.pml_strength")
             continue
-        if "azimuthal_orders" in solve_table:
-            raise InputError("absorbing regions (pml) are available for 3D solves only so "
-                             "far; drop azimuthal_orders to solve the open part in 3D",
-                             field=f"{where}.pml" if "pml" in table else "solve.azimuthal_orders")
         bars = next((k for k in ("error_estimate", "accuracy") if solve_table.get(k)), None)
         if bars:
             # measured on the sphere: the mesh sequence re-meshes the layer too, and its
