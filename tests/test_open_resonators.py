@@ -480,15 +480,16 @@ def nearest_of_order(modes, m: int, f_exact: complex):
 # Order 3 on curved triangles, 2 mm in the sphere, 6 mm outside, clearance and layer 20 mm
 # each, default strength; measured (df, dQ): 36 TE m=0 (+5e-6, +7e-5), m=1 (+3e-6, +4e-5);
 # 36 TM (+5e-7, -7e-5); 80 TE (+6e-6, -6.1e-4); 80 TM m=0 (+1e-6, -1.1e-4), m=1 (+3e-6,
-# -1.5e-4).
-@pytest.mark.parametrize("eps_r, kind, orders", [(36.0, "TE", (0, 1)), (36.0, "TM", (0,)),
-                                                 (80.0, "TE", (0,)), (80.0, "TM", (0, 1))])
+# -1.5e-4); H form 36 TE (-1.7e-6, -2.4e-5).
+@pytest.mark.parametrize("eps_r, kind, orders, form", [
+    (36.0, "TE", (0, 1), "E"), (36.0, "TM", (0,), "E"), (80.0, "TE", (0,), "E"),
+    (80.0, "TM", (0, 1), "E"), (36.0, "TE", (0,), "H")])
 def test_dielectric_sphere_on_its_section_against_the_exact_complex_resonance(eps_r, kind,
-                                                                              orders):
+                                                                              orders, form):
     exact = exact_sphere_mode(eps_r, kind)
     q_exact = exact.real / (2 * exact.imag)
     result = solve_section(section_sphere(eps_r), orders=orders, modes=2 * len(orders),
-                           near_hz=exact.real)
+                           near_hz=exact.real, form=form)
     for m in orders:
         mode = nearest_of_order(result.modes, m, exact)
         # issue 19 asks 1e-4; 3e-5 also catches a frequency taken from Re k0² instead of
@@ -687,3 +688,13 @@ def test_open_section_case_default_target_layer_modes_and_layer_check(tmp_path, 
     assert all(m.absorber_energy_share <= LAYER_SHARE_LIMIT for m in result.modes)
     assert result.layer_modes and all(
         m.absorber_energy_share > LAYER_SHARE_LIMIT for m in result.layer_modes)
+    # fields.vtu of a section (revolved): the layer marked as in 3D
+    import meshio
+
+    from femcav.axisymmetric.revolve import write_revolved_vtu
+
+    write_revolved_vtu(result, tmp_path / "fields.vtu")
+    cells = meshio.read(tmp_path / "fields.vtu").cell_data
+    section = result.mesh
+    layer = section.tri_region == section.region_names["absorber"]
+    assert np.array_equal(cells["absorber"][0][:layer.size], layer.astype(int))
