@@ -711,6 +711,9 @@ def _open_part(spec: dict, geometry: GeometrySpec, regions: dict[str, Material],
                              "region with [regions.NAME] pml", field="open")
         return geometry
     values = {key: read(spec, key, schema.OPEN, "open") for key in schema.OPEN.keys}
+    if values["shape"] == "box" and solve.azimuthal_orders is not None:
+        raise InputError('a box shell is no body of revolution: with azimuthal_orders use '
+                         'shape = "sphere" or "cylinder"', field="open.shape")
     frequency = solve.near_hz
     if frequency is None:
         part = regions.get(builder.NEEDS_MATERIAL[0], VACUUM)

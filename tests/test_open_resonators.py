@@ -408,6 +408,13 @@ def test_case_keys_make_absorbing_regions(tmp_path):
     with pytest.raises(InputError) as error:
         case_from_data({**_case(tmp_path, {}), "open": {"shape": "cone"}}, path)
     assert error.value.field == "open.shape"
+    # on a section: the sphere and cylinder shells are bodies of revolution, a box is not
+    data = _case(tmp_path, {}, {"azimuthal_orders": [0]})
+    case = case_from_data({**data, "open": {"shape": "cylinder"}}, path)
+    assert case.regions["absorber"].pml == "cylindrical"
+    with pytest.raises(InputError, match="no body of revolution") as error:
+        case_from_data({**data, "open": {"shape": "box"}}, path)
+    assert error.value.field == "open.shape"
 
 
 def test_open_results_in_the_table_json_csv_and_fields(tmp_path):

@@ -178,8 +178,11 @@ FORMS = {name: BilinearForm(form, dtype=complex) for name, form in (
 
 def _weights(rz: np.ndarray, phi: np.ndarray, c: np.ndarray, cz: np.ndarray | None,
              swap: bool) -> dict:
-    """rz @ diag(c along r, c along z) and phi c; ``swap``: the stiffness's w-part, whose r
-    entry takes the z direction's coefficient (the meridional curl turns w a quarter)."""
+    """The form weights rr, rz, zz of rz @ diag(c, cz) (cz: the z direction's coefficient,
+    c where None) and phi c; with ``swap`` rz @ diag(cz, c): the stiffness's w-part, whose
+    r entry takes the z direction's coefficient (the meridional curl turns w a quarter). rz
+    is diagonal wherever cz differs from c (absorbing regions are isotropic), so the result
+    stays symmetric."""
     cz = c if cz is None else cz
     first, second = (cz, c) if swap else (c, cz)
     return {"rr": rz[0, 0] * first, "rz": rz[0, 1] * first, "zz": rz[1, 1] * second,

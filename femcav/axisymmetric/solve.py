@@ -126,10 +126,11 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
         K, M = assemble_order(space)
         G = kernel_basis(space)
         if (complex_pencil or complex_check) and space.constraint.dtype.kind == "c":
-            raise InputError("losses inside the solve (and the complex check) of a periodic "
-                             "cell at a phase other than 0 or 180 deg give a pencil that is "
-                             "neither Hermitian nor complex symmetric: not available; use the "
-                             "perturbation Q", option="losses_inside")
+            raise InputError("losses inside the solve (and the complex check, or an "
+                             "absorbing layer) of a periodic cell at a phase other than 0 or "
+                             "180 deg give a pencil that is neither Hermitian nor complex "
+                             "symmetric: not available; use the perturbation Q",
+                             option="losses_inside")
         if losses_inside:
             K, M = _lossy_pencil(space, K, M)
         timings["assembly_s"] += time.perf_counter() - t0
