@@ -655,7 +655,7 @@ def _absorbing_regions(regions: dict[str, Material], tables: dict, geometry: Geo
                        solve_table: dict) -> dict[str, Material]:
     """[regions.NAME] pml and pml_strength: those regions become perfectly matched layers
     (fem.absorber). An open builder's shell is one by default, with or without a table of
-    its own. Refused for bodies of revolution and with error bars (not available yet)."""
+    its own. Refused with error bars (not available yet)."""
     from .fem.absorber import DEFAULT_STRENGTH, AbsorbingMaterial
     from .geometry.open_space import shell_layers
 
@@ -671,10 +671,6 @@ def _absorbing_regions(regions: dict[str, Material], tables: dict, geometry: Geo
                                  '"spherical", "cylindrical" or "cartesian"',
                                  field=f"{where}.pml_strength")
             continue
-        if "azimuthal_orders" in solve_table:
-            raise InputError("absorbing regions (pml) are available for 3D solves only so "
-                             "far; drop azimuthal_orders to solve the open part in 3D",
-                             field=f"{where}.pml" if "pml" in table else "solve.azimuthal_orders")
         bars = next((k for k in ("error_estimate", "accuracy") if solve_table.get(k)), None)
         if bars:
             # measured on the sphere: the mesh sequence re-meshes the layer too, and its
@@ -710,6 +706,9 @@ def _open_part(spec: dict, geometry: GeometrySpec, regions: dict[str, Material],
                              "region with [regions.NAME] pml", field="open")
         return geometry
     values = {key: read(spec, key, schema.OPEN, "open") for key in schema.OPEN.keys}
+    if values["shape"] == "box" and solve.azimuthal_orders is not None:
+        raise InputError('a box shell is no body of revolution: with azimuthal_orders use '
+                         'shape = "sphere" or "cylinder"', field="open.shape")
     frequency = solve.near_hz
     if frequency is None:
         part = regions.get(builder.NEEDS_MATERIAL[0], VACUUM)

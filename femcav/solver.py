@@ -23,8 +23,8 @@ from .model import Model
 from .fem.absorber import has_absorber, with_stronger_layers   # open problems (issue 19)
 from .fem.open_target import open_problem_target
 from .post.checks import ModeChecks
-from .post.radiation import (LAYER_SHARE_LIMIT, MOVE_LIMIT, STRENGTH_CHANGE, moved_modes,
-                             split_layer_modes)
+from .post.radiation import (STRENGTH_CHANGE, moved_modes, split_layer_modes,
+                             warn_layer_modes)
 from .post.loss_validity import with_complex_warnings, with_loss_warnings
 from .post.losses import LossReport, has_losses, metal_faces, mode_losses
 from .post.resolution import Resolution, edge_space_energy, edge_space_scales, mode_resolution
@@ -251,12 +251,7 @@ def _without_layer_modes(result: SolveResult, losses_inside: bool, layer_check: 
                       f"layers are {STRENGTH_CHANGE:g} times stronger")
     kept, layer = split_layer_modes(result.space, result.modes, losses_inside=losses_inside,
                                     moved=moved)
-    if layer:
-        progress.warn(f"{len(layer)} of {len(result.modes)} modes live in the absorbing layer "
-                      f"(more than {LAYER_SHARE_LIMIT:.0%} of their energy there"
-                      + (f", or moving by more than {MOVE_LIMIT:.0%} with its strength"
-                         if moved else "") + "): left out of the table, kept in modes.json "
-                      "under layer_modes")
+    warn_layer_modes(progress, len(layer), len(result.modes), bool(moved))
     return replace(result, modes=kept, layer_modes=layer)
 
 

@@ -272,8 +272,14 @@ def puck_mode(shape: str):
     return min(result.modes, key=lambda m: abs(m.frequency_hz - estimate))
 
 
-def test_isolated_puck_te01_against_the_approximate_formula():
-    mode = puck_mode("spherical")
+@pytest.fixture(scope="module")
+def puck_in_3d():
+    """The puck's TE01δ mode in 3D (spherical layer): one solve for the tests that use it."""
+    return puck_mode("spherical")
+
+
+def test_isolated_puck_te01_against_the_approximate_formula(puck_in_3d):
+    mode = puck_in_3d
     # measured +1.0 %, inside the formula's own ±2 %
     assert abs(mode.frequency_hz / puck_te01_estimate() - 1) < 0.025
     assert 10 < mode.q_radiation < 200 and mode.absorber_energy_share < 0.05
@@ -390,7 +396,6 @@ def test_case_keys_make_absorbing_regions(tmp_path):
             ({"absorber": {"pml_strength": -1}}, None, "regions.absorber.pml_strength"),
             ({"absorber": {"pml": "spherical", "eps_r": "1 + x"}}, None,
              "regions.absorber.eps_r"),
-            ({}, {"azimuthal_orders": [0]}, "solve.azimuthal_orders"),
             ({}, {"error_estimate": True}, "solve.error_estimate")]:
         with pytest.raises(InputError) as error:
             case_from_data(_case(tmp_path, regions, solve), path)
@@ -403,18 +408,13 @@ def test_case_keys_make_absorbing_regions(tmp_path):
     with pytest.raises(InputError) as error:
         case_from_data({**_case(tmp_path, {}), "open": {"shape": "cone"}}, path)
     assert error.value.field == "open.shape"
-
-
-def test_a_body_of_revolution_refuses_absorbing_regions():
-    from femcav.axisymmetric.model import make_axisymmetric_model
-    from femcav.geometry import builder_layout
-    from femcav.geometry.section import mesh_section
-
-    section = mesh_section(builder_layout("pillbox", {"radius": 0.01, "length": 0.01}),
-                           Sizing(size=0.004))
-    with pytest.raises(InputError, match="3D solves only") as error:
-        make_axisymmetric_model(section, {"inside": AbsorbingMaterial(pml="cylindrical")}, {})
-    assert error.value.field == "regions.inside.pml"
+    # on a section: the sphere and cylinder shells are bodies of revolution, a box is not
+    data = _case(tmp_path, {}, {"azimuthal_orders": [0]})
+    case = case_from_data({**data, "open": {"shape": "cylinder"}}, path)
+    assert case.regions["absorber"].pml == "cylindrical"
+    with pytest.raises(InputError, match="no body of revolution") as error:
+        case_from_data({**data, "open": {"shape": "box"}}, path)
+    assert error.value.field == "open.shape"
 
 
 def test_open_results_in_the_table_json_csv_and_fields(tmp_path):
@@ -450,3 +450,258 @@ def test_open_results_in_the_table_json_csv_and_fields(tmp_path):
         "absorber"]
     assert np.array_equal(cells["absorber"][0], layer.astype(int))
     assert not np.iscomplexobj(cells["m01_E"][0]) and np.all(cells["m01_we"][0] >= 0)
+
+
+# --- Bodies of revolution: the same open parts on their meridional section -----------------
+# (axisymmetric.absorber: the stretch seen on the (r, z) half-plane). The sphere's n = 1
+# modes are three-fold degenerate: along z they are m = 0 (TE: E_φ alone; TM: H_φ alone),
+# across z the pair m = 1 (Stratton, Electromagnetic Theory, 1941, §9.22: the dipole fields).
+
+def section_sphere(eps_r: float, inside=0.002, outside=0.006, clearance=0.02,
+                   thickness=0.02, absorber: Material | None = None, shell="sphere"):
+    from femcav.axisymmetric.model import make_axisymmetric_model
+    from femcav.geometry import builder_layout
+    from femcav.geometry.section import mesh_section
+
+    sizes = {"sphere": inside, "absorber": min(outside, thickness / 3)}
+    section = mesh_section(builder_layout("sphere", {
+        "radius": RADIUS, "clearance": clearance, "absorber_thickness": thickness,
+        "shell": shell}),
+        Sizing(size=outside, region_sizes=sizes, curved=True))
+    layer = absorber if absorber is not None else AbsorbingMaterial(pml="spherical")
+    return make_axisymmetric_model(section, {"sphere": Material(eps_r=eps_r), "air": VACUUM,
+                                             "absorber": layer}, {})
+
+
+def solve_section(model, **options):
+    from femcav.axisymmetric.solve import solve_axisymmetric
+
+    return solve_axisymmetric(model, **{"order": 3, **options})
+
+
+def nearest_of_order(modes, m: int, f_exact: complex):
+    return min((x for x in modes if x.m == m), key=lambda x: abs(x.complex_frequency_hz
+                                                                  - f_exact))
+
+
+# Order 3 on curved triangles, 2 mm in the sphere, 6 mm outside, clearance and layer 20 mm
+# each, default strength; measured (df, dQ): 36 TE m=0 (+5e-6, +7e-5), m=1 (+3e-6, +4e-5);
+# 36 TM (+5e-7, -7e-5); 80 TE (+6e-6, -6.1e-4); 80 TM m=0 (+1e-6, -1.1e-4), m=1 (+3e-6,
+# -1.5e-4); H form 36 TE (-1.7e-6, -2.4e-5).
+@pytest.mark.parametrize("eps_r, kind, orders, form", [
+    (36.0, "TE", (0, 1), "E"), (36.0, "TM", (0,), "E"), (80.0, "TE", (0,), "E"),
+    (80.0, "TM", (0, 1), "E"), (36.0, "TE", (0,), "H")])
+def test_dielectric_sphere_on_its_section_against_the_exact_complex_resonance(eps_r, kind,
+                                                                              orders, form):
+    exact = exact_sphere_mode(eps_r, kind)
+    q_exact = exact.real / (2 * exact.imag)
+    result = solve_section(section_sphere(eps_r), orders=orders, modes=2 * len(orders),
+                           near_hz=exact.real, form=form)
+    for m in orders:
+        mode = nearest_of_order(result.modes, m, exact)
+        # issue 19 asks 1e-4; 3e-5 also catches a frequency taken from Re k0² instead of
+        # Re f (they differ by 1/(8 Q²): 6.7e-5 at Q = 43)
+        assert abs(mode.frequency_hz / exact.real - 1) < 3e-5
+        assert abs(mode.q_radiation / q_exact - 1) < 0.01                # issue 19's 1 %
+        assert mode.q_radiation == mode.q_eigenvalue
+        assert mode.absorber_energy_share < 0.05 and mode.checks.passed
+        if m == 0:
+            assert mode.field_class == {"TE": "TE-like", "TM": "TM-like"}[kind]
+
+
+def test_section_q_converges_as_the_layer_thickens():
+    # the eps_r 80 TE mode, order 3 (measured dQ: -37 %, -5.8 %, -0.06 % for 5, 10, 20 mm;
+    # the layer's reflection falls as exp(-2 σ k d), fem.absorber)
+    exact = exact_sphere_mode(80.0, "TE")
+    errors = []
+    for thickness in (0.005, 0.01, 0.02):
+        mode = nearest_of_order(solve_section(section_sphere(80.0, thickness=thickness),
+                                              orders=(0,), modes=2,
+                                              near_hz=exact.real).modes, 0, exact)
+        errors.append(abs(mode.q_radiation / (exact.real / (2 * exact.imag)) - 1))
+    assert errors[0] > errors[1] > errors[2] and errors[2] < 2e-3
+
+
+def test_section_frequency_and_q_converge_as_the_mesh_refines():
+    # order 2, sizes halved (measured df: 3.7e-3, 2.9e-4, 3.8e-5; dQ 1.7 %, 0.14 %, 0.06 %)
+    exact = exact_sphere_mode(80.0, "TE")
+    errors = []
+    for inside, outside in ((0.004, 0.012), (0.002, 0.006), (0.001, 0.003)):
+        mode = nearest_of_order(solve_section(section_sphere(80.0, inside, outside),
+                                              orders=(0,), modes=2, near_hz=exact.real,
+                                              order=2).modes, 0, exact)
+        errors.append((abs(mode.frequency_hz / exact.real - 1),
+                       abs(mode.q_radiation / (exact.real / (2 * exact.imag)) - 1)))
+    assert errors[0][0] > 4 * errors[1][0] > 16 * errors[2][0]
+    assert errors[0][1] > errors[1][1] > errors[2][1] and errors[2][1] < 2e-3
+
+
+def section_puck(shell: str):
+    """The puck of the 3D tests on its section: the same air and layer (10 mm each)."""
+    from femcav.axisymmetric.model import make_axisymmetric_model
+    from femcav.geometry import builder_layout
+    from femcav.geometry.section import mesh_section
+
+    section = mesh_section(builder_layout("puck", {
+        **PUCK, "clearance": 0.01, "absorber_thickness": 0.01, "shell": shell}),
+        Sizing(size=0.005, region_sizes={"puck": 0.002}, curved=True))
+    shape = {"sphere": "spherical", "cylinder": "cylindrical"}[shell]
+    return make_axisymmetric_model(section, {"puck": Material(eps_r=PUCK_EPS), "air": VACUUM,
+                                             "absorber": AbsorbingMaterial(pml=shape)}, {})
+
+
+def section_puck_mode(shell: str):
+    estimate = puck_te01_estimate()
+    result = solve_section(section_puck(shell), orders=(0,), modes=3, near_hz=estimate)
+    return min(result.modes, key=lambda m: abs(m.frequency_hz - estimate))
+
+
+def test_isolated_puck_on_its_section_against_the_formula_and_3d(puck_in_3d):
+    mode = section_puck_mode("sphere")
+    assert mode.field_class == "TE-like"                        # TE01δ: E_φ alone
+    # Kajfez and Guillon's ±2 % (measured +0.82 %)
+    assert abs(mode.frequency_hz / puck_te01_estimate() - 1) < 0.025
+    # the 3D solve of the same part, order 2, within issue 19's 3D tolerances of the far
+    # finer section (measured: 3D f 0.21 % above, Q 0.95 % above)
+    assert abs(puck_in_3d.frequency_hz / mode.frequency_hz - 1) < 1e-2
+    assert abs(puck_in_3d.q_radiation / mode.q_radiation - 1) < 0.05
+
+
+def test_a_cylindrical_layer_on_a_section():
+    # the sphere in a can-shaped layer (r stretched beyond its side, z beyond its caps, both
+    # in its corners): the TM mode (E in the meridional plane, so every entry of the 2x2
+    # tensor acts) against the exact root to the issue's 1e-4 and 1 % (measured +1.3e-7,
+    # -1.0e-4)
+    exact = exact_sphere_mode(36.0, "TM")
+    model = section_sphere(36.0, absorber=AbsorbingMaterial(pml="cylindrical"),
+                           shell="cylinder")
+    mode = nearest_of_order(solve_section(model, orders=(0,), modes=2,
+                                          near_hz=exact.real).modes, 0, exact)
+    assert abs(mode.frequency_hz / exact.real - 1) < 1e-4
+    assert abs(mode.q_radiation / (exact.real / (2 * exact.imag)) - 1) < 0.01
+
+
+def test_a_closed_sphere_on_its_section_through_the_complex_path():
+    # the sphere in a PEC ball of radius b = 50 mm (the shell plain air): its TE mode from
+    # the characteristic equation of the closed problem, E_φ ∝ j1(k1 r) inside and
+    # ∝ y1(k0 b) j1(k0 r) - j1(k0 b) y1(k0 r) outside (zero at b), tangential E and H
+    # continuous at a (Stratton, 1941, §9.22; scipy's spherical Bessel functions, brentq).
+    # The complex-symmetric path (losses inside, no loss) must give the same mode with a
+    # Q beyond 1e8: no radiation from a closed part.
+    from scipy.optimize import brentq
+
+    from femcav.post.radiation import radiation_q
+
+    a, b, eps_r = RADIUS, 0.05, 36.0
+
+    def ratio(f, x):       # [x f(x)]' / f(x)
+        return (f(x) + x * f(x, True)) / f(x)
+
+    def characteristic(k0):
+        outer = lambda x, d=False: (spherical_yn(1, k0 * b) * spherical_jn(1, x, d)
+                                    - spherical_jn(1, k0 * b) * spherical_yn(1, x, d))
+        inner = lambda x, d=False: spherical_jn(1, x, d)
+        return ratio(inner, math.sqrt(eps_r) * k0 * a) - ratio(outer, k0 * a)
+
+    open_guess = exact_sphere_mode(eps_r, "TE").real * 2 * math.pi / C0
+    k0 = brentq(characteristic, 0.97 * open_guess, 1.03 * open_guess)   # measured: one root
+    f_closed = C0 * k0 / (2 * math.pi)
+    model = section_sphere(eps_r, absorber=VACUUM)
+    real = min(solve_section(model, orders=(0,), modes=2, near_hz=f_closed).modes,
+               key=lambda x: abs(x.frequency_hz - f_closed))
+    assert real.frequency_hz == pytest.approx(f_closed, rel=2e-5)     # measured +4.4e-6
+    lossless = nearest_of_order(solve_section(model, orders=(0,), modes=2, near_hz=f_closed,
+                                              losses_inside=True).modes, 0, f_closed)
+    assert lossless.frequency_hz == pytest.approx(real.frequency_hz, rel=1e-9)
+    assert radiation_q(lossless, losses_inside=True) > 1e8
+
+
+def test_a_section_finds_its_layers():
+    from femcav.axisymmetric.absorber import find_section_layers
+
+    a, h = PUCK["radius"], PUCK["height"]
+    (can,) = find_section_layers(section_puck("cylinder"))
+    assert can.shape == "cylindrical" and np.allclose(can.centre, 0)
+    assert can.inner_high[:2] == pytest.approx([a + 0.01, h / 2 + 0.01], rel=1e-9)
+    assert can.inner_low[1] == pytest.approx(-h / 2 - 0.01, rel=1e-9)
+    assert can.depth_high[:2] == pytest.approx([0.01, 0.01], rel=1e-9)
+    assert can.depth_low[1] == pytest.approx(0.01, rel=1e-9)
+    (ball,) = find_section_layers(section_puck("sphere"))
+    assert ball.inner_high[0] == pytest.approx(math.hypot(a, h / 2) + 0.01, rel=1e-6)
+    assert ball.depth_high[0] == pytest.approx(0.01, rel=1e-6)
+    assert abs(ball.centre[2]) < 1e-9
+    # a box is no body of revolution: refused on a section
+    from femcav.geometry import builder_layout
+    from femcav.geometry.section import mesh_section
+
+    with pytest.raises(InputError, match="not a body of revolution"):
+        mesh_section(builder_layout("puck", {**PUCK, "shell": "box"}), Sizing(size=0.004))
+
+
+def test_stretch_on_a_section_is_the_3d_stretch_in_its_frame():
+    # Λ of a spherical layer in the (r̂, φ̂, ẑ) frame: (ρ̃²/(ρ² s)) ρ̂ρ̂ᵀ + s (I - ρ̂ρ̂ᵀ)
+    # (Teixeira and Chew 1997), so Λ_t/det Λ_t and 1/Λ_φφ = 1/s (stiffness) and Λ_t, s
+    # (mass) at a point of the layer
+    from femcav.axisymmetric.absorber import find_section_layers, section_stretch
+    from femcav.axisymmetric.space import build_order_space
+
+    model = section_puck("sphere")
+    space = build_order_space(model, 0, 2)
+    stretch = section_stretch(model, space.edge_basis)
+    (layer,) = find_section_layers(model)
+    x = space.edge_basis.mapping.F(space.edge_basis.X)
+    rho = np.hypot(x[0], x[1])
+    deep = np.unravel_index(np.argmax(rho), rho.shape)      # the point deepest in the layer
+    r, z, dist = x[0][deep], x[1][deep], rho[deep]
+    xi = (dist - layer.inner_high[0]) / layer.depth_high[0]
+    s = 1 - 3j * layer.strength * xi**2
+    rho_t = dist - 1j * layer.strength * layer.depth_high[0] * xi**3
+    unit = np.array([r, z]) / dist
+    lam = rho_t**2 / (dist**2 * s) * np.outer(unit, unit) + s * (np.eye(2)
+                                                                 - np.outer(unit, unit))
+    assert np.allclose(stretch.mass_rz[(slice(None), slice(None), *deep)], lam, rtol=1e-12)
+    assert stretch.mass_phi[deep] == pytest.approx(s, rel=1e-12)
+    assert np.allclose(stretch.stiffness_rz[(slice(None), slice(None), *deep)],
+                       lam / np.linalg.det(lam), rtol=1e-12)
+    assert stretch.stiffness_phi[deep] == pytest.approx(1 / s, rel=1e-12)
+    # outside the layer: the identity
+    air = model.section.tri_region != model.section.region_names["absorber"]
+    assert np.allclose(stretch.mass_rz[:, :, air], np.eye(2)[:, :, None, None])
+
+
+def test_open_section_case_default_target_layer_modes_and_layer_check(tmp_path, capsys):
+    from femcav.axisymmetric.runner import solve_axisymmetric_case
+    from femcav.progress import Progress
+
+    data = {"title": "Larkspur Microwave Works: ceramic sphere on its section (made-up "
+                     "scenario)",
+            "geometry": {"builder": "sphere", "radius": "10 mm"},
+            "mesh": {"size": "6 mm", "curved": True},
+            "regions": {"sphere": {"eps_r": 36, "mesh_size": "3 mm"}},
+            "open": {"shape": "sphere"},
+            "solve": {"azimuthal_orders": [0], "modes": 4, "layer_check": True}}
+    case = case_from_data(data, tmp_path / "sphere.toml")
+    result = solve_axisymmetric_case(case, case.solve, Progress())
+    err = capsys.readouterr().err
+    assert "open problem without [solve] near: looking near" in err
+    assert "spherical layer" in err and "layer check:" in err
+    exact = {kind: exact_sphere_mode(36.0, kind) for kind in ("TE", "TM")}
+    # c / (n D) for the 20 mm sphere at eps_r 36, within 3 % of the TE mode (k1 a = 3.07)
+    assert abs(result.near_hz / exact["TE"].real - 1) < 0.03
+    for kind, f in exact.items():    # both dipole modes in the table, to the issue's 1e-4
+        mode = nearest_of_order(result.modes, 0, f)
+        assert abs(mode.frequency_hz / f.real - 1) < 1e-4
+    assert len(result.modes) + len(result.layer_modes) == 4
+    assert all(m.absorber_energy_share <= LAYER_SHARE_LIMIT for m in result.modes)
+    assert result.layer_modes and all(
+        m.absorber_energy_share > LAYER_SHARE_LIMIT for m in result.layer_modes)
+    # fields.vtu of a section (revolved): the layer marked as in 3D
+    import meshio
+
+    from femcav.axisymmetric.revolve import write_revolved_vtu
+
+    write_revolved_vtu(result, tmp_path / "fields.vtu")
+    cells = meshio.read(tmp_path / "fields.vtu").cell_data
+    section = result.mesh
+    layer = section.tri_region == section.region_names["absorber"]
+    assert np.array_equal(cells["absorber"][0][:layer.size], layer.astype(int))

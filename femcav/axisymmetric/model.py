@@ -9,7 +9,6 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import InputError
-from ..fem.absorber import AbsorbingMaterial
 from ..geometry.meridional import AXIS, MeridionalMesh
 from ..materials import Material
 from ..model import PERIODIC, PeriodicPair, check_wall
@@ -56,9 +55,6 @@ def make_axisymmetric_model(section: MeridionalMesh, materials: dict[str, Materi
                              source=source, field=f"walls.{name}")
         check_wall(name, wall, source)
     for name, material in materials.items():
-        if isinstance(material, AbsorbingMaterial):     # fem.absorber stretches 3D fields
-            raise InputError("absorbing regions (pml) are available for 3D solves only so "
-                             "far", source=source, field=f"regions.{name}.pml")
         rz = section.points[np.unique(section.triangles[section.tri_region
                                                         == section.region_names[name]])]
         points = np.column_stack([rz[:, 0], np.zeros(len(rz)), rz[:, 1]])

@@ -6,7 +6,8 @@ fields at each wedge's centre (the triangle's centroid at the wedge's mid-angle)
 stored energy, with the same names as the 3D file: ``region``, and per mode K ``mK_E``
 (V/m), ``mK_H`` (A/m, in quadrature with E), ``mK_we`` and ``mK_wm`` (J/m³). For m >= 1
 one member of the pair is shown: the one whose carried field (E in the E form, H in the H
-form) has its r and z components ∝ cos mφ and its φ component ∝ sin mφ.
+form) has its r and z components ∝ cos mφ and its φ component ∝ sin mφ. ``absorber`` (1 in
+absorbing regions) marks an open part's layer.
 """
 
 from __future__ import annotations
@@ -17,6 +18,7 @@ from pathlib import Path
 import numpy as np
 from scipy.constants import epsilon_0, mu_0
 
+from ..fem.absorber import absorbing_regions
 from ..post.fields import most_real_phase
 from .model import axial_uniaxial
 from .solve import AxisymmetricResult
@@ -82,6 +84,10 @@ def revolved_grid(result: AxisymmetricResult, segments: int = SEGMENTS):
                              for k in range(segments)])
     mid = phis + math.pi / segments
     data = {"region": np.tile(section.tri_region, segments).astype("int32")}
+    absorbing = [section.region_names[name] for name in absorbing_regions(space0.model)]
+    if absorbing:    # an open part's layer, marked as in the 3D file
+        data["absorber"] = np.tile(np.isin(section.tri_region, absorbing),
+                                   segments).astype("int32")
     for mode in result.modes:
         space = result.spaces[mode.m]
         F, curl, eps, mu, eps_z = _centroid_fields(space, mode.dofs)

@@ -77,7 +77,8 @@ def solve_axisymmetric_case(case: Case, settings, progress: Progress) -> Axisymm
                                     order=settings.order, factorization=settings.factorization,
                                     complex_check=settings.complex_check,
                                     losses_inside=settings.losses_inside,
-                                    form=settings.form or "E", progress=progress)
+                                    form=settings.form or "E",
+                                    layer_check=settings.layer_check, progress=progress)
         return label_cells(case, result, progress)
     except InputError as exc:
         raise in_case(exc, str(case.path)) from None

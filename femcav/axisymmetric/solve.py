@@ -11,6 +11,7 @@ from __future__ import annotations
 import math
 import time
 from dataclasses import dataclass, field, replace
+from functools import partial
 
 import numpy as np
 from scipy.constants import c as C0
@@ -20,6 +21,7 @@ from ..eigen.complex_shift_invert import with_complex_frequencies
 from ..eigen.factorization import describe
 from ..eigen.interface import EigenRequest, EigenStats
 from ..errors import InputError
+from ..fem.absorber import has_absorber
 from ..materials import tan_delta_by_cell
 from ..post.fields import most_real_phase
 from ..post.loss_validity import with_complex_warnings, with_loss_warnings
@@ -36,6 +38,8 @@ from ..solver import (
 )
 from .losses import cell_energy, cell_scales, field_class, has_losses, mode_losses
 from .model import AxisymmetricModel
+from .open_section import (section_absorber_share, section_open_target,
+                           without_section_layer_modes)
 from .space import (
     OrderSpace,
     assemble_mass,
@@ -64,6 +68,8 @@ class AxisymmetricResult(ModeVerdicts):
     form: str = "E"
     element_kind = "triangles (meridional section)"
     accuracy: AccuracyReport | None = None     # with a [solve] accuracy target
+    # an open part's modes that live in its absorbing layer (axisymmetric.open_section)
+    layer_modes: list[Mode] = field(default_factory=list)
     static_fields_dropped = 0
     classes = ()
     coupling = ()    # coupling coefficients are found in 3D (post.coupling)
@@ -87,6 +93,7 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
                        near_hz: float | None = None, order: int = 3,
                        factorization: str = "auto", complex_check: bool = False,
                        losses_inside: bool = False, form: str = "E",
+                       layer_check: bool = False,
                        progress: Progress = SILENT) -> AxisymmetricResult:
     """The lowest ``modes`` modes over the azimuthal ``orders`` (or those nearest
     ``near_hz``), Nédélec/Lagrange elements of ``order``, in the E or H ``form``; with
@@ -94,10 +101,18 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
     ε_r (1 - j tan δ). With ``losses_inside`` that complex solve is the only one: each mode
     has a complex frequency and its Q (``q_eigenvalue``); its stored field is the real part
     at the phase where the field is most nearly real (the imaginary part there is of order
-    tan δ), which the post-processing (losses, class, pictures) reads."""
+    tan δ), which the post-processing (losses, class, pictures) reads. With absorbing
+    regions (an open part, axisymmetric.absorber) the pencil is complex too, the solve
+    looks near ``near_hz`` or a default target, and the layer's modes go to
+    ``layer_modes`` (axisymmetric.open_section; ``layer_check`` solves again with stronger
+    layers)."""
     orders = _checked_orders(orders)
     check_request(modes, near_hz)
-    complex_check = complex_check and not losses_inside   # the one solve is that check
+    open_part = has_absorber(model)
+    if open_part:
+        near_hz = section_open_target(model, near_hz, progress)
+    complex_pencil = losses_inside or open_part
+    complex_check = complex_check and not complex_pencil   # the one solve is that check
     mesh = skfem_mesh(model)
     eps_mu = max(float(np.max(m.eps_at(*_probe(model)) * m.mu_r))
                  for m in model.materials.values())
@@ -110,11 +125,12 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
         space = build_order_space(model, m, order, mesh, form)
         K, M = assemble_order(space)
         G = kernel_basis(space)
-        if (losses_inside or complex_check) and space.constraint.dtype.kind == "c":
-            raise InputError("losses inside the solve (and the complex check) of a periodic "
-                             "cell at a phase other than 0 or 180 deg give a pencil that is "
-                             "neither Hermitian nor complex symmetric: not available; use the "
-                             "perturbation Q", option="losses_inside")
+        if (complex_pencil or complex_check) and space.constraint.dtype.kind == "c":
+            raise InputError("losses inside the solve (and the complex check, or an "
+                             "absorbing layer) of a periodic cell at a phase other than 0 or "
+                             "180 deg give a pencil that is neither Hermitian nor complex "
+                             "symmetric: not available; use the perturbation Q",
+                             option="losses_inside")
         if losses_inside:
             K, M = _lossy_pencil(space, K, M)
         timings["assembly_s"] += time.perf_counter() - t0
@@ -129,7 +145,7 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
         t0 = time.perf_counter()
         # the sections are small: shift-invert (Lanczos, or Arnoldi with losses inside)
         pencil = ClassPencil(K, M, G, lowest_scale=scale, order=order,
-                             hermitian=not losses_inside)
+                             hermitian=not complex_pencil)
         classes[m] = solve_class(pencil, count=count, target=target, method="direct",
                                  factorization=factorization, progress=progress)
         timings["eigen_s"] += time.perf_counter() - t0
@@ -142,15 +158,22 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
         if np.iscomplexobj(value):
             f = complex(C0 * np.sqrt(complex(value)) / (2 * math.pi))
             lossy_values = dict(complex_frequency_hz=f, q_eigenvalue=quality_factor(f))
+            if open_part:   # from the complex field: an outgoing wave is not real anywhere
+                lossy_values["absorber_energy_share"] = section_absorber_share(spaces[m],
+                                                                               vector)
             vector, value = most_real_phase(vector).real, float(value.real)
-        frequency = C0 * math.sqrt(value) / (2 * math.pi)
+        # Re f, not the frequency of Re k0²: they differ by 1/(8 Q²) (6.7e-5 at Q = 43)
+        frequency = (lossy_values["complex_frequency_hz"].real if lossy_values
+                     else C0 * math.sqrt(value) / (2 * math.pi))
         space = spaces[m]
         result_modes.append(Mode(
             index=index, m=m, frequency_hz=frequency, k0_squared=float(value),
             field_class=field_class(space, vector), checks=check, dofs=vector,
             losses=mode_losses(space, vector, frequency) if lossy else None,
             resolution=mode_resolution(frequency, order, *scales,
-                                       cell_energy(space, vector, value)), **lossy_values))
+                                       cell_energy(space, vector,
+                                                   frequency_to_k0_squared(frequency))),
+            **lossy_values))
     result_modes = with_loss_warnings(result_modes, model.walls)
     if model.periodic:    # a periodic cell's modes: the phase advance per cell
         result_modes = [replace(m, phase_advance_rad=model.periodic[0].phase_rad)
@@ -173,6 +196,13 @@ def solve_axisymmetric(model: AxisymmetricModel, *, orders=(0, 1, 2), modes: int
                               eigen_stats_by_class={m: c.stats for m, c in classes.items()})
     if lossy_modes is not None:   # the complex solve's modes, on the same spaces
         result = replace(result, complex_check=replace(result, modes=lossy_modes))
+    if open_part:
+        resolve = partial(solve_axisymmetric, orders=orders, modes=modes, near_hz=near_hz,
+                          order=order, factorization=factorization,
+                          losses_inside=losses_inside, form=form)
+        result = without_section_layer_modes(result, model, resolve,
+                                             losses_inside=losses_inside,
+                                             layer_check=layer_check, progress=progress)
     return result
 
 

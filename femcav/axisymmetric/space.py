@@ -63,6 +63,7 @@ from ..fem.point_location import Transfer, evaluation_matrix
 from ..materials import check_permittivity
 from ..model import FORMS
 from ..walls import PEC, PMC, essential_kinds
+from .absorber import SectionStretch, section_stretch, stretched_mass, stretched_stiffness
 from .model import AxisymmetricModel, axial_uniaxial
 from .periodic import pair_lines, section_periodic_constraints
 
@@ -86,6 +87,8 @@ class OrderSpace:
     form: str = "E"             # the field carried: E or H
     # ε_zz where a region is uniaxial about z (then ``eps`` is ε_rr = ε_φφ); None: isotropic
     eps_z: np.ndarray | None = None
+    # the absorbing regions' stretch factors (axisymmetric.absorber); None: no layer
+    stretch: SectionStretch | None = None
 
     @property
     def stiffness_coef(self) -> np.ndarray:
@@ -245,7 +248,8 @@ def build_order_space(model: AxisymmetricModel, m: int, order: int,
     return OrderSpace(model=model, m=m, order=order, edge_basis=edge_basis,
                       node_basis=node_basis, constraint=constraint,
                       potential_constraint=potential_constraint, eps=eps, mu=mu, form=form,
-                      eps_z=axial_permittivity(model, eps))
+                      eps_z=axial_permittivity(model, eps),
+                      stretch=section_stretch(model, edge_basis))
 
 
 def facets_of(mesh: MeshTri, edges: np.ndarray) -> np.ndarray:
@@ -366,6 +370,8 @@ def assemble_stiffness(space: OrderSpace, a: np.ndarray, az: np.ndarray | None =
     """K over the kept DOFs with the coefficient ``a`` at the quadrature points (1/μ_r in the
     E form, 1/ε_r in the H form, or a lossy variant of it); ``az``: that of the z direction
     where it differs (1/ε_zz of a uniaxial region in the H form)."""
+    if space.stretch is not None:
+        return space.constraint.reduce(stretched_stiffness(space, a, az))
     eb, nb = space.edge_basis, space.node_basis
     coefficient = {"m": float(space.m), "a": a}
     forms = (_edge_edge, _node_edge, _node_node)
@@ -382,6 +388,8 @@ def assemble_mass(space: OrderSpace, b: np.ndarray, bz: np.ndarray | None = None
     """M over the kept DOFs with the coefficient ``b`` at the quadrature points (ε_r in the E
     form, μ_r in the H form, or the lossy part of a complex permittivity); ``bz``: that of
     the z direction where it differs (ε_zz of a uniaxial region in the E form)."""
+    if space.stretch is not None:
+        return space.constraint.reduce(stretched_mass(space, b, bz))
     edge = (_edge_mass.assemble(space.edge_basis, b=b) if bz is None
             else _edge_mass_axial.assemble(space.edge_basis, b=b, bz=bz))
     M = sp.block_diag([edge, _node_mass.assemble(space.node_basis, b=b)], format="csr")

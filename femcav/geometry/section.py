@@ -2,7 +2,8 @@
 
 A builder's Layout made of cylinders on the z axis (pillbox, coaxial and re-entrant
 cavities, a dielectric resonator on the axis of its shield) is also a body of revolution:
-each cylinder is a rectangle 0 <= r <= radius in the section. The same boolean steps as in
+each cylinder is a rectangle 0 <= r <= radius in the section, and a sphere centred on the
+axis (an open part's sphere and its shell) a half disc. The same boolean steps as in
 3D (space, minus metal, fragmented by fills) run on those rectangles, and the boundary
 curves are named by the Layout's own rules, applied to the section's points placed in the
 plane y = 0 (x = r). Curves on r = 0 are named ``axis``.
@@ -20,7 +21,7 @@ from .gmsh_session import gmsh_model
 from .meridional import AXIS, MeridionalMesh, checked_section
 from .mesh_budget import check_mesh_budget
 from .parts import Layout, Sizing, fragment_by_fills, region_size_fields, use_smallest
-from .solids import Cylinder
+from .solids import Cylinder, Sphere
 
 
 def _rectangle(solid, tol: float) -> tuple[float, float, float]:
@@ -36,12 +37,29 @@ def _rectangle(solid, tol: float) -> tuple[float, float, float]:
                      option="azimuthal_orders")
 
 
+def _on_axis_sphere(solid, tol: float) -> bool:
+    return isinstance(solid, Sphere) and abs(solid.centre[0]) <= tol \
+        and abs(solid.centre[1]) <= tol
+
+
+def _half_disc(gmsh, sphere: Sphere) -> int:
+    """The sphere's section: one arc of half a turn from the axis to the axis, closed along
+    it (a disc cut at the axis would keep its seam point off the axis, and the mesh is
+    graded at such points as at a corner)."""
+    occ = gmsh.model.occ
+    zc, a = float(sphere.centre[2]), float(sphere.radius)
+    arc = occ.addCircle(0.0, zc, 0.0, a, angle1=-math.pi / 2, angle2=math.pi / 2)
+    occ.synchronize()
+    (_, low), (_, high) = gmsh.model.getBoundary([(1, arc)])
+    return occ.addPlaneSurface([occ.addCurveLoop([arc, occ.addLine(high, low)])])
+
+
 def axisymmetric_layout_check(layout: Layout) -> None:
     """InputError unless every solid of ``layout`` is a cylinder on the z axis or a profile
     revolved about it."""
     tol = 1e-9 * layout.extent()
     for solid in [*layout.space, *(s for _, s in layout.metal), *(s for _, s in layout.fills)]:
-        if not hasattr(solid, "add_section"):
+        if not hasattr(solid, "add_section") and not _on_axis_sphere(solid, tol):
             _rectangle(solid, tol)
 
 
@@ -54,6 +72,8 @@ def mesh_section(layout: Layout, sizing: Sizing, name: str = "section") -> Merid
     def add(occ, solid) -> int:
         if hasattr(solid, "add_section"):       # a revolved profile (profile.py)
             return solid.add_section(occ)
+        if _on_axis_sphere(solid, tol):
+            return _half_disc(gmsh, solid)
         radius, z0, z1 = _rectangle(solid, tol)
         return occ.addRectangle(0.0, z0, 0.0, radius, z1 - z0)
 

@@ -91,13 +91,25 @@ def moved_modes(modes: list, others: list) -> set[int]:
 def split_layer_modes(space, modes: list, *, losses_inside: bool,
                       moved: set[int] = frozenset()) -> tuple[list, list]:
     """(the part's modes, the layer's modes: those above LAYER_SHARE_LIMIT and the
-    positions ``moved``), each given ``absorber_energy_share`` and ``q_radiation``; the
-    part's modes renumbered from 1."""
+    positions ``moved``), each given ``absorber_energy_share`` (unless it has one, found by
+    its discretisation: a section's) and ``q_radiation``; the part's modes renumbered from
+    1."""
     kept, layer = [], []
     for position, mode in enumerate(modes):
-        share = absorber_energy_share(space, space.full_vectors(mode.dofs))
+        share = (mode.absorber_energy_share if mode.absorber_energy_share is not None
+                 else absorber_energy_share(space, space.full_vectors(mode.dofs)))
         q_rad = radiation_q(mode, losses_inside)
         mode = replace(mode, absorber_energy_share=share, q_radiation=q_rad,
                        losses=_with_radiation(mode.losses, q_rad))
         (layer if share > LAYER_SHARE_LIMIT or position in moved else kept).append(mode)
     return ([replace(m, index=i + 1) for i, m in enumerate(kept)], layer)
+
+
+def warn_layer_modes(progress, n_layer: int, n_all: int, moved: bool) -> None:
+    """Say on stderr how many modes went to ``layer_modes`` (nothing when none did)."""
+    if n_layer:
+        progress.warn(f"{n_layer} of {n_all} modes live in the absorbing layer (more than "
+                      f"{LAYER_SHARE_LIMIT:.0%} of their energy there"
+                      + (f", or moving by more than {MOVE_LIMIT:.0%} with its strength"
+                         if moved else "") + "): left out of the table, kept in modes.json "
+                      "under layer_modes")
