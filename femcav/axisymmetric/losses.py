@@ -45,9 +45,9 @@ def _parts(space: OrderSpace, e, u, r):
     included, ∫ |F|² r and ∫ |∇×F|² r with their z parts. With F = (f_t, u / r) and
     (∇×F) = ((∇u + m f_t)^⊥ / r, curl f_t): |F|² r = r |f_t|² + u² / r and
     |∇×F|² r = |∇u + m f_t|² / r + r (curl f_t)²."""
-    f_t = np.asarray(e.value)
+    f_t = np.asarray(e)
     meridional = np.asarray(u.grad) + space.m * f_t
-    field = r * np.sum(_sq(f_t), axis=0) + _sq(np.asarray(u.value)) / r
+    field = r * np.sum(_sq(f_t), axis=0) + _sq(np.asarray(u)) / r
     field_z = r * _sq(f_t[1])
     curl = np.sum(_sq(meridional), axis=0) / r + r * _sq(np.asarray(e.curl))
     curl_z = _sq(meridional[0]) / r
@@ -198,11 +198,11 @@ def _wall_powers(space: OrderSpace, dofs, omega: float) -> dict[str, float]:
             r = eb.mapping.F(eb.X, tind=eb.tind)[0]
             if space.form == "H":
                 # |H_t|² r: u² / r (azimuthal) + r (h_t · tangent)², tangent = normal turned
-                along = -np.asarray(e.value)[0] * normal[1] + np.asarray(e.value)[1] * normal[0]
-                total += float(np.sum((_sq(np.asarray(u.value)) / r + r * _sq(along)) * dl))
+                along = -np.asarray(e)[0] * normal[1] + np.asarray(e)[1] * normal[0]
+                total += float(np.sum((_sq(np.asarray(u)) / r + r * _sq(along)) * dl))
                 continue
             mu_r = np.array([mu_by_region[t] for t in section.tri_region[eb.tind]])
-            meridional = np.asarray(u.grad) + space.m * np.asarray(e.value)
+            meridional = np.asarray(u.grad) + space.m * np.asarray(e)
             # |curl E|_t² r: the azimuthal part and the meridional part along the wall
             curl_t_sq = (r * _sq(np.asarray(e.curl))
                          + _sq(np.einsum("ctq,ctq->tq", meridional, normal)) / r)

@@ -145,7 +145,7 @@ def _edge_traces(basis, facets: np.ndarray, k: int) -> np.ndarray:
         cb = CellBasis(mesh, basis.elem, elements=cells[chosen], quadrature=(X, w / 2))
         r = cb.mapping.F(X, tind=cells[chosen])[0]                     # (n, n_points)
         order = np.argsort(r, axis=1)
-        values = np.stack([np.take_along_axis(np.asarray(cb.basis[i][0].value)[0], order,
+        values = np.stack([np.take_along_axis(np.asarray(cb.basis[i][0])[0], order,
                                               axis=1) for i in range(len(cb.basis))])
         local = _facet_local(cb.element_dofs, basis.dofs.facet_dofs[:, facets[chosen]])
         rows = np.arange(chosen.size)

@@ -39,8 +39,8 @@ def _centroid_fields(space, dofs):
     e = eb.interpolate(full[:space.n_edge])
     u = nb.interpolate(full[space.n_edge:])
     r = eb.mapping.F(X)[0][:, 0]
-    e_rz = np.asarray(e.value)[:, :, 0]
-    u0, grad_u = np.asarray(u.value)[:, 0], np.asarray(u.grad)[:, :, 0]
+    e_rz = np.asarray(e)[:, :, 0]
+    u0, grad_u = np.asarray(u)[:, 0], np.asarray(u.grad)[:, :, 0]
     m = space.m
     meridional = (grad_u + m * e_rz) / r
     E = np.array([e_rz[0], u0 / r, e_rz[1]])

@@ -133,8 +133,8 @@ class OrderSpace:
         r = self.edge_basis.mapping.F(self.edge_basis.X)[0].ravel()
         out = []
         for j in range(full.shape[1]):
-            f_t = np.asarray(self.edge_basis.interpolate(full[:self.n_edge, j]).value)
-            u = np.asarray(self.node_basis.interpolate(full[self.n_edge:, j]).value)
+            f_t = np.asarray(self.edge_basis.interpolate(full[:self.n_edge, j]))
+            u = np.asarray(self.node_basis.interpolate(full[self.n_edge:, j]))
             out.append(np.vstack([f_t.reshape(2, -1), u.reshape(1, -1) / r]))
         return np.stack(out, axis=2)
 
@@ -402,7 +402,7 @@ def kernel_basis(space: OrderSpace) -> sp.csr_matrix:
     triangle, exact because ∇p is a Nédélec field there."""
     eb, nb = space.edge_basis, space.node_basis
     weights = eb.dx                                        # (n_triangles, n_points)
-    phi = np.stack([b[0].value for b in eb.basis])         # (n_e, 2, n_triangles, n_points)
+    phi = np.stack([np.asarray(b[0]) for b in eb.basis])         # (n_e, 2, n_triangles, n_points)
     grad = np.stack([b[0].grad for b in nb.basis])         # (n_n, 2, n_triangles, n_points)
     local_mass = np.einsum("ictq,jctq,tq->tij", phi, phi, weights)
     local_load = np.einsum("ictq,jctq,tq->tij", phi, grad, weights)
