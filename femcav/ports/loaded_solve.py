@@ -3,13 +3,14 @@ linearisation.
 
 With the ports terminated (ports.termination) the pencil is
 
-    T(λ) x = (K + Σ_m (jβ_m(λ)/μ_r) w_m w_mᵀ − λ M) x = 0,    β_m(λ) = √(λ ε_r μ_r − k_c,m²),
+    T(λ) x = (K + Σ_m j y_m(λ) w_m w_mᵀ − λ M) x = 0,    β_m(λ) = √(λ ε_r μ_r − k_c,m²),
 
-non-linear in λ = k0² through the propagation constants. Iteration: around the current
-complex λ_n, replace β_m(λ) by its tangent β_m(λ_n) + β_m'(λ_n)(λ − λ_n),
-β_m' = ε_r μ_r / (2 β_m); the pencil is then linear again,
+non-linear in λ = k0² through the scaled wave admittances y_m (β_m/μ_r for TE and TEM modes,
+λ ε_r/β_m for TM; ports.cross_section). Iteration: around the current complex λ_n, replace
+y_m(λ) by its tangent y_m(λ_n) + y_m'(λ_n)(λ − λ_n) (β_m' = ε_r μ_r / (2 β_m)); the pencil is
+then linear again,
 
-    (K + Σ j(β_m − β_m' λ_n)/μ_r D_m) x = λ (M − Σ j β_m'/μ_r D_m) x,   D_m = w_m w_mᵀ,
+    (K + Σ j(y_m − y_m' λ_n) D_m) x = λ (M − Σ j y_m' D_m) x,   D_m = w_m w_mᵀ,
 
 complex symmetric, and its eigenvalue nearest λ_n (a shift-invert Arnoldi solve from the
 core's "arnoldi" backend, shifted to λ_n, gradients deflated) is λ_{n+1}. At a fixed point
@@ -26,7 +27,9 @@ while Q_ext ≫ 1; and, always, the modes of the pencil linearised once at the t
 the highest open start), near which
 a strongly coupled mode (Q_ext of a few tens) already lies close to its loaded place. More
 starts than modes asked (EXTRA_STARTS, LINEARISED_STARTS); two starts that converge to one λ
-give one mode, and the modes nearest the target (by real part) are kept.
+give one mode, and the modes nearest the target (by real part) are kept. A root at λ ≈ 0
+(a terminated TM or TEM mode's gradient field, ports.termination) is no resonance and is
+dropped.
 """
 
 from __future__ import annotations
@@ -95,8 +98,9 @@ def solve_with_ports(model, *, modes: int = 10, near_hz: float | None = None,
     ports = [port_modes(space, name, wall.port_modes)
              for name, wall in model.walls.items() if wall.kind == PORT]
     for port in ports:
-        cutoffs = ", ".join(f"{f / 1e9:.6g} GHz" for f in port.cutoff_hz())
-        progress.step(f"port {port.name}: ε_r {port.eps_r:g}, μ_r {port.mu_r:g}; TE cut-offs "
+        cutoffs = ", ".join(f"{kind} {f / 1e9:.6g} GHz"
+                            for kind, f in zip(port.kinds, port.cutoff_hz()))
+        progress.step(f"port {port.name}: ε_r {port.eps_r:g}, μ_r {port.mu_r:g}; cut-offs "
                       f"{cutoffs}; the lowest {port.terminated} terminated, the others "
                       "shorted")
     termination = terminate(space, ports)
@@ -136,7 +140,8 @@ def solve_with_ports(model, *, modes: int = 10, near_hz: float | None = None,
             continue     # already reached from another start
         value, vector, linearised, steps = _converge(K, M, G, scale, termination,
                                                      complex(start), factorize, progress)
-        if any(abs(value - v) < SAME_ROOT * abs(value) for v, *_ in solved):
+        if (abs(value) < STATIC_FRACTION * scale
+                or any(abs(value - v) < SAME_ROOT * abs(value) for v, *_ in solved)):
             continue
         steps_taken.append(steps)
         if value.imag < -SAME_ROOT * abs(value):
@@ -175,23 +180,23 @@ def solve_with_ports(model, *, modes: int = 10, near_hz: float | None = None,
                        request=EigenRequest(modes, target), near_hz=near_hz)
 
 
-def _betas(termination, value: complex) -> list[tuple]:
-    """(terminated mode, its port, β, dβ/dλ) at λ = ``value``."""
+def _admittances(termination, value: complex) -> list[tuple]:
+    """(terminated mode, its port, β, y, dy/dλ) at λ = ``value``; y = ωμ0 Y (cross_section)."""
     ports = {p.name: p for p in termination.ports}
     out = []
     for mode in termination.modes:
         port = ports[mode.port]
-        beta = port.propagation_constant(value, mode.mode)
-        out.append((mode, port, beta, port.eps_r * port.mu_r / (2 * beta)))
+        out.append((mode, port, port.propagation_constant(value, mode.mode),
+                    *port.admittance(value, mode.mode)))
     return out
 
 
 def _linearised(K, M, termination, value: complex):
     """The pencil linearised around λ = ``value`` (see the module's docstring)."""
     Kt, Mt = K.astype(complex), M.astype(complex)
-    for mode, port, beta, slope in _betas(termination, value):
-        D = mode.matrix() / port.mu_r
-        Kt = Kt + 1j * (beta - slope * value) * D
+    for mode, _, _, y, slope in _admittances(termination, value):
+        D = mode.matrix()
+        Kt = Kt + 1j * (y - slope * value) * D
         Mt = Mt - 1j * slope * D
     return Kt.tocsr(), Mt.tocsr()
 
@@ -200,9 +205,9 @@ def _residual(K, M, termination, value: complex, x: np.ndarray) -> float:
     """‖T(λ) x‖ / ‖λ M x‖ of the non-linear pencil itself (matrix products only)."""
     Mx = M @ x
     r = K @ x - value * Mx
-    for mode, port, beta, _ in _betas(termination, value):
+    for mode, _, _, y, _ in _admittances(termination, value):
         w = mode.weights
-        r = r + (1j * beta / port.mu_r) * (w @ (w.T @ x)).ravel()
+        r = r + 1j * y * (w @ (w.T @ x)).ravel()
     return float(np.linalg.norm(r) / max(np.linalg.norm(value * Mx), np.finfo(float).tiny))
 
 
@@ -233,10 +238,9 @@ def _mode(i, value, vector, check, tspace, termination, faces, sizes, progress) 
     full = tspace.constraint.expand(vector)
     losses = mode_losses(tspace, full, f, faces) if has_losses(tspace) else None
     power, propagation = {}, {}
-    for mode, port, beta, _ in _betas(termination, value):
+    for mode, port, beta, y, _ in _admittances(termination, value):
         amplitude = complex((mode.weights.T @ vector)[0])
-        power[port.name] = (power.get(port.name, 0.0)
-                            + abs(beta.real) / port.mu_r * abs(amplitude) ** 2)
+        power[port.name] = power.get(port.name, 0.0) + abs(y.real) * abs(amplitude) ** 2
         propagation.setdefault(port.name, []).append(complex(beta))
     loading = port_loading(frequency, power, losses.q_total if losses else None, propagation)
     warnings = []
@@ -245,12 +249,12 @@ def _mode(i, value, vector, check, tspace, termination, faces, sizes, progress) 
         for m in range(port.terminated):
             if abs(f - cutoff_hz[m]) < NEAR_CUTOFF * cutoff_hz[m]:
                 warnings.append(f"port {port.name}: {f / 1e9:.6g} GHz lies within "
-                                f"{NEAR_CUTOFF:.0%} of its TE mode {m + 1}'s cut-off "
+                                f"{NEAR_CUTOFF:.0%} of its mode {port.label(m)}'s cut-off "
                                 f"({cutoff_hz[m] / 1e9:.6g} GHz): possibly the guide's cut-off, "
                                 "not a resonance")
         for m in range(port.terminated, len(cutoff_hz)):
             if cutoff_hz[m] < f:
-                warnings.append(f"port {port.name}: its TE mode {m + 1} (cut-off "
+                warnings.append(f"port {port.name}: its mode {port.label(m)} (cut-off "
                                 f"{cutoff_hz[m] / 1e9:.6g} GHz) propagates at {f / 1e9:.6g} "
                                 f"GHz but is shorted; set port_modes >= {m + 1}")
     for w in warnings:
