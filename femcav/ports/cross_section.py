@@ -1,8 +1,9 @@
 """A port's face and the modes (TE, TM, TEM) of the waveguide whose cross-section it is.
 
 The face must be planar (one plane through every facet, one outward normal n) and on the
-outside of the part (boundary facets of the mesh); the filling behind it must be one
-isotropic material (ε_r, μ_r), since a layered or anisotropic filling has hybrid modes.
+outside of the part (boundary facets of the mesh); the filling behind it must be isotropic,
+lossless and uniform in each element. One material: the TE, TM and TEM modes below. Several
+(a layered guide): hybrid modes, solved at each frequency by ports.layered_face.
 
 All three kinds of mode of a homogeneous guide of any shape are found on the traces of the 3D
 Nédélec space itself (rather than on a separate 2D mesh), so their patterns lie exactly in
@@ -40,9 +41,7 @@ mode propagates above f_c = c k_c / (2π √(ε_r μ_r)); its propagation consta
 β = √(k0² ε_r μ_r − k_c²). The wave admittances (times ωμ0, as the termination uses them):
 y = β/μ_r for TE and TEM, y = k0² ε_r/β for TM (Pozar, §3.1: Z_TE = ωμ/β, Z_TM = β/(ωε)).
 
-Left for later: layered and anisotropic fillings (hybrid modes: a 2D problem with both
-transverse and axial unknowns, whose β must follow the complex frequency of the iteration),
-and lossy fillings.
+Left for later: anisotropic and lossy fillings behind a port (refused at the wall's key).
 """
 
 from __future__ import annotations
@@ -81,14 +80,24 @@ class PortModes:
     face_mass: np.ndarray       # ∫ e·v dS over those DOFs (dense)
     cutoff_k_squared: np.ndarray    # k_c² (1/m²), ascending, one per mode found
     patterns: np.ndarray        # (len(face_dofs), modes): face-mass-normalised traces
-    kinds: tuple[str, ...]      # TE, TM or TEM per mode
+    kinds: tuple[str, ...]      # TE, TM or TEM per mode (HYBRID on a layered face)
     terminated: int             # how many of the lowest are terminated
+    hybrid: "HybridTangents | None" = None    # a layered face's modes at one frequency
 
     def cutoff_hz(self) -> np.ndarray:
+        """Cut-off frequencies (Hz); NaN for the hybrid modes of a layered face, whose
+        pattern changes with frequency."""
         return C0 * np.sqrt(self.cutoff_k_squared) / (2 * math.pi * math.sqrt(self.eps_r
                                                                                * self.mu_r))
 
+    def propagates(self, k0_squared: float, mode: int) -> bool:
+        if self.hybrid is not None:
+            return bool(self.hybrid.beta_squared[mode].real > 0)
+        return bool(self.cutoff_k_squared[mode] < k0_squared * self.eps_r * self.mu_r)
+
     def propagation_constant(self, k0_squared: complex, mode: int) -> complex:
+        if self.hybrid is not None:
+            return self.hybrid.beta(k0_squared, mode)
         return propagation_constant(k0_squared * self.eps_r * self.mu_r,
                                     self.cutoff_k_squared[mode])
 
@@ -96,6 +105,8 @@ class PortModes:
         """(y, dy/dλ) at λ = k0²: the mode's wave admittance times ωμ0, y = ωμ0 Y.
         TE and TEM: Y = β/(ωμ0 μ_r), y = β/μ_r; TM: Y = ωε0 ε_r/β, y = k0² ε_r/β (Pozar,
         Microwave Engineering, 4th ed., §3.1). dβ/dλ = ε_r μ_r/(2β)."""
+        if self.hybrid is not None:
+            return self.hybrid.admittance(k0_squared, mode)
         beta = self.propagation_constant(k0_squared, mode)
         slope = self.eps_r * self.mu_r / (2 * beta)
         if self.kinds[mode] == TM:
@@ -106,6 +117,26 @@ class PortModes:
     def label(self, mode: int) -> str:
         """"TE 2", "TM 1", "TEM 1": the kind and the mode's number among the face's modes."""
         return f"{self.kinds[mode]} {mode + 1}"
+
+
+@dataclass(frozen=True)
+class HybridTangents:
+    """A layered face's modes solved at one real λ_r = k0² (ports.layered_face): β² and
+    y = ωμ0 Y per mode there, and their slopes in λ. Away from λ_r, β² and y follow their
+    tangents (the complex frequency of a loaded mode lies within about 1/Q of λ_r)."""
+    reference: float                # λ_r (1/m²)
+    beta_squared: np.ndarray        # β² at λ_r per mode
+    beta_squared_slope: np.ndarray  # dβ²/dλ
+    y: np.ndarray                   # ωμ0 Y at λ_r per mode
+    y_slope: np.ndarray             # dy/dλ
+
+    def beta(self, k0_squared: complex, mode: int) -> complex:
+        return propagation_constant(self.beta_squared[mode] + self.beta_squared_slope[mode]
+                                    * (k0_squared - self.reference), 0.0)
+
+    def admittance(self, k0_squared: complex, mode: int) -> tuple[complex, complex]:
+        return (complex(self.y[mode] + self.y_slope[mode] * (k0_squared - self.reference)),
+                complex(self.y_slope[mode]))
 
 
 def propagation_constant(k_squared: complex, cutoff_k_squared: float) -> complex:
@@ -128,7 +159,7 @@ def port_facets(space: EdgeSpace, name: str) -> np.ndarray:
     return facets
 
 
-def _plane(space: EdgeSpace, name: str, facets: np.ndarray) -> np.ndarray:
+def port_normal(space: EdgeSpace, name: str, facets: np.ndarray) -> np.ndarray:
     """The outward unit normal of a planar face; InputError when it is not planar."""
     mesh = space.mesh
     corners = mesh.p[:, mesh.facets[:, facets]]            # (3, 3 corners, n)
@@ -148,17 +179,26 @@ def _plane(space: EdgeSpace, name: str, facets: np.ndarray) -> np.ndarray:
     return normal
 
 
-def _filling(space: EdgeSpace, name: str, facets: np.ndarray) -> tuple[float, float]:
-    """(ε_r, μ_r) of the one isotropic material behind the face."""
+def facet_filling(space: EdgeSpace, name: str, facets: np.ndarray):
+    """(ε_r, 1/μ_r) of the element behind each facet; InputError for an anisotropic, lossy
+    or graded filling."""
     elements = space.mesh.f2t[0, facets]
     eps, inverse_mu = space.mass_coef[elements], space.stiffness_coef[elements]
     if is_tensor(eps) or is_tensor(inverse_mu) or np.iscomplexobj(eps):
         raise InputError("a port needs a lossless isotropic filling behind it (anisotropic "
                          "or lossy guides are not terminated yet)", field=f"walls.{name}")
-    if np.ptp(eps) > 1e-9 * np.max(eps) or np.ptp(inverse_mu) > 1e-9 * np.max(inverse_mu):
-        raise InputError("the guide behind a port must be filled with one material (layered "
-                         "fillings are not terminated yet)", field=f"walls.{name}")
-    return float(eps.flat[0]), float(1.0 / inverse_mu.flat[0])
+    eps, inverse_mu = eps.reshape(len(elements), -1), inverse_mu.reshape(len(elements), -1)
+    if (np.ptp(eps, axis=1).max() > 1e-9 * eps.max()
+            or np.ptp(inverse_mu, axis=1).max() > 1e-9 * inverse_mu.max()):
+        raise InputError("the guide behind a port must be filled piecewise with uniform "
+                         "materials (a graded filling is not terminated)",
+                         field=f"walls.{name}")
+    return eps[:, 0], inverse_mu[:, 0]
+
+
+def is_layered(eps: np.ndarray, inverse_mu: np.ndarray) -> bool:
+    return bool(np.ptp(eps) > 1e-9 * np.max(eps)
+                or np.ptp(inverse_mu) > 1e-9 * np.max(inverse_mu))
 
 
 def _face_basis(space: EdgeSpace, element, facets: np.ndarray):
@@ -184,8 +224,10 @@ def _places(dofs: np.ndarray, n_full: int, element_dofs: np.ndarray) -> np.ndarr
     return where[element_dofs.T]
 
 
-def _face_matrices(space: EdgeSpace, facets: np.ndarray, normal: np.ndarray):
-    """The face's free trace DOFs and the 2D curl-curl and mass matrices over them."""
+def _face_matrices(space: EdgeSpace, facets: np.ndarray, normal: np.ndarray,
+                   mass_weight=None, curl_weight=None):
+    """The face's free trace DOFs and the 2D curl-curl and mass matrices over them, each
+    optionally weighted by a value per facet (1/μ_r, ε_r of a layered face)."""
     basis = _face_basis(space, space.element, facets)
     values = np.stack([b[0].value for b in basis.basis])          # (nb, 3, nf, nq)
     curls = np.stack([b[0].curl for b in basis.basis])
@@ -198,14 +240,19 @@ def _face_matrices(space: EdgeSpace, facets: np.ndarray, normal: np.ndarray):
     on_face = np.unique(space.dofs.get_facet_dofs(facets).all())
     face_dofs = on_face[kept[on_face]]
     local_index = _places(face_dofs, space.dofs.N, basis.element_dofs)
-    mass = _gather(np.einsum("aifq,bifq,fq->fab", tangential, tangential, dx), local_index,
-                   face_dofs.size)
-    stiffness = _gather(np.einsum("afq,bfq,fq->fab", surface_curl, surface_curl, dx),
-                        local_index, face_dofs.size)
+    mass = _gather(np.einsum("aifq,bifq,fq->fab", tangential, tangential,
+                             _weighted(dx, mass_weight)), local_index, face_dofs.size)
+    stiffness = _gather(np.einsum("afq,bfq,fq->fab", surface_curl, surface_curl,
+                                  _weighted(dx, curl_weight)), local_index, face_dofs.size)
     return face_dofs, mass, stiffness
 
 
-def _face_gradient(space: EdgeSpace, facets: np.ndarray, face_dofs: np.ndarray):
+def _weighted(dx: np.ndarray, weight) -> np.ndarray:
+    return dx if weight is None else dx * np.asarray(weight)[:, None]
+
+
+def _face_gradient(space: EdgeSpace, facets: np.ndarray, face_dofs: np.ndarray,
+                   mass_weight=None):
     """(B, scalar mass): B maps the free scalar (Lagrange) DOFs of the face to the trace DOFs
     of their surface gradients, exactly (∇P_k ⊂ NED_k, and a trace DOF of a gradient depends
     on the potential's trace alone); the mass is ∫ φ ψ dS over the same scalar DOFs."""
@@ -218,7 +265,8 @@ def _face_gradient(space: EdgeSpace, facets: np.ndarray, face_dofs: np.ndarray):
     gradient = discrete_gradient(space)[face_dofs][:, scalars].toarray()
     basis = _face_basis(space, space.scalar_element, facets)
     values = np.stack([b[0].value for b in basis.basis])          # (nb, nf, nq)
-    mass = _gather(np.einsum("afq,bfq,fq->fab", values, values, basis.dx),
+    mass = _gather(np.einsum("afq,bfq,fq->fab", values, values,
+                             _weighted(basis.dx, mass_weight)),
                    _places(scalars, space.scalar_dofs.N, basis.element_dofs), scalars.size)
     return gradient, mass
 
@@ -261,8 +309,12 @@ def _tem_patterns(kernel, gradient, face_mass):
 def port_modes(space: EdgeSpace, name: str, terminated: int) -> PortModes:
     """The port ``name`` of ``space`` (E form) with its lowest modes (TEM, TE, TM by cut-off)."""
     facets = port_facets(space, name)
-    normal = _plane(space, name, facets)
-    eps_r, mu_r = _filling(space, name, facets)
+    normal = port_normal(space, name, facets)
+    eps, inverse_mu = facet_filling(space, name, facets)
+    if is_layered(eps, inverse_mu):
+        raise InputError("a layered port face has hybrid modes (ports.layered_face)",
+                         field=f"walls.{name}")
+    eps_r, mu_r = float(eps[0]), float(1.0 / inverse_mu[0])
     face_dofs, mass, stiffness = _face_matrices(space, facets, normal)
     values, vectors = scipy.linalg.eigh(stiffness, mass)
     physical = values > KERNEL_SHARE * max(values.max(), 1.0)

@@ -47,9 +47,7 @@ from ..eigen.factorization import describe, get_factorizer
 from ..eigen.interface import STATIC_FRACTION, EigenRequest, EigenStats
 from ..eigen.problem import EigenProblem
 from ..errors import InputError
-from ..fem.assembly import assemble
 from ..fem.coefficients import isotropic_part
-from ..fem.gradient import kernel_basis
 from ..fem.space import build_space
 from ..post.checks import check_modes
 from ..post.loss_validity import with_loss_warnings
@@ -59,9 +57,9 @@ from ..progress import SILENT
 from ..class_solve import select_modes
 from ..solver import Mode, SolveResult, frequency_to_k0_squared, quality_factor
 from ..walls import PORT
-from .cross_section import port_modes
+from .layered_face import LayeredFace
 from .loading import port_loading
-from .termination import terminate
+from .port_system import PortSystem, port_face
 
 TOLERANCE = 1e-10
 MAX_STEPS = 30
@@ -95,29 +93,25 @@ def solve_with_ports(model, *, modes: int = 10, near_hz: float | None = None,
                          "perturbation); drop losses_inside", option="losses_inside")
     t0 = time.perf_counter()
     space = build_space(model, "E", order)
-    ports = [port_modes(space, name, wall.port_modes)
+    faces = [port_face(space, name, wall.port_modes)
              for name, wall in model.walls.items() if wall.kind == PORT]
-    for port in ports:
-        cutoffs = ", ".join(f"{kind} {f / 1e9:.6g} GHz"
-                            for kind, f in zip(port.kinds, port.cutoff_hz()))
-        progress.step(f"port {port.name}: ε_r {port.eps_r:g}, μ_r {port.mu_r:g}; cut-offs "
-                      f"{cutoffs}; the lowest {port.terminated} terminated, the others "
-                      "shorted")
-    termination = terminate(space, ports)
+    for face in faces:
+        progress.step(_describe(face))
+    system = PortSystem(space, faces)
+    scale = ((math.pi / model.mesh.bounding_size()) ** 2
+             / (isotropic_part(space.mass_coef).max()
+                / isotropic_part(space.stiffness_coef).min()))
+    target = None if near_hz is None else frequency_to_k0_squared(near_hz)
+    first = system.at(target if target is not None else scale)
+    K, M, G, termination = first.K, first.M, first.G, first.termination
     tspace = termination.space
-    K, M = assemble(tspace)
-    G = kernel_basis(tspace)
     timings = {"assembly_s": time.perf_counter() - t0}
     factorize = partial(get_factorizer(factorization), memory_limit=None)
-    scale = ((math.pi / model.mesh.bounding_size()) ** 2
-             / (isotropic_part(tspace.mass_coef).max()
-                / isotropic_part(tspace.stiffness_coef).min()))
     if tspace.n_dofs < modes + 2:
         raise InputError(f"the mesh has only {tspace.n_dofs} free DOFs, too few for {modes} "
                          "modes; refine the mesh", option="modes")
 
     t0 = time.perf_counter()
-    target = None if near_hz is None else frequency_to_k0_squared(near_hz)
     starts = np.zeros(0)
     if target is None:
         open_problem = EigenProblem(K, M, G, lowest_scale=scale, hermitian=True)
@@ -128,6 +122,8 @@ def solve_with_ports(model, *, modes: int = 10, near_hz: float | None = None,
     # where a strongly coupled mode lies near its loaded place
     reference = complex(target if target is not None
                         else starts.real.max() if starts.size else scale)
+    near = system.at(reference)
+    K, M, G, termination = near.K, near.M, near.G, near.termination
     Kt, Mt = _linearised(K, M, termination, reference)
     near_problem = EigenProblem(Kt, Mt, G, lowest_scale=scale, hermitian=False)
     starts = np.concatenate([starts, backends.solve(
@@ -138,8 +134,8 @@ def solve_with_ports(model, *, modes: int = 10, near_hz: float | None = None,
     for start in starts:
         if any(abs(start - v) < 1e-6 * abs(v) for v, *_ in solved):
             continue     # already reached from another start
-        value, vector, linearised, steps = _converge(K, M, G, scale, termination,
-                                                     complex(start), factorize, progress)
+        value, vector, linearised, steps = _converge(system, scale, complex(start),
+                                                     factorize, progress)
         if (abs(value) < STATIC_FRACTION * scale
                 or any(abs(value - v) < SAME_ROOT * abs(value) for v, *_ in solved)):
             continue
@@ -157,13 +153,14 @@ def solve_with_ports(model, *, modes: int = 10, near_hz: float | None = None,
                   f"({', '.join(map(str, steps_taken))} steps)"
                   + (f"; {improper} root(s) growing in time dropped (not resonances of a "
                      "passive part)" if improper else ""))
-    faces = metal_faces(tspace) if has_losses(tspace) else None
+    walls = metal_faces(tspace) if has_losses(tspace) else None
     sizes = edge_space_scales(tspace)
     result_modes = []
-    for i, (value, vector, (Kt, Mt, projector), steps) in enumerate(solved):
+    for i, (value, vector, (Kt, Mt, projector, termination), steps) in enumerate(solved):
+        tspace = termination.space
         check = check_modes(Kt, Mt, projector, np.array([value]), vector[:, None],
                             hermitian=False)[0]
-        mode = _mode(i, value, vector, check, tspace, termination, faces, sizes, progress)
+        mode = _mode(i, value, vector, check, tspace, termination, walls, sizes, progress)
         if steps >= MAX_STEPS:
             mode = replace(mode, loss_warnings=mode.loss_warnings + (
                 f"the port iteration did not settle to {TOLERANCE:g} in {MAX_STEPS} steps",))
@@ -178,6 +175,17 @@ def solve_with_ports(model, *, modes: int = 10, near_hz: float | None = None,
                                               factorization=describe(factorization),
                                               lowest_scale=scale, iterations=steps_taken),
                        request=EigenRequest(modes, target), near_hz=near_hz)
+
+
+def _describe(face) -> str:
+    if isinstance(face, LayeredFace):
+        return (f"port {face.name}: layered filling; its hybrid modes are solved at each "
+                f"iterate's frequency; the lowest {face.terminated} terminated, the others "
+                "shorted")
+    cutoffs = ", ".join(f"{kind} {f / 1e9:.6g} GHz"
+                        for kind, f in zip(face.kinds, face.cutoff_hz()))
+    return (f"port {face.name}: ε_r {face.eps_r:g}, μ_r {face.mu_r:g}; cut-offs {cutoffs}; "
+            f"the lowest {face.terminated} terminated, the others shorted")
 
 
 def _admittances(termination, value: complex) -> list[tuple]:
@@ -211,9 +219,13 @@ def _residual(K, M, termination, value: complex, x: np.ndarray) -> float:
     return float(np.linalg.norm(r) / max(np.linalg.norm(value * Mx), np.finfo(float).tiny))
 
 
-def _converge(K, M, G, scale, termination, value: complex, factorize, progress):
-    """(λ, x, (linearised K, M, projector), steps) from the start ``value``."""
+def _converge(system, scale, value: complex, factorize, progress):
+    """(λ, x, (linearised K, M, projector, termination), steps) from the start ``value``.
+    With a layered port the termination follows Re λ (ports.port_system), and the pair is
+    checked by the change of λ alone (the residual would need the next iterate's space)."""
     for step in range(1, MAX_STEPS + 1):
+        problem_at = system.at(value)
+        K, M, G, termination = problem_at.K, problem_at.M, problem_at.G, problem_at.termination
         Kt, Mt = _linearised(K, M, termination, value)
         problem = EigenProblem(Kt, Mt, G, lowest_scale=scale, hermitian=False)
         setting = backends.setting_for(problem, factorize)
@@ -224,12 +236,13 @@ def _converge(K, M, G, scale, termination, value: complex, factorize, progress):
         change = abs(new - value)
         value = new
         if (change < TOLERANCE * abs(new)
-                or _residual(K, M, termination, new, pairs.vectors[:, j]) < TOLERANCE):
-            return value, pairs.vectors[:, j], (Kt, Mt, setting.projector), step
+                or (not system.layered
+                    and _residual(K, M, termination, new, pairs.vectors[:, j]) < TOLERANCE)):
+            return value, pairs.vectors[:, j], (Kt, Mt, setting.projector, termination), step
     f_ghz = C0 * np.sqrt(value).real / (2 * math.pi) / 1e9
     progress.step(f"warning: the port iteration near {f_ghz:.6g} GHz did not settle to "
                   f"{TOLERANCE:g} in {MAX_STEPS} steps (last change {change / abs(value):.1e})")
-    return value, pairs.vectors[:, j], (Kt, Mt, setting.projector), MAX_STEPS
+    return value, pairs.vectors[:, j], (Kt, Mt, setting.projector, termination), MAX_STEPS
 
 
 def _mode(i, value, vector, check, tspace, termination, faces, sizes, progress) -> Mode:
@@ -253,10 +266,12 @@ def _mode(i, value, vector, check, tspace, termination, faces, sizes, progress) 
                                 f"({cutoff_hz[m] / 1e9:.6g} GHz): possibly the guide's cut-off, "
                                 "not a resonance")
         for m in range(port.terminated, len(cutoff_hz)):
-            if cutoff_hz[m] < f:
-                warnings.append(f"port {port.name}: its mode {port.label(m)} (cut-off "
-                                f"{cutoff_hz[m] / 1e9:.6g} GHz) propagates at {f / 1e9:.6g} "
-                                f"GHz but is shorted; set port_modes >= {m + 1}")
+            if port.propagates(float(np.real(value)), m):
+                where = ("" if np.isnan(cutoff_hz[m])
+                         else f" (cut-off {cutoff_hz[m] / 1e9:.6g} GHz)")
+                warnings.append(f"port {port.name}: its mode {port.label(m)}{where} propagates "
+                                f"at {f / 1e9:.6g} GHz but is shorted; set port_modes >= "
+                                f"{m + 1}")
     for w in warnings:
         progress.step("warning: " + w)
     betas = "; ".join(f"port {p}: β " + ", ".join(f"{b.real:.6g}{b.imag:+.3g}j rad/m"
