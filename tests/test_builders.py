@@ -44,6 +44,12 @@ PARTS = [
     ("iris_pair", dict(width=0.02, height=0.01, length=0.02, iris_width=0.008,
                        iris_height=0.006, wall_thickness=0.002),
      2 * 0.02 * 0.01 * 0.02 + 0.008 * 0.006 * 0.002, []),
+    # with feeds: two end-wall irises (full height) and two feed guides
+    ("iris_pair", dict(width=0.02, height=0.01, length=0.02, iris_width=0.008,
+                       iris_height=0.006, wall_thickness=0.002, feed_iris_width=0.01,
+                       feed_length=0.006),
+     2 * 0.02 * 0.01 * 0.02 + 0.008 * 0.006 * 0.002 + 2 * 0.01 * 0.01 * 0.002
+     + 2 * 0.02 * 0.01 * 0.006, []),
 ]
 
 
@@ -184,3 +190,18 @@ def test_quarter_model_classes_rebuild_the_full_spectrum(name, params, materials
     quarter = quarter_spectrum(name, params, materials, sizing, 6)
     assert_same_spectrum(full, quarter, rtol)
     assert len({m.symmetry for m in quarter.modes}) >= 3   # the classes all contribute
+
+
+def test_iris_pair_feeds_end_in_two_port_faces():
+    mesh = build_part("iris_pair", mesh_size=0.004, width=0.02, height=0.01, length=0.02,
+                      iris_width=0.008, wall_thickness=0.002, feed_iris_width=0.01)
+    points = mesh.points
+    for name, z in (("feed_in", -0.002 - 0.01), ("feed_out", 0.042 + 0.002 + 0.01)):
+        faces = mesh.faces[mesh.face_tag == mesh.wall_names[name]]
+        corners = points[faces]
+        # each a whole 20 x 10 mm cross-section at the feed's far end (feed_length defaults
+        # to half the box length)
+        assert np.allclose(corners[..., 2], z)
+        area = 0.5 * np.linalg.norm(np.cross(corners[:, 1] - corners[:, 0],
+                                             corners[:, 2] - corners[:, 0]), axis=1).sum()
+        assert area == pytest.approx(0.02 * 0.01, rel=1e-9)

@@ -9,8 +9,8 @@ from dataclasses import replace
 import numpy as np
 import pytest
 from scipy.constants import c
-from scipy.optimize import newton
-from scipy.special import jnp_zeros
+from scipy.optimize import brentq, newton
+from scipy.special import jn_zeros, jnp_zeros, jvp, yvp
 
 from femcav.errors import InputError
 from femcav.fem.space import build_space
@@ -25,21 +25,59 @@ A, B = 0.02286, 0.01016          # WR-90 broad and narrow walls (common practice
 SHORT_TO_SLAB, SLAB, SLAB_TO_PORT, SLAB_EPS = 0.015, 0.002, 0.007, 10.0
 
 
-def test_te_cutoffs_of_a_rectangular_and_a_circular_face():
+def _cutoffs(port, kind):
+    return np.sqrt([k for k, what in zip(port.cutoff_k_squared, port.kinds) if what == kind])
+
+
+def test_te_and_tm_cutoffs_of_a_rectangular_and_a_circular_face():
     mesh = build_part("box", mesh_size=0.003, width=A, height=B, length=0.02)
     space = build_space(make_model(mesh, {"inside": Material()}, {"z_max": Wall("port")}),
                         "E", 2)
-    found = np.sqrt(port_modes(space, "z_max", 1).cutoff_k_squared[:3])
-    # TE_mn of a rectangular guide: k_c = √((mπ/a)² + (nπ/b)²) (Pozar, Microwave
-    # Engineering, 4th ed., §3.3): TE10, TE20, TE01 here
-    assert found == pytest.approx([math.pi / A, 2 * math.pi / A, math.pi / B], rel=1e-3)
+    port = port_modes(space, "z_max", 6)
+    # TE_mn and TM_mn of a rectangular guide: k_c = √((mπ/a)² + (nπ/b)²), TM needs m, n ≥ 1
+    # (Pozar, Microwave Engineering, 4th ed., §3.3): TE10, TE20, TE01; TM11, TM21
+    assert _cutoffs(port, "TE")[:3] == pytest.approx([math.pi / A, 2 * math.pi / A,
+                                                      math.pi / B], rel=1e-3)
+    assert _cutoffs(port, "TM")[:2] == pytest.approx(
+        [math.hypot(math.pi / A, math.pi / B), math.hypot(2 * math.pi / A, math.pi / B)],
+        rel=1e-3)
+    # all modes by cut-off: TE10 TE20 TE01 TE11 TM11 ..., and no TEM in a hollow guide
+    assert list(port.kinds[:5]) == ["TE"] * 4 + ["TM"]
+    assert np.all(np.diff(port.cutoff_k_squared) >= 0)
     mesh = build_part("pillbox", mesh_size=0.002, radius=0.01, length=0.01)
     space = build_space(make_model(mesh, {"inside": Material()}, {"top": Wall("port")}),
                         "E", 2)
-    found = np.sqrt(port_modes(space, "top", 1).cutoff_k_squared[:3]) * 0.01
-    # circular guide TE_nm: k_c a = p'_nm, the zeros of J_n' (Pozar, §3.4): the TE11 pair
-    # and TE21; the polygon of 2 mm chords moves them by a few 0.1 %
-    assert found == pytest.approx([jnp_zeros(1, 1)[0]] * 2 + [jnp_zeros(2, 1)[0]], rel=6e-3)
+    port = port_modes(space, "top", 6)
+    # circular guide TE_nm: k_c a = p'_nm, the zeros of J_n'; TM_nm: k_c a = p_nm, the
+    # zeros of J_n (Pozar, §3.4): the TE11 pair and TE21, TM01 and the TM11 pair; the
+    # polygon of 2 mm chords moves them by a few 0.1 %
+    assert _cutoffs(port, "TE")[:3] * 0.01 == pytest.approx(
+        [jnp_zeros(1, 1)[0]] * 2 + [jnp_zeros(2, 1)[0]], rel=6e-3)
+    assert _cutoffs(port, "TM")[:3] * 0.01 == pytest.approx(
+        [jn_zeros(0, 1)[0]] + [jn_zeros(1, 1)[0]] * 2, rel=6e-3)
+    assert "TEM" not in port.kinds
+
+
+def test_a_coaxial_face_has_one_tem_mode():
+    # A coaxial line's only mode without cut-off is its TEM mode (Pozar, §3.5); its next,
+    # TE11, is cut off at the lowest root of J_1'(k_c a) Y_1'(k_c b) − J_1'(k_c b) Y_1'(k_c a)
+    # = 0 (the TE_n1 condition ∂H_z/∂ρ = 0 on both conductors; Pozar, §3.5; from
+    # memory), found here with brentq; 158.2 /m for these radii (2/(a + b) = 153.8 /m)
+    a, b = 0.003, 0.01
+    mesh = build_part("coax", mesh_size=0.003, outer_radius=b, inner_radius=a, length=0.01)
+    space = build_space(make_model(mesh, {"inside": Material()}, {"top": Wall("port")}),
+                        "E", 2)
+    port = port_modes(space, "top", 1)
+    assert port.kinds[0] == "TEM" and port.kinds.count("TEM") == 1
+    assert port.cutoff_k_squared[0] == 0.0
+    assert port.kinds[1] == "TE"
+
+    def te11(k):
+        return jvp(1, k * a) * yvp(1, k * b) - jvp(1, k * b) * yvp(1, k * a)
+
+    exact = brentq(te11, 100.0, 200.0)
+    # the polygons of 3 mm chords: measured +0.7 %
+    assert math.sqrt(port.cutoff_k_squared[1]) == pytest.approx(exact, rel=0.015)
 
 
 def _voltage_at_short(k0):

@@ -3,13 +3,14 @@ linearisation.
 
 With the ports terminated (ports.termination) the pencil is
 
-    T(λ) x = (K + Σ_m (jβ_m(λ)/μ_r) w_m w_mᵀ − λ M) x = 0,    β_m(λ) = √(λ ε_r μ_r − k_c,m²),
+    T(λ) x = (K + Σ_m j y_m(λ) w_m w_mᵀ − λ M) x = 0,    β_m(λ) = √(λ ε_r μ_r − k_c,m²),
 
-non-linear in λ = k0² through the propagation constants. Iteration: around the current
-complex λ_n, replace β_m(λ) by its tangent β_m(λ_n) + β_m'(λ_n)(λ − λ_n),
-β_m' = ε_r μ_r / (2 β_m); the pencil is then linear again,
+non-linear in λ = k0² through the scaled wave admittances y_m (β_m/μ_r for TE and TEM modes,
+λ ε_r/β_m for TM; ports.cross_section). Iteration: around the current complex λ_n, replace
+y_m(λ) by its tangent y_m(λ_n) + y_m'(λ_n)(λ − λ_n) (β_m' = ε_r μ_r / (2 β_m)); the pencil is
+then linear again,
 
-    (K + Σ j(β_m − β_m' λ_n)/μ_r D_m) x = λ (M − Σ j β_m'/μ_r D_m) x,   D_m = w_m w_mᵀ,
+    (K + Σ j(y_m − y_m' λ_n) D_m) x = λ (M − Σ j y_m' D_m) x,   D_m = w_m w_mᵀ,
 
 complex symmetric, and its eigenvalue nearest λ_n (a shift-invert Arnoldi solve from the
 core's "arnoldi" backend, shifted to λ_n, gradients deflated) is λ_{n+1}. At a fixed point
@@ -26,7 +27,9 @@ while Q_ext ≫ 1; and, always, the modes of the pencil linearised once at the t
 the highest open start), near which
 a strongly coupled mode (Q_ext of a few tens) already lies close to its loaded place. More
 starts than modes asked (EXTRA_STARTS, LINEARISED_STARTS); two starts that converge to one λ
-give one mode, and the modes nearest the target (by real part) are kept.
+give one mode, and the modes nearest the target (by real part) are kept. A root at λ ≈ 0
+(a terminated TM or TEM mode's gradient field, ports.termination) is no resonance and is
+dropped.
 """
 
 from __future__ import annotations
@@ -44,9 +47,7 @@ from ..eigen.factorization import describe, get_factorizer
 from ..eigen.interface import STATIC_FRACTION, EigenRequest, EigenStats
 from ..eigen.problem import EigenProblem
 from ..errors import InputError
-from ..fem.assembly import assemble
 from ..fem.coefficients import isotropic_part
-from ..fem.gradient import kernel_basis
 from ..fem.space import build_space
 from ..post.checks import check_modes
 from ..post.loss_validity import with_loss_warnings
@@ -56,9 +57,9 @@ from ..progress import SILENT
 from ..class_solve import select_modes
 from ..solver import Mode, SolveResult, frequency_to_k0_squared, quality_factor
 from ..walls import PORT
-from .cross_section import port_modes
+from .layered_face import LayeredFace
 from .loading import port_loading
-from .termination import terminate
+from .port_system import PortSystem, port_face
 
 TOLERANCE = 1e-10
 MAX_STEPS = 30
@@ -92,28 +93,25 @@ def solve_with_ports(model, *, modes: int = 10, near_hz: float | None = None,
                          "perturbation); drop losses_inside", option="losses_inside")
     t0 = time.perf_counter()
     space = build_space(model, "E", order)
-    ports = [port_modes(space, name, wall.port_modes)
+    faces = [port_face(space, name, wall.port_modes)
              for name, wall in model.walls.items() if wall.kind == PORT]
-    for port in ports:
-        cutoffs = ", ".join(f"{f / 1e9:.6g} GHz" for f in port.cutoff_hz())
-        progress.step(f"port {port.name}: ε_r {port.eps_r:g}, μ_r {port.mu_r:g}; TE cut-offs "
-                      f"{cutoffs}; the lowest {port.terminated} terminated, the others "
-                      "shorted")
-    termination = terminate(space, ports)
+    for face in faces:
+        progress.step(_describe(face))
+    system = PortSystem(space, faces)
+    scale = ((math.pi / model.mesh.bounding_size()) ** 2
+             / (isotropic_part(space.mass_coef).max()
+                / isotropic_part(space.stiffness_coef).min()))
+    target = None if near_hz is None else frequency_to_k0_squared(near_hz)
+    first = system.at(target if target is not None else scale)
+    K, M, G, termination = first.K, first.M, first.G, first.termination
     tspace = termination.space
-    K, M = assemble(tspace)
-    G = kernel_basis(tspace)
     timings = {"assembly_s": time.perf_counter() - t0}
     factorize = partial(get_factorizer(factorization), memory_limit=None)
-    scale = ((math.pi / model.mesh.bounding_size()) ** 2
-             / (isotropic_part(tspace.mass_coef).max()
-                / isotropic_part(tspace.stiffness_coef).min()))
     if tspace.n_dofs < modes + 2:
         raise InputError(f"the mesh has only {tspace.n_dofs} free DOFs, too few for {modes} "
                          "modes; refine the mesh", option="modes")
 
     t0 = time.perf_counter()
-    target = None if near_hz is None else frequency_to_k0_squared(near_hz)
     starts = np.zeros(0)
     if target is None:
         open_problem = EigenProblem(K, M, G, lowest_scale=scale, hermitian=True)
@@ -124,6 +122,8 @@ def solve_with_ports(model, *, modes: int = 10, near_hz: float | None = None,
     # where a strongly coupled mode lies near its loaded place
     reference = complex(target if target is not None
                         else starts.real.max() if starts.size else scale)
+    near = system.at(reference)
+    K, M, G, termination = near.K, near.M, near.G, near.termination
     Kt, Mt = _linearised(K, M, termination, reference)
     near_problem = EigenProblem(Kt, Mt, G, lowest_scale=scale, hermitian=False)
     starts = np.concatenate([starts, backends.solve(
@@ -134,9 +134,10 @@ def solve_with_ports(model, *, modes: int = 10, near_hz: float | None = None,
     for start in starts:
         if any(abs(start - v) < 1e-6 * abs(v) for v, *_ in solved):
             continue     # already reached from another start
-        value, vector, linearised, steps = _converge(K, M, G, scale, termination,
-                                                     complex(start), factorize, progress)
-        if any(abs(value - v) < SAME_ROOT * abs(value) for v, *_ in solved):
+        value, vector, linearised, steps = _converge(system, scale, complex(start),
+                                                     factorize, progress)
+        if (abs(value) < STATIC_FRACTION * scale
+                or any(abs(value - v) < SAME_ROOT * abs(value) for v, *_ in solved)):
             continue
         steps_taken.append(steps)
         if value.imag < -SAME_ROOT * abs(value):
@@ -152,13 +153,14 @@ def solve_with_ports(model, *, modes: int = 10, near_hz: float | None = None,
                   f"({', '.join(map(str, steps_taken))} steps)"
                   + (f"; {improper} root(s) growing in time dropped (not resonances of a "
                      "passive part)" if improper else ""))
-    faces = metal_faces(tspace) if has_losses(tspace) else None
+    walls = metal_faces(tspace) if has_losses(tspace) else None
     sizes = edge_space_scales(tspace)
     result_modes = []
-    for i, (value, vector, (Kt, Mt, projector), steps) in enumerate(solved):
+    for i, (value, vector, (Kt, Mt, projector, termination), steps) in enumerate(solved):
+        tspace = termination.space
         check = check_modes(Kt, Mt, projector, np.array([value]), vector[:, None],
                             hermitian=False)[0]
-        mode = _mode(i, value, vector, check, tspace, termination, faces, sizes, progress)
+        mode = _mode(i, value, vector, check, tspace, termination, walls, sizes, progress)
         if steps >= MAX_STEPS:
             mode = replace(mode, loss_warnings=mode.loss_warnings + (
                 f"the port iteration did not settle to {TOLERANCE:g} in {MAX_STEPS} steps",))
@@ -175,23 +177,34 @@ def solve_with_ports(model, *, modes: int = 10, near_hz: float | None = None,
                        request=EigenRequest(modes, target), near_hz=near_hz)
 
 
-def _betas(termination, value: complex) -> list[tuple]:
-    """(terminated mode, its port, β, dβ/dλ) at λ = ``value``."""
+def _describe(face) -> str:
+    if isinstance(face, LayeredFace):
+        return (f"port {face.name}: layered filling; its hybrid modes are solved at each "
+                f"iterate's frequency; the lowest {face.terminated} terminated, the others "
+                "shorted")
+    cutoffs = ", ".join(f"{kind} {f / 1e9:.6g} GHz"
+                        for kind, f in zip(face.kinds, face.cutoff_hz()))
+    return (f"port {face.name}: ε_r {face.eps_r:g}, μ_r {face.mu_r:g}; cut-offs {cutoffs}; "
+            f"the lowest {face.terminated} terminated, the others shorted")
+
+
+def _admittances(termination, value: complex) -> list[tuple]:
+    """(terminated mode, its port, β, y, dy/dλ) at λ = ``value``; y = ωμ0 Y (cross_section)."""
     ports = {p.name: p for p in termination.ports}
     out = []
     for mode in termination.modes:
         port = ports[mode.port]
-        beta = port.propagation_constant(value, mode.mode)
-        out.append((mode, port, beta, port.eps_r * port.mu_r / (2 * beta)))
+        out.append((mode, port, port.propagation_constant(value, mode.mode),
+                    *port.admittance(value, mode.mode)))
     return out
 
 
 def _linearised(K, M, termination, value: complex):
     """The pencil linearised around λ = ``value`` (see the module's docstring)."""
     Kt, Mt = K.astype(complex), M.astype(complex)
-    for mode, port, beta, slope in _betas(termination, value):
-        D = mode.matrix() / port.mu_r
-        Kt = Kt + 1j * (beta - slope * value) * D
+    for mode, _, _, y, slope in _admittances(termination, value):
+        D = mode.matrix()
+        Kt = Kt + 1j * (y - slope * value) * D
         Mt = Mt - 1j * slope * D
     return Kt.tocsr(), Mt.tocsr()
 
@@ -200,15 +213,19 @@ def _residual(K, M, termination, value: complex, x: np.ndarray) -> float:
     """‖T(λ) x‖ / ‖λ M x‖ of the non-linear pencil itself (matrix products only)."""
     Mx = M @ x
     r = K @ x - value * Mx
-    for mode, port, beta, _ in _betas(termination, value):
+    for mode, _, _, y, _ in _admittances(termination, value):
         w = mode.weights
-        r = r + (1j * beta / port.mu_r) * (w @ (w.T @ x)).ravel()
+        r = r + 1j * y * (w @ (w.T @ x)).ravel()
     return float(np.linalg.norm(r) / max(np.linalg.norm(value * Mx), np.finfo(float).tiny))
 
 
-def _converge(K, M, G, scale, termination, value: complex, factorize, progress):
-    """(λ, x, (linearised K, M, projector), steps) from the start ``value``."""
+def _converge(system, scale, value: complex, factorize, progress):
+    """(λ, x, (linearised K, M, projector, termination), steps) from the start ``value``.
+    With a layered port the termination follows Re λ (ports.port_system), and the pair is
+    checked by the change of λ alone (the residual would need the next iterate's space)."""
     for step in range(1, MAX_STEPS + 1):
+        problem_at = system.at(value)
+        K, M, G, termination = problem_at.K, problem_at.M, problem_at.G, problem_at.termination
         Kt, Mt = _linearised(K, M, termination, value)
         problem = EigenProblem(Kt, Mt, G, lowest_scale=scale, hermitian=False)
         setting = backends.setting_for(problem, factorize)
@@ -219,12 +236,13 @@ def _converge(K, M, G, scale, termination, value: complex, factorize, progress):
         change = abs(new - value)
         value = new
         if (change < TOLERANCE * abs(new)
-                or _residual(K, M, termination, new, pairs.vectors[:, j]) < TOLERANCE):
-            return value, pairs.vectors[:, j], (Kt, Mt, setting.projector), step
+                or (not system.layered
+                    and _residual(K, M, termination, new, pairs.vectors[:, j]) < TOLERANCE)):
+            return value, pairs.vectors[:, j], (Kt, Mt, setting.projector, termination), step
     f_ghz = C0 * np.sqrt(value).real / (2 * math.pi) / 1e9
     progress.step(f"warning: the port iteration near {f_ghz:.6g} GHz did not settle to "
                   f"{TOLERANCE:g} in {MAX_STEPS} steps (last change {change / abs(value):.1e})")
-    return value, pairs.vectors[:, j], (Kt, Mt, setting.projector), MAX_STEPS
+    return value, pairs.vectors[:, j], (Kt, Mt, setting.projector, termination), MAX_STEPS
 
 
 def _mode(i, value, vector, check, tspace, termination, faces, sizes, progress) -> Mode:
@@ -233,10 +251,9 @@ def _mode(i, value, vector, check, tspace, termination, faces, sizes, progress) 
     full = tspace.constraint.expand(vector)
     losses = mode_losses(tspace, full, f, faces) if has_losses(tspace) else None
     power, propagation = {}, {}
-    for mode, port, beta, _ in _betas(termination, value):
+    for mode, port, beta, y, _ in _admittances(termination, value):
         amplitude = complex((mode.weights.T @ vector)[0])
-        power[port.name] = (power.get(port.name, 0.0)
-                            + abs(beta.real) / port.mu_r * abs(amplitude) ** 2)
+        power[port.name] = power.get(port.name, 0.0) + abs(y.real) * abs(amplitude) ** 2
         propagation.setdefault(port.name, []).append(complex(beta))
     loading = port_loading(frequency, power, losses.q_total if losses else None, propagation)
     warnings = []
@@ -245,14 +262,16 @@ def _mode(i, value, vector, check, tspace, termination, faces, sizes, progress) 
         for m in range(port.terminated):
             if abs(f - cutoff_hz[m]) < NEAR_CUTOFF * cutoff_hz[m]:
                 warnings.append(f"port {port.name}: {f / 1e9:.6g} GHz lies within "
-                                f"{NEAR_CUTOFF:.0%} of its TE mode {m + 1}'s cut-off "
+                                f"{NEAR_CUTOFF:.0%} of its mode {port.label(m)}'s cut-off "
                                 f"({cutoff_hz[m] / 1e9:.6g} GHz): possibly the guide's cut-off, "
                                 "not a resonance")
         for m in range(port.terminated, len(cutoff_hz)):
-            if cutoff_hz[m] < f:
-                warnings.append(f"port {port.name}: its TE mode {m + 1} (cut-off "
-                                f"{cutoff_hz[m] / 1e9:.6g} GHz) propagates at {f / 1e9:.6g} "
-                                f"GHz but is shorted; set port_modes >= {m + 1}")
+            if port.propagates(float(np.real(value)), m):
+                where = ("" if np.isnan(cutoff_hz[m])
+                         else f" (cut-off {cutoff_hz[m] / 1e9:.6g} GHz)")
+                warnings.append(f"port {port.name}: its mode {port.label(m)}{where} propagates "
+                                f"at {f / 1e9:.6g} GHz but is shorted; set port_modes >= "
+                                f"{m + 1}")
     for w in warnings:
         progress.step("warning: " + w)
     betas = "; ".join(f"port {p}: β " + ", ".join(f"{b.real:.6g}{b.imag:+.3g}j rad/m"

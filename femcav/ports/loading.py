@@ -2,9 +2,9 @@
 
 The complex frequency of a port-terminated solve (lossless materials inside) holds every
 port's loss together: 1/Q_ext = 2 Im f / Re f summed over the ports. Each port's share is
-the power its terminated modes carry away, P_p ∝ Σ_m Re(β_m)/μ_r |a_m|² (the time-averaged
-power of a TE mode of amplitude a, ½ Re(Y) |a|², Y = β/(ωμ0μ_r); Pozar, Microwave
-Engineering, 4th ed., §3.1), so 1/Q_ext,p = (1/Q_ext) P_p / Σ P. With the unloaded Q_0 of the
+the power its terminated modes carry away, P_p ∝ Σ_m Re(y_m) |a_m|² (the time-averaged
+power of a mode of amplitude a, ½ Re(Y) |a|², y = ωμ0 Y: β/μ_r for TE and TEM, k0² ε_r/β for
+TM; Pozar, Microwave Engineering, 4th ed., §3.1), so 1/Q_ext,p = (1/Q_ext) P_p / Σ P. With the unloaded Q_0 of the
 walls and dielectrics (perturbation, post.losses): 1/Q_L = 1/Q_0 + Σ_p 1/Q_ext,p and the
 coupling factor β_p = Q_0/Q_ext,p (Pozar, §6.7; post.response).
 """

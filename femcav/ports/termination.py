@@ -1,5 +1,5 @@
-"""The boundary operator of a waveguide port in the E form: each terminated TE mode adds a
-rank-one term to the pencil; the port's other modes see a short.
+"""The boundary operator of a waveguide port in the E form: each terminated mode (TE, TM or
+TEM) adds a rank-one term to the pencil; the port's other modes see a short.
 
 Derivation. The E form ∇×(μ_r⁻¹ ∇×E) = k0² ε_r E, tested with v and integrated by parts
 (∫ v·∇×A = ∫ A·∇×v + ∮ (n×A)·v), gives with μ_r⁻¹ ∇×E = −jωμ0 H (time e^{jωt}):
@@ -8,18 +8,19 @@ Derivation. The E form ∇×(μ_r⁻¹ ∇×E) = k0² ε_r E, tested with v and 
 
 On a PEC wall v×n = 0 and the face term vanishes; on a port it is what the guide beyond the
 face imposes. Expand the tangential field on the face in the guide's modes, E_t = Σ_m a_m e_m
-with ∫ e_m·e_l dS = δ_ml. A TE mode that leaves the part through the face (along the outward
-normal n) carries H_t = Y_m n×E_t with the modal admittance Y_m = β_m/(ωμ0 μ_r)
-(D. M. Pozar, Microwave Engineering, 4th ed., §3.1, Z_TE = ωμ/β), so
+with ∫ e_m·e_l dS = δ_ml. A mode that leaves the part through the face (along the outward
+normal n) carries H_t = Y_m n×E_t with its wave admittance Y_m (D. M. Pozar, Microwave
+Engineering, 4th ed., §3.1: TE and TEM Y = β/(ωμ0 μ_r), TM Y = ωε0 ε_r/β), so
 n×H_t = Y_m n×(n×E_t) = −Y_m a_m e_m, and the face term becomes
 
-    −jωμ0 ∮ (n×H)·v dS = Σ_m (jβ_m/μ_r) a_m(E) a_m(v),    a_m(u) = ∫ u·e_m dS:
+    −jωμ0 ∮ (n×H)·v dS = Σ_m j y_m a_m(E) a_m(v),    a_m(u) = ∫ u·e_m dS,  y_m = ωμ0 Y_m:
 
-one rank-one term w_m w_mᵀ per mode, scaled by jβ_m(k0)/μ_r, where w_m holds the mode's
-projections of the basis functions. The pencil is T(λ) = K + Σ_m (jβ_m(λ)/μ_r) w_m w_mᵀ − λM,
-λ = k0², complex symmetric, and non-linear in λ through β_m = √(λ ε_r μ_r − k_c,m²)
-(ports.loaded_solve). Above cut-off β_m > 0 and the term takes energy out (Im λ > 0: the
-mode decays in time as e^{−Im ω t}); below cut-off β_m = −jα_m and it is a real reactance.
+one rank-one term w_m w_mᵀ per mode, scaled by j y_m(λ) (y = β/μ_r for TE and TEM,
+y = λ ε_r/β for TM), where w_m holds the mode's projections of the basis functions. The
+pencil is T(λ) = K + Σ_m j y_m(λ) w_m w_mᵀ − λM, λ = k0², complex symmetric, and non-linear in
+λ through β_m = √(λ ε_r μ_r − k_c,m²) (ports.loaded_solve). Above cut-off y_m > 0 and the
+term takes energy out (Im λ > 0: the mode decays in time as e^{−Im ω t}); below cut-off
+β_m = −jα_m and it is a real reactance (inductive for TE, capacitive for TM).
 
 The other modes of the face: the face's trace is restricted to the span of the terminated
 modes (the other DOFs of the face are dropped), so every other mode sees a short (E_t = 0
@@ -27,8 +28,10 @@ in it). In the constraint x_full = P x, the face's DOFs are replaced by one DOF 
 terminated mode: P's columns for those are the modes' patterns recombined (T A, A = T_R⁻¹
 for pivot rows R chosen by a pivoted QR) so that each such DOF is the field's value on one
 face DOF, as the constraint layer expects (fem.constraints). The scalar potentials of the
-kernel are held at zero on the face: a surface gradient is no TE mode, so no gradient field
-with a trace on the face lies in the space.
+kernel basis are held at zero on the face. A terminated TM or TEM mode's pattern is itself a
+surface gradient, so a 3D gradient with that trace lies in the space outside the kernel
+basis; the port term is not zero on it, so it is no static mode of the loaded pencil but a
+root at λ = 0 (y_TM and y_TEM vanish there), which the solve drops (ports.loaded_solve).
 """
 
 from __future__ import annotations
@@ -47,7 +50,7 @@ from .cross_section import PortModes
 @dataclass(frozen=True)
 class TerminatedMode:
     port: str
-    mode: int                   # 0-based TE mode number of its port
+    mode: int                   # 0-based mode number of its port (all kinds by cut-off)
     weights: sp.csr_matrix      # w_m over the reduced DOFs, (n, 1)
 
     def matrix(self) -> sp.csr_matrix:

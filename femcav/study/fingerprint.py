@@ -23,7 +23,7 @@ import hashlib
 import json
 from pathlib import Path
 
-RESULTS_VERSION = 1
+RESULTS_VERSION = 2     # 2: a port terminates its lowest modes of every kind (TE, TM, TEM)
 # Tables that do not decide a point's solve.
 NOT_DECIDING = ("title", "sweep", "tune", "extract", "tolerances")
 
