@@ -229,7 +229,7 @@ def _face_matrices(space: EdgeSpace, facets: np.ndarray, normal: np.ndarray,
     """The face's free trace DOFs and the 2D curl-curl and mass matrices over them, each
     optionally weighted by a value per facet (1/μ_r, ε_r of a layered face)."""
     basis = _face_basis(space, space.element, facets)
-    values = np.stack([b[0].value for b in basis.basis])          # (nb, 3, nf, nq)
+    values = np.stack([np.asarray(b[0]) for b in basis.basis])          # (nb, 3, nf, nq)
     curls = np.stack([b[0].curl for b in basis.basis])
     tangential = values - np.einsum("bifq,i->bfq", values, normal)[:, None] * normal[
         None, :, None, None]
@@ -264,7 +264,7 @@ def _face_gradient(space: EdgeSpace, facets: np.ndarray, face_dofs: np.ndarray,
     scalars = on_face[kept[on_face]]
     gradient = discrete_gradient(space)[face_dofs][:, scalars].toarray()
     basis = _face_basis(space, space.scalar_element, facets)
-    values = np.stack([b[0].value for b in basis.basis])          # (nb, nf, nq)
+    values = np.stack([np.asarray(b[0]) for b in basis.basis])          # (nb, nf, nq)
     mass = _gather(np.einsum("afq,bfq,fq->fab", values, values,
                              _weighted(basis.dx, mass_weight)),
                    _places(scalars, space.scalar_dofs.N, basis.element_dofs), scalars.size)
