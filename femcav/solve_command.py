@@ -27,7 +27,8 @@ def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: i
              cluster: str | None = None, write: bool = True,
              progress: Progress = SILENT) -> tuple[Case, SolveResult, Path]:
     """Solve a case file and write table.txt, modes.csv, modes.json and fields.vtu (and
-    wall_loss.vtu when the case has metal walls).
+    wall_loss.vtu when the case has metal walls; with method "distributed" fields.pvtu and
+    its pieces instead of fields.vtu, one written by each process).
 
     Command-line values (modes, near_hz, form, order, factorization, method) override the
     case file's [solve] table. ``path`` may also be a case already loaded (load_case).
@@ -48,7 +49,11 @@ def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: i
         result = solve_case(case, settings, progress, pool=pool)
         if case.tolerance_samples is not None:
             result = with_monte_carlo(case, result, settings, pool=pool, progress=progress)
+    partitioned = settings.method == "distributed"   # fields.pvtu, a piece per process
     if not write:
+        if partitioned:
+            from .io.partitioned_vtk import write_partitioned_fields
+            write_partitioned_fields(result, None, folder)
         return case, result, folder
     with staged_output(folder, kind="solve", replaces=("solve", "pictures")) as files:
         _write_tables(files, case, result)
@@ -56,6 +61,9 @@ def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: i
             from .axisymmetric.revolve import write_revolved_vtu
             files.write_with("fields.vtu", lambda p: write_revolved_vtu(result, p),
                              suffix=".vtu")
+        elif partitioned:
+            from .io.partitioned_vtk import write_partitioned_fields
+            write_partitioned_fields(result, files, folder)
         else:
             files.write_with("fields.vtu", lambda p: write_vtu(result, p), suffix=".vtu")
         if any(getattr(m.losses, "wall_loss_density", None) is not None for m in result.modes):

@@ -116,7 +116,7 @@ def _run(python: Path, case: Path, out: Path, processes: int, method: str,
         command = _launcher() + ["-n", str(processes)] + command
     env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1",
                PETSC_OPTIONS=petsc_options)
-    env.pop("PYTHONPATH", None)      # the environment has femcav installed from its checkout
+    env["PYTHONPATH"] = str(ROOT)    # this checkout's femcav, nothing of another Python's
     run = subprocess.run(command, capture_output=True, text=True, timeout=TIMEOUT_S,
                          cwd=case.parent, env=env)
     assert run.returncode == 0, run.stderr[-2000:]
@@ -135,10 +135,19 @@ def _same_modes(distributed: dict, serial: dict) -> None:
     assert all(m["passed"] for m in distributed["modes"])
 
 
-def test_two_processes_give_the_serial_lowest_modes(distributed_python, meshed, tmp_path):
+@pytest.fixture(scope="module")
+def lowest(distributed_python, meshed, tmp_path_factory) -> tuple[Path, dict, Path, dict]:
+    """The 10 lowest modes of the box, serially and on 2 processes: (folder, modes.json)
+    of each."""
     case = _case(meshed, "lowest", "modes = 10")
-    serial = _serial(case, tmp_path / "serial")
-    distributed = _distributed(distributed_python, case, tmp_path / "two", 2)
+    out = tmp_path_factory.mktemp("lowest")
+    serial = _serial(case, out / "serial")
+    distributed = _distributed(distributed_python, case, out / "two", 2)
+    return out / "serial", serial, out / "two", distributed
+
+
+def test_two_processes_give_the_serial_lowest_modes(lowest):
+    serial_folder, serial, folder, distributed = lowest
     assert re.search(r"MUMPS factorised K - σM \(\d+ DOFs, 2 processes\)",
                      distributed["progress"])
     assert distributed["factorization"] == "MUMPS over 2 MPI processes"
@@ -146,9 +155,70 @@ def test_two_processes_give_the_serial_lowest_modes(distributed_python, meshed, 
     # a 3 mm mesh of first order elements: within 3 % of the closed form (Pozar §6.3)
     reference = np.array(lowest_box_frequencies(A, B, D, 10))
     assert np.max(np.abs(_frequencies(distributed) / reference - 1)) < 3e-2
-    assert not (tmp_path / "two" / "fields").exists()   # one writer: the expected files only
-    assert sorted(p.name for p in (tmp_path / "two").iterdir()) == sorted(
-        p.name for p in (tmp_path / "serial").iterdir())
+    # one writer of the tables; the fields as one piece per process and their index
+    pieces = {"fields.pvtu", "fields_piece_0.vtu", "fields_piece_1.vtu"}
+    assert sorted(p.name for p in folder.iterdir()) == sorted(
+        {p.name for p in serial_folder.iterdir()} - {"fields.vtu"} | pieces)
+
+
+def _centroid_keys(mesh) -> list[tuple]:
+    """Each tetrahedron's centroid, rounded to 1 nm: the same cell in two files."""
+    tets = mesh.cells_dict["tetra"]
+    return [tuple(c) for c in np.round(mesh.points[tets].mean(axis=1) * 1e9).astype(np.int64)]
+
+
+def test_the_fields_are_one_vtk_piece_per_process_and_equal_the_serial_fields(lowest):
+    """fields.pvtu (VTK's XML PUnstructuredGrid, "VTK File Formats", Kitware; common
+    practice) lists one .vtu per process; read with meshio, the pieces hold every cell of
+    the serial fields.vtu once, with its region and the same fields. A mode's field is
+    fixed up to its sign (both are scaled to 1 J), so each is compared after aligning the
+    sign; modes 8 and 9 of the box are degenerate in the closed form (TE111 and TM111,
+    Pozar §6.3), so any combination of the two is a valid answer and they are left out."""
+    import xml.etree.ElementTree as ElementTree
+
+    import meshio
+
+    serial_folder, _, folder, _ = lowest
+    index = ElementTree.parse(folder / "fields.pvtu").getroot()
+    assert index.attrib["type"] == "PUnstructuredGrid"
+    sources = [piece.attrib["Source"] for piece in index.iter("Piece")]
+    assert sources == ["fields_piece_0.vtu", "fields_piece_1.vtu"]
+    pieces = [meshio.read(folder / source) for source in sources]
+    whole = meshio.read(serial_folder / "fields.vtu")
+    row = {key: i for i, key in enumerate(_centroid_keys(whole))}
+    rows = [np.array([row[key] for key in _centroid_keys(piece)]) for piece in pieces]
+    assert all(0 < r.size < len(row) for r in rows)       # each process wrote a share
+    assert np.array_equal(np.sort(np.concatenate(rows)), np.arange(len(row)))  # each cell once
+    declared = {a.attrib["Name"] for a in index.find("PUnstructuredGrid/PCellData")}
+    assert declared == set(whole.cell_data)
+    reference = lowest_box_frequencies(A, B, D, 10)
+    for piece, r in zip(pieces, rows):
+        assert np.array_equal(piece.cell_data["region"][0], whole.cell_data["region"][0][r])
+    separate = [k for k in range(1, 11)
+                if all(abs(reference[k - 1] / f - 1) > 5e-3 for j, f in enumerate(reference, 1)
+                       if j != k)]
+    assert separate == [1, 2, 3, 4, 5, 6, 7, 10]
+    for k in separate:
+        for name in (f"m{k:02d}_E", f"m{k:02d}_H"):
+            serial_field = whole.cell_data[name][0]
+            field = np.empty_like(serial_field)
+            for piece, r in zip(pieces, rows):
+                field[r] = piece.cell_data[name][0]
+            sign = np.sign(np.sum(field * serial_field))
+            np.testing.assert_allclose(sign * field, serial_field, rtol=0,
+                                       atol=1e-6 * np.abs(serial_field).max())
+
+
+def test_pyvista_reads_the_pieces_as_one_grid(lowest):
+    """VTK's own parallel reader (through pyvista, a general-purpose library) opens the
+    index and finds every cell of the serial file."""
+    pv = pytest.importorskip("pyvista")
+    serial_folder, _, folder, _ = lowest
+    grid, whole = pv.read(folder / "fields.pvtu"), pv.read(serial_folder / "fields.vtu")
+    assert grid.n_cells == whole.n_cells
+    assert set(whole.cell_data) <= set(grid.cell_data)
+    np.testing.assert_allclose(np.sort(grid.cell_data["m01_we"]),
+                               np.sort(whole.cell_data["m01_we"]), rtol=1e-6)
 
 
 def test_davidson_with_ams_gives_the_serial_lowest_modes(distributed_python, meshed, tmp_path):

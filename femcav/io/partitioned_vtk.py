@@ -1,0 +1,105 @@
+"""Fields of a distributed solve as partitioned VTK: one piece per MPI process and an index.
+
+Every process evaluates the fields on the elements it assembled (the METIS part of
+femcav.fem.distributed_assembly) and writes them, with only the points those elements use,
+as ``fields_piece_R.vtu`` (R its rank): the same cell data as the serial ``fields.vtu``
+(femcav.io.vtk.mode_cell_data). Rank 0 writes ``fields.pvtu``, VTK's XML index of the
+pieces (a PUnstructuredGrid with one Piece per process), so no process evaluates or holds
+the whole field. The pieces are written to temporaries in the output folder, which every
+process must see (one machine, or a shared file system), and handed to rank 0's staged
+output, which renames them into place with its other files or removes them on a failure.
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+from xml.sax.saxutils import quoteattr
+
+import numpy as np
+
+from ..solver import SolveResult
+from .atomic import StagedFiles, temporary_path
+from .vtk import mode_cell_data
+
+INDEX = "fields.pvtu"
+
+
+def piece_name(rank: int) -> str:
+    return f"fields_piece_{rank}.vtu"
+
+
+def write_partitioned_fields(result: SolveResult, files: StagedFiles | None,
+                             folder: Path) -> None:
+    """Collective over the processes of the solve: rank 0 passes its staged ``files`` (the
+    folder exists), the others None. Each writes its piece; rank 0 stages them and the index."""
+    from ..eigen.petsc_stack import load
+    from ..fem.distributed_assembly import element_parts
+
+    stack = load()
+    comm = stack.comm
+    comm.bcast(None, root=0)          # rank 0 has made the folder
+    mine = np.flatnonzero(element_parts(stack, result.space.mesh) == stack.rank)
+    name = piece_name(stack.rank)
+    arrays = None
+    try:
+        if files is not None:
+            path = files.path_for(name, ".vtu")
+        else:
+            path = temporary_path(folder, name, ".vtu")
+        arrays = write_piece(result, mine, path)
+        outcome = (str(path), None)
+    except Exception as exc:  # noqa: BLE001 - said by rank 0 and re-raised here after
+        outcome, error = (None, f"process {stack.rank}: {exc}"), exc
+    outcomes = comm.gather(outcome, root=0)
+    if files is None:
+        if outcome[1] is not None:
+            raise error
+        return
+    failures = [message for _, message in outcomes if message is not None]
+    if failures:
+        raise RuntimeError("a piece of fields.pvtu could not be written: "
+                           + "; ".join(failures))
+    for rank, (path, _) in enumerate(outcomes[1:], start=1):
+        files.adopt(Path(path), piece_name(rank))
+    files.write_text(INDEX, pvtu_index([piece_name(r) for r in range(stack.size)], arrays))
+
+
+def write_piece(result: SolveResult, elements: np.ndarray, path: Path) -> list[tuple]:
+    """``elements`` (tetrahedron indices) with their fields, as a .vtu of the points they use;
+    returns the cell arrays as (name, numpy dtype, components) for the index."""
+    import meshio
+
+    tm = result.space.model.mesh
+    tets = tm.tets[elements]
+    used, local = np.unique(tets, return_inverse=True)
+    data = mode_cell_data(result, elements)
+    meshio.write(str(path), meshio.Mesh(tm.points[used], [("tetra", local.reshape(tets.shape))],
+                                        cell_data=data), file_format="vtu")
+    return [(name, values[0].dtype, 1 if values[0].ndim == 1 else values[0].shape[1])
+            for name, values in data.items()]
+
+
+_VTK_TYPES = {"f8": "Float64", "f4": "Float32", "i4": "Int32", "i8": "Int64"}
+
+
+def pvtu_index(pieces: list[str], arrays: list[tuple]) -> str:
+    """VTK's XML parallel unstructured grid (file format of VTK 4.2+, "VTK File Formats",
+    Kitware): the point type, the cell arrays, and one Piece per file."""
+    def array(name, dtype, components):
+        return (f'      <PDataArray type="{_VTK_TYPES[np.dtype(dtype).str[1:]]}" '
+                f'Name={quoteattr(name)} NumberOfComponents="{components}"/>')
+
+    lines = ['<?xml version="1.0"?>',
+             '<VTKFile type="PUnstructuredGrid" version="0.1" '
+             f'byte_order="{"LittleEndian" if sys.byteorder == "little" else "BigEndian"}">',
+             '  <PUnstructuredGrid GhostLevel="0">',
+             '    <PPoints>',
+             '      <PDataArray type="Float64" NumberOfComponents="3"/>',
+             '    </PPoints>',
+             '    <PCellData>']
+    lines += [array(*entry) for entry in arrays]
+    lines += ['    </PCellData>']
+    lines += [f'    <Piece Source={quoteattr(piece)}/>' for piece in pieces]
+    lines += ['  </PUnstructuredGrid>', '</VTKFile>']
+    return "\n".join(lines) + "\n"
