@@ -338,3 +338,63 @@ def test_what_runs_serially_is_refused_before_loading_petsc(meshed, tmp_path, ca
     assert "the complex check and losses inside the solve run serially" in \
         capsys.readouterr().err
     assert not out.exists()
+
+
+CHECKS_SCRIPT = """
+import json, sys
+import numpy as np
+from femcav.eigen.factorization import get_factorizer
+from femcav.eigen.projection import GradientProjector
+from femcav.fem.assembly import assemble
+from femcav.fem.distributed_assembly import assemble_distributed
+from femcav.fem.gradient import kernel_basis
+from femcav.fem.space import build_space
+from femcav.geometry.importer import read_mesh
+from femcav.materials import Material
+from femcav.model import make_model
+from femcav.post.checks import check_modes
+
+space = build_space(make_model(read_mesh(sys.argv[1]), {"inside": Material()}, {}), "E", 1)
+K, M, G = assemble_distributed(space)
+Ks, Ms = assemble(space)
+X = np.random.default_rng(1).standard_normal((Ks.shape[0], 4))   # the same on every process
+values = np.array([1.0, 2.0, 3.0, 4.0]) * 1e4
+serial = GradientProjector(Ms, kernel_basis(space), get_factorizer("superlu"), hermitian=True)
+from femcav.eigen.distributed_matrix import DistributedVectors
+
+
+def gathered(*args):
+    raise AssertionError("a whole vector was gathered during the checks")
+
+
+DistributedVectors.to_global = gathered
+pairs = [check_modes(Ks, Ms, serial, values, X),
+         check_modes(K, M, M.gradient_projector(G), values, X)]
+# the residual written out with SciPy's sparse products alone
+explicit = (np.linalg.norm(Ks @ X - (Ms @ X) * values, axis=0)
+            / np.linalg.norm((Ms @ X) * values, axis=0))
+if K.stack.rank == 0:
+    print(json.dumps({"explicit": explicit.tolist(),
+                      "checks": [[[c.residual, c.divergence, c.orthogonality] for c in p]
+                                 for p in pairs]}))
+"""
+
+
+def test_the_checks_run_in_petsc_and_equal_the_numpy_checks(distributed_python, meshed,
+                                                            tmp_path):
+    """post.checks on matrices spread over 2 processes (every product and norm in PETSc,
+    post.distributed_checks) against the same checks on SciPy matrices, for vectors that
+    are no eigenvectors (residual, gradient content and overlap all of order 1, so that the
+    comparison means something). Gathering a whole vector is made an error there."""
+    script = tmp_path / "checks.py"
+    script.write_text(CHECKS_SCRIPT)
+    run = subprocess.run(_launcher() + ["-n", "2", str(distributed_python), str(script),
+                                        str(meshed / "mesh" / "mesh.msh")],
+                         capture_output=True, text=True, timeout=TIMEOUT_S,
+                         env=dict(os.environ, OMP_NUM_THREADS="1", PYTHONPATH=str(ROOT)))
+    assert run.returncode == 0, run.stderr[-2000:]
+    out = json.loads(run.stdout.strip().splitlines()[-1])
+    serial, distributed = np.array(out["checks"])
+    assert np.all(serial > 1e-3)
+    np.testing.assert_allclose(distributed, serial, rtol=1e-10)
+    np.testing.assert_allclose(distributed[:, 0], out["explicit"], rtol=1e-10)
