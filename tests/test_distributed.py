@@ -219,6 +219,9 @@ def test_pyvista_reads_the_pieces_as_one_grid(lowest):
     assert set(whole.cell_data) <= set(grid.cell_data)
     np.testing.assert_allclose(np.sort(grid.cell_data["m01_we"]),
                                np.sort(whole.cell_data["m01_we"]), rtol=1e-6)
+    # femcav show and the report draw from it where a folder has no fields.vtu
+    from femcav.viz.show import read_fields
+    assert read_fields(folder, [1, 2], "H").n_cells == whole.n_cells
 
 
 def test_davidson_with_ams_gives_the_serial_lowest_modes(distributed_python, meshed, tmp_path):
