@@ -52,18 +52,21 @@ def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: i
     partitioned = settings.method == "distributed"   # fields.pvtu, a piece per process
     if not write:
         if partitioned:
-            from .io.partitioned_vtk import write_partitioned_fields
-            write_partitioned_fields(result, None, folder)
+            from .io.partitioned_vtk import write_own_piece
+            write_own_piece(result, folder)
         return case, result, folder
-    with staged_output(folder, kind="solve", replaces=("solve", "pictures")) as files:
+    from contextlib import nullcontext
+    if partitioned:
+        from .io.partitioned_vtk import partitioned_fields
+    with (partitioned_fields(result) if partitioned else nullcontext()) as pieces, \
+            staged_output(folder, kind="solve", replaces=("solve", "pictures")) as files:
         _write_tables(files, case, result)
         if settings.azimuthal_orders is not None:
             from .axisymmetric.revolve import write_revolved_vtu
             files.write_with("fields.vtu", lambda p: write_revolved_vtu(result, p),
                              suffix=".vtu")
         elif partitioned:
-            from .io.partitioned_vtk import write_partitioned_fields
-            write_partitioned_fields(result, files, folder)
+            pieces.write(files)
         else:
             files.write_with("fields.vtu", lambda p: write_vtu(result, p), suffix=".vtu")
         if any(getattr(m.losses, "wall_loss_density", None) is not None for m in result.modes):

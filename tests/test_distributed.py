@@ -401,3 +401,39 @@ def test_the_checks_run_in_petsc_and_equal_the_numpy_checks(distributed_python, 
     assert np.all(serial > 1e-3)
     np.testing.assert_allclose(distributed, serial, rtol=1e-10)
     np.testing.assert_allclose(distributed[:, 0], out["explicit"], rtol=1e-10)
+
+
+FAILING_RANK_ZERO = """
+import errno, sys
+from mpi4py import MPI
+import femcav.solve_command as command
+from femcav.cli import main
+
+
+def full_disk(files, *args):
+    raise OSError(errno.ENOSPC, "No space left on device", str(files.folder / "table.txt"))
+
+
+if MPI.COMM_WORLD.rank == 0:
+    command._write_tables = full_disk
+sys.exit(main(sys.argv[1:]))
+"""
+
+
+def test_a_failure_of_rank_0_before_the_pieces_ends_every_process(distributed_python, meshed,
+                                                                 tmp_path):
+    """Rank 0 fails while writing the tables (a full disk, simulated): the other process,
+    which waits to write its piece of fields.pvtu, is released and writes nothing, so the
+    run ends with rank 0's one-line error instead of hanging."""
+    case = _case(meshed, "full", "modes = 2")
+    script = tmp_path / "fail.py"
+    script.write_text(FAILING_RANK_ZERO)
+    out = tmp_path / "out"
+    run = subprocess.run(_launcher() + ["-n", "2", str(distributed_python), str(script),
+                                        "solve", str(case), "--out", str(out), "--quiet",
+                                        "--method", "distributed"],
+                         capture_output=True, text=True, timeout=TIMEOUT_S, cwd=meshed,
+                         env=dict(os.environ, OMP_NUM_THREADS="1", PYTHONPATH=str(ROOT)))
+    assert run.returncode != 0
+    assert "the disk is full" in run.stderr
+    assert not [p.name for p in out.iterdir() if "fields" in p.name]

@@ -13,11 +13,13 @@ output, which renames them into place with its other files or removes them on a 
 from __future__ import annotations
 
 import sys
+from contextlib import contextmanager
 from pathlib import Path
 from xml.sax.saxutils import quoteattr
 
 import numpy as np
 
+from ..fem.distributed_assembly import element_parts
 from ..solver import SolveResult
 from .atomic import StagedFiles, temporary_path
 from .vtk import mode_cell_data
@@ -29,40 +31,67 @@ def piece_name(rank: int) -> str:
     return f"fields_piece_{rank}.vtu"
 
 
-def write_partitioned_fields(result: SolveResult, files: StagedFiles | None,
-                             folder: Path) -> None:
-    """Collective over the processes of the solve: rank 0 passes its staged ``files`` (the
-    folder exists), the others None. Each writes its piece; rank 0 stages them and the index."""
+class PiecesOfRankZero:
+    """Rank 0's side of the collective write; ``write`` stages every piece and the index."""
+
+    def __init__(self, result: SolveResult):
+        from ..eigen.petsc_stack import load
+
+        self.result, self.stack, self.entered = result, load(), False
+
+    def write(self, files: StagedFiles) -> None:
+        self.entered = True
+        self.stack.comm.bcast(True, root=0)      # the folder exists: write your pieces
+        outcomes = _write_own_piece(self.result, self.stack,
+                                    lambda: files.path_for(piece_name(0), ".vtu"))
+        failures = [message for _, message, _ in outcomes if message is not None]
+        if failures:
+            raise RuntimeError("a piece of fields.pvtu could not be written: "
+                               + "; ".join(failures))
+        for rank, (path, _, _) in enumerate(outcomes[1:], start=1):
+            files.adopt(Path(path), piece_name(rank))
+        files.write_text(INDEX, pvtu_index([piece_name(r) for r in range(self.stack.size)],
+                                           outcomes[0][2]))
+
+
+@contextmanager
+def partitioned_fields(result: SolveResult):
+    """On rank 0, around its staged output: yields a PiecesOfRankZero. When the block ends
+    before ``write`` (rank 0 failed first), the other processes are told to write nothing,
+    so that they do not wait for it for ever."""
+    pieces = PiecesOfRankZero(result)
+    try:
+        yield pieces
+    finally:
+        if not pieces.entered:
+            pieces.stack.comm.bcast(False, root=0)
+
+
+def write_own_piece(result: SolveResult, folder: Path) -> None:
+    """The side of every process but rank 0: once rank 0 has made the folder, write this
+    process's piece to a temporary there and hand its path to rank 0."""
     from ..eigen.petsc_stack import load
-    from ..fem.distributed_assembly import element_parts
 
     stack = load()
-    comm = stack.comm
-    comm.bcast(None, root=0)          # rank 0 has made the folder
-    mine = np.flatnonzero(element_parts(stack, result.space.mesh) == stack.rank)
-    name = piece_name(stack.rank)
-    arrays = None
-    try:
-        if files is not None:
-            path = files.path_for(name, ".vtu")
-        else:
-            path = temporary_path(folder, name, ".vtu")
-        arrays = write_piece(result, mine, path)
-        outcome = (str(path), None)
-    except Exception as exc:  # noqa: BLE001 - said by rank 0 and re-raised here after
-        outcome, error = (None, f"process {stack.rank}: {exc}"), exc
-    outcomes = comm.gather(outcome, root=0)
-    if files is None:
-        if outcome[1] is not None:
-            raise error
+    if not stack.comm.bcast(None, root=0):
         return
-    failures = [message for _, message in outcomes if message is not None]
-    if failures:
-        raise RuntimeError("a piece of fields.pvtu could not be written: "
-                           + "; ".join(failures))
-    for rank, (path, _) in enumerate(outcomes[1:], start=1):
-        files.adopt(Path(path), piece_name(rank))
-    files.write_text(INDEX, pvtu_index([piece_name(r) for r in range(stack.size)], arrays))
+    _, message, _ = _write_own_piece(
+        result, stack, lambda: temporary_path(folder, piece_name(stack.rank), ".vtu"))
+    if message is not None:
+        raise RuntimeError(message)
+
+
+def _write_own_piece(result: SolveResult, stack, make_path):
+    """Collective: write this process's elements to ``make_path()``; rank 0 gets every
+    process's (path, error message or None, cell arrays), the others their own."""
+    try:
+        mine = np.flatnonzero(element_parts(stack, result.space.mesh) == stack.rank)
+        path = make_path()
+        outcome = (str(path), None, write_piece(result, mine, path))
+    except Exception as exc:  # noqa: BLE001 - said by rank 0 and by this process
+        outcome = (None, f"process {stack.rank}: {exc}", None)
+    gathered = stack.comm.gather(outcome, root=0)
+    return gathered if stack.rank == 0 else outcome
 
 
 def write_piece(result: SolveResult, elements: np.ndarray, path: Path) -> list[tuple]:
