@@ -27,7 +27,8 @@ def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: i
              cluster: str | None = None, write: bool = True,
              progress: Progress = SILENT) -> tuple[Case, SolveResult, Path]:
     """Solve a case file and write table.txt, modes.csv, modes.json and fields.vtu (and
-    wall_loss.vtu when the case has metal walls).
+    wall_loss.vtu when the case has metal walls; with method "distributed" fields.pvtu and
+    its pieces instead of fields.vtu, one written by each process).
 
     Command-line values (modes, near_hz, form, order, factorization, method) override the
     case file's [solve] table. ``path`` may also be a case already loaded (load_case).
@@ -48,14 +49,24 @@ def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: i
         result = solve_case(case, settings, progress, pool=pool)
         if case.tolerance_samples is not None:
             result = with_monte_carlo(case, result, settings, pool=pool, progress=progress)
+    partitioned = settings.method == "distributed"   # fields.pvtu, a piece per process
     if not write:
+        if partitioned:
+            from .io.partitioned_vtk import write_own_piece
+            write_own_piece(result, folder)
         return case, result, folder
-    with staged_output(folder, kind="solve", replaces=("solve", "pictures")) as files:
+    from contextlib import nullcontext
+    if partitioned:
+        from .io.partitioned_vtk import partitioned_fields
+    with (partitioned_fields(result) if partitioned else nullcontext()) as pieces, \
+            staged_output(folder, kind="solve", replaces=("solve", "pictures")) as files:
         _write_tables(files, case, result)
         if settings.azimuthal_orders is not None:
             from .axisymmetric.revolve import write_revolved_vtu
             files.write_with("fields.vtu", lambda p: write_revolved_vtu(result, p),
                              suffix=".vtu")
+        elif partitioned:
+            pieces.write(files)
         else:
             files.write_with("fields.vtu", lambda p: write_vtu(result, p), suffix=".vtu")
         if any(getattr(m.losses, "wall_loss_density", None) is not None for m in result.modes):

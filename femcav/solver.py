@@ -298,7 +298,7 @@ def solve_space(space: EdgeSpace, *, modes: int, near_hz: float | None,
     checks = [c.checks for c in chosen]
 
     full = space.constraint.expand(vectors)
-    derived = _PostInputs.of(space) if post else None
+    derived = _PostInputs.of(space, method) if post else None
     result_modes = [_mode(space, i, value, full[:, i], check, derived)
                     for i, (value, check) in enumerate(zip(values, checks))]
     if post:
@@ -324,9 +324,22 @@ class _PostInputs:
     index: np.ndarray
 
     @classmethod
-    def of(cls, space: EdgeSpace) -> "_PostInputs":
+    def of(cls, space: EdgeSpace, method: str = "auto"):
+        """These inputs; for a distributed solve, each process's share of the integrals
+        (post.distributed_post.OwnElementsPost, the same methods)."""
+        if method == "distributed":
+            from .post.distributed_post import OwnElementsPost
+            return OwnElementsPost.of(space)
         lossy = has_losses(space)
         return cls(metal_faces(space) if lossy else None, lossy, *edge_space_scales(space))
+
+    def losses(self, space: EdgeSpace, dofs: np.ndarray, frequency_hz: float) -> LossReport:
+        return mode_losses(space, dofs, frequency_hz, self.faces)
+
+    def resolution(self, space: EdgeSpace, dofs: np.ndarray, frequency_hz: float,
+                   k0_squared: float) -> Resolution:
+        return mode_resolution(frequency_hz, space.order, self.sizes, self.index,
+                               edge_space_energy(space, dofs, k0_squared))
 
 
 def _mode(space: EdgeSpace, i: int, value, dofs: np.ndarray, check: ModeChecks,
@@ -345,9 +358,8 @@ def _mode(space: EdgeSpace, i: int, value, dofs: np.ndarray, check: ModeChecks,
         return Mode(index=i + 1, frequency_hz=f, k0_squared=k0_squared, checks=check,
                     dofs=dofs, **lossy_values)
     return Mode(index=i + 1, frequency_hz=f, k0_squared=k0_squared, checks=check, dofs=dofs,
-                losses=mode_losses(space, dofs, f, derived.faces) if derived.lossy else None,
-                resolution=mode_resolution(f, space.order, derived.sizes, derived.index,
-                                           edge_space_energy(space, dofs, k0_squared)),
+                losses=derived.losses(space, dofs, f) if derived.lossy else None,
+                resolution=derived.resolution(space, dofs, f, k0_squared),
                 **lossy_values)
 
 

@@ -58,10 +58,16 @@ def assemble_distributed(space) -> tuple[DistributedMatrix, DistributedMatrix,
     return K, M, G
 
 
+_last_parts: list = []      # [(mesh, parts)] of the last call: the writers ask again
+
+
 def element_parts(stack: Stack, mesh) -> np.ndarray:
-    """The process of every element: METIS on the face-sharing graph, on rank 0."""
+    """The process of every element: METIS on the face-sharing graph, on rank 0 (collective;
+    the same mesh object again gives the same parts without a new partition)."""
     if stack.size == 1:
         return np.zeros(mesh.nelements, dtype=np.int64)
+    if _last_parts and _last_parts[0][0] is mesh:
+        return _last_parts[0][1]
     part = None
     if stack.rank == 0:
         import pymetis
@@ -73,7 +79,9 @@ def element_parts(stack: Stack, mesh) -> np.ndarray:
         xadj = np.concatenate([[0], np.cumsum(np.bincount(rows, minlength=mesh.nelements))])
         _, membership = pymetis.part_graph(stack.size, xadj=xadj, adjncy=cols[order])
         part = np.asarray(membership, dtype=np.int64)
-    return stack.comm.bcast(part, root=0)
+    part = stack.comm.bcast(part, root=0)
+    _last_parts[:] = [(mesh, part)]
+    return part
 
 
 def dof_owners(index: np.ndarray, part: np.ndarray, n: int) -> np.ndarray:

@@ -40,18 +40,20 @@ class QuadratureMap:
     dx: np.ndarray            # (n_elements, n_points)
 
 
-def quadrature_map(space) -> QuadratureMap:
+def quadrature_map(space, elements: np.ndarray | None = None) -> QuadratureMap:
+    """The map of every element, or of ``elements`` only (in that order)."""
     X, W = space.quadrature
     values, curls = space.element.reference_tables(X)          # (n_basis, 3, n_points)
     n_basis, _, n_points = values.shape
     mapping = space.mesh.mapping()
-    n_elements = space.mesh.nelements
+    chosen = np.arange(space.mesh.nelements) if elements is None else np.asarray(elements)
+    n_elements = chosen.size
     inverse = np.empty((n_elements, n_points, 3, 3))
     curl_map = np.empty_like(inverse)
     dx = np.empty((n_elements, n_points))
     for start in range(0, n_elements, BLOCK):
         block = slice(start, min(start + BLOCK, n_elements))
-        J = np.moveaxis(mapping.DF(X, tind=np.arange(n_elements)[block]), (0, 1), (2, 3))
+        J = np.moveaxis(mapping.DF(X, tind=chosen[block]), (0, 1), (2, 3))
         det = np.linalg.det(J)
         inverse[block] = np.linalg.inv(J)
         curl_map[block] = J / det[..., None, None]
@@ -60,12 +62,17 @@ def quadrature_map(space) -> QuadratureMap:
                          inverse=inverse, curl_map=curl_map, dx=dx)
 
 
-def fields_at_quadrature(space, dofs: np.ndarray) -> QuadratureFields:
+def fields_at_quadrature(space, dofs: np.ndarray,
+                         part: tuple[np.ndarray, QuadratureMap] | None = None
+                         ) -> QuadratureFields:
     """Field and curl of ``dofs`` (over every DOF of the space's mesh, real or complex) at
-    the points of ``space.quadrature``, element-major like scikit-fem's basis."""
-    geometry = space.quadrature_map
+    the points of ``space.quadrature``, element-major like scikit-fem's basis; on every
+    element, or with ``part`` = (elements, quadrature_map(space, elements)) on those."""
+    geometry = space.quadrature_map if part is None else part[1]
     n_elements, n_points = geometry.dx.shape
     element_dofs = space.dofs.element_dofs                      # (n_basis, n_elements)
+    if part is not None:
+        element_dofs = element_dofs[:, part[0]]
     value = np.empty((3, n_elements, n_points), dtype=np.result_type(dofs, float))
     curl = np.empty_like(value)
     for start in range(0, n_elements, BLOCK):

@@ -160,6 +160,12 @@ class StagedFiles:
         self._staged.append((tmp, self.folder / name))
         return tmp
 
+    def adopt(self, tmp: Path, name: str) -> None:
+        """Take ``tmp``, a temporary another process wrote in this folder (temporary_path),
+        as ``name``: renamed into place on success, removed on a failure."""
+        _active.add(tmp)
+        self._staged.append((tmp, self.folder / name))
+
     def write_text(self, name: str, text: str) -> None:
         self.path_for(name).write_text(text, encoding="utf-8")
 

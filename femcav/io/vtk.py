@@ -25,11 +25,21 @@ from ..solver import SolveResult
 def write_vtu(result: SolveResult, path: Path) -> None:
     import meshio
 
+    tm = result.space.model.mesh
+    meshio.write(str(path), meshio.Mesh(tm.points, [("tetra", tm.tets)],
+                                        cell_data=mode_cell_data(result)), file_format="vtu")
+
+
+def mode_cell_data(result: SolveResult, elements: np.ndarray | None = None) -> dict:
+    """The cell data of fields.vtu (name -> [array]) on ``elements`` (indices into the
+    tetrahedra, in that order; all of them by default)."""
     space = result.space
     tm = space.model.mesh
-    materials = centroid_materials(space)
-    basis = centroid_basis(space)
-    data = {"region": [tm.tet_region.astype("int32")]}
+    rows = np.arange(tm.n_tets) if elements is None else np.asarray(elements)
+    eps, mu = centroid_materials(space)
+    materials = (eps[rows], mu[rows])
+    basis = centroid_basis(space, None if elements is None else rows)
+    data = {"region": [tm.tet_region[rows].astype("int32")]}
     for mode in result.modes:
         fields = mode_fields(space, mode.dofs, 2 * math.pi * mode.frequency_hz, materials,
                              basis)
@@ -43,9 +53,8 @@ def write_vtu(result: SolveResult, path: Path) -> None:
         data[f"{tag}_wm"] = [fields.w_m]
     absorbing = [tm.region_names[name] for name in absorbing_regions(space.model)]
     if absorbing:
-        data["absorber"] = [np.isin(tm.tet_region, absorbing).astype("int32")]
-    meshio.write(str(path), meshio.Mesh(tm.points, [("tetra", tm.tets)], cell_data=data),
-                 file_format="vtu")
+        data["absorber"] = [np.isin(tm.tet_region[rows], absorbing).astype("int32")]
+    return data
 
 
 def write_wall_loss_vtu(result: SolveResult, path: Path) -> None:

@@ -44,6 +44,9 @@ def check_modes(K, M, projector, values: np.ndarray, vectors: np.ndarray, *,
     """The checks of each pair. The modes of a Hermitian pencil are orthogonal in xᴴ M y;
     those of a complex-symmetric one (losses inside) in the bilinear xᵀ M y, so that is
     the product whose off-diagonal must vanish there."""
+    if hasattr(M, "row_vectors"):     # PETSc matrices over MPI processes: products in PETSc
+        from .distributed_checks import check_distributed_modes
+        return check_distributed_modes(K, M, projector, values, vectors)
     MX = M @ vectors
     KX = K @ vectors
     residual = (np.linalg.norm(KX - MX * values, axis=0)

@@ -54,13 +54,22 @@ class MetalFaces:
     basis: object           # FacetBasis on those facets
     inverse_mu_r: np.ndarray   # μ_r⁻¹ of the element behind each facet, (n,) or (n, 3, 3)
 
+    @property
+    def area(self) -> np.ndarray:
+        return np.sum(self.basis.dx, axis=1)
 
-def metal_faces(space: EdgeSpace) -> MetalFaces | None:
+
+def metal_faces(space: EdgeSpace, elements: np.ndarray | None = None) -> MetalFaces | None:
+    """The metal-wall faces (ascending facet index), or those of ``elements`` only."""
     from skfem import FacetBasis
 
     model = space.model
     pairs = sorted((f, name) for f, name in space.facet_wall.items()
                    if model.wall_kind(name) == METAL)
+    if elements is not None:
+        own = np.zeros(space.mesh.nelements, dtype=bool)
+        own[elements] = True
+        pairs = [(f, name) for f, name in pairs if own[space.mesh.f2t[0, f]]]
     if not pairs:
         return None
     facets = np.array([f for f, _ in pairs], dtype=np.int64)
@@ -78,24 +87,56 @@ def _times_inverse_mu(inverse_mu: np.ndarray, curl: np.ndarray) -> np.ndarray:
     return curl * inverse_mu[None, :, None]
 
 
-def electric_energy_by_region(space: EdgeSpace, dofs: np.ndarray, omega: float) -> dict:
-    """∫ ε0 ε_r |E|² dV per region (4 W_e,i), for the mode's DOFs as stored."""
-    fields = fields_at_quadrature(space, dofs)
+def electric_energy_by_region(space: EdgeSpace, dofs: np.ndarray, omega: float,
+                              part=None) -> dict:
+    """∫ ε0 ε_r |E|² dV per region (4 W_e,i), for the mode's DOFs as stored; over the
+    elements of ``part`` only (fields_at_quadrature) when given."""
+    fields = fields_at_quadrature(space, dofs, part)
     stiffness, mass = medium_coefficients(space)    # absorbing layers: their real medium
+    rows = slice(None) if part is None else part[0]
+    stiffness, mass = stiffness[rows], mass[rows]
     if space.form == "E":
         integrand = quadratic(mass, fields.value) * epsilon_0
     else:  # E = ε_r⁻¹ curl H / (jω ε0): ε0 Ē·ε_r E = curl H̄·ε_r⁻¹ curl H / (ω² ε0)
         integrand = quadratic(stiffness, fields.curl) / (omega**2 * epsilon_0)
     per_element = np.sum(integrand * fields.dx, axis=1)
     tm = space.model.mesh
-    return {name: float(per_element[tm.tet_region == rid].sum())
+    region = tm.tet_region[rows]
+    return {name: float(per_element[region == rid].sum())
             for name, rid in tm.region_names.items()}
 
 
 def mode_losses(space: EdgeSpace, dofs: np.ndarray, frequency_hz: float,
                 faces: MetalFaces | None) -> LossReport:
     omega = 2 * math.pi * frequency_hz
-    energy = electric_energy_by_region(space, dofs, omega)
+    power = None if faces is None else face_power(space, faces, dofs, omega)
+    return losses_from_integrals(space, dofs, frequency_hz,
+                                 electric_energy_by_region(space, dofs, omega),
+                                 None if faces is None else (faces.wall, power, faces.area))
+
+
+def face_power(space: EdgeSpace, faces: MetalFaces, dofs: np.ndarray,
+               omega: float) -> np.ndarray:
+    """(R_s / 2) ∫ |H_t|² dS on each face of ``faces`` (W, at the mode's stored scale)."""
+    field_values = faces.basis.interpolate(dofs)
+    if space.form == "E":   # |H| = |curl E| / (ω μ0 μ_r)
+        H = _times_inverse_mu(faces.inverse_mu_r, field_values.curl) / (omega * mu_0)
+    else:
+        H = np.asarray(field_values)
+    n = faces.basis.normals
+    H_t = H - np.sum(H * n, axis=0) * n
+    walls = space.model.walls
+    rs = np.array([wall_surface_resistance(walls[w], omega) for w in faces.wall])
+    loss_at_points = 0.5 * rs[:, None] * np.sum(np.abs(H_t) ** 2, axis=0)       # W/m²
+    return np.sum(loss_at_points * faces.basis.dx, axis=1)
+
+
+def losses_from_integrals(space: EdgeSpace, dofs: np.ndarray, frequency_hz: float,
+                          energy: dict[str, float], walls: tuple | None) -> LossReport:
+    """The Q factors from ∫ ε0 ε_r |E|² per region (``energy``) and, with metal walls,
+    ``walls`` = (wall name, power (face_power), area) of every metal face: integrals that
+    may come summed over the parts of a distributed mesh."""
+    omega = 2 * math.pi * frequency_hz
     total_e = sum(energy.values())
     filling = {name: e / total_e for name, e in energy.items()}
     stored = 0.5 * total_e   # W = 2 W_e = 2 (1/4) ∫ ε |E|²
@@ -112,23 +153,12 @@ def mode_losses(space: EdgeSpace, dofs: np.ndarray, frequency_hz: float,
     region_share = ({n: t / inverse_qd for n, t in loss_terms.items()} if inverse_qd > 0 else {})
 
     q_wall, wall_share, density = None, {}, None
-    if faces is not None:
-        field_values = faces.basis.interpolate(dofs)
-        if space.form == "E":   # |H| = |curl E| / (ω μ0 μ_r)
-            H = _times_inverse_mu(faces.inverse_mu_r, field_values.curl) / (omega * mu_0)
-        else:
-            H = np.asarray(field_values)
-        n = faces.basis.normals
-        H_t = H - np.sum(H * n, axis=0) * n
-        walls = space.model.walls
-        rs = np.array([wall_surface_resistance(walls[w], omega) for w in faces.wall])
-        loss_at_points = 0.5 * rs[:, None] * np.sum(np.abs(H_t) ** 2, axis=0)       # W/m²
-        power = np.sum(loss_at_points * faces.basis.dx, axis=1)            # W per face
+    if walls is not None:
+        wall, power, area = walls
         total_p = float(power.sum())
         q_wall = omega * stored / total_p
-        wall_share = {str(w): float(power[faces.wall == w].sum() / total_p)
-                      for w in dict.fromkeys(faces.wall)}
-        area = np.sum(faces.basis.dx, axis=1)
+        wall_share = {str(w): float(power[wall == w].sum() / total_p)
+                      for w in dict.fromkeys(wall)}
         density = power / area / stored
     inverse = sum(1.0 / q for q in (q_wall, q_d, q_m) if q)
     return LossReport(q_wall=q_wall, q_dielectric=q_d, q_total=1.0 / inverse if inverse else None,

@@ -64,17 +64,31 @@ def mode_resolution(frequency_hz: float, order: int, element_size: np.ndarray,
                     refractive_index: np.ndarray, energy: np.ndarray) -> Resolution:
     """The resolution of one mode from per-element sizes (m), sqrt(ε_r μ_r) and energy
     (any scale, >= 0)."""
-    required = MIN_POINTS_PER_WAVELENGTH[order]
+    optical_size = element_size * refractive_index
+    largest = float(np.max(optical_size, initial=0.0))
+    return resolution_from_sums(frequency_hz, order, largest,
+                                *resolution_sums(order, optical_size, largest, energy))
+
+
+def resolution_sums(order: int, optical_size: np.ndarray, largest: float,
+                    energy: np.ndarray) -> tuple[float, float]:
+    """(Σ w (s/largest)^(2k), Σ w) over some elements, s = h sqrt(ε_r μ_r) their optical
+    size and ``largest`` that of the whole mesh: sums that add over parts of the mesh."""
     weight = np.clip(np.asarray(energy, dtype=float), 0.0, None)
-    if not frequency_hz > 0 or not weight.sum() > 0:
-        return Resolution(points_per_wavelength=math.inf, required=required)
-    ratio = element_size * frequency_hz * refractive_index / C0     # h / λ
-    p = 2 * order
-    scale = ratio.max()
-    if not scale > 0:
-        return Resolution(points_per_wavelength=math.inf, required=required)
+    if not largest > 0:
+        return 0.0, float(weight.sum())
     # scaled power mean: no overflow or underflow of (h/λ)^(2k)
-    mean = scale * (np.sum(weight * (ratio / scale) ** p) / weight.sum()) ** (1.0 / p)
+    return float(np.sum(weight * (optical_size / largest) ** (2 * order))), float(weight.sum())
+
+
+def resolution_from_sums(frequency_hz: float, order: int, largest: float, weighted: float,
+                         total: float) -> Resolution:
+    """The resolution from resolution_sums over the whole mesh; h / λ = s f / c."""
+    required = MIN_POINTS_PER_WAVELENGTH[order]
+    scale = largest * frequency_hz / C0
+    if not frequency_hz > 0 or not total > 0 or not scale > 0:
+        return Resolution(points_per_wavelength=math.inf, required=required)
+    mean = scale * (weighted / total) ** (1.0 / (2 * order))
     return Resolution(points_per_wavelength=float(1.0 / mean), required=required)
 
 
@@ -128,11 +142,13 @@ def edge_space_scales(space) -> tuple[np.ndarray, np.ndarray]:
     return h, index
 
 
-def edge_space_energy(space, dofs: np.ndarray, k0_squared: float) -> np.ndarray:
+def edge_space_energy(space, dofs: np.ndarray, k0_squared: float, part=None) -> np.ndarray:
     """Electric plus magnetic energy of a mode per tetrahedron (relative scale): the mass
-    term plus the curl term over k0² (their sums are equal at resonance)."""
-    fields = fields_at_quadrature(space, dofs)
-    density = (quadratic(space.mass_coef, fields.value)
-               + quadratic(space.stiffness_coef, fields.curl)
+    term plus the curl term over k0² (their sums are equal at resonance); of the elements
+    of ``part`` only (fields_at_quadrature) when given."""
+    fields = fields_at_quadrature(space, dofs, part)
+    rows = slice(None) if part is None else part[0]
+    density = (quadratic(space.mass_coef[rows], fields.value)
+               + quadratic(space.stiffness_coef[rows], fields.curl)
                / max(abs(k0_squared), np.finfo(float).tiny))
     return np.sum(density * fields.dx, axis=1)

@@ -169,8 +169,11 @@ def read_wall_losses(folder: Path):
 
 
 def read_fields(folder: Path, indices: list[int], arrows: str, field: str = "E"):
-    """fields.vtu with the arrays the pictures of ``indices`` need, or BrokenResultFolder."""
+    """fields.vtu with the arrays the pictures of ``indices`` need, or BrokenResultFolder;
+    a distributed solve's fields.pvtu (its pieces read as one grid) where there is no .vtu."""
     fields = folder / "fields.vtu"
+    if not fields.is_file() and (folder / "fields.pvtu").is_file():
+        fields = folder / "fields.pvtu"
     if not fields.is_file():
         raise BrokenResultFolder(folder, "fields.vtu not found (the fields of the modes); "
                                          "solve the case again")
