@@ -108,7 +108,7 @@ def solve_with_error_bars(case: Case, walls: dict[str, Wall], settings,
                                          progress=progress)
         finest = estimated.finest
         modes = [replace(m, error_estimate_hz=e.error_estimate_hz,
-                         extrapolated_hz=e.extrapolated_hz)
+                         extrapolated_hz=e.extrapolated_hz, q_estimates=e.q_bars or None)
                  for m, e in zip(finest.modes, estimated.estimates)]
         result = replace(finest, modes=modes)
         if settings.accuracy is None or _worst_bar(result) <= settings.accuracy:

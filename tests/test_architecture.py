@@ -34,6 +34,7 @@ LAYERS = {
     "study": 8,
     "solve_command": 9, "cli": 9, "__main__": 9, "": 9,  # "" is femcav/__init__.py
     "verification": 9,    # femcav verify: runs case files like a user, beside cli
+    "bar_calibration": 9,   # error-bar coverage on reference cases, solved through the runner
 }
 
 # the eigen layer sees matrices, never meshes, walls or case keys

@@ -7,7 +7,9 @@ modes.json is a stable, documented format (README, "Output files"): top-level ke
 each mode has ``index``, ``frequency_hz``, ``k0_squared_per_m2``, ``residual``,
 ``divergence``, ``orthogonality``, ``passed``, ``points_per_wavelength`` and ``resolved``
 (post.resolution), ``loss_warnings`` (post.loss_validity), ``error_estimate_hz`` (null unless a mesh sequence was
-solved; then also ``extrapolated_hz``), ``q_wall``, ``q_dielectric``, ``q_total`` (null without such
+solved; then also ``extrapolated_hz``, and for each Q below that has a value on the meshes
+its bar and extrapolated value: ``q_wall_error``, ``q_wall_extrapolated``, likewise
+``q_dielectric_*``, ``q_magnetic_*``, ``q_total_*``; post.q_bars), ``q_wall``, ``q_dielectric``, ``q_total`` (null without such
 loss), ``wall_loss_share``, ``region_loss_share`` (name -> fraction of that loss),
 ``filling_factor`` (region -> share of the electric energy); for a uniaxial region
 ``filling_factor_parallel`` and ``filling_factor_perpendicular`` (region -> share of the
@@ -95,6 +97,9 @@ def mode_rows(result: SolveResult) -> list[dict]:
         row["error_estimate_hz"] = m.error_estimate_hz
         if m.extrapolated_hz is not None:
             row["extrapolated_hz"] = m.extrapolated_hz
+        for quantity, q in (getattr(m, "q_estimates", None) or {}).items():
+            row[f"{quantity}_error"] = q.error
+            row[f"{quantity}_extrapolated"] = q.extrapolated
         if m.sensitivity is not None:
             row["sensitivity_hz"] = m.sensitivity.as_dict()
         if m.tolerance is not None:
