@@ -226,6 +226,8 @@ def solve_case(case: Case, settings, progress: Progress = SILENT, pool=None):
 
 
 def _solve_modes(case: Case, settings, progress: Progress, pool=None):
+    if case.accuracy_plan is not None:
+        progress.step(case.accuracy_plan.describe())
     if settings.azimuthal_orders is not None:
         result = _solve_axisymmetric(case, settings, progress, pool)
         if settings.sensitivities:
@@ -273,6 +275,8 @@ def _solve_modes(case: Case, settings, progress: Progress, pool=None):
         result = _with_tolerances(case, result, settings, progress, pool)
     if case.temperature is not None:
         result = _with_temperature(case, result, progress, pool)
+    if case.accuracy_plan is not None:
+        result = replace(result, expected_accuracy=case.accuracy_plan.target)
     return _with_field_figures(case, result)
 
 

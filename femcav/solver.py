@@ -139,6 +139,8 @@ class SolveResult(ModeVerdicts):
     classes: list[dict] = field(default_factory=list)   # per symmetry class: label, dofs, modes
     eigen_stats_by_class: dict[str, EigenStats] = field(default_factory=dict)
     accuracy: AccuracyReport | None = None     # with a [solve] accuracy target
+    # the documented accuracy a solve without element sizes aims at (femcav.accuracy_plan)
+    expected_accuracy: float | None = None
     # the complex check's own solve (losses inside): its modes, with complex fields
     complex_check: "SolveResult | None" = None
     coupling: tuple = ()    # post.coupling.CouplingCoefficient: symmetry classes, named pair

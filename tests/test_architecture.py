@@ -23,7 +23,7 @@ LAYERS = {
     "memory_room": 0, "exit_codes": 0, "superconductors": 0, "bare_numbers": 0,
     "expressions": 1, "materials": 1, "walls": 1, "wall_resistance": 1, "anisotropy": 1,
     "material_library": 1,
-    "geometry": 2, "model": 2, "sizing": 3,
+    "geometry": 2, "model": 2, "sizing": 3, "accuracy_plan": 4,
     "fem": 3, "eigen": 3,
     "post": 4,
     # the case layer turns keys into typed data and models; everything above reads those

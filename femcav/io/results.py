@@ -182,6 +182,8 @@ def to_json(result: SolveResult, *, title: str, case: str | None,
                                     "element": "triangles of the meridional section"}
     if result.accuracy is not None:
         document["accuracy"] = asdict(result.accuracy)
+    if getattr(result, "expected_accuracy", None) is not None:
+        document["expected_accuracy"] = result.expected_accuracy
     if getattr(result, "layer_modes", None):
         document["layer_modes"] = mode_rows(replace(result, modes=result.layer_modes))
     document.update(merit_columns.json_top_level(result))
@@ -286,7 +288,7 @@ def to_table(result: SolveResult) -> str:
         if m.loss_warnings:
             status += "; Q warning (see loss_warnings)"
         shown = format_frequency(m.frequency_hz,
-                                 frequency_digits(m.frequency_hz, m.error_estimate_hz))
+                                 frequency_digits(m.frequency_hz, _bar_or_expected(result, m)))
         lines.append(f"{m.index:>4}  {shown:>16}  "
                      + (f"{_bar(m):>12}  " if bars else "")
                      + (f"{m.label or '-':<{label_width}}  "
@@ -303,6 +305,15 @@ def to_table(result: SolveResult) -> str:
                       + coupling_lines(getattr(result, "coupling", ()))
                       + port_lines(result))
             + second_tables.as_text(mode_rows(result)))
+
+
+def _bar_or_expected(result, mode) -> float | None:
+    """The mode's error bar, or without one the documented accuracy the solve aimed at
+    (femcav.accuracy_plan), as Hz."""
+    if mode.error_estimate_hz is not None:
+        return mode.error_estimate_hz
+    expected = getattr(result, "expected_accuracy", None)
+    return None if expected is None else expected * mode.frequency_hz
 
 
 def monte_carlo_lines(result) -> list[str]:

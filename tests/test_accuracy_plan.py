@@ -1,0 +1,118 @@
+"""Accuracy by default (femcav.accuracy_plan): a case without element sizes is meshed and
+solved for a stated frequency accuracy, 1e-3 unless [solve] accuracy says otherwise, and the
+demo cases solved that way land within it.
+
+References: pillbox frequencies from Bessel zeros (D. M. Pozar, Microwave Engineering, 4th
+ed., §6.4, from memory; scipy.special); box modes (Pozar §6.3, from memory); a PEC-PMC half
+box holds the full box's modes with an odd number of half-waves across (common practice,
+image theory); shorted coaxial line TEM_p at p c / 2L (Pozar §6.2, from memory); Weyl's
+mode count N = V k³ / (3π²) (H. Weyl 1911; Harrington, Time-Harmonic Electromagnetic
+Fields, from memory).
+"""
+
+import math
+import tomllib
+from pathlib import Path
+
+import pytest
+from scipy.constants import c as C0
+
+from femcav.accuracy_plan import (
+    DEFAULT_ACCURACY, ERROR_CONSTANT, SAFETY, per_wavelength, weyl_frequency)
+from femcav.analytic.box import box_modes
+from femcav.analytic.coax import coax_tem_frequencies
+from femcav.analytic.cylinder import lowest_pillbox_frequencies
+from femcav.case import case_from_data
+from femcav.io.results import to_json, to_table
+from femcav.runner import solve_case
+
+GEOMETRIES = Path(__file__).resolve().parents[1] / "geometries"
+
+
+def demo_without_size(name: str, tmp_path, **solve):
+    data = tomllib.loads((GEOMETRIES / f"{name}.toml").read_text())
+    data.get("mesh", {}).pop("size", None)
+    data.setdefault("solve", {}).update(solve)
+    return case_from_data(data, tmp_path / f"{name}.toml")
+
+
+def relative_errors(result, reference):
+    return [abs(m.frequency_hz / f - 1) for m, f in zip(result.modes, reference)]
+
+
+def test_elements_per_wavelength_follow_the_error_model():
+    # error C_k (2π/n)^(2k) = target / SAFETY at the chosen n (the model of the module)
+    for order in (1, 2, 3):
+        n = per_wavelength(order, 1e-4)
+        assert ERROR_CONSTANT[order] * (2 * math.pi / n) ** (2 * order) == pytest.approx(
+            1e-4 / SAFETY)
+    assert per_wavelength(2, 1e-4) > per_wavelength(2, 1e-3) > per_wavelength(3, 1e-3)
+
+
+def test_weyl_frequency_inverts_weyl_count():
+    volume, f = 7e-6, 14e9
+    k = 2 * math.pi * f / C0
+    count = volume * k**3 / (3 * math.pi**2)
+    assert weyl_frequency(count, volume) == pytest.approx(f)
+
+
+def test_a_case_without_sizes_gets_a_plan_and_one_with_a_size_none(tmp_path):
+    planned = demo_without_size("wavemeter_pillbox", tmp_path)
+    plan = planned.accuracy_plan
+    assert plan.target == DEFAULT_ACCURACY and plan.order == 2 and plan.curved
+    assert planned.solve.order == 2 and planned.mesh.curved
+    assert planned.mesh.max_frequency_hz == plan.max_frequency_hz
+    kept = demo_without_size("wavemeter_pillbox", tmp_path, order=1, accuracy="0.5 %")
+    assert kept.solve.order == 1 and kept.accuracy_plan.target == pytest.approx(5e-3)
+    data = tomllib.loads((GEOMETRIES / "wavemeter_pillbox.toml").read_text())
+    assert case_from_data(data, tmp_path / "x.toml").accuracy_plan is None
+
+
+def test_default_pillbox_demo_within_its_stated_accuracy(tmp_path):
+    case = demo_without_size("wavemeter_pillbox", tmp_path)
+    result = solve_case(case, case.solve)
+    reference = lowest_pillbox_frequencies(0.012, 0.018, 6)
+    assert max(relative_errors(result, reference)) < DEFAULT_ACCURACY
+    # printed to the digits the stated accuracy earns: 9.5624 GHz, not 9.562436270 GHz
+    first = to_table(result).splitlines()[1].split()
+    assert first[1].count(".") == 1 and len(first[1].split(".")[1]) == 4
+    assert '"expected_accuracy": 0.001' in to_json(result, title="t", case="c")
+
+
+def test_default_half_box_demo_within_its_stated_accuracy(tmp_path):
+    case = demo_without_size("half_box_pmc", tmp_path)
+    result = solve_case(case, case.solve)
+    full = [f for f, label in box_modes(0.02286, 0.01016, 0.030, 20e9) if int(label[2]) % 2]
+    nearest = sorted(sorted(full, key=lambda f: abs(f - 12e9))[:3])
+    assert max(relative_errors(result, nearest)) < DEFAULT_ACCURACY
+
+
+@pytest.mark.slow
+def test_default_coaxial_demo_within_its_stated_accuracy(tmp_path):
+    # the rod (3 mm) caps the elements: about 28000 DOFs at order 2, 5 s
+    case = demo_without_size("comb_line_resonator", tmp_path)
+    assert case.accuracy_plan.size_cap == pytest.approx(0.003)
+    result = solve_case(case, case.solve)
+    tem = [m for m in result.modes if m.label and "TEM" in m.label]
+    reference = coax_tem_frequencies(0.060, 2)
+    assert len(tem) >= 2
+    assert max(abs(m.frequency_hz / f - 1) for m, f in zip(tem, reference)) < DEFAULT_ACCURACY
+
+
+def test_a_rod_thinner_than_the_wavelength_sizing_caps_the_elements(tmp_path):
+    case = demo_without_size("comb_line_resonator", tmp_path)
+    assert case.accuracy_plan.size_cap == pytest.approx(0.003)      # the rod's radius
+    assert case.mesh.size == pytest.approx(0.003)
+    assert demo_without_size("wavemeter_pillbox", tmp_path).accuracy_plan.size_cap is None
+
+
+def test_a_cut_part_plans_for_the_modes_of_the_whole(tmp_path):
+    # each cut plane keeps about half the modes: the same count of a quarter model's modes
+    # reaches 4^(1/3) higher in frequency (Weyl's N ∝ f³)
+    box = {"geometry": {"builder": "box", "width": "20 mm", "height": "10 mm",
+                        "length": "30 mm"}, "solve": {"modes": 4}}
+    whole = case_from_data(box, tmp_path / "a.toml").accuracy_plan
+    quarter = case_from_data({**box, "symmetry": {"x": "pec", "y": "pmc"}},
+                             tmp_path / "b.toml").accuracy_plan
+    assert quarter.max_frequency_hz / whole.max_frequency_hz == pytest.approx(4 ** (1 / 3))
+    assert not whole.curved                      # only boxes: flat walls
