@@ -116,3 +116,16 @@ def test_a_cut_part_plans_for_the_modes_of_the_whole(tmp_path):
                              tmp_path / "b.toml").accuracy_plan
     assert quarter.max_frequency_hz / whole.max_frequency_hz == pytest.approx(4 ** (1 / 3))
     assert not whole.curved                      # only boxes: flat walls
+
+
+def test_the_command_says_the_target_in_its_progress_and_heading(tmp_path, capsys):
+    from femcav.cli import main
+
+    case = tmp_path / "box.toml"
+    case.write_text('[geometry]\nbuilder = "box"\nwidth = "20 mm"\nheight = "10 mm"\n'
+                    'length = "25 mm"\n[solve]\nmodes = 2\n')
+    assert main(["solve", str(case), "--out", str(tmp_path / "out"), "--no-report"]) == 0
+    captured = capsys.readouterr()
+    assert "aiming at a frequency accuracy of 1e-03: order 2" in captured.err
+    heading = captured.out.splitlines()[0]
+    assert heading.endswith("aiming at 1e-03 in frequency")
