@@ -129,3 +129,22 @@ def test_the_command_says_the_target_in_its_progress_and_heading(tmp_path, capsy
     assert "aiming at a frequency accuracy of 1e-03: order 2" in captured.err
     heading = captured.out.splitlines()[0]
     assert heading.endswith("aiming at 1e-03 in frequency")
+
+
+def test_without_bars_or_a_plan_the_digits_follow_the_resolution_bound(tmp_path):
+    from femcav.post.resolution import ERROR_BOUND, Resolution, expected_error
+
+    # the bound C / ppw^(2k) of post.resolution (its box calibration)
+    assert expected_error(Resolution(10.0, 4.0), 1) == pytest.approx(ERROR_BOUND[1] / 100)
+    assert expected_error(None, 1) is None
+    box = {"geometry": {"builder": "box", "width": "20 mm", "height": "10 mm",
+                        "length": "25 mm"}, "mesh": {"size": "4 mm"}, "solve": {"modes": 2}}
+    case = case_from_data(box, tmp_path / "box.toml")
+    assert case.accuracy_plan is None
+    result = solve_case(case, case.solve)
+    mode = result.modes[0]
+    bound = expected_error(mode.resolution, 1)
+    assert 1e-3 < bound < 0.05                  # 4 mm elements at order 1: a coarse mesh
+    shown = to_table(result).splitlines()[1].split()[1]
+    # two significant digits of the implied error: at most 4 digits of a 9.6 GHz frequency
+    assert len(shown.replace(".", "")) <= 4

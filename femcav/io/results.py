@@ -308,11 +308,14 @@ def to_table(result: SolveResult) -> str:
 
 
 def _bar_or_expected(result, mode) -> float | None:
-    """The mode's error bar, or without one the documented accuracy the solve aimed at
-    (femcav.accuracy_plan), as Hz."""
+    """The mode's error bar, or without one the documented accuracy: the target the solve
+    aimed at (femcav.accuracy_plan), else the bound its resolution implies
+    (post.resolution.expected_error); as Hz."""
     if mode.error_estimate_hz is not None:
         return mode.error_estimate_hz
     expected = getattr(result, "expected_accuracy", None)
+    if expected is None:
+        expected = resolution.expected_error(mode.resolution, getattr(result, "order", None))
     return None if expected is None else expected * mode.frequency_hz
 
 
