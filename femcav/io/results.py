@@ -3,7 +3,8 @@
 modes.json is a stable, documented format (README, "Output files"): top-level keys
 ``format``, ``title``, ``case``, ``form``, ``order``, ``dofs``, ``elements``, ``request``,
 ``modes_returned``, ``static_fields_dropped``, ``checks_passed``, ``modes_resolved``,
-``min_points_per_wavelength``, ``limits``, ``timings_s``, ``factorization`` and ``modes``;
+``min_points_per_wavelength``, ``limits``, ``timings_s``, ``factorization`` and ``modes``
+(and ``expected_accuracy`` when femcav.accuracy_plan sized the mesh);
 each mode has ``index``, ``frequency_hz``, ``k0_squared_per_m2``, ``residual``,
 ``divergence``, ``orthogonality``, ``passed``, ``points_per_wavelength`` and ``resolved``
 (post.resolution), ``loss_warnings`` (post.loss_validity), ``error_estimate_hz`` (null unless a mesh sequence was
