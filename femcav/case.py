@@ -62,6 +62,8 @@ class MeshSpec:
     edge_refinement: float = 0.5
     region_sizes: dict[str, float] = field(default_factory=dict)
     curved: bool = False
+    # not a key: femcav.accuracy_plan's grading towards the edges of dielectric fills
+    fill_edge_refinement: float = 1.0
 
 
 @dataclass(frozen=True)

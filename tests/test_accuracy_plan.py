@@ -148,3 +148,43 @@ def test_without_bars_or_a_plan_the_digits_follow_the_resolution_bound(tmp_path)
     shown = to_table(result).splitlines()[1].split()[1]
     # two significant digits of the implied error: at most 4 digits of a 9.6 GHz frequency
     assert len(shown.replace(".", "")) <= 4
+
+
+def test_default_slab_demo_within_its_stated_accuracy(tmp_path):
+    # the demo without its max_frequency line: the TE_m0p modes of the slab-loaded box from
+    # the transverse resonance of the slab guide (Pozar §3.3, from memory; femcav.analytic.
+    # slab with brentq)
+    from femcav.analytic.slab import slab_te_m0p_frequencies
+    from femcav.sizing import builder_sizing
+    from femcav.geometry import builder_layout
+
+    data = tomllib.loads((GEOMETRIES / "slab_phase_box.toml").read_text())
+    data["mesh"].pop("max_frequency")
+    case = case_from_data(data, tmp_path / "slab.toml")
+    assert case.accuracy_plan.fill_edge_factor == 0.5 and not case.accuracy_plan.curved
+    layout = builder_layout(case.geometry.builder, case.geometry.parameters)
+    assert builder_sizing(case, layout).fill_edge_factor == 0.5
+    result = solve_case(case, case.solve)
+    found = [m.frequency_hz for m in result.modes]
+    for f in (slab_te_m0p_frequencies(0.02286, 0.003, 0.030, 9.8, 1, 1)[0],
+              slab_te_m0p_frequencies(0.02286, 0.003, 0.030, 9.8, 2, 1)[0]):
+        nearest = min(found, key=lambda x: abs(x - f))
+        assert abs(nearest / f - 1) < DEFAULT_ACCURACY
+
+
+@pytest.mark.slow
+def test_default_dr_fixture_demo_within_its_stated_accuracy(tmp_path):
+    # 3D quarter model, four classes, 43414 DOFs, about 30 s; against the section solved at
+    # order 3 on a 0.5 mm graded mesh (its own error under 1e-7: README, "Bodies of
+    # revolution"), computed here
+    import sys
+    sys.path.insert(0, str(GEOMETRIES.parent / "benchmarks"))
+    from error_bar_calibration import DR_GEOMETRY, as_3d, converged
+
+    data = tomllib.loads((GEOMETRIES / "dro_fixture.toml").read_text())
+    for key in ("size", "max_frequency"):
+        data["mesh"].pop(key, None)
+    case = case_from_data(data, tmp_path / "dr.toml")
+    result = solve_case(case, case.solve)
+    reference = as_3d(converged(DR_GEOMETRY, (0, 1, 2), 8, 0.5, tmp_path))
+    assert max(relative_errors(result, [r.frequency_hz for r in reference])) < DEFAULT_ACCURACY
