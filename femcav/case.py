@@ -62,6 +62,8 @@ class MeshSpec:
     edge_refinement: float = 0.5
     region_sizes: dict[str, float] = field(default_factory=dict)
     curved: bool = False
+    # not a key: femcav.accuracy_plan's grading towards the edges of dielectric fills
+    fill_edge_refinement: float = 1.0
 
 
 @dataclass(frozen=True)
@@ -106,6 +108,9 @@ class Case:
     temperature: object = None
     # [temperature]: the temperatures to follow every mode over (femcav.temperature)
     temperature_range: "TemperatureRange | None" = None
+    # without an element size: the a priori sizing for the stated accuracy
+    # (femcav.accuracy_plan.AccuracyPlan); None when the case sets its sizes
+    accuracy_plan: object = None
 
 
 def in_case(exc: InputError, source: str | None) -> InputError:
@@ -185,12 +190,14 @@ def case_from_data(data: dict, path: Path) -> Case:
         temperature_range = _temperature_range(_table(data, "temperature"), temperature)
     except InputError as exc:
         raise in_case(exc, source) from None
-    return Case(path=path, title=title, geometry=geometry, regions=regions, walls=walls,
+    case = Case(path=path, title=title, geometry=geometry, regions=regions, walls=walls,
                 solve=solve, mesh=mesh, symmetry=symmetry, tolerances=tolerances,
                 probes=probes, filling_axis=filling_axis, beam=beam,
                 tolerance_samples=samples, periodic=periodic,
                 coupling_modes=coupling_modes, temperature=temperature,
                 temperature_range=temperature_range)
+    from .accuracy_plan import planned_case
+    return planned_case(case, order_given="order" in _table(data, "solve"))
 
 
 def _periodic(spec, geometry: GeometrySpec, walls: dict, solve: SolveSpec

@@ -224,8 +224,10 @@ def _solve(args) -> int:
     count = len(result.modes)
     what = (f"{count} modes nearest {format_frequency(result.near_hz)}" if result.near_hz
             else f"lowest {count} modes")
+    aim = ("" if case.accuracy_plan is None
+           else f", aiming at {case.accuracy_plan.target:.0e} in frequency")
     print(f"{printable(case.title)}: {what}, {result.form} form, order {result.order}, "
-          f"{result.dofs} DOFs, {result.elements} {result.element_kind}")
+          f"{result.dofs} DOFs, {result.elements} {result.element_kind}{aim}")
     print(to_table(result))
     if result.static_fields_dropped:
         print(f"({result.static_fields_dropped} static field(s) at zero frequency left out)")

@@ -109,7 +109,7 @@ def solve_with_error_bars(case: Case, walls: dict[str, Wall], settings,
                                          progress=progress)
         finest = estimated.finest
         modes = [replace(m, error_estimate_hz=e.error_estimate_hz,
-                         extrapolated_hz=e.extrapolated_hz)
+                         extrapolated_hz=e.extrapolated_hz, q_estimates=e.q_bars or None)
                  for m, e in zip(finest.modes, estimated.estimates)]
         result = replace(finest, modes=modes)
         if settings.accuracy is None or _worst_bar(result) <= settings.accuracy:
@@ -227,6 +227,8 @@ def solve_case(case: Case, settings, progress: Progress = SILENT, pool=None):
 
 
 def _solve_modes(case: Case, settings, progress: Progress, pool=None):
+    if case.accuracy_plan is not None:
+        progress.step(case.accuracy_plan.describe())
     if settings.azimuthal_orders is not None:
         result = _solve_axisymmetric(case, settings, progress, pool)
         if settings.sensitivities:
@@ -274,6 +276,8 @@ def _solve_modes(case: Case, settings, progress: Progress, pool=None):
         result = _with_tolerances(case, result, settings, progress, pool)
     if case.temperature is not None:
         result = _with_temperature(case, result, progress, pool)
+    if case.accuracy_plan is not None:
+        result = replace(result, expected_accuracy=case.accuracy_plan.target)
     return _with_far_fields(case, _with_field_figures(case, result), progress)
 
 

@@ -59,7 +59,7 @@ def builder_sizing(case, layout: Layout, *, section: bool = False) -> Sizing:
     if size is None:
         size = DEFAULT_SIZE_FRACTION * layout.extent()
     return Sizing(size=size, region_sizes=region_sizes, edge_factor=spec.edge_refinement,
-                  curved=spec.curved,
+                  curved=spec.curved, fill_edge_factor=spec.fill_edge_refinement,
                   periodic_faces=tuple((p.wall_a, p.wall_b) for p in getattr(case, "periodic", ())),
                   solve_order=(case.solve.order if section == (case.solve.azimuthal_orders
                                                                is not None) else None))

@@ -37,6 +37,9 @@ def run_case(path: str | Path | Case, *, out: str | Path | None = None, modes: i
     processes other than rank 0 of a distributed solve).
     """
     case = path if isinstance(path, Case) else load_case(path)
+    if order is not None and case.accuracy_plan is not None:
+        from .accuracy_plan import with_order
+        case = with_order(case, order)
     overrides = dict(modes=modes, near_hz=near_hz, form=form, order=order,
                      factorization=factorization, method=method)
     settings = replace(case.solve, **{k: v for k, v in overrides.items() if v is not None})

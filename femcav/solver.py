@@ -50,6 +50,8 @@ class Mode:
     q_dielectric_complex: float | None = None  # the complex check's Q (dielectric loss)
     error_estimate_hz: float | None = None   # from a mesh sequence ([solve] error_estimate)
     extrapolated_hz: float | None = None
+    # with error bars: LossReport field ("q_wall", ...) -> post.q_bars.QEstimate
+    q_estimates: dict | None = None
     # df/dε_r and df/dμ_r per region, Hz ([solve] sensitivities; post.sensitivity)
     sensitivity: object = None    # post.sensitivity.MaterialSensitivity
     # per builder length: df/dp (Hz/m) and the frequency tolerance it implies ([tolerances])
@@ -138,6 +140,8 @@ class SolveResult(ModeVerdicts):
     classes: list[dict] = field(default_factory=list)   # per symmetry class: label, dofs, modes
     eigen_stats_by_class: dict[str, EigenStats] = field(default_factory=dict)
     accuracy: AccuracyReport | None = None     # with a [solve] accuracy target
+    # the documented accuracy a solve without element sizes aims at (femcav.accuracy_plan)
+    expected_accuracy: float | None = None
     # the complex check's own solve (losses inside): its modes, with complex fields
     complex_check: "SolveResult | None" = None
     coupling: tuple = ()    # post.coupling.CouplingCoefficient: symmetry classes, named pair

@@ -23,7 +23,7 @@ LAYERS = {
     "memory_room": 0, "exit_codes": 0, "superconductors": 0, "bare_numbers": 0,
     "expressions": 1, "materials": 1, "walls": 1, "wall_resistance": 1, "anisotropy": 1,
     "material_library": 1,
-    "geometry": 2, "model": 2, "sizing": 3,
+    "geometry": 2, "model": 2, "sizing": 3, "accuracy_plan": 4,
     "fem": 3, "eigen": 3,
     "post": 4,
     # the case layer turns keys into typed data and models; everything above reads those
@@ -34,6 +34,7 @@ LAYERS = {
     "study": 8,
     "solve_command": 9, "cli": 9, "__main__": 9, "": 9,  # "" is femcav/__init__.py
     "verification": 9,    # femcav verify: runs case files like a user, beside cli
+    "bar_calibration": 9,   # error-bar coverage on reference cases, solved through the runner
 }
 
 # the eigen layer sees matrices, never meshes, walls or case keys

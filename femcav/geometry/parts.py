@@ -63,6 +63,9 @@ class Sizing:
     # (first, second) wall names: the second face meshed as a copy of the first, moved onto
     # it (a periodic cell: geometry.periodic_faces)
     periodic_faces: tuple[tuple[str, str], ...] = ()
+    # size at the edges of dielectric fills (a puck's rims) relative to the smallest region
+    # size, where the field is singular (1 = off; set by femcav.accuracy_plan)
+    fill_edge_factor: float = 1.0
 
 
 def symmetry_wall_name(axis: str) -> str:
@@ -193,7 +196,34 @@ def _set_sizes(gmsh, layout: Layout, sizing: Sizing, region_of: dict[int, str],
         gmsh.model.mesh.field.setNumber(threshold, "DistMin", near)
         gmsh.model.mesh.field.setNumber(threshold, "DistMax", 4 * sizing.size)
         field_ids.append(threshold)
+    if sizing.fill_edge_factor < 1:
+        field_ids += _fill_edge_refinement(gmsh, layout, sizing, region_of)
     use_smallest(gmsh, field_ids, sizing.size, ("Algorithm3D", 1))
+
+
+def _fill_edge_refinement(gmsh, layout: Layout, sizing: Sizing, region_of: dict[int, str]
+                          ) -> list[int]:
+    """A threshold field towards the edges of the fills' boundaries: the field of a mode
+    grows without bound at the edge of a dielectric body, and its frequency converges only
+    like h^(4/3) there (post.singularity) unless the elements shrink towards the edge."""
+    fills = [t for t, r in region_of.items() if r != layout.background]
+    if not fills:
+        return []
+    surfaces = {abs(s) for v in fills for _, s in gmsh.model.getBoundary([(3, v)],
+                                                                          oriented=False)}
+    curves = sorted({abs(c) for t in surfaces
+                     for _, c in gmsh.model.getBoundary([(2, t)], oriented=False)})
+    local = min(sizing.region_sizes.get(r, sizing.size) for r in set(region_of.values()))
+    near = sizing.fill_edge_factor * local
+    distance = gmsh.model.mesh.field.add("Distance")
+    gmsh.model.mesh.field.setNumbers(distance, "CurvesList", curves)
+    gmsh.model.mesh.field.setNumber(distance, "Sampling", 50)
+    threshold = gmsh.model.mesh.field.add("Threshold")
+    gmsh.model.mesh.field.setNumber(threshold, "InField", distance)
+    for key, value in (("SizeMin", near), ("SizeMax", sizing.size), ("DistMin", near),
+                       ("DistMax", 4 * local)):
+        gmsh.model.mesh.field.setNumber(threshold, key, value)
+    return [threshold]
 
 
 def region_size_fields(gmsh, sizing: Sizing, region_of: dict[int, str], entities: str

@@ -3,11 +3,14 @@
 modes.json is a stable, documented format (README, "Output files"): top-level keys
 ``format``, ``title``, ``case``, ``form``, ``order``, ``dofs``, ``elements``, ``request``,
 ``modes_returned``, ``static_fields_dropped``, ``checks_passed``, ``modes_resolved``,
-``min_points_per_wavelength``, ``limits``, ``timings_s``, ``factorization`` and ``modes``;
+``min_points_per_wavelength``, ``limits``, ``timings_s``, ``factorization`` and ``modes``
+(and ``expected_accuracy`` when femcav.accuracy_plan sized the mesh);
 each mode has ``index``, ``frequency_hz``, ``k0_squared_per_m2``, ``residual``,
 ``divergence``, ``orthogonality``, ``passed``, ``points_per_wavelength`` and ``resolved``
 (post.resolution), ``loss_warnings`` (post.loss_validity), ``error_estimate_hz`` (null unless a mesh sequence was
-solved; then also ``extrapolated_hz``), ``q_wall``, ``q_dielectric``, ``q_total`` (null without such
+solved; then also ``extrapolated_hz``, and for each Q below that has a value on the meshes
+its bar and extrapolated value: ``q_wall_error``, ``q_wall_extrapolated``, likewise
+``q_dielectric_*``, ``q_magnetic_*``, ``q_total_*``; post.q_bars), ``q_wall``, ``q_dielectric``, ``q_total`` (null without such
 loss), ``wall_loss_share``, ``region_loss_share`` (name -> fraction of that loss),
 ``filling_factor`` (region -> share of the electric energy); for a uniaxial region
 ``filling_factor_parallel`` and ``filling_factor_perpendicular`` (region -> share of the
@@ -97,6 +100,9 @@ def mode_rows(result: SolveResult) -> list[dict]:
         row["error_estimate_hz"] = m.error_estimate_hz
         if m.extrapolated_hz is not None:
             row["extrapolated_hz"] = m.extrapolated_hz
+        for quantity, q in (getattr(m, "q_estimates", None) or {}).items():
+            row[f"{quantity}_error"] = q.error
+            row[f"{quantity}_extrapolated"] = q.extrapolated
         if m.sensitivity is not None:
             row["sensitivity_hz"] = m.sensitivity.as_dict()
         if m.tolerance is not None:
@@ -203,6 +209,8 @@ def to_json(result: SolveResult, *, title: str, case: str | None,
                                     "element": "triangles of the meridional section"}
     if result.accuracy is not None:
         document["accuracy"] = asdict(result.accuracy)
+    if getattr(result, "expected_accuracy", None) is not None:
+        document["expected_accuracy"] = result.expected_accuracy
     if getattr(result, "layer_modes", None):
         document["layer_modes"] = mode_rows(replace(result, modes=result.layer_modes))
     document.update(merit_columns.json_top_level(result))
@@ -309,7 +317,7 @@ def to_table(result: SolveResult) -> str:
         if m.loss_warnings:
             status += "; Q warning (see loss_warnings)"
         shown = format_frequency(m.frequency_hz,
-                                 frequency_digits(m.frequency_hz, m.error_estimate_hz))
+                                 frequency_digits(m.frequency_hz, _bar_or_expected(result, m)))
         lines.append(f"{m.index:>4}  {shown:>16}  "
                      + (f"{_bar(m):>12}  " if bars else "")
                      + (f"{m.label or '-':<{label_width}}  "
@@ -327,6 +335,18 @@ def to_table(result: SolveResult) -> str:
                       + coupling_lines(getattr(result, "coupling", ()))
                       + port_lines(result))
             + second_tables.as_text(mode_rows(result)))
+
+
+def _bar_or_expected(result, mode) -> float | None:
+    """The mode's error bar, or without one the documented accuracy: the target the solve
+    aimed at (femcav.accuracy_plan), else the bound its resolution implies
+    (post.resolution.expected_error); as Hz."""
+    if mode.error_estimate_hz is not None:
+        return mode.error_estimate_hz
+    expected = getattr(result, "expected_accuracy", None)
+    if expected is None:
+        expected = resolution.expected_error(mode.resolution, getattr(result, "order", None))
+    return None if expected is None else expected * mode.frequency_hz
 
 
 def monte_carlo_lines(result) -> list[str]:

@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from typing import Callable, Sequence
 
 import numpy as np
@@ -23,6 +23,7 @@ from ..progress import SILENT, Progress
 from ..units import format_length
 from .field_overlap import result_overlaps
 from .mode_matching import DEGENERATE_RTOL, clusters, match_modes
+from .q_bars import QEstimate, estimate_q_bars
 from .richardson import extrapolate, sizes_from_dofs
 
 SIZE_MEASURES = ("nominal", "dofs")
@@ -52,6 +53,8 @@ class ModeEstimate:
     # mode) and the indices of its members among the returned modes
     cluster_size: int = 1
     cluster: tuple[int, ...] = ()
+    # the bars of its Q factors by LossReport field (post.q_bars); empty without losses
+    q_bars: dict[str, QEstimate] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -75,19 +78,23 @@ def estimate_from_results(results: Sequence, sizes: Sequence[float], *,
     results = [results[k] for k in order]
     finest = results[-1]
     fine_hz = np.array([m.frequency_hz for m in finest.modes])
-    matched, overlaps = [], []
+    matched, overlaps, partners = [], [], []
     for coarse in results[:-1]:
         coarse_hz = np.array([m.frequency_hz for m in coarse.modes])
         o = result_overlaps(coarse, finest)
         matching = match_modes(o, coarse_hz, fine_hz, degenerate_rtol)
         matched.append([None if p < 0 else float(coarse_hz[p]) for p in matching.partner])
         overlaps.append([float(v) for v in matching.overlap])
+        partners.append(matching.partner)
     matched.append([float(f) for f in fine_hz])
     overlaps.append([1.0] * fine_hz.size)
     estimates = estimate_matched(np.asarray(sizes, float)[order], matched, overlaps,
                                  order_rate=order_rate, degenerate_rtol=degenerate_rtol)
+    q_bars = estimate_q_bars(results, partners, np.asarray(sizes, float)[order],
+                             order_rate=order_rate, degenerate_rtol=degenerate_rtol)
     chosen = range(fine_hz.size) if indices is None else indices
-    return [replace(estimates[j], index=finest.modes[j].index) for j in chosen]
+    return [replace(estimates[j], index=finest.modes[j].index, q_bars=q_bars[j])
+            for j in chosen]
 
 
 def estimate_matched(sizes: np.ndarray, matched: list[list[float | None]],
