@@ -72,9 +72,9 @@ builder = "sphere"
 radius = "10 mm"
 [regions.sphere]
 eps_r = 36
-mesh_size = "4 mm"
+mesh_size = "5 mm"
 [mesh]
-size = "10 mm"
+size = "12 mm"
 curved = true
 [symmetry]
 x = "pec"
